@@ -1,0 +1,263 @@
+//! The `turnover` command: glue between files and `turnover-core`.
+//!
+//! Every number printed here comes from `turnover_core::rates::analyse_rates`,
+//! the same function the page calls. Exit codes are decided in one place,
+//! [`main`]: 0 success, 2 bad input or usage, 3 the fit did not converge
+//! (its numbers are still printed, marked as such).
+
+use std::io::Read;
+use std::process::ExitCode;
+use turnover_core::fit::FitSummary;
+use turnover_core::rates::{analyse_rates, RateAnalysis, RateRequest};
+use turnover_core::table::InputProblem;
+
+const USAGE: &str = "\
+turnover: enzyme kinetics from the command line
+
+USAGE:
+    turnover fit FILE [OPTIONS]        fit a table of [S] and v (FILE '-' reads standard input)
+    turnover help                      show this text
+
+OPTIONS for fit:
+    --model NAME           model to fit (mm: Michaelis-Menten; the default)
+    --json                 print one JSON object instead of a table
+    --substrate-unit U     unit of [S] (M, mM, µM or uM, nM, pM); default: from the header
+    --rate-unit U          unit of v, a concentration per time (µM/min, nM/s, ...); default: from the header
+    --enzyme CONC          total enzyme concentration for kcat, such as '10 nM' or '10nM'
+    --enzyme-unit U        unit of --enzyme when CONC is a bare number
+    --exclude-lines LIST   input line numbers to leave out of the fit, such as 4,9
+    --lenient              fit the usable rows even when some lines have problems
+                           (the problems are still reported on standard error)
+
+EXIT CODES:
+    0 success; 2 bad input or usage; 3 the fit did not converge.
+
+The constants are statistical estimates; they mean what they claim only for
+valid initial-rate data. Follow your laboratory's validated procedures.
+";
+
+/// A failure with the exit code it maps to.
+enum Failure {
+    Usage(String),
+    Input(String),
+}
+
+struct FitArgs {
+    file: String,
+    json: bool,
+    lenient: bool,
+    request: RateRequest,
+}
+
+fn main() -> ExitCode {
+    let args: Vec<String> = std::env::args().skip(1).collect();
+    match run(&args) {
+        Ok(code) => code,
+        Err(Failure::Usage(message)) => {
+            eprintln!("turnover: {message}\n\n{USAGE}");
+            ExitCode::from(2)
+        }
+        Err(Failure::Input(message)) => {
+            eprintln!("turnover: {message}");
+            ExitCode::from(2)
+        }
+    }
+}
+
+fn run(args: &[String]) -> Result<ExitCode, Failure> {
+    match args.first().map(String::as_str) {
+        Some("fit") => fit(parse_fit_args(&args[1..])?),
+        Some("help") | Some("--help") | Some("-h") => {
+            print!("{USAGE}");
+            Ok(ExitCode::SUCCESS)
+        }
+        Some(other) => Err(Failure::Usage(format!("unknown command '{other}'"))),
+        None => Err(Failure::Usage("no command given".to_string())),
+    }
+}
+
+fn parse_fit_args(args: &[String]) -> Result<FitArgs, Failure> {
+    let mut file = None;
+    let mut json = false;
+    let mut lenient = false;
+    let mut request = RateRequest::default();
+    let mut enzyme_text: Option<String> = None;
+    let mut i = 0;
+    let value = |i: &mut usize, name: &str| -> Result<String, Failure> {
+        *i += 1;
+        args.get(*i).cloned().ok_or_else(|| Failure::Usage(format!("{name} needs a value")))
+    };
+    while i < args.len() {
+        match args[i].as_str() {
+            "--json" => json = true,
+            "--lenient" => lenient = true,
+            "--model" => request.model = value(&mut i, "--model")?,
+            "--substrate-unit" => request.substrate_unit = Some(value(&mut i, "--substrate-unit")?),
+            "--rate-unit" => request.rate_unit = Some(value(&mut i, "--rate-unit")?),
+            "--enzyme" => enzyme_text = Some(value(&mut i, "--enzyme")?),
+            "--enzyme-unit" => request.enzyme_unit = Some(value(&mut i, "--enzyme-unit")?),
+            "--exclude-lines" => {
+                let list = value(&mut i, "--exclude-lines")?;
+                for part in list.split(',').map(str::trim).filter(|p| !p.is_empty()) {
+                    let line = part
+                        .parse::<usize>()
+                        .map_err(|_| Failure::Usage(format!("--exclude-lines: '{part}' is not a line number")))?;
+                    request.excluded_lines.push(line);
+                }
+            }
+            flag if flag.starts_with("--") => return Err(Failure::Usage(format!("unknown option '{flag}'"))),
+            path => {
+                if file.replace(path.to_string()).is_some() {
+                    return Err(Failure::Usage("give one input file".to_string()));
+                }
+            }
+        }
+        i += 1;
+    }
+    if let Some(text) = enzyme_text {
+        let (number, unit) = split_quantity(&text)
+            .ok_or_else(|| Failure::Usage(format!("--enzyme: '{text}' is not a concentration such as '10 nM'")))?;
+        request.enzyme = Some(number);
+        if let Some(unit) = unit {
+            request.enzyme_unit = Some(unit);
+        }
+    }
+    let file = file.ok_or_else(|| Failure::Usage("fit needs an input file ('-' for standard input)".to_string()))?;
+    Ok(FitArgs { file, json, lenient, request })
+}
+
+/// Splits `10 nM`, `10nM` or `10` into the number and an optional unit.
+fn split_quantity(text: &str) -> Option<(f64, Option<String>)> {
+    let text = text.trim();
+    let end = text
+        .char_indices()
+        .find(|(_, c)| !(c.is_ascii_digit() || matches!(c, '.' | '-' | '+' | 'e' | 'E')))
+        .map_or(text.len(), |(i, _)| i);
+    // An exponent marker directly followed by a unit letter ("1e" in "1em")
+    // is not a number; let the parse below refuse it.
+    let number = text[..end].parse::<f64>().ok()?;
+    let unit = text[end..].trim();
+    Some((number, (!unit.is_empty()).then(|| unit.to_string())))
+}
+
+fn read_input(path: &str) -> Result<String, Failure> {
+    if path == "-" {
+        let mut text = String::new();
+        std::io::stdin()
+            .read_to_string(&mut text)
+            .map_err(|e| Failure::Input(format!("cannot read standard input: {e}")))?;
+        Ok(text)
+    } else {
+        std::fs::read_to_string(path).map_err(|e| Failure::Input(format!("cannot read '{path}': {e}")))
+    }
+}
+
+fn fit(mut args: FitArgs) -> Result<ExitCode, Failure> {
+    args.request.text = read_input(&args.file)?;
+    let analysis = analyse_rates(&args.request).map_err(|e| Failure::Input(e.message))?;
+    report_problems(&args.file, &analysis.problems);
+    if !analysis.problems.is_empty() && !args.lenient {
+        return Err(Failure::Input(format!(
+            "{} problem(s) in the input; fix them, or pass --lenient to fit the remaining rows",
+            analysis.problems.len()
+        )));
+    }
+    if args.json {
+        println!("{}", to_json(&analysis));
+    } else {
+        print!("{}", to_table(&analysis));
+    }
+    Ok(if analysis.fit.converged { ExitCode::SUCCESS } else { ExitCode::from(3) })
+}
+
+fn report_problems(file: &str, problems: &[InputProblem]) {
+    for problem in problems {
+        eprintln!("{file}: {problem}");
+    }
+}
+
+/// The JSON form: the fit record's fields at the top level, then the input
+/// problems, notes, units, points and the caution.
+fn to_json(analysis: &RateAnalysis) -> String {
+    let mut value = serde_json::to_value(&analysis.fit).expect("a fit record always serialises");
+    let object = value.as_object_mut().expect("a fit record is an object");
+    let extra = serde_json::json!({
+        "problems": analysis.problems,
+        "notes": analysis.notes,
+        "units": analysis.units,
+        "points": analysis.points,
+        "caution": analysis.caution,
+    });
+    for (key, item) in extra.as_object().expect("built as an object") {
+        object.insert(key.clone(), item.clone());
+    }
+    serde_json::to_string_pretty(&value).expect("JSON values always serialise")
+}
+
+fn number(value: Option<f64>) -> String {
+    match value {
+        Some(v) => format_significant(v, 5),
+        None => "—".to_string(),
+    }
+}
+
+/// Formats with `digits` significant figures, switching to exponent form
+/// for very large or small magnitudes.
+fn format_significant(value: f64, digits: usize) -> String {
+    if value == 0.0 || !value.is_finite() {
+        return format!("{value}");
+    }
+    let magnitude = value.abs().log10().floor() as i32;
+    if !(-4..6).contains(&magnitude) {
+        return format!("{:.*e}", digits - 1, value);
+    }
+    let decimals = (digits as i32 - 1 - magnitude).max(0) as usize;
+    format!("{value:.decimals$}")
+}
+
+fn to_table(analysis: &RateAnalysis) -> String {
+    let fit: &FitSummary = &analysis.fit;
+    let mut out = String::new();
+    out.push_str(&format!("Model: {} ({})\n", fit.model, fit.equation));
+    out.push_str(&format!("Fit {} after {} iteration(s).\n\n", fit.termination_text, fit.iterations));
+    let level = (fit.confidence_level * 100.0).round();
+    out.push_str(&format!(
+        "{:<10} {:>14} {:>14} {:>30}  {}\n",
+        "parameter",
+        "value",
+        "std. error",
+        format!("{level}% interval (t)"),
+        "unit"
+    ));
+    for p in &fit.parameters {
+        let interval = match (p.ci_low, p.ci_high) {
+            (Some(low), Some(high)) => format!("{} to {}", number(Some(low)), number(Some(high))),
+            _ => "—".to_string(),
+        };
+        out.push_str(&format!(
+            "{:<10} {:>14} {:>14} {:>30}  {}\n",
+            p.name,
+            number(Some(p.value)),
+            number(p.std_error),
+            interval,
+            p.unit.clone().unwrap_or_default()
+        ));
+    }
+    out.push_str(&format!(
+        "\nn = {}, degrees of freedom = {}, residual SD = {}, RSS = {}, R² = {}, AICc = {}\n",
+        fit.n,
+        fit.dof,
+        number(fit.sigma),
+        number(Some(fit.rss)),
+        number(fit.r_squared),
+        number(fit.aicc)
+    ));
+    for note in &analysis.notes {
+        out.push_str(&format!("note: {note}\n"));
+    }
+    for warning in &fit.warnings {
+        out.push_str(&format!("warning: {warning}\n"));
+    }
+    out.push_str(&format!("\n{}\n", analysis.caution));
+    out
+}

@@ -1,0 +1,48 @@
+//! `turnover-core`: the numbers behind Turnover.
+//!
+//! This crate turns a table of substrate concentrations and rates into
+//! kinetic constants with honest uncertainties. It does no IO, reads no
+//! clock and uses no randomness it is not handed, so it builds unchanged for
+//! the browser (`wasm32-unknown-unknown`) and for the command line.
+//!
+//! The main pieces:
+//!
+//! - [`table`]: reading pasted tables (any common separator and decimal
+//!   mark, headers with units), reporting problems by line and column.
+//! - [`units`]: molar concentration, time and rate units; kcat conversion.
+//! - [`model`]: the [`model::Model`] trait and validated
+//!   [`model::Observations`].
+//! - [`models`]: the kinetic models.
+//! - [`solver`]: weighted Levenberg-Marquardt, reporting why it stopped.
+//! - [`fit`]: a fit with standard errors, t intervals, R², AICc, as one
+//!   serialisable [`fit::FitSummary`].
+//! - [`plots`]: the data behind the direct, residual and linearised plots.
+//! - [`rates`]: the whole rate analysis used by page and CLI alike.
+//!
+//! ```
+//! use turnover_core::rates::{analyse_rates, RateRequest};
+//!
+//! let request = RateRequest {
+//!     text: "[S] (mM)\tv (µM/min)\n0.1\t1.9\n0.2\t3.1\n0.5\t5.2\n1\t6.4\n2\t7.5\n5\t8.3\n".into(),
+//!     ..RateRequest::default()
+//! };
+//! let analysis = analyse_rates(&request).unwrap();
+//! let km = &analysis.fit.parameters[1];
+//! assert_eq!(km.name, "Km");
+//! assert_eq!(km.unit.as_deref(), Some("mM"));
+//! assert!(analysis.fit.converged);
+//! ```
+
+#![deny(missing_docs)]
+
+pub mod error;
+pub mod fit;
+pub mod model;
+pub mod models;
+pub mod plots;
+pub mod rates;
+pub mod solver;
+pub mod table;
+pub mod units;
+
+pub use error::{Error, ErrorKind};

@@ -1,0 +1,289 @@
+//! The numbers behind every plot, computed once here so that the page's
+//! figures and the CLI's output come from the same code.
+//!
+//! Each plot is a [`PlotData`]: transformed data points and the curve of the
+//! **direct nonlinear fit** drawn in the same coordinates. The linearised
+//! plots (double-reciprocal, Eadie-Hofstee, Hanes-Woolf) are diagnostics
+//! only: no line is ever fitted to transformed data, because the transforms
+//! distort the error structure.
+
+use serde::Serialize;
+
+/// Which plot.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum PlotKind {
+    /// v against [S] with the fitted curve.
+    Direct,
+    /// Residual v − v̂ against [S].
+    Residuals,
+    /// 1/v against 1/[S] (Lineweaver-Burk).
+    LineweaverBurk,
+    /// v against v/[S] (Eadie-Hofstee).
+    EadieHofstee,
+    /// [S]/v against [S] (Hanes-Woolf).
+    HanesWoolf,
+}
+
+impl PlotKind {
+    /// All plots of a rate analysis, in page order.
+    pub const ALL: [PlotKind; 5] =
+        [PlotKind::Direct, PlotKind::Residuals, PlotKind::LineweaverBurk, PlotKind::EadieHofstee, PlotKind::HanesWoolf];
+
+    /// The kebab-case name used by the page and the CLI.
+    pub fn name(self) -> &'static str {
+        match self {
+            PlotKind::Direct => "direct",
+            PlotKind::Residuals => "residuals",
+            PlotKind::LineweaverBurk => "lineweaver-burk",
+            PlotKind::EadieHofstee => "eadie-hofstee",
+            PlotKind::HanesWoolf => "hanes-woolf",
+        }
+    }
+
+    /// Looks a plot up by [`PlotKind::name`].
+    pub fn from_name(name: &str) -> Option<PlotKind> {
+        PlotKind::ALL.into_iter().find(|k| k.name() == name)
+    }
+}
+
+/// One data point of a plot.
+#[derive(Clone, Copy, Debug, PartialEq, Serialize)]
+pub struct PlotPoint {
+    /// Index into the analysis' point list.
+    pub row: usize,
+    /// Horizontal coordinate.
+    pub x: f64,
+    /// Vertical coordinate.
+    pub y: f64,
+    /// Whether the point is excluded from the fit (drawn hollow).
+    pub excluded: bool,
+}
+
+/// Everything needed to draw one plot.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct PlotData {
+    /// Which plot.
+    pub kind: PlotKind,
+    /// Title for people.
+    pub title: String,
+    /// Horizontal axis label with unit.
+    pub x_label: String,
+    /// Vertical axis label with unit.
+    pub y_label: String,
+    /// Transformed data points that can be shown.
+    pub points: Vec<PlotPoint>,
+    /// The fitted curve in these coordinates, as a polyline.
+    pub curve: Vec<(f64, f64)>,
+    /// Whether a horizontal line at y = 0 belongs on the plot.
+    pub zero_line: bool,
+    /// A sentence under the plot.
+    pub note: String,
+}
+
+/// One measured point in the untransformed coordinates.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct RatePoint {
+    /// Substrate concentration.
+    pub s: f64,
+    /// Measured rate.
+    pub v: f64,
+    /// Fitted rate at this [S].
+    pub fitted: f64,
+    /// Whether the point is excluded from the fit.
+    pub excluded: bool,
+}
+
+/// Units for the axis labels; empty strings when unknown.
+#[derive(Clone, Debug, Default, PartialEq)]
+pub struct AxisUnits {
+    /// Unit of [S], such as `mM`.
+    pub substrate: String,
+    /// Unit of v, such as `µM/min`.
+    pub rate: String,
+}
+
+fn label(quantity: &str, unit: &str) -> String {
+    if unit.is_empty() {
+        quantity.to_string()
+    } else {
+        format!("{quantity} ({unit})")
+    }
+}
+
+fn inverse_unit(unit: &str) -> String {
+    if unit.is_empty() {
+        String::new()
+    } else if unit.contains('/') {
+        format!("({unit})⁻¹")
+    } else {
+        format!("{unit}⁻¹")
+    }
+}
+
+fn ratio_unit(numerator: &str, denominator: &str) -> String {
+    if numerator.is_empty() || denominator.is_empty() {
+        return String::new();
+    }
+    let wrap = |u: &str| if u.contains('/') { format!("({u})") } else { u.to_string() };
+    format!("{}/{}", wrap(numerator), wrap(denominator))
+}
+
+/// Builds the five plots of a rate analysis.
+///
+/// `curve` evaluates the fitted model at a given [S]. `hyperbola` gives the
+/// fitted (Vmax, Km) when the fitted model is a rectangular hyperbola in
+/// [S]; the linearised curves are then straight and are extended to the
+/// axis intercepts as is customary for these plots.
+pub fn rate_plots(
+    points: &[RatePoint],
+    curve: &dyn Fn(f64) -> f64,
+    hyperbola: Option<(f64, f64)>,
+    units: &AxisUnits,
+) -> Vec<PlotData> {
+    let s_max = points.iter().map(|p| p.s).fold(0.0, f64::max);
+    let s_min_positive = points.iter().map(|p| p.s).filter(|s| *s > 0.0).fold(f64::INFINITY, f64::min);
+    let note_linearised = "Points are the data transformed; the line is the direct nonlinear fit drawn in these \
+        coordinates, not a regression on the transformed values.";
+    let mut plots = Vec::with_capacity(5);
+
+    // Direct plot: a dense curve from 0 to a little past the largest [S].
+    let direct_curve: Vec<(f64, f64)> = if s_max > 0.0 {
+        (0..=200).map(|i| s_max * 1.1 * i as f64 / 200.0).map(|s| (s, curve(s))).filter(|(_, v)| v.is_finite()).collect()
+    } else {
+        Vec::new()
+    };
+    plots.push(PlotData {
+        kind: PlotKind::Direct,
+        title: "Rate against substrate".to_string(),
+        x_label: label("[S]", &units.substrate),
+        y_label: label("v", &units.rate),
+        points: points.iter().enumerate().map(|(row, p)| PlotPoint { row, x: p.s, y: p.v, excluded: p.excluded }).collect(),
+        curve: direct_curve,
+        zero_line: false,
+        note: "Click a point to leave it out of the fit; click again to bring it back.".to_string(),
+    });
+
+    plots.push(PlotData {
+        kind: PlotKind::Residuals,
+        title: "Residuals".to_string(),
+        x_label: label("[S]", &units.substrate),
+        y_label: label("v − fitted v", &units.rate),
+        points: points
+            .iter()
+            .enumerate()
+            .map(|(row, p)| PlotPoint { row, x: p.s, y: p.v - p.fitted, excluded: p.excluded })
+            .collect(),
+        curve: Vec::new(),
+        zero_line: true,
+        note: "A pattern (runs of the same sign, a trend, a funnel) says the model or the weighting is wrong."
+            .to_string(),
+    });
+
+    let transformable: Vec<(usize, &RatePoint)> =
+        points.iter().enumerate().filter(|(_, p)| p.s > 0.0 && p.v > 0.0).collect();
+    let hidden = points.len() - transformable.len();
+    let hidden_note = if hidden > 0 {
+        format!(" {hidden} point(s) with [S] ≤ 0 or v ≤ 0 cannot be transformed and are not shown.")
+    } else {
+        String::new()
+    };
+
+    // Parametric samples of the fitted curve over [S], log-spaced from well
+    // below the smallest to well above the largest measured [S].
+    let samples: Vec<f64> = if s_min_positive.is_finite() && s_max > 0.0 {
+        let low = (s_min_positive / 4.0).ln();
+        let high = (s_max * 4.0).ln();
+        (0..=200).map(|i| (low + (high - low) * i as f64 / 200.0).exp()).collect()
+    } else {
+        Vec::new()
+    };
+    let sampled = |transform: &dyn Fn(f64, f64) -> (f64, f64)| -> Vec<(f64, f64)> {
+        samples
+            .iter()
+            .map(|s| transform(*s, curve(*s)))
+            .filter(|(x, y)| x.is_finite() && y.is_finite())
+            .collect()
+    };
+
+    let x_max_lb = transformable.iter().map(|(_, p)| 1.0 / p.s).fold(0.0, f64::max) * 1.1;
+    let lb_curve = match hyperbola {
+        Some((vmax, km)) if vmax != 0.0 && km != 0.0 => {
+            let slope = km / vmax;
+            let start = (-1.0 / km).min(0.0);
+            vec![(start, slope * start + 1.0 / vmax), (x_max_lb, slope * x_max_lb + 1.0 / vmax)]
+        }
+        _ => sampled(&|s, v| (1.0 / s, 1.0 / v)),
+    };
+    plots.push(PlotData {
+        kind: PlotKind::LineweaverBurk,
+        title: "Double reciprocal (Lineweaver-Burk)".to_string(),
+        x_label: label("1/[S]", &inverse_unit(&units.substrate)),
+        y_label: label("1/v", &inverse_unit(&units.rate)),
+        points: transformable.iter().map(|(row, p)| PlotPoint { row: *row, x: 1.0 / p.s, y: 1.0 / p.v, excluded: p.excluded }).collect(),
+        curve: lb_curve,
+        zero_line: true,
+        note: format!("{note_linearised} For Michaelis-Menten the line meets the axes at −1/Km and 1/Vmax.{hidden_note}"),
+    });
+
+    let eh_curve = match hyperbola {
+        Some((vmax, km)) if km != 0.0 => vec![(0.0, vmax), (vmax / km, 0.0)],
+        _ => sampled(&|s, v| (v / s, v)),
+    };
+    plots.push(PlotData {
+        kind: PlotKind::EadieHofstee,
+        title: "Eadie-Hofstee".to_string(),
+        x_label: label("v/[S]", &ratio_unit(&units.rate, &units.substrate)),
+        y_label: label("v", &units.rate),
+        points: transformable.iter().map(|(row, p)| PlotPoint { row: *row, x: p.v / p.s, y: p.v, excluded: p.excluded }).collect(),
+        curve: eh_curve,
+        zero_line: false,
+        note: format!("{note_linearised} For Michaelis-Menten the slope is −Km and the v-intercept is Vmax.{hidden_note}"),
+    });
+
+    let hw_curve = match hyperbola {
+        Some((vmax, km)) if vmax != 0.0 => {
+            let start = (-km).min(0.0);
+            let end = s_max * 1.1;
+            vec![(start, (start + km) / vmax), (end, (end + km) / vmax)]
+        }
+        _ => sampled(&|s, v| (s, s / v)),
+    };
+    plots.push(PlotData {
+        kind: PlotKind::HanesWoolf,
+        title: "Hanes-Woolf".to_string(),
+        x_label: label("[S]", &units.substrate),
+        y_label: label("[S]/v", &ratio_unit(&units.substrate, &units.rate)),
+        points: transformable.iter().map(|(row, p)| PlotPoint { row: *row, x: p.s, y: p.s / p.v, excluded: p.excluded }).collect(),
+        curve: hw_curve,
+        zero_line: true,
+        note: format!("{note_linearised} For Michaelis-Menten the line meets the [S] axis at −Km; its slope is 1/Vmax.{hidden_note}"),
+    });
+
+    plots
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// On exact Michaelis-Menten data every transformed point lies on the
+    /// drawn line of its linearised plot.
+    #[test]
+    fn exact_points_lie_on_the_linearised_lines() {
+        let (vmax, km) = (4.0, 0.3);
+        let mm = |s: f64| vmax * s / (km + s);
+        let points: Vec<RatePoint> =
+            [0.05, 0.1, 0.3, 1.0, 3.0].iter().map(|&s| RatePoint { s, v: mm(s), fitted: mm(s), excluded: false }).collect();
+        let plots = rate_plots(&points, &mm, Some((vmax, km)), &AxisUnits::default());
+        for plot in &plots[2..] {
+            let (a, b) = (plot.curve[0], plot.curve[plot.curve.len() - 1]);
+            for p in &plot.points {
+                let on_line = a.1 + (b.1 - a.1) * (p.x - a.0) / (b.0 - a.0);
+                assert!((p.y - on_line).abs() < 1e-9 * on_line.abs().max(1.0), "{:?} {:?}", plot.kind, p);
+            }
+        }
+        let residuals = &plots[1];
+        assert!(residuals.points.iter().all(|p| p.y.abs() < 1e-15));
+    }
+}

@@ -1,0 +1,440 @@
+//! The rate analysis: a table of [S] and v in, a Michaelis-Menten fit with
+//! units, derived constants, warnings and plot data out.
+//!
+//! [`analyse_rates`] is the one code path behind the page's results and the
+//! CLI's `fit` command.
+
+use crate::error::Error;
+use crate::fit::{estimate, fit_model, FitSettings, FitSummary, ParameterEstimate};
+use crate::model::{Dimension, Observations};
+use crate::models::model_by_name;
+use crate::plots::{rate_plots, AxisUnits, PlotData, RatePoint};
+use crate::table::{parse_table, ColumnHeading, InputProblem, Table};
+use crate::units::{kcat_per_second, ConcentrationUnit, RateUnit};
+use serde::{Deserialize, Serialize};
+
+/// What to analyse and how.
+#[derive(Clone, Debug, Default, PartialEq, Deserialize)]
+#[serde(default)]
+pub struct RateRequest {
+    /// The pasted or loaded table.
+    pub text: String,
+    /// Model name; empty means `mm`.
+    pub model: String,
+    /// Unit of [S]; empty or `None` means "as the header says".
+    pub substrate_unit: Option<String>,
+    /// Unit of v; empty or `None` means "as the header says".
+    pub rate_unit: Option<String>,
+    /// Total enzyme concentration [E]t, for kcat.
+    pub enzyme: Option<f64>,
+    /// Unit of [E]t; required with `enzyme`.
+    pub enzyme_unit: Option<String>,
+    /// Input line numbers (1-based) to leave out of the fit.
+    pub excluded_lines: Vec<usize>,
+}
+
+/// One data point as the analysis saw it.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct PointRecord {
+    /// Index of this point in [`RateAnalysis::points`].
+    pub row: usize,
+    /// Input line number, counting from 1.
+    pub line: usize,
+    /// Substrate concentration.
+    pub s: f64,
+    /// Measured rate.
+    pub v: f64,
+    /// Whether the point was left out of the fit.
+    pub excluded: bool,
+    /// Fitted rate at this [S].
+    pub fitted: f64,
+    /// v − fitted.
+    pub residual: f64,
+}
+
+/// The units the analysis used, as symbols; `None` when not known.
+#[derive(Clone, Debug, Default, PartialEq, Serialize)]
+pub struct UnitsUsed {
+    /// Unit of [S].
+    pub substrate: Option<String>,
+    /// Unit of v.
+    pub rate: Option<String>,
+    /// Unit of [E]t.
+    pub enzyme: Option<String>,
+}
+
+/// The whole result of a rate analysis.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct RateAnalysis {
+    /// The fit record (values, errors, intervals, diagnostics, warnings).
+    pub fit: FitSummary,
+    /// Every data point, used or excluded.
+    pub points: Vec<PointRecord>,
+    /// Problems with the input; the lines they name were not used.
+    pub problems: Vec<InputProblem>,
+    /// Notes on how the table was read (columns, units).
+    pub notes: Vec<String>,
+    /// Units used.
+    pub units: UnitsUsed,
+    /// Plot data, direct plot first.
+    pub plots: Vec<PlotData>,
+    /// The standing caution about what fitted constants mean.
+    pub caution: String,
+}
+
+/// The caution every result carries.
+pub const CAUTION: &str = "These constants are statistical estimates from one data set. They mean what they \
+    claim only if the rates are true initial rates (linear progress, little substrate used, stable enzyme, no \
+    detector saturation) and the model suits the mechanism. Follow your laboratory's validated procedures \
+    for decisions that matter.";
+
+/// Column roles found from the header.
+struct Roles {
+    substrate: usize,
+    rate: usize,
+}
+
+fn normalise_name(name: &str) -> String {
+    name.chars()
+        .filter(|c| !matches!(c, '[' | ']' | ' ' | '_' | '-' | '.'))
+        .flat_map(char::to_lowercase)
+        .collect()
+}
+
+fn is_substrate_name(name: &str) -> bool {
+    matches!(normalise_name(name).as_str(), "s" | "s0" | "substrate" | "conc" | "concentration" | "substrateconcentration")
+}
+
+fn is_rate_name(name: &str) -> bool {
+    matches!(
+        normalise_name(name).as_str(),
+        "v" | "v0" | "vi" | "rate" | "velocity" | "initialrate" | "initialvelocity"
+    )
+}
+
+fn find_roles(table: &Table, notes: &mut Vec<String>) -> Result<Roles, Error> {
+    let Some(headings) = &table.headings else {
+        if table.width < 2 {
+            return Err(Error::invalid_data("the table needs two columns: [S] then v"));
+        }
+        notes.push("No header row: column 1 is read as [S] and column 2 as v.".to_string());
+        if table.width > 2 {
+            notes.push(format!("Columns 3 to {} are not used.", table.width));
+        }
+        return Ok(Roles { substrate: 0, rate: 1 });
+    };
+    let substrate = headings.iter().position(|h| is_substrate_name(&h.name));
+    let rate = headings.iter().position(|h| is_rate_name(&h.name));
+    let roles = match (substrate, rate) {
+        (Some(s), Some(v)) => Roles { substrate: s, rate: v },
+        _ if headings.len() == 2 => {
+            notes.push(format!(
+                "The header names '{}' and '{}' are not ones Turnover knows; column 1 is read as [S] and column 2 as v.",
+                headings[0].name, headings[1].name
+            ));
+            Roles { substrate: 0, rate: 1 }
+        }
+        _ => {
+            return Err(Error::invalid_data(format!(
+                "cannot tell which columns hold [S] and v from the header ({}); name them S, [S] or substrate, and v, rate or velocity",
+                headings.iter().map(|h| format!("'{}'", h.name)).collect::<Vec<_>>().join(", ")
+            )))
+        }
+    };
+    for (index, heading) in headings.iter().enumerate() {
+        if index != roles.substrate && index != roles.rate {
+            notes.push(format!("Column {} ('{}') is not used.", index + 1, heading.name));
+        }
+    }
+    Ok(roles)
+}
+
+fn choose_unit<T>(
+    requested: &Option<String>,
+    heading: Option<&ColumnHeading>,
+    parse: fn(&str) -> Result<T, String>,
+    what: &str,
+    notes: &mut Vec<String>,
+) -> Result<Option<T>, Error> {
+    if let Some(text) = requested.as_deref().map(str::trim).filter(|t| !t.is_empty()) {
+        return parse(text).map(Some).map_err(Error::invalid_option);
+    }
+    match heading.and_then(|h| h.unit.as_deref()) {
+        Some(text) => match parse(text) {
+            Ok(unit) => Ok(Some(unit)),
+            Err(message) => {
+                notes.push(format!("The header's unit for {what} was not understood ({message}); {what} is shown without a unit."));
+                Ok(None)
+            }
+        },
+        None => Ok(None),
+    }
+}
+
+/// Reads the table, fits the model and gathers everything the page and the
+/// CLI show.
+pub fn analyse_rates(request: &RateRequest) -> Result<RateAnalysis, Error> {
+    let model_name = if request.model.trim().is_empty() { "mm" } else { request.model.trim() };
+    let model = model_by_name(model_name)?;
+    let table = parse_table(&request.text);
+    let mut notes = Vec::new();
+    if table.rows.is_empty() {
+        return Err(Error::invalid_data(
+            "no data rows found; paste a table with [S] in the first column and v in the second",
+        ));
+    }
+    let roles = find_roles(&table, &mut notes)?;
+    let heading = |i: usize| table.headings.as_ref().and_then(|h| h.get(i));
+    let substrate_unit =
+        choose_unit(&request.substrate_unit, heading(roles.substrate), ConcentrationUnit::parse, "[S]", &mut notes)?;
+    let rate_unit = choose_unit(&request.rate_unit, heading(roles.rate), RateUnit::parse, "v", &mut notes)?;
+
+    let mut problems = table.problems.clone();
+    let mut points = Vec::new();
+    for row in &table.rows {
+        let (Some(Some(s)), Some(Some(v))) = (row.cells.get(roles.substrate), row.cells.get(roles.rate)) else {
+            if !problems.iter().any(|p| p.line == row.line) {
+                problems.push(InputProblem {
+                    line: row.line,
+                    column: None,
+                    message: "the row has no [S] or no v value".to_string(),
+                });
+            }
+            continue;
+        };
+        if *s < 0.0 {
+            problems.push(InputProblem {
+                line: row.line,
+                column: Some(roles.substrate + 1),
+                message: format!("a concentration cannot be negative ({s})"),
+            });
+            continue;
+        }
+        points.push(PointRecord {
+            row: points.len(),
+            line: row.line,
+            s: *s,
+            v: *v,
+            excluded: request.excluded_lines.contains(&row.line),
+            fitted: f64::NAN,
+            residual: f64::NAN,
+        });
+    }
+    problems.sort_by_key(|p| (p.line, p.column));
+    if !problems.is_empty() {
+        let lines: std::collections::BTreeSet<usize> = problems.iter().map(|p| p.line).collect();
+        let set_aside = lines.iter().filter(|l| !points.iter().any(|p| p.line == **l)).count();
+        if set_aside > 0 {
+            notes.push(format!("{set_aside} line(s) with problems were set aside; see the list of input problems."));
+        }
+    }
+
+    let used: Vec<PointRecord> = points.iter().filter(|p| !p.excluded).cloned().collect();
+    let n_params = model.parameters().len();
+    if used.len() <= n_params {
+        return Err(Error::invalid_data(format!(
+            "only {} usable point(s) remain; at least {} are needed to fit {} parameters with an uncertainty",
+            used.len(),
+            n_params + 1,
+            n_params
+        )));
+    }
+    let observations = Observations::new(
+        1,
+        used.iter().map(|p| p.s).collect(),
+        used.iter().map(|p| p.v).collect(),
+        None,
+    )?;
+    let fit = fit_model(model.as_ref(), &observations, None, &FitSettings::default())?;
+    let values = fit.values().to_vec();
+    for point in &mut points {
+        point.fitted = model.value(&[point.s], &values);
+        point.residual = point.v - point.fitted;
+    }
+
+    let mut summary = fit.summary.clone();
+    let unit_of = |dimension: Dimension| -> Option<String> {
+        match dimension {
+            Dimension::Response => rate_unit.map(|u| u.symbol()),
+            Dimension::Predictor(_) => substrate_unit.map(|u| u.symbol().to_string()),
+            Dimension::Dimensionless => Some(String::new()),
+            Dimension::Unspecified => None,
+        }
+    };
+    for (estimate, spec) in summary.parameters.iter_mut().zip(model.parameters()) {
+        estimate.unit = unit_of(spec.dimension);
+    }
+
+    // Design warnings for the hyperbola (common practice, no source: the
+    // usual advice is to span roughly 0.2–5×Km, and at least past 2×Km).
+    let (vmax, km) = (values[0], values[1]);
+    let s_used_max = used.iter().map(|p| p.s).fold(f64::MIN, f64::max);
+    let s_used_min = used.iter().map(|p| p.s).fold(f64::MAX, f64::min);
+    if fit.summary.converged {
+        if km <= 0.0 || vmax <= 0.0 {
+            summary.warnings.push(format!(
+                "The fit gives a non-positive {} ; this has no physical meaning. Check the data and the model.",
+                if km <= 0.0 { "Km" } else { "Vmax" }
+            ));
+        } else {
+            if s_used_max < 2.0 * km {
+                summary.warnings.push(format!(
+                    "The highest [S] is only {:.2}×Km, so Vmax is an extrapolation. Common practice (no formal source) is to reach at least 2×Km, better 5–10×Km.",
+                    s_used_max / km
+                ));
+            }
+            if s_used_min > km {
+                summary.warnings.push(format!(
+                    "The lowest [S] is {:.2}×Km; with no points below Km, Km is poorly defined. Add concentrations below Km (common practice, no source).",
+                    s_used_min / km
+                ));
+            }
+        }
+        if let Some(r) = summary.correlation.first().and_then(|row| row.get(1)).copied().flatten() {
+            if r.abs() > 0.99 {
+                summary.warnings.push(format!(
+                    "Vmax and Km are correlated at r = {r:.3}; the data determine them poorly one at a time (threshold 0.99: common practice, no source)."
+                ));
+            }
+        }
+    }
+
+    // kcat and kcat/Km from [E]t, with delta-method uncertainty using the
+    // full covariance of (Vmax, Km).
+    let mut enzyme_symbol = None;
+    if let Some(enzyme) = request.enzyme {
+        if !(enzyme.is_finite() && enzyme > 0.0) {
+            return Err(Error::invalid_option("the enzyme concentration [E]t must be a positive number"));
+        }
+        let enzyme_unit_text = request.enzyme_unit.as_deref().map(str::trim).filter(|t| !t.is_empty()).ok_or_else(|| {
+            Error::invalid_option("give the unit of the enzyme concentration [E]t (for example nM)")
+        })?;
+        let enzyme_unit = ConcentrationUnit::parse(enzyme_unit_text).map_err(Error::invalid_option)?;
+        enzyme_symbol = Some(enzyme_unit.symbol().to_string());
+        match (rate_unit, substrate_unit) {
+            (Some(rate), substrate) => {
+                let to_kcat = kcat_per_second(1.0, rate, enzyme, enzyme_unit);
+                let covariance = fit.covariance.as_ref();
+                let kcat_se = summary.parameters[0].std_error.map(|se| se * to_kcat);
+                let mut kcat = estimate("kcat", vmax * to_kcat, kcat_se, fit.t_quantile);
+                kcat.unit = Some("s⁻¹".to_string());
+                kcat.derived = true;
+                summary.parameters.push(kcat);
+                if let Some(substrate) = substrate {
+                    let scale = to_kcat / substrate.in_molar();
+                    let value = scale * vmax / km;
+                    let se = covariance.map(|c| {
+                        let (dv, dk) = (scale / km, -scale * vmax / (km * km));
+                        (dv * dv * c[(0, 0)] + dk * dk * c[(1, 1)] + 2.0 * dv * dk * c[(0, 1)]).sqrt()
+                    });
+                    let mut specificity: ParameterEstimate =
+                        estimate("kcat/Km", value, se.filter(|v| v.is_finite()), fit.t_quantile);
+                    specificity.unit = Some("M⁻¹ s⁻¹".to_string());
+                    specificity.derived = true;
+                    summary.parameters.push(specificity);
+                } else {
+                    summary.warnings.push("kcat/Km needs the unit of [S]; choose it or write it in the header.".to_string());
+                }
+            }
+            (None, _) => summary
+                .warnings
+                .push("kcat needs the unit of v (a concentration per time); choose it or write it in the header.".to_string()),
+        }
+    }
+
+    let rate_points: Vec<RatePoint> =
+        points.iter().map(|p| RatePoint { s: p.s, v: p.v, fitted: p.fitted, excluded: p.excluded }).collect();
+    let axis_units = AxisUnits {
+        substrate: substrate_unit.map(|u| u.symbol().to_string()).unwrap_or_default(),
+        rate: rate_unit.map(|u| u.symbol()).unwrap_or_default(),
+    };
+    let curve = |s: f64| model.value(&[s], &values);
+    let plots = rate_plots(&rate_points, &curve, Some((vmax, km)), &axis_units);
+
+    Ok(RateAnalysis {
+        fit: summary,
+        points,
+        problems,
+        notes,
+        units: UnitsUsed {
+            substrate: substrate_unit.map(|u| u.symbol().to_string()),
+            rate: rate_unit.map(|u| u.symbol()),
+            enzyme: enzyme_symbol,
+        },
+        plots,
+        caution: CAUTION.to_string(),
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn request(text: &str) -> RateRequest {
+        RateRequest { text: text.to_string(), ..RateRequest::default() }
+    }
+
+    #[test]
+    fn header_units_are_used_and_kcat_is_converted() {
+        let text = "[S] (µM)\tv (µM/min)\n1\t0.99\n2\t1.66\n5\t2.86\n10\t3.33\n20\t3.64\n50\t3.85\n";
+        let mut req = request(text);
+        req.enzyme = Some(10.0);
+        req.enzyme_unit = Some("nM".into());
+        let result = analyse_rates(&req).unwrap();
+        assert_eq!(result.units.substrate.as_deref(), Some("µM"));
+        assert_eq!(result.units.rate.as_deref(), Some("µM/min"));
+        let p = &result.fit.parameters;
+        assert_eq!(p.iter().map(|p| p.name.as_str()).collect::<Vec<_>>(), ["Vmax", "Km", "kcat", "kcat/Km"]);
+        // kcat = Vmax[µM/min] · 1e-6/60 M/s per 1e-8 M.
+        let expected_kcat = p[0].value * 1e-6 / 60.0 / 1e-8;
+        assert!((p[2].value - expected_kcat).abs() < 1e-12 * expected_kcat);
+        let expected_specificity = expected_kcat / (p[1].value * 1e-6);
+        assert!((p[3].value - expected_specificity).abs() < 1e-9 * expected_specificity);
+        assert!(p[3].std_error.unwrap() > 0.0);
+    }
+
+    #[test]
+    fn excluded_lines_are_left_out() {
+        let text = "S\tv\n1\t0.99\n2\t1.66\n5\t2.86\n10\t9.0\n20\t3.64\n50\t3.85\n";
+        let all = analyse_rates(&request(text)).unwrap();
+        let mut req = request(text);
+        req.excluded_lines = vec![5];
+        let fewer = analyse_rates(&req).unwrap();
+        assert_eq!(all.fit.n, 6);
+        assert_eq!(fewer.fit.n, 5);
+        assert!(fewer.points[3].excluded);
+        assert_ne!(all.fit.parameters[1].value, fewer.fit.parameters[1].value);
+    }
+
+    #[test]
+    fn problems_are_reported_and_the_rest_is_fitted() {
+        let text = "S\tv\n0.1\t1.0\n0.2\tabc\n0.5\t2.0\n1.0\t2.5\n2.0\t2.8\n";
+        let result = analyse_rates(&request(text)).unwrap();
+        assert_eq!(result.problems.len(), 1);
+        assert_eq!(result.problems[0].to_string(), "line 3, column 2: expected a number, found 'abc'");
+        assert_eq!(result.fit.n, 4);
+    }
+
+    /// Fatal inputs and the message each must give.
+    #[test]
+    fn fatal_inputs() {
+        let cases = [
+            ("", "no data rows found"),
+            ("# only a comment\n", "no data rows found"),
+            ("S\tv\n1\t2\n2\t3\n", "only 2 usable point(s) remain"),
+            ("time\ttemp\tabs\n1\t2\t3\n", "cannot tell which columns hold [S] and v"),
+            ("1\n2\n3\n", "the table needs two columns"),
+        ];
+        for (text, expected) in cases {
+            let error = analyse_rates(&request(text)).unwrap_err();
+            assert!(error.message.contains(expected), "{text:?}: {}", error.message);
+        }
+        let mut req = request("S\tv\n1\t1\n2\t1.5\n4\t2\n");
+        req.substrate_unit = Some("ppm".into());
+        assert!(analyse_rates(&req).unwrap_err().message.contains("unknown concentration unit 'ppm'"));
+        req.substrate_unit = None;
+        req.enzyme = Some(-1.0);
+        req.enzyme_unit = Some("nM".into());
+        assert!(analyse_rates(&req).unwrap_err().message.contains("must be a positive number"));
+    }
+}

@@ -1,0 +1,230 @@
+//! Weighted nonlinear least squares.
+//!
+//! The minimisation is done by the `levenberg-marquardt` crate, a port of
+//! MINPACK's `lmder` (Moré 1978: trust region, pivoted QR, scaled
+//! variables). This module adapts a [`Model`] to it, with observation
+//! weights applied as `sqrt(w)` on residual and Jacobian rows, and turns its
+//! outcome into a [`SolverReport`] that records why it stopped. It never
+//! panics and never returns an error for a failed minimisation: failure to
+//! converge is data in the report.
+
+use crate::model::{Model, Observations};
+use levenberg_marquardt::{LeastSquaresProblem, LevenbergMarquardt, TerminationReason};
+use nalgebra::{DMatrix, DVector, Dyn, Owned};
+use serde::Serialize;
+use std::cell::Cell;
+
+/// Settings of the minimiser.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct SolverSettings {
+    /// Relative reduction in the sum of squares below which the fit counts
+    /// as converged (MINPACK `ftol`). Default 1e-14; must be ≥ 0.
+    pub ftol: f64,
+    /// Relative change in the parameters below which the fit counts as
+    /// converged (MINPACK `xtol`). Default 1e-14; must be ≥ 0.
+    pub xtol: f64,
+    /// Largest cosine between the residual vector and a Jacobian column at
+    /// which the fit counts as converged (MINPACK `gtol`). Default 1e-14;
+    /// must be ≥ 0.
+    pub gtol: f64,
+    /// Evaluations allowed, as a multiple of (parameters + 1), MINPACK's
+    /// convention. Default 400; must be > 0.
+    pub patience: usize,
+}
+
+impl Default for SolverSettings {
+    fn default() -> Self {
+        SolverSettings { ftol: 1e-14, xtol: 1e-14, gtol: 1e-14, patience: 400 }
+    }
+}
+
+/// Why the minimiser stopped.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Termination {
+    /// The sum of squares or the parameters stopped changing within the
+    /// tolerances.
+    Converged,
+    /// The residuals are orthogonal to the Jacobian columns (a stationary
+    /// point).
+    Stationary,
+    /// The model fits the data exactly.
+    ExactFit,
+    /// No further improvement is possible in double precision; the result
+    /// is at a stationary point when [`SolverReport::gradient_cosine`] is
+    /// small.
+    PrecisionLimit,
+    /// The evaluation budget ran out before convergence.
+    TooManyEvaluations,
+    /// The model produced a non-finite value at some trial parameters.
+    NonFinite,
+    /// The problem was not usable (no parameters or no observations).
+    Unusable,
+}
+
+impl Termination {
+    /// A sentence for people.
+    pub fn describe(&self) -> &'static str {
+        match self {
+            Termination::Converged => "converged: the sum of squares and the parameters stopped changing",
+            Termination::Stationary => "converged: the gradient of the sum of squares is zero",
+            Termination::ExactFit => "converged: the curve passes exactly through every point",
+            Termination::PrecisionLimit => "stopped at the limit of double precision",
+            Termination::TooManyEvaluations => "did not converge: the evaluation budget ran out",
+            Termination::NonFinite => "did not converge: the model gave a non-finite value",
+            Termination::Unusable => "not fitted: there were no parameters or no observations",
+        }
+    }
+}
+
+/// The outcome of one minimisation.
+#[derive(Clone, Debug)]
+pub struct SolverReport {
+    /// Fitted parameters (the last accepted point when not converged).
+    pub parameters: Vec<f64>,
+    /// Why the minimiser stopped.
+    pub termination: Termination,
+    /// Whether the result is a converged least-squares solution.
+    pub converged: bool,
+    /// Outer iterations (one Jacobian evaluation each).
+    pub iterations: usize,
+    /// Evaluations of the residuals.
+    pub evaluations: usize,
+    /// Weighted residual sum of squares, Σ w·(y − f)².
+    pub rss: f64,
+    /// Weighted Jacobian of the model at the solution, `sqrt(w_i)·∂f_i/∂p_j`.
+    pub jacobian: DMatrix<f64>,
+    /// Largest cosine between the weighted residual vector and a Jacobian
+    /// column at the solution: zero at an exact stationary point.
+    pub gradient_cosine: f64,
+}
+
+/// Fits `model` to `data` from the starting values `start`.
+pub fn minimise(model: &dyn Model, data: &Observations, start: &[f64], settings: &SolverSettings) -> SolverReport {
+    let problem = Problem {
+        model,
+        data,
+        sqrt_weights: data.weights().iter().map(|w| w.sqrt()).collect(),
+        p: DVector::from_column_slice(start),
+        jacobian_calls: Cell::new(0),
+    };
+    if start.is_empty() || data.is_empty() || !start.iter().all(|v| v.is_finite()) {
+        return finish(problem, Termination::Unusable, 0);
+    }
+    let (problem, report) = LevenbergMarquardt::new()
+        .with_ftol(settings.ftol)
+        .with_xtol(settings.xtol)
+        .with_gtol(settings.gtol)
+        .with_patience(settings.patience)
+        .minimize(problem);
+    let termination = match report.termination {
+        TerminationReason::Converged { .. } => Termination::Converged,
+        TerminationReason::Orthogonal => Termination::Stationary,
+        TerminationReason::ResidualsZero => Termination::ExactFit,
+        TerminationReason::NoImprovementPossible(_) => Termination::PrecisionLimit,
+        TerminationReason::LostPatience => Termination::TooManyEvaluations,
+        TerminationReason::Numerical(_) | TerminationReason::User(_) => Termination::NonFinite,
+        TerminationReason::NoParameters | TerminationReason::NoResiduals | TerminationReason::WrongDimensions(_) => {
+            Termination::Unusable
+        }
+    };
+    finish(problem, termination, report.number_of_evaluations)
+}
+
+/// A stationary point is accepted at the precision limit when every
+/// Jacobian column is orthogonal to the residuals to within this cosine.
+/// MINPACK stops there because its own tolerances cannot be met in double
+/// precision; the point is still a minimum for practical purposes.
+const PRECISION_LIMIT_COSINE: f64 = 1e-6;
+
+fn finish(problem: Problem<'_>, termination: Termination, evaluations: usize) -> SolverReport {
+    let parameters: Vec<f64> = problem.p.iter().copied().collect();
+    let residuals = problem.weighted_residuals();
+    let jacobian = problem.weighted_model_jacobian();
+    let rss = residuals.norm_squared();
+    let residual_norm = residuals.norm();
+    let mut gradient_cosine: f64 = 0.0;
+    for column in jacobian.column_iter() {
+        let norm = column.norm();
+        if norm > 0.0 && residual_norm > 0.0 {
+            gradient_cosine = gradient_cosine.max((column.dot(&residuals) / (norm * residual_norm)).abs());
+        }
+    }
+    let finite = rss.is_finite() && parameters.iter().all(|p| p.is_finite());
+    let converged = finite
+        && match termination {
+            Termination::Converged | Termination::Stationary | Termination::ExactFit => true,
+            Termination::PrecisionLimit => gradient_cosine < PRECISION_LIMIT_COSINE,
+            _ => false,
+        };
+    SolverReport {
+        parameters,
+        termination,
+        converged,
+        iterations: problem.jacobian_calls.get(),
+        evaluations,
+        rss,
+        jacobian,
+        gradient_cosine,
+    }
+}
+
+struct Problem<'a> {
+    model: &'a dyn Model,
+    data: &'a Observations,
+    sqrt_weights: Vec<f64>,
+    p: DVector<f64>,
+    jacobian_calls: Cell<usize>,
+}
+
+impl Problem<'_> {
+    /// `sqrt(w)·(y − f)`: the sign makes the residual Jacobian the negated
+    /// model Jacobian.
+    fn weighted_residuals(&self) -> DVector<f64> {
+        let p = self.p.as_slice();
+        DVector::from_iterator(
+            self.data.len(),
+            (0..self.data.len())
+                .map(|i| self.sqrt_weights[i] * (self.data.y()[i] - self.model.value(self.data.x(i), p))),
+        )
+    }
+
+    fn weighted_model_jacobian(&self) -> DMatrix<f64> {
+        let p = self.p.as_slice();
+        let n_params = p.len();
+        let mut jacobian = DMatrix::zeros(self.data.len(), n_params);
+        let mut gradient = vec![0.0; n_params];
+        for i in 0..self.data.len() {
+            self.model.gradient(self.data.x(i), p, &mut gradient);
+            for j in 0..n_params {
+                jacobian[(i, j)] = self.sqrt_weights[i] * gradient[j];
+            }
+        }
+        jacobian
+    }
+}
+
+impl LeastSquaresProblem<f64, Dyn, Dyn> for Problem<'_> {
+    type ResidualStorage = Owned<f64, Dyn>;
+    type JacobianStorage = Owned<f64, Dyn, Dyn>;
+    type ParameterStorage = Owned<f64, Dyn>;
+
+    fn set_params(&mut self, x: &DVector<f64>) {
+        self.p.copy_from(x);
+    }
+
+    fn params(&self) -> DVector<f64> {
+        self.p.clone()
+    }
+
+    fn residuals(&self) -> Option<DVector<f64>> {
+        let r = self.weighted_residuals();
+        r.iter().all(|v| v.is_finite()).then_some(r)
+    }
+
+    fn jacobian(&self) -> Option<DMatrix<f64>> {
+        self.jacobian_calls.set(self.jacobian_calls.get() + 1);
+        let j = -self.weighted_model_jacobian();
+        j.iter().all(|v| v.is_finite()).then_some(j)
+    }
+}
