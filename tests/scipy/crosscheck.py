@@ -4,7 +4,9 @@
 Reference library: SciPy, ``scipy.optimize.curve_fit`` (method='lm', i.e. the
 MINPACK Levenberg-Marquardt driver) for parameter values and standard errors
 (sqrt(diag(pcov)) with absolute_sigma=False), and ``scipy.stats.t.ppf`` for the
-95% confidence-interval multiplier.
+95% confidence-interval multiplier. curve_fit is given the analytic Jacobian of
+the model; its own results then sit within a few 1e-8 (relative) of the exact
+least-squares solution, well inside the 1e-6 tolerance used here.
 
 All datasets below are GENERATED synthetic data: they are produced by this
 script from fixed numpy.random.default_rng seeds, so every run writes exactly

@@ -154,6 +154,16 @@ pub trait Model {
 pub fn gradient_disagreement(model: &dyn Model, data: &Observations, p: &[f64]) -> f64 {
     let n_params = p.len();
     let mut analytic = vec![0.0; n_params];
+    // Where a derivative crosses zero between observations, its value at
+    // the crossing is pure cancellation; judge it against a millionth of the
+    // largest magnitude that derivative takes over the data.
+    let mut column_scale = vec![0.0f64; n_params];
+    for i in 0..data.len() {
+        model.gradient(data.x(i), p, &mut analytic);
+        for j in 0..n_params {
+            column_scale[j] = column_scale[j].max(analytic[j].abs());
+        }
+    }
     let mut worst: f64 = 0.0;
     let step_scale = f64::EPSILON.cbrt();
     for i in 0..data.len() {
@@ -167,7 +177,7 @@ pub fn gradient_disagreement(model: &dyn Model, data: &Observations, p: &[f64]) 
             down[j] -= h;
             let numeric = (model.value(x, &up) - model.value(x, &down)) / (up[j] - down[j]);
             let rounding = 16.0 * f64::EPSILON * model.value(x, p).abs() / h;
-            let scale = analytic[j].abs().max(numeric.abs()).max(f64::MIN_POSITIVE);
+            let scale = analytic[j].abs().max(numeric.abs()).max(1e-6 * column_scale[j]).max(f64::MIN_POSITIVE);
             worst = worst.max(((analytic[j] - numeric).abs() - rounding).max(0.0) / scale);
         }
     }

@@ -137,6 +137,10 @@ pub fn minimise(model: &dyn Model, data: &Observations, start: &[f64], settings:
 /// precision; the point is still a minimum for practical purposes.
 const PRECISION_LIMIT_COSINE: f64 = 1e-6;
 
+/// The residual reported for every observation at a trial point where the
+/// model is not finite (see `Problem::residuals`).
+const REJECTED_RESIDUAL: f64 = 1e100;
+
 fn finish(problem: Problem<'_>, termination: Termination, evaluations: usize) -> SolverReport {
     let parameters: Vec<f64> = problem.p.iter().copied().collect();
     let residuals = problem.weighted_residuals();
@@ -217,9 +221,18 @@ impl LeastSquaresProblem<f64, Dyn, Dyn> for Problem<'_> {
         self.p.clone()
     }
 
+    /// A trial point where the model is not finite (an exponential that
+    /// overflows after a long first step, say) is not a reason to stop: it is
+    /// reported as a very large residual, so the minimiser rejects the step
+    /// and shrinks its trust region, exactly as for any step that makes the
+    /// fit worse. The size keeps the sum of squares finite for any n below
+    /// about 1e8.
     fn residuals(&self) -> Option<DVector<f64>> {
-        let r = self.weighted_residuals();
-        r.iter().all(|v| v.is_finite()).then_some(r)
+        let mut r = self.weighted_residuals();
+        if r.iter().any(|v| !v.is_finite()) {
+            r.fill(REJECTED_RESIDUAL);
+        }
+        Some(r)
     }
 
     fn jacobian(&self) -> Option<DMatrix<f64>> {
