@@ -1,0 +1,105 @@
+//! `turnover-wasm`: the page's window onto `turnover-core`.
+//!
+//! This crate is thin on purpose. [`Workbench::analyse`] reads a request
+//! object from JavaScript, calls `turnover_core::rates::analyse_rates` and
+//! returns the result as a plain object; [`Workbench::draw`] draws one of
+//! the result's plots onto a canvas with plotters and returns where each
+//! point landed, so the page can turn a click into a point. Only this crate
+//! knows about `JsValue`; the numbers all come from the core.
+//!
+//! The last analysis stays on the Rust side behind the `Workbench` handle,
+//! so drawing does not send the data back and forth.
+
+#![deny(missing_docs)]
+
+mod draw;
+
+use plotters::prelude::*;
+use plotters_canvas::CanvasBackend;
+use serde::Serialize;
+use turnover_core::plots::PlotKind;
+use turnover_core::rates::{analyse_rates, RateAnalysis, RateRequest};
+use wasm_bindgen::prelude::*;
+
+pub use draw::{draw_plot, PointPosition};
+
+/// Holds the most recent analysis for drawing.
+#[wasm_bindgen]
+#[derive(Default)]
+pub struct Workbench {
+    last: Option<RateAnalysis>,
+}
+
+fn to_js<T: Serialize>(value: &T) -> Result<JsValue, JsError> {
+    value
+        .serialize(&serde_wasm_bindgen::Serializer::json_compatible())
+        .map_err(|e| JsError::new(&format!("internal error while returning a result: {e}")))
+}
+
+#[wasm_bindgen]
+impl Workbench {
+    /// A workbench with no analysis yet.
+    #[wasm_bindgen(constructor)]
+    pub fn new() -> Workbench {
+        Workbench::default()
+    }
+
+    /// Analyses a rate table. `request` is an object with the fields of
+    /// `RateRequest` (`text`, `model`, `substrate_unit`, `rate_unit`,
+    /// `enzyme`, `enzyme_unit`, `excluded_lines`). Throws an `Error` whose
+    /// message is written for the scientist when no fit can be made; the
+    /// previous analysis is then forgotten so no stale plot is drawn.
+    pub fn analyse(&mut self, request: JsValue) -> Result<JsValue, JsError> {
+        let request: RateRequest = serde_wasm_bindgen::from_value(request)
+            .map_err(|e| JsError::new(&format!("the page sent a request Turnover cannot read: {e}")))?;
+        match analyse_rates(&request) {
+            Ok(analysis) => {
+                let value = to_js(&analysis)?;
+                self.last = Some(analysis);
+                Ok(value)
+            }
+            Err(error) => {
+                self.last = None;
+                Err(JsError::new(&error.message))
+            }
+        }
+    }
+
+    /// Draws plot `kind` (`direct`, `residuals`, `lineweaver-burk`,
+    /// `eadie-hofstee`, `hanes-woolf`) of the last analysis on the canvas
+    /// with id `canvas_id`, and returns an array of `{row, x, y}`: where
+    /// each data point was drawn, in canvas pixels.
+    pub fn draw(&self, canvas_id: &str, kind: &str) -> Result<JsValue, JsError> {
+        let analysis = self.last.as_ref().ok_or_else(|| JsError::new("there is no analysis to draw"))?;
+        let kind = PlotKind::from_name(kind).ok_or_else(|| JsError::new(&format!("unknown plot '{kind}'")))?;
+        let plot = analysis
+            .plots
+            .iter()
+            .find(|p| p.kind == kind)
+            .ok_or_else(|| JsError::new("that plot is not part of this analysis"))?;
+        let backend = CanvasBackend::new(canvas_id).ok_or_else(|| JsError::new(&format!("no canvas '{canvas_id}'")))?;
+        let root = backend.into_drawing_area();
+        let positions = draw_plot(&root, plot).map_err(|e| JsError::new(&format!("drawing failed: {e}")))?;
+        root.present().map_err(|e| JsError::new(&format!("drawing failed: {e}")))?;
+        to_js(&positions)
+    }
+
+    /// The plot `kind` of the last analysis as a standalone SVG document,
+    /// `width` × `height` pixels, for figures.
+    pub fn svg(&self, kind: &str, width: u32, height: u32) -> Result<String, JsError> {
+        let analysis = self.last.as_ref().ok_or_else(|| JsError::new("there is no analysis to draw"))?;
+        let kind = PlotKind::from_name(kind).ok_or_else(|| JsError::new(&format!("unknown plot '{kind}'")))?;
+        let plot = analysis
+            .plots
+            .iter()
+            .find(|p| p.kind == kind)
+            .ok_or_else(|| JsError::new("that plot is not part of this analysis"))?;
+        draw::plot_svg(plot, width, height).map_err(|e| JsError::new(&format!("drawing failed: {e}")))
+    }
+}
+
+/// The version of Turnover, for the page footer and saved files.
+#[wasm_bindgen]
+pub fn version() -> String {
+    env!("CARGO_PKG_VERSION").to_string()
+}

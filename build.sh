@@ -1,0 +1,119 @@
+#!/usr/bin/env bash
+# Turnover's build and test entry point.
+#
+#   ./build.sh          install what is missing, build dist/turnover.html, print its path
+#   ./build.sh test     build, then run every test: cargo tests (unit, reference
+#                       checks against NIST StRD and published data), the SciPy
+#                       cross-check and the browser tests in headless Chromium
+#
+# Everything it installs comes from the package registries by name: the
+# wasm32 target (rustup), wasm-bindgen-cli at the version in Cargo.lock
+# (cargo), Debian's chromium (apt), Python and npm packages from the
+# committed requirement and lock files. Nothing downloads a browser.
+set -euo pipefail
+cd "$(dirname "$0")"
+ROOT="$(pwd)"
+OUT="$ROOT/dist/turnover.html"
+SIZE_BUDGET=1000000
+
+say() { printf '\n== %s\n' "$*"; }
+
+ensure_wasm_target() {
+  if ! rustup target list --installed | grep -qx wasm32-unknown-unknown; then
+    say "installing the wasm32-unknown-unknown target"
+    rustup target add wasm32-unknown-unknown
+  fi
+}
+
+locked_version() {
+  # The version of package $1 in Cargo.lock.
+  awk -v name="$1" '$0 == "name = \"" name "\"" { getline; gsub(/version = |"/, ""); print; exit }' Cargo.lock
+}
+
+ensure_wasm_bindgen() {
+  local want have
+  want="$(locked_version wasm-bindgen)"
+  if [ -z "$want" ]; then
+    cargo generate-lockfile
+    want="$(locked_version wasm-bindgen)"
+  fi
+  have="$(wasm-bindgen --version 2>/dev/null | awk '{print $2}' || true)"
+  if [ "$have" != "$want" ]; then
+    say "installing wasm-bindgen-cli $want (found '${have:-none}')"
+    # --locked pins the tool's own dependencies; when a pinned one is no
+    # longer served by the registry, fall back to a fresh resolution.
+    cargo install wasm-bindgen-cli --version "$want" --locked \
+      || cargo install wasm-bindgen-cli --version "$want"
+  fi
+}
+
+build_page() {
+  ensure_wasm_target
+  ensure_wasm_bindgen
+  say "building the WebAssembly core"
+  cargo build --release --target wasm32-unknown-unknown -p turnover-wasm
+  rm -rf target/pkg
+  wasm-bindgen --target no-modules --no-typescript --out-dir target/pkg \
+    target/wasm32-unknown-unknown/release/turnover_wasm.wasm
+  say "assembling the single-file page"
+  node www/assemble.mjs target/pkg "$OUT"
+  local size
+  size=$(wc -c < "$OUT")
+  if [ "$size" -gt "$SIZE_BUDGET" ]; then
+    echo "dist/turnover.html is $size bytes, over the budget of $SIZE_BUDGET" >&2
+    exit 1
+  fi
+}
+
+ensure_chromium() {
+  if [ ! -x /usr/bin/chromium ]; then
+    say "installing Debian's chromium"
+    apt-get update
+    DEBIAN_FRONTEND=noninteractive apt-get install -y chromium
+  fi
+}
+
+ensure_python_packages() {
+  if ! python3 -c 'import numpy, scipy' 2>/dev/null; then
+    say "installing the SciPy cross-check's packages"
+    python3 -m pip install --quiet -r tests/scipy/requirements.txt
+  fi
+}
+
+ensure_node_packages() {
+  if [ ! -d tests/browser/node_modules/playwright-core ]; then
+    say "installing the browser tests' npm packages from the lock file"
+    (cd tests/browser && npm ci --no-audit --no-fund)
+  fi
+}
+
+run_tests() {
+  build_page
+  say "cargo tests: unit, reference checks (NIST StRD, Puromycin), gradients"
+  cargo test --workspace --release
+  say "SciPy cross-check (scipy.optimize.curve_fit)"
+  cargo build --release -p turnover-cli
+  ensure_python_packages
+  TURNOVER_BIN="$ROOT/target/release/turnover" python3 tests/scipy/crosscheck.py
+  say "browser tests (headless Debian chromium, page opened from file://)"
+  ensure_chromium
+  ensure_node_packages
+  (cd tests/browser && TURNOVER_HTML="$OUT" node --test)
+  say "all tests passed"
+}
+
+case "${1:-build}" in
+  build)
+    build_page
+    echo
+    echo "Open this file in any browser (double-click works; no server needed):"
+    echo "  $OUT"
+    ;;
+  test)
+    run_tests
+    ;;
+  *)
+    echo "usage: ./build.sh [test]" >&2
+    exit 2
+    ;;
+esac

@@ -1,0 +1,424 @@
+// Turnover page: owns the DOM, events and layout. Every number shown comes
+// from the WebAssembly core (turnover-wasm); this file only presents it.
+// It makes no network request of any kind.
+
+/* global wasm_bindgen */
+
+// The page as it was delivered, captured before anything changes, so that
+// "Save page with data" can write a copy of the very same file.
+const PRISTINE_PAGE = '<!DOCTYPE html>\n' + document.documentElement.outerHTML;
+
+const PLOT_KINDS = ['direct', 'residuals', 'lineweaver-burk', 'eadie-hofstee', 'hanes-woolf'];
+
+// Invented demo scenario (not measured data): a fictional hydrolase "Hyd-3"
+// from an imaginary pond isolate, assayed at 30 °C with 25 nM enzyme;
+// duplicate rates with about 4% noise around Km 0.82 mM, Vmax 12.4 µM/min.
+const DEMO_TABLE = `# Demo (invented data): hydrolase Hyd-3, 30 °C, pH 7.5, [E]t = 25 nM
+# duplicate initial rates at eight substrate concentrations
+[S] (mM)\tv (µM/min)
+0.05\t0.702
+0.05\t0.722
+0.1\t1.353
+0.1\t1.232
+0.2\t2.197
+0.2\t2.509
+0.4\t4.151
+0.4\t3.759
+0.8\t5.933
+0.8\t6.121
+1.6\t7.877
+1.6\t9.117
+3.2\t9.954
+3.2\t10.128
+6.4\t11.020
+6.4\t10.738
+`;
+
+const $ = (id) => document.getElementById(id);
+
+const state = {
+  excluded: new Set(),
+  result: null,
+  positions: {},
+  error: null,
+};
+
+let workbench = null;
+
+function startWasm() {
+  const holder = $('turnover-wasm');
+  if (holder) {
+    const binary = Uint8Array.from(atob(holder.textContent.trim()), (c) => c.charCodeAt(0));
+    wasm_bindgen.initSync({ module: binary });
+    return Promise.resolve();
+  }
+  // Development only: served from a folder next to target/pkg.
+  return wasm_bindgen({ module_or_path: '../target/pkg/turnover_wasm_bg.wasm' });
+}
+
+function request() {
+  const enzymeText = $('enzyme').value.trim().replace(',', '.');
+  const enzyme = enzymeText === '' ? null : Number(enzymeText);
+  return {
+    text: $('data-input').value,
+    model: 'mm',
+    substrate_unit: $('substrate-unit').value || null,
+    rate_unit: $('rate-unit').value || null,
+    enzyme: enzyme === null || Number.isNaN(enzyme) ? (enzymeText === '' ? null : -1) : enzyme,
+    enzyme_unit: $('enzyme-unit').value,
+    excluded_lines: [...state.excluded],
+  };
+}
+
+function formatNumber(value, digits = 4) {
+  if (value === null || value === undefined || !Number.isFinite(value)) return '—';
+  if (value === 0) return '0';
+  const magnitude = Math.floor(Math.log10(Math.abs(value)));
+  if (magnitude >= 6 || magnitude <= -4) {
+    const [mantissa, exponent] = value.toExponential(digits - 1).split('e');
+    return `${mantissa}×10${superscript(Number(exponent))}`;
+  }
+  const text = value.toPrecision(digits);
+  if (!text.includes('e')) return text;
+  const [mantissa, exponent] = text.split('e');
+  return `${mantissa}×10${superscript(Number(exponent))}`;
+}
+
+function superscript(text) {
+  const map = { '-': '⁻', 0: '⁰', 1: '¹', 2: '²', 3: '³', 4: '⁴', 5: '⁵', 6: '⁶', 7: '⁷', 8: '⁸', 9: '⁹' };
+  return [...String(text)].map((c) => map[c] ?? c).join('');
+}
+
+function element(tag, attributes = {}, text) {
+  const node = document.createElement(tag);
+  for (const [key, value] of Object.entries(attributes)) node.setAttribute(key, value);
+  if (text !== undefined) node.textContent = text;
+  return node;
+}
+
+function showProblems(problems, fatal) {
+  const box = $('input-problems');
+  box.replaceChildren();
+  if (!problems.length && !fatal) return;
+  if (fatal) {
+    box.append(element('h4', {}, 'No fit could be made'), element('p', {}, fatal));
+  }
+  if (problems.length) {
+    box.append(element('h4', {}, `${problems.length} problem${problems.length === 1 ? '' : 's'} in the table (these lines were not used)`));
+    const list = element('ul');
+    for (const p of problems) {
+      const where = p.column ? `line ${p.line}, column ${p.column}` : `line ${p.line}`;
+      list.append(element('li', { 'data-line': p.line }, `${where}: ${p.message}`));
+    }
+    box.append(list);
+  }
+}
+
+function showResult(result) {
+  const fit = result.fit;
+  const status = $('status');
+  const warned = fit.warnings.length > 0 || result.problems.length > 0;
+  status.dataset.state = fit.converged ? (warned ? 'warn' : 'ok') : 'error';
+  status.textContent = fit.converged
+    ? `Converged after ${fit.iterations} iterations on ${fit.n} points${warned ? ': read the warnings below' : ''}.`
+    : `The fit ${fit.termination_text}. The numbers below are not a least-squares solution.`;
+  $('equation').textContent = fit.equation;
+  $('ci-heading').textContent = `${Math.round(fit.confidence_level * 100)}% interval`;
+
+  const body = $('parameters').tBodies[0];
+  body.replaceChildren();
+  for (const p of fit.parameters) {
+    const row = element('tr', { 'data-param': p.name, 'data-value': String(p.value) });
+    if (p.std_error !== null) row.dataset.se = String(p.std_error);
+    if (p.ci_low !== null) row.dataset.ciLow = String(p.ci_low);
+    if (p.ci_high !== null) row.dataset.ciHigh = String(p.ci_high);
+    if (p.derived) row.classList.add('derived');
+    row.append(
+      element('td', {}, p.name),
+      element('td', { class: 'num value' }, formatNumber(p.value, 4)),
+      element('td', { class: 'num se' }, formatNumber(p.std_error, 3)),
+      element('td', { class: 'num ci' }, p.ci_low === null ? '—' : `${formatNumber(p.ci_low, 4)} to ${formatNumber(p.ci_high, 4)}`),
+      element('td', { class: 'unit' }, p.unit ?? '(no unit given)'),
+    );
+    body.append(row);
+  }
+  if (fit.parameters.some((p) => p.derived)) {
+    const note = element('tr', { class: 'footnote' });
+    note.append(element('td', { colspan: '5', class: 'hint' }, '† computed from Vmax, Km and [E]t; uncertainty by the delta method with the full covariance, [E]t taken as exact.'));
+    body.append(note);
+  }
+
+  const stats = $('fit-stats');
+  stats.replaceChildren();
+  const correlation = fit.correlation?.[0]?.[1];
+  const entries = [
+    ['n', 'points used', fit.n, String(fit.n)],
+    ['dof', 'degrees of freedom', fit.dof, String(fit.dof)],
+    ['sigma', 'residual SD', fit.sigma, formatNumber(fit.sigma, 4)],
+    ['rss', 'residual SS', fit.rss, formatNumber(fit.rss, 4)],
+    ['r_squared', 'R²', fit.r_squared, fit.r_squared === null ? '—' : fit.r_squared.toFixed(4)],
+    ['aicc', 'AICc', fit.aicc, fit.aicc === null ? '—' : fit.aicc.toFixed(2)],
+    ['correlation', 'corr(Vmax, Km)', correlation, correlation === null || correlation === undefined ? '—' : correlation.toFixed(3)],
+    ['iterations', 'iterations', fit.iterations, String(fit.iterations)],
+  ];
+  for (const [key, label, value, text] of entries) {
+    const item = element('div', { 'data-stat': key, 'data-value': value === null || value === undefined ? '' : String(value) });
+    item.append(element('dt', {}, label), element('dd', {}, text));
+    stats.append(item);
+  }
+
+  const warnings = $('warnings');
+  warnings.replaceChildren(...fit.warnings.map((w) => element('li', {}, w)));
+  $('notes').replaceChildren(...result.notes.map((n) => element('li', {}, n)));
+  $('caution').textContent = result.caution;
+  for (const plot of result.plots) {
+    const note = document.querySelector(`[data-note-for="${plot.kind}"]`);
+    if (note) note.textContent = plot.note;
+  }
+}
+
+function clearResult(message) {
+  $('status').dataset.state = 'error';
+  $('status').textContent = message;
+  $('parameters').tBodies[0].replaceChildren();
+  $('fit-stats').replaceChildren();
+  $('warnings').replaceChildren();
+  for (const kind of PLOT_KINDS) {
+    const canvas = $(`plot-${kind}`);
+    const context = canvas.getContext('2d');
+    context.fillStyle = '#ffffff';
+    context.fillRect(0, 0, canvas.width, canvas.height);
+    context.fillStyle = '#5f6b70';
+    context.font = '14px sans-serif';
+    context.fillText('No fit to draw', 20, 30);
+    state.positions[kind] = [];
+  }
+}
+
+function drawPlots() {
+  for (const kind of PLOT_KINDS) {
+    try {
+      state.positions[kind] = workbench.draw(`plot-${kind}`, kind);
+    } catch (error) {
+      state.positions[kind] = [];
+      console.warn(`plot ${kind}: ${error.message ?? error}`);
+    }
+  }
+}
+
+function analyse() {
+  let result;
+  try {
+    result = workbench.analyse(request());
+  } catch (error) {
+    const message = error?.message ?? String(error);
+    state.result = null;
+    state.error = message;
+    showProblems([], message);
+    $('notes').replaceChildren();
+    clearResult(`No fit: ${message}`);
+    return;
+  }
+  state.result = result;
+  state.error = null;
+  showProblems(result.problems, null);
+  showResult(result);
+  drawPlots();
+}
+
+let pending = null;
+function analyseSoon() {
+  clearTimeout(pending);
+  pending = setTimeout(analyse, 350);
+}
+
+function toggleAt(canvas, event) {
+  if (!state.result) return;
+  const kind = canvas.dataset.kind;
+  const scaleX = canvas.width / canvas.clientWidth;
+  const scaleY = canvas.height / canvas.clientHeight;
+  const box = canvas.getBoundingClientRect();
+  const x = (event.clientX - box.left) * scaleX;
+  const y = (event.clientY - box.top) * scaleY;
+  let best = null;
+  let bestDistance = 10 * scaleX;
+  for (const p of state.positions[kind] ?? []) {
+    const distance = Math.hypot(p.x - x, p.y - y);
+    if (distance < bestDistance) {
+      best = p;
+      bestDistance = distance;
+    }
+  }
+  if (!best) return;
+  const line = state.result.points[best.row].line;
+  if (state.excluded.has(line)) state.excluded.delete(line);
+  else state.excluded.add(line);
+  analyse();
+}
+
+function resultsAsText() {
+  if (!state.result) return '';
+  const fit = state.result.fit;
+  const lines = [
+    `# Turnover ${wasm_bindgen.version()} · ${fit.equation} · ${new Date().toISOString()}`,
+    ['constant', 'estimate', 'std_error', 'ci_low', 'ci_high', 'unit'].join('\t'),
+  ];
+  for (const p of fit.parameters) {
+    lines.push([p.name, p.value, p.std_error ?? '', p.ci_low ?? '', p.ci_high ?? '', p.unit ?? ''].join('\t'));
+  }
+  lines.push(`# n = ${fit.n}, dof = ${fit.dof}, residual SD = ${fit.sigma}, RSS = ${fit.rss}, R² = ${fit.r_squared}, AICc = ${fit.aicc}, converged = ${fit.converged}`);
+  const excluded = state.result.points.filter((p) => p.excluded).map((p) => p.line);
+  if (excluded.length) lines.push(`# left out: input line(s) ${excluded.join(', ')}`);
+  for (const w of fit.warnings) lines.push(`# warning: ${w}`);
+  lines.push(`# ${state.result.caution}`);
+  return lines.join('\n') + '\n';
+}
+
+function download(name, type, content) {
+  const url = URL.createObjectURL(new Blob([content], { type }));
+  const link = element('a', { href: url, download: name });
+  document.body.append(link);
+  link.click();
+  link.remove();
+  setTimeout(() => URL.revokeObjectURL(url), 1000);
+}
+
+function savedState() {
+  return {
+    format: 'turnover-saved-state',
+    version: 1,
+    saved_at: new Date().toISOString(),
+    turnover_version: wasm_bindgen.version(),
+    request: request(),
+    // The results as they were when saved, for reading without refitting.
+    results: state.result ? { fit: state.result.fit, points: state.result.points, problems: state.result.problems } : null,
+  };
+}
+
+function savePage() {
+  const json = JSON.stringify(savedState()).replace(/</g, '\\u003c');
+  const marker = /(<script type="application\/json" id="turnover-saved-state">)[\s\S]*?(<\/script>)/;
+  const page = PRISTINE_PAGE.replace(marker, (_, open, close) => open + json + close);
+  const stamp = new Date().toISOString().slice(0, 16).replace(/[:T]/g, '-');
+  download(`turnover-${stamp}.html`, 'text/html', page);
+}
+
+function restore(saved) {
+  const r = saved.request ?? {};
+  $('data-input').value = r.text ?? '';
+  $('substrate-unit').value = r.substrate_unit ?? '';
+  $('rate-unit').value = r.rate_unit ?? '';
+  $('enzyme').value = r.enzyme ?? '';
+  if (r.enzyme_unit) $('enzyme-unit').value = r.enzyme_unit;
+  state.excluded = new Set(r.excluded_lines ?? []);
+  $('saved-info').textContent = `opened a saved analysis from ${saved.saved_at}`;
+}
+
+function loadDemo() {
+  $('data-input').value = DEMO_TABLE;
+  $('substrate-unit').value = '';
+  $('rate-unit').value = '';
+  $('enzyme').value = '25';
+  $('enzyme-unit').value = 'nM';
+  state.excluded.clear();
+}
+
+function readFile(file) {
+  const reader = new FileReader();
+  reader.onload = () => {
+    $('data-input').value = String(reader.result);
+    state.excluded.clear();
+    analyse();
+  };
+  reader.onerror = () => showProblems([], `Could not read the file ${file.name}.`);
+  reader.readAsText(file);
+}
+
+function wire() {
+  $('analyse').addEventListener('click', analyse);
+  $('data-input').addEventListener('input', () => {
+    state.excluded.clear();
+    analyseSoon();
+  });
+  for (const id of ['substrate-unit', 'rate-unit', 'enzyme-unit']) $(id).addEventListener('change', analyse);
+  $('enzyme').addEventListener('input', analyseSoon);
+  $('load-demo').addEventListener('click', () => {
+    loadDemo();
+    analyse();
+  });
+  $('include-all').addEventListener('click', () => {
+    state.excluded.clear();
+    analyse();
+  });
+  $('file-input').addEventListener('change', (event) => {
+    const file = event.target.files?.[0];
+    if (file) readFile(file);
+    event.target.value = '';
+  });
+  const area = $('data-input');
+  area.addEventListener('dragover', (event) => {
+    event.preventDefault();
+    area.classList.add('dragging');
+  });
+  area.addEventListener('dragleave', () => area.classList.remove('dragging'));
+  area.addEventListener('drop', (event) => {
+    event.preventDefault();
+    area.classList.remove('dragging');
+    const file = event.dataTransfer?.files?.[0];
+    if (file) readFile(file);
+  });
+  for (const kind of PLOT_KINDS) {
+    const canvas = $(`plot-${kind}`);
+    canvas.addEventListener('click', (event) => toggleAt(canvas, event));
+  }
+  for (const button of document.querySelectorAll('button.svg')) {
+    button.addEventListener('click', () => {
+      if (!state.result) return;
+      download(`turnover-${button.dataset.kind}.svg`, 'image/svg+xml', workbench.svg(button.dataset.kind, 640, 460));
+    });
+  }
+  $('save-page').addEventListener('click', savePage);
+  $('copy-results').addEventListener('click', async () => {
+    const text = resultsAsText();
+    try {
+      await navigator.clipboard.writeText(text);
+      $('copy-results').textContent = 'Copied';
+    } catch {
+      download('turnover-results.tsv', 'text/tab-separated-values', text);
+    }
+    setTimeout(() => ($('copy-results').textContent = 'Copy results'), 1500);
+  });
+}
+
+// For tests and for scripting from the browser console.
+window.turnover = {
+  lastResult: () => state.result,
+  lastError: () => state.error,
+  pointPositions(kind) {
+    const canvas = $(`plot-${kind}`);
+    const sx = canvas.clientWidth / canvas.width;
+    const sy = canvas.clientHeight / canvas.height;
+    return (state.positions[kind] ?? []).map((p) => ({ row: p.row, x: p.x * sx, y: p.y * sy }));
+  },
+  analyse,
+};
+
+startWasm()
+  .then(() => {
+    workbench = new wasm_bindgen.Workbench();
+    $('version').textContent = wasm_bindgen.version();
+    wire();
+    let saved = null;
+    try {
+      saved = JSON.parse($('turnover-saved-state').textContent);
+    } catch {
+      saved = null;
+    }
+    if (saved && saved.format === 'turnover-saved-state') restore(saved);
+    else loadDemo();
+    analyse();
+  })
+  .catch((error) => {
+    $('status').dataset.state = 'error';
+    $('status').textContent = `Turnover could not start its computing core: ${error?.message ?? error}`;
+  });

@@ -1,0 +1,40 @@
+// Builds the single self-contained page: www/index.html with the style
+// sheet, the wasm-bindgen glue, the WebAssembly binary (base64) and app.js
+// written into it, so that it works from file:// with no server and no
+// network. Uses Node's standard library only.
+//
+//   node www/assemble.mjs PKG_DIR OUT_FILE
+
+import { readFileSync, writeFileSync, mkdirSync } from 'node:fs';
+import { dirname, join } from 'node:path';
+import { fileURLToPath } from 'node:url';
+
+const here = dirname(fileURLToPath(import.meta.url));
+const [pkgDir, outFile] = process.argv.slice(2);
+if (!pkgDir || !outFile) {
+  console.error('usage: node www/assemble.mjs PKG_DIR OUT_FILE');
+  process.exit(2);
+}
+
+const read = (path) => readFileSync(path, 'utf8');
+// Text placed inside a <script> element must not close it early.
+const scriptSafe = (text) => text.replace(/<\/script/gi, '<\\/script').replace(/<!--/g, '<\\!--');
+
+let page = read(join(here, 'index.html'));
+const blocks = {
+  style: `<style>\n${read(join(here, 'style.css'))}</style>`,
+  wasm: `<script type="application/octet-stream" id="turnover-wasm">${readFileSync(join(pkgDir, 'turnover_wasm_bg.wasm')).toString('base64')}</script>`,
+  bindings: `<script>\n${scriptSafe(read(join(pkgDir, 'turnover_wasm.js')))}\n</script>`,
+  app: `<script type="module">\n${scriptSafe(read(join(here, 'app.js')))}\n</script>`,
+};
+for (const [name, replacement] of Object.entries(blocks)) {
+  const pattern = new RegExp(`<!-- turnover:${name} -->[\\s\\S]*?<!-- /turnover:${name} -->`);
+  if (!pattern.test(page)) {
+    console.error(`assemble: www/index.html has no turnover:${name} block`);
+    process.exit(1);
+  }
+  page = page.replace(pattern, () => replacement);
+}
+mkdirSync(dirname(outFile), { recursive: true });
+writeFileSync(outFile, page);
+console.log(`${outFile}: ${page.length} bytes`);
