@@ -25,8 +25,20 @@ const blocks = {
   style: `<style>\n${read(join(here, 'style.css'))}</style>`,
   wasm: `<script type="application/octet-stream" id="turnover-wasm">${readFileSync(join(pkgDir, 'turnover_wasm_bg.wasm')).toString('base64')}</script>`,
   bindings: `<script>\n${scriptSafe(read(join(pkgDir, 'turnover_wasm.js')))}\n</script>`,
-  app: `<script type="module">\n${scriptSafe(read(join(here, 'app.js')))}\n</script>`,
 };
+// The app block holds one or more <script type="module" src="NAME.js">
+// tags; each becomes an inline module with that file's text, in order.
+const appBlock = page.match(/<!-- turnover:app -->([\s\S]*?)<!-- \/turnover:app -->/);
+if (appBlock) {
+  const sources = [...appBlock[1].matchAll(/<script type="module" src="([\w.-]+\.js)"><\/script>/g)].map((m) => m[1]);
+  if (sources.length === 0) {
+    console.error('assemble: the turnover:app block names no module script');
+    process.exit(1);
+  }
+  blocks.app = sources
+    .map((name) => `<script type="module">\n${scriptSafe(read(join(here, name)))}\n</script>`)
+    .join('\n');
+}
 for (const [name, replacement] of Object.entries(blocks)) {
   const pattern = new RegExp(`<!-- turnover:${name} -->[\\s\\S]*?<!-- /turnover:${name} -->`);
   if (!pattern.test(page)) {

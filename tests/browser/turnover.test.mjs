@@ -169,17 +169,30 @@ async function readFit(page) {
   });
 }
 
-async function waitForOk(page, what) {
+/** Wait until #status has one of the given data-state values. */
+async function waitForState(page, what, states = ['ok']) {
   try {
     await page.waitForFunction(
-      () => document.querySelector('#status')?.getAttribute('data-state') === 'ok',
-      null, { timeout: FIT_TIMEOUT, polling: 50 });
+      (states) => states.includes(document.querySelector('#status')?.getAttribute('data-state')),
+      states, { timeout: FIT_TIMEOUT, polling: 50 });
   } catch {
     const f = await readFit(page);
-    assert.fail(`${what}: #status never reached data-state="ok" within ${FIT_TIMEOUT} ms; ` +
-      `data-state=${JSON.stringify(f.state)}, text=${JSON.stringify(f.statusText)}`);
+    assert.fail(`${what}: #status never reached data-state ${states.map((x) => JSON.stringify(x)).join(' or ')} ` +
+      `within ${FIT_TIMEOUT} ms; data-state=${JSON.stringify(f.state)}, text=${JSON.stringify(f.statusText)}`);
   }
 }
+const waitForOk = (page, what) => waitForState(page, what, ['ok']);
+// The contract defines only "ok" (used for the demo). For fits of pasted data
+// the contract asks for numbers, not a state, so a converged fit that carries
+// a warning ("warn") is accepted there; the warning is logged as a diagnostic.
+const waitForConverged = async (page, what, t) => {
+  await waitForState(page, what, ['ok', 'warn']);
+  const f = await readFit(page);
+  if (f.state !== 'ok') {
+    const warnings = await page.evaluate(() => document.querySelector('#warnings')?.innerText ?? '');
+    t.diagnostic(`${what}: data-state=${f.state}; status=${JSON.stringify(f.statusText)}; warnings=${JSON.stringify(warnings)}`);
+  }
+};
 
 const sleep = (ms) => new Promise((r) => setTimeout(r, ms));
 
@@ -235,12 +248,12 @@ test('a. demo data is fitted on load', { timeout: TEST_TIMEOUT }, async () => {
   }
 });
 
-test('b. Puromycin (treated) reproduces the published least-squares fit', { timeout: TEST_TIMEOUT }, async () => {
+test('b. Puromycin (treated) reproduces the published least-squares fit', { timeout: TEST_TIMEOUT }, async (t) => {
   const { page, watch } = await openPage();
   try {
     await waitForOk(page, 'demo fit on load');
     await analyse(page, PUROMYCIN_TEXT);
-    await waitForOk(page, 'Puromycin fit');
+    await waitForConverged(page, 'Puromycin fit', t);
     const f = await readFit(page);
     assert.ok(f.params.Vmax, `no Vmax row; rows: ${JSON.stringify(f.params)}`);
     assert.ok(f.params.Km, `no Km row; rows: ${JSON.stringify(f.params)}`);
@@ -309,7 +322,7 @@ test('d. clicking a point on the direct plot excludes it and refits; clicking ag
   try {
     await waitForOk(page, 'demo fit on load');
     await analyse(page, PUROMYCIN_TEXT);
-    await waitForOk(page, 'Puromycin fit');
+    await waitForConverged(page, 'Puromycin fit', t);
     const f0 = await readFit(page);
     const km0 = num(f0.params.Km?.value, 'Km data-value before click');
     assert.equal(sig(km0), sig(0.06412), 'Km before any exclusion');
