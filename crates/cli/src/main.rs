@@ -8,6 +8,8 @@
 use std::io::Read;
 use std::process::ExitCode;
 use turnover_core::fit::FitSummary;
+use turnover_core::intervals::{BootstrapScheme, IntervalMethod};
+use turnover_core::weighting::Weighting;
 use turnover_core::rates::{analyse_rates, RateAnalysis, RateRequest};
 use turnover_core::table::InputProblem;
 
@@ -26,6 +28,11 @@ OPTIONS for fit:
     --enzyme CONC          total enzyme concentration for kcat, such as '10 nM' or '10nM'
     --enzyme-unit U        unit of --enzyme when CONC is a bare number
     --exclude-lines LIST   input line numbers to leave out of the fit, such as 4,9
+    --weighting W          uniform (default), relative (1/v²), poisson (1/v) or sd (1/sd² from an sd column)
+    --ci METHOD            asymptotic (default, t-based), profile (profile likelihood) or bootstrap
+    --resamples N          bootstrap resamples (default 2000)
+    --seed N               bootstrap seed (default 1); the same seed gives the same intervals
+    --resample-by WHAT     bootstrap scheme: residuals (default) or cases
     --lenient              fit the usable rows even when some lines have problems
                            (the problems are still reported on standard error)
 
@@ -96,6 +103,29 @@ fn parse_fit_args(args: &[String]) -> Result<FitArgs, Failure> {
             "--rate-unit" => request.rate_unit = Some(value(&mut i, "--rate-unit")?),
             "--enzyme" => enzyme_text = Some(value(&mut i, "--enzyme")?),
             "--enzyme-unit" => request.enzyme_unit = Some(value(&mut i, "--enzyme-unit")?),
+            "--weighting" => {
+                request.weighting = Weighting::from_name(&value(&mut i, "--weighting")?).map_err(Failure::Usage)?
+            }
+            "--ci" => {
+                request.interval_method = IntervalMethod::from_name(&value(&mut i, "--ci")?).map_err(Failure::Usage)?
+            }
+            "--resamples" => {
+                let text = value(&mut i, "--resamples")?;
+                request.bootstrap.resamples =
+                    text.parse().map_err(|_| Failure::Usage(format!("--resamples: '{text}' is not a whole number")))?;
+            }
+            "--seed" => {
+                let text = value(&mut i, "--seed")?;
+                request.bootstrap.seed =
+                    text.parse().map_err(|_| Failure::Usage(format!("--seed: '{text}' is not a whole number")))?;
+            }
+            "--resample-by" => {
+                request.bootstrap.scheme = match value(&mut i, "--resample-by")?.as_str() {
+                    "residuals" => BootstrapScheme::Residual,
+                    "cases" => BootstrapScheme::Case,
+                    other => return Err(Failure::Usage(format!("--resample-by: expected residuals or cases, found '{other}'"))),
+                }
+            }
             "--exclude-lines" => {
                 let list = value(&mut i, "--exclude-lines")?;
                 for part in list.split(',').map(str::trim).filter(|p| !p.is_empty()) {
@@ -186,6 +216,9 @@ fn to_json(analysis: &RateAnalysis) -> String {
         "notes": analysis.notes,
         "units": analysis.units,
         "points": analysis.points,
+        "diagnostics": analysis.diagnostics,
+        "direct_linear": analysis.direct_linear,
+        "bootstrap": analysis.bootstrap,
         "caution": analysis.caution,
     });
     for (key, item) in extra.as_object().expect("built as an object") {
@@ -221,18 +254,24 @@ fn to_table(analysis: &RateAnalysis) -> String {
     out.push_str(&format!("Model: {} ({})\n", fit.model, fit.equation));
     out.push_str(&format!("Fit {} after {} iteration(s).\n\n", fit.termination_text, fit.iterations));
     let level = (fit.confidence_level * 100.0).round();
+    let method = fit.parameters.first().map_or("asymptotic", |p| p.ci_method.as_str());
+    out.push_str(&format!("Weighting: {}; intervals: {}\n\n", fit.weighting, method));
     out.push_str(&format!(
         "{:<10} {:>14} {:>14} {:>30}  {}\n",
         "parameter",
         "value",
         "std. error",
-        format!("{level}% interval (t)"),
+        format!("{level}% interval"),
         "unit"
     ));
     for p in &fit.parameters {
         let interval = match (p.ci_low, p.ci_high) {
-            (Some(low), Some(high)) => format!("{} to {}", number(Some(low)), number(Some(high))),
-            _ => "—".to_string(),
+            (None, None) => "—".to_string(),
+            (low, high) => format!(
+                "{} to {}",
+                low.map_or("open".to_string(), |v| number(Some(v))),
+                high.map_or("open".to_string(), |v| number(Some(v)))
+            ),
         };
         out.push_str(&format!(
             "{:<10} {:>14} {:>14} {:>30}  {}\n",
@@ -252,6 +291,30 @@ fn to_table(analysis: &RateAnalysis) -> String {
         number(fit.r_squared),
         number(fit.aicc)
     ));
+    let diagnostics = &analysis.diagnostics;
+    if let Some(runs) = &diagnostics.runs {
+        out.push_str(&format!(
+            "Runs test: {} runs ({:.1} expected), P(as few or fewer) = {:.3}\n",
+            runs.runs, runs.expected, runs.p_too_few
+        ));
+    }
+    if let Some(l) = &diagnostics.lack_of_fit {
+        out.push_str(&format!(
+            "Lack of fit: F = {:.3} on {} and {} df, P = {:.3}\n",
+            l.f, l.lack_of_fit_dof, l.pure_error_dof, l.p_value
+        ));
+    }
+    if let (Some(km), Some(vmax)) = (analysis.direct_linear.km, analysis.direct_linear.vmax) {
+        out.push_str(&format!(
+            "Direct linear plot (medians of {} intersections): Km = {}, Vmax = {}\n",
+            analysis.direct_linear.intersections,
+            number(Some(km)),
+            number(Some(vmax))
+        ));
+    }
+    if let Some(b) = &analysis.bootstrap {
+        out.push_str(&format!("Bootstrap: {} resamples, seed {}, {} refits left out\n", b.resamples, b.seed, b.failures));
+    }
     for note in &analysis.notes {
         out.push_str(&format!("note: {note}\n"));
     }

@@ -34,8 +34,12 @@ pub struct ParameterEstimate {
     /// Unit of the value, when the data's units are known.
     pub unit: Option<String>,
     /// Whether the value is computed from fitted parameters rather than
-    /// fitted itself (its uncertainty then comes from the delta method).
+    /// fitted itself.
     pub derived: bool,
+    /// How the interval was computed: `asymptotic`, `profile` or
+    /// `bootstrap` (for derived constants with the asymptotic method, by
+    /// the delta method).
+    pub ci_method: String,
 }
 
 /// Everything known about one fit.
@@ -68,6 +72,8 @@ pub struct FitSummary {
     pub termination_text: String,
     /// Confidence level of the intervals, such as 0.95.
     pub confidence_level: f64,
+    /// The weighting used, by name (`uniform`, `relative`, `poisson`, `sd`).
+    pub weighting: String,
     /// Fitted parameters, then derived ones.
     pub parameters: Vec<ParameterEstimate>,
     /// Correlation matrix of the fitted parameters (rows and columns in
@@ -214,6 +220,7 @@ fn summarise(model: &dyn Model, data: &Observations, report: SolverReport, level
         termination: report.termination.clone(),
         termination_text: report.termination.describe().to_string(),
         confidence_level: level,
+        weighting: if data.weights().iter().all(|w| *w == 1.0) { "uniform" } else { "weighted" }.to_string(),
         parameters,
         correlation,
         warnings,
@@ -235,6 +242,7 @@ pub fn estimate(name: &str, value: f64, std_error: Option<f64>, t_quantile: Opti
         ci_high: half.map(|h| value + h),
         unit: None,
         derived: false,
+        ci_method: "asymptotic".to_string(),
     }
 }
 

@@ -17,6 +17,11 @@
 //! - [`fit`]: a fit with standard errors, t intervals, R², AICc, as one
 //!   serialisable [`fit::FitSummary`].
 //! - [`plots`]: the data behind the direct, residual and linearised plots.
+//! - [`weighting`]: uniform, relative, Poisson-like and sd weights.
+//! - [`intervals`]: profile-likelihood and seeded bootstrap intervals.
+//! - [`diagnostics`]: runs test, lack of fit, leverage, studentised residuals.
+//! - [`robust`]: the direct linear plot's median estimates.
+//! - [`random`]: the seeded generator behind resampling.
 //! - [`rates`]: the whole rate analysis used by page and CLI alike.
 //!
 //! ```
@@ -35,14 +40,19 @@
 
 #![deny(missing_docs)]
 
+pub mod diagnostics;
 pub mod error;
 pub mod fit;
+pub mod intervals;
 pub mod model;
 pub mod models;
 pub mod plots;
+pub mod random;
 pub mod rates;
+pub mod robust;
 pub mod solver;
 pub mod table;
 pub mod units;
+pub mod weighting;
 
 pub use error::{Error, ErrorKind};

@@ -23,12 +23,23 @@ pub enum PlotKind {
     EadieHofstee,
     /// [S]/v against [S] (Hanes-Woolf).
     HanesWoolf,
+    /// Sorted studentised residuals against normal scores.
+    NormalQuantile,
+    /// The direct linear plot in (Km, Vmax) space.
+    DirectLinear,
 }
 
 impl PlotKind {
     /// All plots of a rate analysis, in page order.
-    pub const ALL: [PlotKind; 5] =
-        [PlotKind::Direct, PlotKind::Residuals, PlotKind::LineweaverBurk, PlotKind::EadieHofstee, PlotKind::HanesWoolf];
+    pub const ALL: [PlotKind; 7] = [
+        PlotKind::Direct,
+        PlotKind::Residuals,
+        PlotKind::LineweaverBurk,
+        PlotKind::EadieHofstee,
+        PlotKind::HanesWoolf,
+        PlotKind::NormalQuantile,
+        PlotKind::DirectLinear,
+    ];
 
     /// The kebab-case name used by the page and the CLI.
     pub fn name(self) -> &'static str {
@@ -38,6 +49,8 @@ impl PlotKind {
             PlotKind::LineweaverBurk => "lineweaver-burk",
             PlotKind::EadieHofstee => "eadie-hofstee",
             PlotKind::HanesWoolf => "hanes-woolf",
+            PlotKind::NormalQuantile => "normal-quantile",
+            PlotKind::DirectLinear => "direct-linear",
         }
     }
 
@@ -77,8 +90,24 @@ pub struct PlotData {
     pub curve: Vec<(f64, f64)>,
     /// Whether a horizontal line at y = 0 belongs on the plot.
     pub zero_line: bool,
+    /// Thin auxiliary straight segments `((x0, y0), (x1, y1))`, such as the
+    /// lines of the direct linear plot.
+    pub segments: Vec<((f64, f64), (f64, f64))>,
+    /// Labelled marks drawn over everything, such as a median estimate.
+    pub marks: Vec<Mark>,
     /// A sentence under the plot.
     pub note: String,
+}
+
+/// A labelled mark on a plot.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct Mark {
+    /// Horizontal coordinate.
+    pub x: f64,
+    /// Vertical coordinate.
+    pub y: f64,
+    /// Text beside the mark.
+    pub label: String,
 }
 
 /// One measured point in the untransformed coordinates.
@@ -92,6 +121,8 @@ pub struct RatePoint {
     pub fitted: f64,
     /// Whether the point is excluded from the fit.
     pub excluded: bool,
+    /// The point's weight in the fit (what it would be, when excluded).
+    pub weight: f64,
 }
 
 /// Units for the axis labels; empty strings when unknown.
@@ -161,21 +192,26 @@ pub fn rate_plots(
         points: points.iter().enumerate().map(|(row, p)| PlotPoint { row, x: p.s, y: p.v, excluded: p.excluded }).collect(),
         curve: direct_curve,
         zero_line: false,
+        segments: Vec::new(),
+        marks: Vec::new(),
         note: "Click a point to leave it out of the fit; click again to bring it back.".to_string(),
     });
 
+    let weighted = points.iter().any(|p| p.weight != 1.0);
     plots.push(PlotData {
         kind: PlotKind::Residuals,
-        title: "Residuals".to_string(),
+        title: if weighted { "Weighted residuals" } else { "Residuals" }.to_string(),
         x_label: label("[S]", &units.substrate),
-        y_label: label("v − fitted v", &units.rate),
+        y_label: if weighted { "√w·(v − fitted v)".to_string() } else { label("v − fitted v", &units.rate) },
         points: points
             .iter()
             .enumerate()
-            .map(|(row, p)| PlotPoint { row, x: p.s, y: p.v - p.fitted, excluded: p.excluded })
+            .map(|(row, p)| PlotPoint { row, x: p.s, y: p.weight.sqrt() * (p.v - p.fitted), excluded: p.excluded })
             .collect(),
         curve: Vec::new(),
         zero_line: true,
+        segments: Vec::new(),
+        marks: Vec::new(),
         note: "A pattern (runs of the same sign, a trend, a funnel) says the model or the weighting is wrong."
             .to_string(),
     });
@@ -223,6 +259,8 @@ pub fn rate_plots(
         points: transformable.iter().map(|(row, p)| PlotPoint { row: *row, x: 1.0 / p.s, y: 1.0 / p.v, excluded: p.excluded }).collect(),
         curve: lb_curve,
         zero_line: true,
+        segments: Vec::new(),
+        marks: Vec::new(),
         note: format!("{note_linearised} For Michaelis-Menten the line meets the axes at −1/Km and 1/Vmax.{hidden_note}"),
     });
 
@@ -238,6 +276,8 @@ pub fn rate_plots(
         points: transformable.iter().map(|(row, p)| PlotPoint { row: *row, x: p.v / p.s, y: p.v, excluded: p.excluded }).collect(),
         curve: eh_curve,
         zero_line: false,
+        segments: Vec::new(),
+        marks: Vec::new(),
         note: format!("{note_linearised} For Michaelis-Menten the slope is −Km and the v-intercept is Vmax.{hidden_note}"),
     });
 
@@ -257,10 +297,67 @@ pub fn rate_plots(
         points: transformable.iter().map(|(row, p)| PlotPoint { row: *row, x: p.s, y: p.s / p.v, excluded: p.excluded }).collect(),
         curve: hw_curve,
         zero_line: true,
+        segments: Vec::new(),
+        marks: Vec::new(),
         note: format!("{note_linearised} For Michaelis-Menten the line meets the [S] axis at −Km; its slope is 1/Vmax.{hidden_note}"),
     });
 
     plots
+}
+
+/// The normal quantile plot of studentised residuals and the direct linear
+/// plot. `studentised` holds `(row, residual, excluded)` for fitted points.
+pub fn diagnostic_plots(
+    studentised: &[(usize, f64, bool)],
+    points: &[RatePoint],
+    robust: &crate::robust::DirectLinearEstimate,
+    units: &AxisUnits,
+) -> Vec<PlotData> {
+    let mut sorted: Vec<(usize, f64)> = studentised.iter().filter(|s| !s.2).map(|s| (s.0, s.1)).collect();
+    sorted.sort_by(|a, b| a.1.total_cmp(&b.1));
+    let scores = crate::diagnostics::normal_scores(sorted.len());
+    let extent = scores.iter().map(|s| s.abs()).fold(1.0, f64::max) * 1.1;
+    let quantile = PlotData {
+        kind: PlotKind::NormalQuantile,
+        title: "Normal quantile plot of residuals".to_string(),
+        x_label: "normal score".to_string(),
+        y_label: "studentised residual".to_string(),
+        points: sorted.iter().zip(&scores).map(|((row, r), z)| PlotPoint { row: *row, x: *z, y: *r, excluded: false }).collect(),
+        curve: vec![(-extent, -extent), (extent, extent)],
+        zero_line: false,
+        segments: Vec::new(),
+        marks: Vec::new(),
+        note: "Points near the line mean roughly normal residuals; a bend means skewed errors, and lone points far off are worth a look at the bench.".to_string(),
+    };
+
+    // Direct linear plot: each used observation is the line through
+    // (−[S], 0) and (0, v) in (Km, Vmax) space, drawn to a little past the
+    // median Km so the crowd of intersections is in view.
+    let used: Vec<&RatePoint> = points.iter().filter(|p| !p.excluded && p.s > 0.0).collect();
+    let s_max = used.iter().map(|p| p.s).fold(0.0, f64::max);
+    let k_end = robust.km.map_or(s_max, |k| 2.5 * k).max(f64::MIN_POSITIVE);
+    let segments = used.iter().map(|p| ((-p.s, 0.0), (k_end, p.v + p.v / p.s * k_end))).collect();
+    let marks = match (robust.km, robust.vmax) {
+        (Some(k), Some(v)) => vec![Mark { x: k, y: v, label: "median".to_string() }],
+        _ => Vec::new(),
+    };
+    let direct_linear = PlotData {
+        kind: PlotKind::DirectLinear,
+        title: "Direct linear plot".to_string(),
+        x_label: label("Km", &units.substrate),
+        y_label: label("Vmax", &units.rate),
+        points: Vec::new(),
+        curve: Vec::new(),
+        zero_line: true,
+        segments,
+        marks,
+        note: format!(
+            "Each line is one measurement: every (Km, Vmax) that fits it exactly. The medians of the {} intersections{} are a distribution-free check on the least-squares values.",
+            robust.intersections,
+            if robust.at_infinity > 0 { format!(" ({} counted at infinity)", robust.at_infinity) } else { String::new() }
+        ),
+    };
+    vec![quantile, direct_linear]
 }
 
 #[cfg(test)]
@@ -274,7 +371,7 @@ mod tests {
         let (vmax, km) = (4.0, 0.3);
         let mm = |s: f64| vmax * s / (km + s);
         let points: Vec<RatePoint> =
-            [0.05, 0.1, 0.3, 1.0, 3.0].iter().map(|&s| RatePoint { s, v: mm(s), fitted: mm(s), excluded: false }).collect();
+            [0.05, 0.1, 0.3, 1.0, 3.0].iter().map(|&s| RatePoint { s, v: mm(s), fitted: mm(s), excluded: false, weight: 1.0 }).collect();
         let plots = rate_plots(&points, &mm, Some((vmax, km)), &AxisUnits::default());
         for plot in &plots[2..] {
             let (a, b) = (plot.curve[0], plot.curve[plot.curve.len() - 1]);

@@ -4,13 +4,17 @@
 //! [`analyse_rates`] is the one code path behind the page's results and the
 //! CLI's `fit` command.
 
+use crate::diagnostics::{residual_diagnostics, ResidualDiagnostics};
 use crate::error::Error;
-use crate::fit::{estimate, fit_model, FitSettings, FitSummary, ParameterEstimate};
-use crate::model::{Dimension, Observations};
-use crate::models::model_by_name;
-use crate::plots::{rate_plots, AxisUnits, PlotData, RatePoint};
+use crate::fit::{estimate, fit_model, Fit, FitSettings, FitSummary, ParameterEstimate};
+use crate::intervals::{bootstrap, percentile_interval, profile_interval, BootstrapScheme, BootstrapSettings, IntervalMethod};
+use crate::model::{Dimension, Model, Observations};
+use crate::models::{model_by_name, MichaelisMentenSpecificity};
+use crate::plots::{diagnostic_plots, rate_plots, AxisUnits, PlotData, RatePoint};
+use crate::robust::{direct_linear, DirectLinearEstimate};
 use crate::table::{parse_table, ColumnHeading, InputProblem, Table};
 use crate::units::{kcat_per_second, ConcentrationUnit, RateUnit};
+use crate::weighting::Weighting;
 use serde::{Deserialize, Serialize};
 
 /// What to analyse and how.
@@ -31,6 +35,12 @@ pub struct RateRequest {
     pub enzyme_unit: Option<String>,
     /// Input line numbers (1-based) to leave out of the fit.
     pub excluded_lines: Vec<usize>,
+    /// How observations are weighted. Default uniform.
+    pub weighting: Weighting,
+    /// How confidence intervals are computed. Default asymptotic.
+    pub interval_method: IntervalMethod,
+    /// Bootstrap settings, used when `interval_method` is bootstrap.
+    pub bootstrap: BootstrapSettings,
 }
 
 /// One data point as the analysis saw it.
@@ -50,6 +60,29 @@ pub struct PointRecord {
     pub fitted: f64,
     /// v − fitted.
     pub residual: f64,
+    /// The standard deviation given in an `sd` column, if any.
+    pub sd: Option<f64>,
+    /// Weight in the fit (0 for an excluded point).
+    pub weight: f64,
+    /// Leverage in the fit (`None` for an excluded point).
+    pub leverage: Option<f64>,
+    /// Internally studentised residual (`None` for an excluded point).
+    pub studentised: Option<f64>,
+    /// Whether the studentised residual is large enough to deserve a look.
+    pub flagged: bool,
+}
+
+/// How a bootstrap went.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct BootstrapReport {
+    /// Resampled data sets drawn.
+    pub resamples: usize,
+    /// Of those, refits that did not converge and were left out.
+    pub failures: usize,
+    /// The seed used.
+    pub seed: u64,
+    /// The resampling scheme.
+    pub scheme: BootstrapScheme,
 }
 
 /// The units the analysis used, as symbols; `None` when not known.
@@ -76,6 +109,12 @@ pub struct RateAnalysis {
     pub notes: Vec<String>,
     /// Units used.
     pub units: UnitsUsed,
+    /// Residual diagnostics (runs test, lack of fit, leverage).
+    pub diagnostics: ResidualDiagnostics,
+    /// The direct linear plot's median estimates, an independent check.
+    pub direct_linear: DirectLinearEstimate,
+    /// Details of the bootstrap, when intervals came from one.
+    pub bootstrap: Option<BootstrapReport>,
     /// Plot data, direct plot first.
     pub plots: Vec<PlotData>,
     /// The standing caution about what fitted constants mean.
@@ -92,6 +131,7 @@ pub const CAUTION: &str = "These constants are statistical estimates from one da
 struct Roles {
     substrate: usize,
     rate: usize,
+    sd: Option<usize>,
 }
 
 fn normalise_name(name: &str) -> String {
@@ -112,6 +152,10 @@ fn is_rate_name(name: &str) -> bool {
     )
 }
 
+fn is_sd_name(name: &str) -> bool {
+    matches!(normalise_name(name).as_str(), "sd" | "sigma" | "stdev" | "stddev" | "error" | "sdv" | "standarddeviation")
+}
+
 fn find_roles(table: &Table, notes: &mut Vec<String>) -> Result<Roles, Error> {
     let Some(headings) = &table.headings else {
         if table.width < 2 {
@@ -121,18 +165,19 @@ fn find_roles(table: &Table, notes: &mut Vec<String>) -> Result<Roles, Error> {
         if table.width > 2 {
             notes.push(format!("Columns 3 to {} are not used.", table.width));
         }
-        return Ok(Roles { substrate: 0, rate: 1 });
+        return Ok(Roles { substrate: 0, rate: 1, sd: None });
     };
+    let sd = headings.iter().position(|h| is_sd_name(&h.name));
     let substrate = headings.iter().position(|h| is_substrate_name(&h.name));
     let rate = headings.iter().position(|h| is_rate_name(&h.name));
     let roles = match (substrate, rate) {
-        (Some(s), Some(v)) => Roles { substrate: s, rate: v },
+        (Some(s), Some(v)) => Roles { substrate: s, rate: v, sd },
         _ if headings.len() == 2 => {
             notes.push(format!(
                 "The header names '{}' and '{}' are not ones Turnover knows; column 1 is read as [S] and column 2 as v.",
                 headings[0].name, headings[1].name
             ));
-            Roles { substrate: 0, rate: 1 }
+            Roles { substrate: 0, rate: 1, sd: None }
         }
         _ => {
             return Err(Error::invalid_data(format!(
@@ -142,7 +187,7 @@ fn find_roles(table: &Table, notes: &mut Vec<String>) -> Result<Roles, Error> {
         }
     };
     for (index, heading) in headings.iter().enumerate() {
-        if index != roles.substrate && index != roles.rate {
+        if index != roles.substrate && index != roles.rate && Some(index) != roles.sd {
             notes.push(format!("Column {} ('{}') is not used.", index + 1, heading.name));
         }
     }
@@ -184,6 +229,14 @@ pub fn analyse_rates(request: &RateRequest) -> Result<RateAnalysis, Error> {
         ));
     }
     let roles = find_roles(&table, &mut notes)?;
+    if request.weighting == Weighting::Sd && roles.sd.is_none() {
+        return Err(Error::invalid_option(
+            "weighting by sd needs a column of standard deviations headed sd (or sigma, stdev)",
+        ));
+    }
+    if request.weighting != Weighting::Sd && roles.sd.is_some() {
+        notes.push("The sd column is read but not used for weighting; choose weighting by sd to use it.".to_string());
+    }
     let heading = |i: usize| table.headings.as_ref().and_then(|h| h.get(i));
     let substrate_unit =
         choose_unit(&request.substrate_unit, heading(roles.substrate), ConcentrationUnit::parse, "[S]", &mut notes)?;
@@ -210,15 +263,36 @@ pub fn analyse_rates(request: &RateRequest) -> Result<RateAnalysis, Error> {
             });
             continue;
         }
+        let sd = roles.sd.and_then(|c| row.cells.get(c).copied().flatten());
+        let weight = match request.weighting.weight(*v, sd) {
+            Ok(w) => w,
+            Err(message) => {
+                let column = if request.weighting == Weighting::Sd { roles.sd } else { Some(roles.rate) };
+                problems.push(InputProblem { line: row.line, column: column.map(|c| c + 1), message });
+                continue;
+            }
+        };
+        let excluded = request.excluded_lines.contains(&row.line);
         points.push(PointRecord {
             row: points.len(),
             line: row.line,
             s: *s,
             v: *v,
-            excluded: request.excluded_lines.contains(&row.line),
+            excluded,
             fitted: f64::NAN,
             residual: f64::NAN,
+            sd,
+            weight: if excluded { 0.0 } else { weight },
+            leverage: None,
+            studentised: None,
+            flagged: false,
         });
+        if excluded {
+            // Keep the weight the point would have, for the residual plot.
+            if let Some(last) = points.last_mut() {
+                last.weight = weight;
+            }
+        }
     }
     problems.sort_by_key(|p| (p.line, p.column));
     if !problems.is_empty() {
@@ -243,16 +317,25 @@ pub fn analyse_rates(request: &RateRequest) -> Result<RateAnalysis, Error> {
         1,
         used.iter().map(|p| p.s).collect(),
         used.iter().map(|p| p.v).collect(),
-        None,
+        Some(used.iter().map(|p| p.weight).collect()),
     )?;
-    let fit = fit_model(model.as_ref(), &observations, None, &FitSettings::default())?;
+    let settings = FitSettings::default();
+    let fit = fit_model(model.as_ref(), &observations, None, &settings)?;
     let values = fit.values().to_vec();
     for point in &mut points {
         point.fitted = model.value(&[point.s], &values);
         point.residual = point.v - point.fitted;
     }
+    let diagnostics = residual_diagnostics(model.as_ref(), &observations, &fit);
+    for (used_index, point) in points.iter_mut().filter(|p| !p.excluded).enumerate() {
+        let d = &diagnostics.points[used_index];
+        point.leverage = d.leverage.is_finite().then_some(d.leverage);
+        point.studentised = d.studentised;
+        point.flagged = d.flagged;
+    }
 
     let mut summary = fit.summary.clone();
+    summary.weighting = request.weighting.name().to_string();
     let unit_of = |dimension: Dimension| -> Option<String> {
         match dimension {
             Dimension::Response => rate_unit.map(|u| u.symbol()),
@@ -264,44 +347,13 @@ pub fn analyse_rates(request: &RateRequest) -> Result<RateAnalysis, Error> {
     for (estimate, spec) in summary.parameters.iter_mut().zip(model.parameters()) {
         estimate.unit = unit_of(spec.dimension);
     }
+    summary.warnings.extend(design_warnings(&fit, &used));
 
-    // Design warnings for the hyperbola (common practice, no source: the
-    // usual advice is to span roughly 0.2–5×Km, and at least past 2×Km).
-    let (vmax, km) = (values[0], values[1]);
-    let s_used_max = used.iter().map(|p| p.s).fold(f64::MIN, f64::max);
-    let s_used_min = used.iter().map(|p| p.s).fold(f64::MAX, f64::min);
-    if fit.summary.converged {
-        if km <= 0.0 || vmax <= 0.0 {
-            summary.warnings.push(format!(
-                "The fit gives a non-positive {} ; this has no physical meaning. Check the data and the model.",
-                if km <= 0.0 { "Km" } else { "Vmax" }
-            ));
-        } else {
-            if s_used_max < 2.0 * km {
-                summary.warnings.push(format!(
-                    "The highest [S] is only {:.2}×Km, so Vmax is an extrapolation. Common practice (no formal source) is to reach at least 2×Km, better 5–10×Km.",
-                    s_used_max / km
-                ));
-            }
-            if s_used_min > km {
-                summary.warnings.push(format!(
-                    "The lowest [S] is {:.2}×Km; with no points below Km, Km is poorly defined. Add concentrations below Km (common practice, no source).",
-                    s_used_min / km
-                ));
-            }
-        }
-        if let Some(r) = summary.correlation.first().and_then(|row| row.get(1)).copied().flatten() {
-            if r.abs() > 0.99 {
-                summary.warnings.push(format!(
-                    "Vmax and Km are correlated at r = {r:.3}; the data determine them poorly one at a time (threshold 0.99: common practice, no source)."
-                ));
-            }
-        }
-    }
-
-    // kcat and kcat/Km from [E]t, with delta-method uncertainty using the
-    // full covariance of (Vmax, Km).
+    // kcat and kcat/Km from [E]t: the factors that turn Vmax into kcat and
+    // Vmax/Km into kcat/Km, when the units allow.
     let mut enzyme_symbol = None;
+    let mut kcat_factor = None;
+    let mut specificity_factor = None;
     if let Some(enzyme) = request.enzyme {
         if !(enzyme.is_finite() && enzyme > 0.0) {
             return Err(Error::invalid_option("the enzyme concentration [E]t must be a positive number"));
@@ -311,45 +363,66 @@ pub fn analyse_rates(request: &RateRequest) -> Result<RateAnalysis, Error> {
         })?;
         let enzyme_unit = ConcentrationUnit::parse(enzyme_unit_text).map_err(Error::invalid_option)?;
         enzyme_symbol = Some(enzyme_unit.symbol().to_string());
-        match (rate_unit, substrate_unit) {
-            (Some(rate), substrate) => {
+        match rate_unit {
+            Some(rate) => {
                 let to_kcat = kcat_per_second(1.0, rate, enzyme, enzyme_unit);
-                let covariance = fit.covariance.as_ref();
-                let kcat_se = summary.parameters[0].std_error.map(|se| se * to_kcat);
-                let mut kcat = estimate("kcat", vmax * to_kcat, kcat_se, fit.t_quantile);
-                kcat.unit = Some("s⁻¹".to_string());
-                kcat.derived = true;
-                summary.parameters.push(kcat);
-                if let Some(substrate) = substrate {
-                    let scale = to_kcat / substrate.in_molar();
-                    let value = scale * vmax / km;
-                    let se = covariance.map(|c| {
-                        let (dv, dk) = (scale / km, -scale * vmax / (km * km));
-                        (dv * dv * c[(0, 0)] + dk * dk * c[(1, 1)] + 2.0 * dv * dk * c[(0, 1)]).sqrt()
-                    });
-                    let mut specificity: ParameterEstimate =
-                        estimate("kcat/Km", value, se.filter(|v| v.is_finite()), fit.t_quantile);
-                    specificity.unit = Some("M⁻¹ s⁻¹".to_string());
-                    specificity.derived = true;
-                    summary.parameters.push(specificity);
-                } else {
-                    summary.warnings.push("kcat/Km needs the unit of [S]; choose it or write it in the header.".to_string());
+                kcat_factor = Some(to_kcat);
+                match substrate_unit {
+                    Some(substrate) => specificity_factor = Some(to_kcat / substrate.in_molar()),
+                    None => summary
+                        .warnings
+                        .push("kcat/Km needs the unit of [S]; choose it or write it in the header.".to_string()),
                 }
             }
-            (None, _) => summary
+            None => summary
                 .warnings
                 .push("kcat needs the unit of v (a concentration per time); choose it or write it in the header.".to_string()),
         }
     }
+    add_derived(&mut summary, &fit, kcat_factor, specificity_factor);
 
-    let rate_points: Vec<RatePoint> =
-        points.iter().map(|p| RatePoint { s: p.s, v: p.v, fitted: p.fitted, excluded: p.excluded }).collect();
+    let bootstrap_report = match request.interval_method {
+        IntervalMethod::Asymptotic => None,
+        IntervalMethod::Profile => {
+            profile_intervals(&mut summary, model.as_ref(), &observations, &fit, kcat_factor, specificity_factor);
+            None
+        }
+        IntervalMethod::Bootstrap => Some(bootstrap_intervals(
+            &mut summary,
+            model.as_ref(),
+            &observations,
+            &fit,
+            &request.bootstrap,
+            kcat_factor,
+            specificity_factor,
+        )?),
+    };
+    summary.warnings.extend(diagnostics.findings.iter().cloned());
+
+    let robust_points: Vec<(f64, f64)> = used.iter().filter(|p| p.s > 0.0).map(|p| (p.s, p.v)).collect();
+    let robust = direct_linear(&robust_points);
+    if let (Some(km_robust), Some(vmax_robust)) = (robust.km, robust.vmax) {
+        let (vmax, km) = (values[0], values[1]);
+        if fit.summary.converged && ((km_robust / km - 1.0).abs() > 0.5 || (vmax_robust / vmax - 1.0).abs() > 0.25) {
+            summary.warnings.push(format!(
+                "The direct linear plot's medians (Km {km_robust:.4}, Vmax {vmax_robust:.4}) differ markedly from the least-squares values: one or a few points may be pulling the fit. (Thresholds 50% for Km and 25% for Vmax: common practice, no source.)"
+            ));
+        }
+    }
+
+    let rate_points: Vec<RatePoint> = points
+        .iter()
+        .map(|p| RatePoint { s: p.s, v: p.v, fitted: p.fitted, excluded: p.excluded, weight: p.weight })
+        .collect();
     let axis_units = AxisUnits {
         substrate: substrate_unit.map(|u| u.symbol().to_string()).unwrap_or_default(),
         rate: rate_unit.map(|u| u.symbol()).unwrap_or_default(),
     };
     let curve = |s: f64| model.value(&[s], &values);
-    let plots = rate_plots(&rate_points, &curve, Some((vmax, km)), &axis_units);
+    let mut plots = rate_plots(&rate_points, &curve, Some((values[0], values[1])), &axis_units);
+    let studentised: Vec<(usize, f64, bool)> =
+        points.iter().filter_map(|p| p.studentised.map(|r| (p.row, r, p.excluded))).collect();
+    plots.extend(diagnostic_plots(&studentised, &rate_points, &robust, &axis_units));
 
     Ok(RateAnalysis {
         fit: summary,
@@ -361,9 +434,185 @@ pub fn analyse_rates(request: &RateRequest) -> Result<RateAnalysis, Error> {
             rate: rate_unit.map(|u| u.symbol()),
             enzyme: enzyme_symbol,
         },
+        diagnostics,
+        direct_linear: robust,
+        bootstrap: bootstrap_report,
         plots,
         caution: CAUTION.to_string(),
     })
+}
+
+/// Warnings about what the design lets the data determine, for the
+/// hyperbola (common practice, no source: the usual advice is to span
+/// roughly 0.2–5×Km, and at least past 2×Km).
+fn design_warnings(fit: &Fit, used: &[PointRecord]) -> Vec<String> {
+    let mut warnings = Vec::new();
+    if !fit.summary.converged {
+        return warnings;
+    }
+    let (vmax, km) = (fit.values()[0], fit.values()[1]);
+    let s_max = used.iter().map(|p| p.s).fold(f64::MIN, f64::max);
+    let s_min = used.iter().map(|p| p.s).fold(f64::MAX, f64::min);
+    if km <= 0.0 || vmax <= 0.0 {
+        warnings.push(format!(
+            "The fit gives a non-positive {}; this has no physical meaning. Check the data and the model.",
+            if km <= 0.0 { "Km" } else { "Vmax" }
+        ));
+    } else {
+        if s_max < 2.0 * km {
+            warnings.push(format!(
+                "The highest [S] is only {:.2}×Km, so Vmax is an extrapolation. Common practice (no formal source) is to reach at least 2×Km, better 5–10×Km.",
+                s_max / km
+            ));
+        }
+        if s_min > km {
+            warnings.push(format!(
+                "The lowest [S] is {:.2}×Km; with no points below Km, Km is poorly defined. Add concentrations below Km (common practice, no source).",
+                s_min / km
+            ));
+        }
+    }
+    if let Some(r) = fit.summary.correlation.first().and_then(|row| row.get(1)).copied().flatten() {
+        if r.abs() > 0.99 {
+            warnings.push(format!(
+                "Vmax and Km are correlated at r = {r:.3}; the data determine them poorly one at a time (threshold 0.99: common practice, no source)."
+            ));
+        }
+    }
+    warnings
+}
+
+/// Appends kcat and kcat/Km with delta-method uncertainty from the full
+/// covariance of (Vmax, Km); [E]t is taken as exact.
+fn add_derived(summary: &mut FitSummary, fit: &Fit, kcat_factor: Option<f64>, specificity_factor: Option<f64>) {
+    let (vmax, km) = (fit.values()[0], fit.values()[1]);
+    if let Some(factor) = kcat_factor {
+        let se = summary.parameters[0].std_error.map(|se| se * factor);
+        let mut kcat = estimate("kcat", vmax * factor, se, fit.t_quantile);
+        kcat.unit = Some("s⁻¹".to_string());
+        kcat.derived = true;
+        kcat.ci_method = "delta".to_string();
+        summary.parameters.push(kcat);
+    }
+    if let Some(scale) = specificity_factor {
+        let se = fit.covariance.as_ref().map(|c| {
+            let (dv, dk) = (scale / km, -scale * vmax / (km * km));
+            (dv * dv * c[(0, 0)] + dk * dk * c[(1, 1)] + 2.0 * dv * dk * c[(0, 1)]).sqrt()
+        });
+        let mut specificity: ParameterEstimate = estimate("kcat/Km", scale * vmax / km, se.filter(|v| v.is_finite()), fit.t_quantile);
+        specificity.unit = Some("M⁻¹ s⁻¹".to_string());
+        specificity.derived = true;
+        specificity.ci_method = "delta".to_string();
+        summary.parameters.push(specificity);
+    }
+}
+
+/// Replaces every interval by its profile-likelihood interval. kcat's is
+/// Vmax's scaled; kcat/Km's comes from refitting the curve with Vmax/Km as
+/// a parameter and profiling that.
+fn profile_intervals(
+    summary: &mut FitSummary,
+    model: &dyn Model,
+    data: &Observations,
+    fit: &Fit,
+    kcat_factor: Option<f64>,
+    specificity_factor: Option<f64>,
+) {
+    let n_fitted = fit.values().len();
+    let mut unbounded = Vec::new();
+    for j in 0..n_fitted {
+        let (low, high) = profile_interval(model, data, fit, j);
+        let estimate = &mut summary.parameters[j];
+        if low.is_none() || high.is_none() {
+            unbounded.push(estimate.name.clone());
+        }
+        estimate.ci_low = low;
+        estimate.ci_high = high;
+        estimate.ci_method = "profile".to_string();
+    }
+    let mut next = n_fitted;
+    if let Some(factor) = kcat_factor {
+        let (low, high) = (summary.parameters[0].ci_low, summary.parameters[0].ci_high);
+        let kcat = &mut summary.parameters[next];
+        kcat.ci_low = low.map(|v| v * factor);
+        kcat.ci_high = high.map(|v| v * factor);
+        kcat.ci_method = "profile".to_string();
+        next += 1;
+    }
+    if let Some(scale) = specificity_factor {
+        let reparameterised = MichaelisMentenSpecificity;
+        let (vmax, km) = (fit.values()[0], fit.values()[1]);
+        let start = [vmax / km, km];
+        let interval = fit_model(&reparameterised, data, Some(&start), &FitSettings::default())
+            .ok()
+            .filter(|f| f.summary.converged)
+            .map(|f| profile_interval(&reparameterised, data, &f, 0));
+        let specificity = &mut summary.parameters[next];
+        match interval {
+            Some((low, high)) => {
+                specificity.ci_low = low.map(|v| v * scale);
+                specificity.ci_high = high.map(|v| v * scale);
+            }
+            None => {
+                specificity.ci_low = None;
+                specificity.ci_high = None;
+            }
+        }
+        if specificity.ci_low.is_none() || specificity.ci_high.is_none() {
+            unbounded.push("kcat/Km".to_string());
+        }
+        specificity.ci_method = "profile".to_string();
+    }
+    if !unbounded.is_empty() {
+        summary.warnings.push(format!(
+            "The profile interval of {} is open on at least one side: within the search the data do not bound it at this confidence level.",
+            unbounded.join(", ")
+        ));
+    }
+}
+
+/// Replaces every interval by a bootstrap percentile interval; derived
+/// constants are computed from each resample's parameters.
+fn bootstrap_intervals(
+    summary: &mut FitSummary,
+    model: &dyn Model,
+    data: &Observations,
+    fit: &Fit,
+    settings: &BootstrapSettings,
+    kcat_factor: Option<f64>,
+    specificity_factor: Option<f64>,
+) -> Result<BootstrapReport, Error> {
+    if settings.resamples < 100 || settings.resamples > 100_000 {
+        return Err(Error::invalid_option("the number of bootstrap resamples must be between 100 and 100,000"));
+    }
+    if !fit.summary.converged {
+        summary.warnings.push("No bootstrap was run because the fit itself did not converge.".to_string());
+        return Ok(BootstrapReport { resamples: 0, failures: 0, seed: settings.seed, scheme: settings.scheme });
+    }
+    let sample = bootstrap(model, data, fit, settings);
+    let level = summary.confidence_level;
+    let n_fitted = fit.values().len();
+    let column = |f: &dyn Fn(&[f64]) -> f64| -> Vec<f64> { sample.estimates.iter().map(|p| f(p)).collect() };
+    let mut quantities: Vec<Vec<f64>> = (0..n_fitted).map(|j| column(&|p| p[j])).collect();
+    if let Some(factor) = kcat_factor {
+        quantities.push(column(&|p| p[0] * factor));
+    }
+    if let Some(scale) = specificity_factor {
+        quantities.push(column(&|p| scale * p[0] / p[1]));
+    }
+    for (estimate, values) in summary.parameters.iter_mut().zip(&quantities) {
+        let (low, high) = percentile_interval(values, level);
+        estimate.ci_low = low;
+        estimate.ci_high = high;
+        estimate.ci_method = "bootstrap".to_string();
+    }
+    if sample.failures * 20 > settings.resamples {
+        summary.warnings.push(format!(
+            "{} of {} bootstrap refits did not converge and were left out; the intervals may be too narrow.",
+            sample.failures, settings.resamples
+        ));
+    }
+    Ok(BootstrapReport { resamples: settings.resamples, failures: sample.failures, seed: settings.seed, scheme: settings.scheme })
 }
 
 #[cfg(test)]

@@ -29,9 +29,24 @@ const GRID: RGBColor = RGBColor(226, 230, 232);
 
 /// Padded bounds of everything on the plot; the direct plot's axes start at
 /// zero because rates and concentrations do.
+/// Auxiliary segments count only by their first end (the direct linear
+/// plot's lines start on the axis); marks widen the vertical range to twice
+/// their height so the lines around them are in view.
 fn bounds(plot: &PlotData) -> ((f64, f64), (f64, f64)) {
-    let xs = plot.points.iter().map(|p| p.x).chain(plot.curve.iter().map(|c| c.0));
-    let ys = plot.points.iter().map(|p| p.y).chain(plot.curve.iter().map(|c| c.1));
+    let xs = plot
+        .points
+        .iter()
+        .map(|p| p.x)
+        .chain(plot.curve.iter().map(|c| c.0))
+        .chain(plot.segments.iter().flat_map(|s| [s.0 .0, s.1 .0]))
+        .chain(plot.marks.iter().map(|m| m.x));
+    let ys = plot
+        .points
+        .iter()
+        .map(|p| p.y)
+        .chain(plot.curve.iter().map(|c| c.1))
+        .chain(plot.segments.iter().map(|s| s.0 .1))
+        .chain(plot.marks.iter().flat_map(|m| [m.y, 2.0 * m.y]));
     let span = |values: &mut dyn Iterator<Item = f64>, include_zero: bool| {
         let (mut low, mut high) = (f64::INFINITY, f64::NEG_INFINITY);
         for v in values.filter(|v| v.is_finite()) {
@@ -77,14 +92,19 @@ pub fn draw_plot<DB: DrawingBackend>(
         .axis_desc_style(("sans-serif", 12).into_font().color(&INK))
         .x_labels(6)
         .y_labels(6)
-        .x_label_formatter(&|v| tick(*v))
-        .y_label_formatter(&|v| tick(*v))
+        .x_label_formatter(&|v| tick(snap_to_zero(*v, x1 - x0)))
+        .y_label_formatter(&|v| tick(snap_to_zero(*v, y1 - y0)))
         .draw()?;
     if plot.zero_line || x0 < 0.0 {
         chart.draw_series(LineSeries::new([(x0, 0.0), (x1, 0.0)], INK.mix(0.5)))?;
     }
     if x0 < 0.0 && x1 > 0.0 {
         chart.draw_series(LineSeries::new([(0.0, y0), (0.0, y1)], INK.mix(0.5)))?;
+    }
+    for &(a, b) in &plot.segments {
+        if let Some((a, b)) = clip_segment(a, b, (x0, x1), (y0, y1)) {
+            chart.draw_series(LineSeries::new([a, b], INK.mix(0.35)))?;
+        }
     }
     if plot.curve.len() > 1 {
         chart.draw_series(LineSeries::new(plot.curve.iter().copied(), CURVE.stroke_width(2)))?;
@@ -96,6 +116,23 @@ pub fn draw_plot<DB: DrawingBackend>(
         chart.draw_series(std::iter::once(Circle::new((p.x, p.y), 5, LEFT_OUT.stroke_width(2))))?;
         chart.draw_series(std::iter::once(Cross::new((p.x, p.y), 3, LEFT_OUT.stroke_width(1))))?;
     }
+    for mark in &plot.marks {
+        let style = CURVE.filled();
+        chart.draw_series(std::iter::once(Polygon::new(
+            vec![
+                (mark.x, mark.y + (y1 - y0) * 0.02),
+                (mark.x + (x1 - x0) * 0.015, mark.y),
+                (mark.x, mark.y - (y1 - y0) * 0.02),
+                (mark.x - (x1 - x0) * 0.015, mark.y),
+            ],
+            style,
+        )))?;
+        chart.draw_series(std::iter::once(Text::new(
+            format!("{} ({}, {})", mark.label, tick(mark.x), tick(mark.y)),
+            (mark.x + (x1 - x0) * 0.025, mark.y),
+            ("sans-serif", 12).into_font().color(&INK),
+        )))?;
+    }
     Ok(plot
         .points
         .iter()
@@ -104,6 +141,39 @@ pub fn draw_plot<DB: DrawingBackend>(
             PointPosition { row: p.row, x, y }
         })
         .collect())
+}
+
+/// Clips the segment a–b to the box (Liang & Barsky 1984), so long
+/// auxiliary lines never spill outside the plotting area.
+fn clip_segment(a: (f64, f64), b: (f64, f64), xr: (f64, f64), yr: (f64, f64)) -> Option<((f64, f64), (f64, f64))> {
+    let (dx, dy) = (b.0 - a.0, b.1 - a.1);
+    let mut t0: f64 = 0.0;
+    let mut t1: f64 = 1.0;
+    for (p, q) in [(-dx, a.0 - xr.0), (dx, xr.1 - a.0), (-dy, a.1 - yr.0), (dy, yr.1 - a.1)] {
+        if p == 0.0 {
+            if q < 0.0 {
+                return None;
+            }
+        } else {
+            let r = q / p;
+            if p < 0.0 {
+                t0 = t0.max(r);
+            } else {
+                t1 = t1.min(r);
+            }
+        }
+    }
+    (t0 <= t1).then(|| ((a.0 + t0 * dx, a.1 + t0 * dy), (a.0 + t1 * dx, a.1 + t1 * dy)))
+}
+
+/// Tick positions are computed by repeated addition, so zero can arrive as
+/// 1e-17; anything that small against the axis span is zero.
+fn snap_to_zero(value: f64, span: f64) -> f64 {
+    if value.abs() < 1e-9 * span.abs() {
+        0.0
+    } else {
+        value
+    }
 }
 
 /// Tick labels with few digits and no trailing zeros.
@@ -148,7 +218,11 @@ mod tests {
         for plot in &analysis.plots {
             let svg = plot_svg(plot, 480, 360).unwrap();
             assert!(svg.starts_with("<svg"), "{:?}", plot.kind);
-            assert!(svg.contains("<circle"), "{:?} has no points", plot.kind);
+            if plot.points.is_empty() {
+                assert!(svg.contains("<polygon") || svg.contains("<path"), "{:?} has no mark", plot.kind);
+            } else {
+                assert!(svg.contains("<circle"), "{:?} has no points", plot.kind);
+            }
             assert!(svg.contains(&plot.title.replace('&', "&amp;")) || svg.contains("<text"), "{:?}", plot.kind);
         }
     }

@@ -2,7 +2,7 @@
 
 mod michaelis_menten;
 
-pub use michaelis_menten::MichaelisMenten;
+pub use michaelis_menten::{MichaelisMenten, MichaelisMentenSpecificity};
 
 use crate::error::Error;
 use crate::model::Model;

@@ -1,0 +1,90 @@
+//! Observation weights for the least-squares fit.
+//!
+//! Rates measured over a wide range rarely have constant error. The choices
+//! here are the usual ones: constant absolute error (uniform), constant
+//! relative error (1/v²), error growing like a count (1/v), or the
+//! standard deviation of each rate given in an `sd` column (1/sd²). Weights
+//! use the **measured** v, so they are fixed during the fit; that matches R's
+//! `nls(weights = )` and SciPy's `curve_fit(sigma = )`, which is what the
+//! cross-checks compare against.
+//!
+//! With any weighting the covariance is still scaled by the residual
+//! variance (`absolute_sigma = False` in SciPy's terms): standard
+//! deviations are taken as relative, and the fit's residual SD says how far
+//! they were off in scale (near 1 when they were right).
+
+use serde::{Deserialize, Serialize};
+
+/// How observations are weighted.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Weighting {
+    /// Every observation weight 1: constant absolute error.
+    #[default]
+    Uniform,
+    /// Weight 1/v²: constant relative (percentage) error.
+    Relative,
+    /// Weight 1/v: variance proportional to the rate, as for counts.
+    Poisson,
+    /// Weight 1/sd² from a standard-deviation column.
+    Sd,
+}
+
+impl Weighting {
+    /// Every choice, for menus and help.
+    pub const ALL: [Weighting; 4] = [Weighting::Uniform, Weighting::Relative, Weighting::Poisson, Weighting::Sd];
+
+    /// The name the CLI and page use.
+    pub fn name(self) -> &'static str {
+        match self {
+            Weighting::Uniform => "uniform",
+            Weighting::Relative => "relative",
+            Weighting::Poisson => "poisson",
+            Weighting::Sd => "sd",
+        }
+    }
+
+    /// Reads a weighting by [`Weighting::name`].
+    pub fn from_name(name: &str) -> Result<Weighting, String> {
+        Weighting::ALL.into_iter().find(|w| w.name() == name.trim()).ok_or_else(|| {
+            format!("unknown weighting '{}'; expected uniform, relative, poisson or sd", name.trim())
+        })
+    }
+
+    /// A phrase for people, such as `weights 1/v² (constant relative error)`.
+    pub fn describe(self) -> &'static str {
+        match self {
+            Weighting::Uniform => "uniform weights (constant absolute error)",
+            Weighting::Relative => "weights 1/v² (constant relative error)",
+            Weighting::Poisson => "weights 1/v (variance proportional to v)",
+            Weighting::Sd => "weights 1/sd² from the sd column",
+        }
+    }
+
+    /// The weight of one observation with measured rate `v` and, when
+    /// given, standard deviation `sd`; `Err` says why it cannot be weighted.
+    pub fn weight(self, v: f64, sd: Option<f64>) -> Result<f64, String> {
+        match self {
+            Weighting::Uniform => Ok(1.0),
+            Weighting::Relative => {
+                if v == 0.0 {
+                    Err("a rate of 0 cannot have weight 1/v²".to_string())
+                } else {
+                    Ok(1.0 / (v * v))
+                }
+            }
+            Weighting::Poisson => {
+                if v > 0.0 {
+                    Ok(1.0 / v)
+                } else {
+                    Err(format!("weight 1/v needs a positive rate, found {v}"))
+                }
+            }
+            Weighting::Sd => match sd {
+                Some(sd) if sd > 0.0 && sd.is_finite() => Ok(1.0 / (sd * sd)),
+                Some(sd) => Err(format!("a standard deviation must be positive, found {sd}")),
+                None => Err("weighting by sd needs a standard deviation on every row".to_string()),
+            },
+        }
+    }
+}
