@@ -26,6 +26,10 @@ For each dataset the script
 Relative difference is |turnover - reference| / |reference| (absolute
 difference if the reference is exactly 0).
 
+Two further sections weight by the measured rates: ``--weighting relative``
+(weights 1/v^2, curve_fit sigma=v) and ``--weighting poisson`` (weights 1/v,
+curve_fit sigma=sqrt(v)), on the same generated weighted datasets.
+
 The weighted section is skipped (and counted as skipped) if the binary rejects
 the ``--weighting`` option as unknown.  In the weighted section rss is taken to
 be the weighted residual sum of squares, sum(((v - f) / sd)**2), which is the
@@ -418,6 +422,30 @@ def main(argv=None):
                 tally.fail_all(name, N_CHECKS, "binary crashed / bad output")
                 continue
             compare(tally, name, out, ref)
+        # Weights computed from the measured rates: relative (1/v^2) is
+        # curve_fit(sigma=v), Poisson-like (1/v) is curve_fit(sigma=sqrt(v)).
+        for scheme, sigma_of in (("relative", lambda v: np.abs(v)),
+                                 ("poisson", lambda v: np.sqrt(v))):
+            print()
+            print(f"== Weighted Michaelis-Menten fits (--weighting {scheme}, "
+                  f"curve_fit sigma from measured v) ==")
+            header()
+            for name, desc, s, v, _sd in wsets:
+                name = f"{name}_{scheme}"
+                path = workdir / f"{name}.tsv"
+                write_tsv(path, (s, v), ("S", "v"))
+                s_r, v_r = read_tsv(path, 2)
+                ref = scipy_fit(s_r, v_r, sd=sigma_of(v_r))
+                print(f"# {name}: {desc} (n={s_r.size})")
+                try:
+                    out = run_turnover(binary, path, ("--weighting", scheme))
+                except (OptionRejected, CliCrash) as exc:
+                    crashed = True
+                    print(f"ERROR: Turnover failed on {name}: {exc}",
+                          file=sys.stderr)
+                    tally.fail_all(name, N_CHECKS, "binary failed")
+                    continue
+                compare(tally, name, out, ref)
     finally:
         if ctx is not None:
             ctx.cleanup()
