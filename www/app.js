@@ -8,7 +8,7 @@
 // "Save page with data" can write a copy of the very same file.
 const PRISTINE_PAGE = '<!DOCTYPE html>\n' + document.documentElement.outerHTML;
 
-const PLOT_KINDS = ['direct', 'residuals', 'lineweaver-burk', 'eadie-hofstee', 'hanes-woolf'];
+const PLOT_KINDS = ['direct', 'residuals', 'lineweaver-burk', 'eadie-hofstee', 'hanes-woolf', 'normal-quantile', 'direct-linear'];
 
 // Invented demo scenario (not measured data): a fictional hydrolase "Hyd-3"
 // from an imaginary pond isolate, assayed at 30 °C with 25 nM enzyme;
@@ -27,7 +27,7 @@ const DEMO_TABLE = `# Demo (invented data): hydrolase Hyd-3, 30 °C, pH 7.5, [E]
 0.8\t5.933
 0.8\t6.121
 1.6\t7.877
-1.6\t9.117
+1.6\t8.517
 3.2\t9.954
 3.2\t10.128
 6.4\t11.020
@@ -38,6 +38,9 @@ const $ = (id) => document.getElementById(id);
 
 const state = {
   excluded: new Set(),
+  // True while the [E]t field holds the demo's value, so that pasting
+  // one's own data does not silently reuse the demo enzyme concentration.
+  enzymeFromDemo: false,
   result: null,
   positions: {},
   error: null,
@@ -67,8 +70,33 @@ function request() {
     enzyme: enzyme === null || Number.isNaN(enzyme) ? (enzymeText === '' ? null : -1) : enzyme,
     enzyme_unit: $('enzyme-unit').value,
     excluded_lines: [...state.excluded],
+    weighting: $('weighting').value,
+    interval_method: $('interval-method').value,
+    bootstrap: {
+      resamples: wholeNumber($('resamples').value, 2000),
+      seed: wholeNumber($('seed').value, 1),
+      scheme: $('resample-by').value,
+    },
   };
 }
+
+function wholeNumber(text, fallback) {
+  const value = Number(String(text).trim());
+  return Number.isInteger(value) && value >= 0 ? value : fallback;
+}
+
+const METHOD_TEXT = {
+  asymptotic: 'intervals from the asymptotic covariance s²(JᵀJ)⁻¹ and Student\'s t',
+  profile: 'profile-likelihood intervals (each constant held fixed in turn, the others refitted; F-based cut-off), which follow the curvature of the model and may be asymmetric',
+  bootstrap: 'bootstrap percentile intervals',
+};
+const WEIGHT_TEXT = {
+  uniform: 'equal weights',
+  relative: 'weights 1/v² (constant relative error)',
+  poisson: 'weights 1/v',
+  sd: 'weights 1/sd² from the sd column',
+  weighted: 'weights',
+};
 
 function formatNumber(value, digits = 4) {
   if (value === null || value === undefined || !Number.isFinite(value)) return '—';
@@ -82,6 +110,20 @@ function formatNumber(value, digits = 4) {
   if (!text.includes('e')) return text;
   const [mantissa, exponent] = text.split('e');
   return `${mantissa}×10${superscript(Number(exponent))}`;
+}
+
+// Interval ends in the same style as the estimate: the same number of
+// decimals, or the same power of ten, so a row reads as one.
+function formatLike(reference, value) {
+  if (value === null || value === undefined || !Number.isFinite(value)) return 'open';
+  if (!Number.isFinite(reference) || reference === 0) return formatNumber(value, 4);
+  const magnitude = Math.floor(Math.log10(Math.abs(reference)));
+  if (magnitude >= 6 || magnitude <= -4) {
+    const scaled = value / 10 ** magnitude;
+    return `${scaled.toFixed(3)}×10${superscript(magnitude)}`;
+  }
+  const decimals = Math.max(0, 3 - magnitude);
+  return value.toFixed(decimals);
 }
 
 function superscript(text) {
@@ -137,14 +179,15 @@ function showResult(result) {
       element('td', {}, p.name),
       element('td', { class: 'num value' }, formatNumber(p.value, 4)),
       element('td', { class: 'num se' }, formatNumber(p.std_error, 3)),
-      element('td', { class: 'num ci' }, p.ci_low === null ? '—' : `${formatNumber(p.ci_low, 4)} to ${formatNumber(p.ci_high, 4)}`),
+      element('td', { class: 'num ci', title: `interval: ${p.ci_method}` },
+        p.ci_low === null && p.ci_high === null ? '—' : `${formatLike(p.value, p.ci_low)} to ${formatLike(p.value, p.ci_high)}`),
       element('td', { class: 'unit' }, p.unit ?? '(no unit given)'),
     );
     body.append(row);
   }
   if (fit.parameters.some((p) => p.derived)) {
     const note = element('tr', { class: 'footnote' });
-    note.append(element('td', { colspan: '5', class: 'hint' }, '† computed from Vmax, Km and [E]t; uncertainty by the delta method with the full covariance, [E]t taken as exact.'));
+    note.append(element('td', { colspan: '5', class: 'hint' }, '† computed from Vmax, Km and [E]t ([E]t taken as exact); standard error by the delta method with the full covariance; interval by the method chosen (delta method when asymptotic; kcat/Km profiled by refitting with Vmax/Km as a parameter).'));
     body.append(note);
   }
 
@@ -167,6 +210,15 @@ function showResult(result) {
     stats.append(item);
   }
 
+  const method = fit.parameters[0]?.ci_method ?? 'asymptotic';
+  let methodText = `Nonlinear least squares (Levenberg-Marquardt) fitted directly to v with ${WEIGHT_TEXT[fit.weighting] ?? fit.weighting}; standard errors from the asymptotic covariance; ${METHOD_TEXT[method] ?? method}.`;
+  if (result.bootstrap) {
+    const b = result.bootstrap;
+    methodText += ` Bootstrap: ${b.resamples} resamples of the ${b.scheme === 'case' ? 'rows' : 'residuals'}, seed ${b.seed}${b.failures ? `, ${b.failures} refits left out` : ''}.`;
+  }
+  $('method').textContent = methodText;
+  showChecks(result);
+
   const warnings = $('warnings');
   warnings.replaceChildren(...fit.warnings.map((w) => element('li', {}, w)));
   $('notes').replaceChildren(...result.notes.map((n) => element('li', {}, n)));
@@ -177,12 +229,55 @@ function showResult(result) {
   }
 }
 
+function showChecks(result) {
+  const list = $('diagnostics');
+  list.replaceChildren();
+  const add = (term, text) => list.append(element('dt', {}, term), element('dd', {}, text));
+  const d = result.diagnostics;
+  if (d.runs) {
+    add('Runs of residual signs', `${d.runs.runs} runs (${d.runs.expected.toFixed(1)} expected for random signs); P(this few or fewer) = ${d.runs.p_too_few.toFixed(3)}`);
+  } else {
+    add('Runs of residual signs', 'not available (all residuals have one sign)');
+  }
+  if (d.lack_of_fit) {
+    const l = d.lack_of_fit;
+    add('Lack of fit vs replicates', `F = ${l.f.toFixed(2)} on ${l.lack_of_fit_dof} and ${l.pure_error_dof} df, P = ${l.p_value.toFixed(3)}`);
+  } else {
+    add('Lack of fit vs replicates', 'needs replicate [S] values and more distinct [S] than parameters');
+  }
+  const flagged = result.points.filter((p) => p.flagged).map((p) => `line ${p.line}`);
+  add('Large studentised residuals (|r| > 2.5)', flagged.length ? flagged.join(', ') : 'none');
+  const robust = result.direct_linear;
+  const units = result.units;
+  add('Direct linear plot medians', robust.km === null || robust.vmax === null
+    ? 'not available'
+    : `Km ${formatNumber(robust.km, 4)} ${units.substrate ?? ''}, Vmax ${formatNumber(robust.vmax, 4)} ${units.rate ?? ''} (from ${robust.intersections} intersections)`);
+
+  const table = $('correlation');
+  table.replaceChildren();
+  const fitted = result.fit.parameters.filter((p) => !p.derived);
+  table.append(element('caption', {}, 'Correlation of the fitted constants'));
+  const head = element('tr');
+  head.append(element('th'), ...fitted.map((p) => element('th', {}, p.name)));
+  table.append(head);
+  fitted.forEach((p, i) => {
+    const row = element('tr');
+    row.append(element('th', {}, p.name), ...fitted.map((_, j) => {
+      const r = result.fit.correlation[i]?.[j];
+      return element('td', {}, r === null || r === undefined ? '—' : r.toFixed(3));
+    }));
+    table.append(row);
+  });
+}
+
 function clearResult(message) {
   $('status').dataset.state = 'error';
   $('status').textContent = message;
   $('parameters').tBodies[0].replaceChildren();
   $('fit-stats').replaceChildren();
   $('warnings').replaceChildren();
+  $('diagnostics').replaceChildren();
+  $('correlation').replaceChildren();
   for (const kind of PLOT_KINDS) {
     const canvas = $(`plot-${kind}`);
     const context = canvas.getContext('2d');
@@ -311,6 +406,14 @@ function restore(saved) {
   $('enzyme').value = r.enzyme ?? '';
   if (r.enzyme_unit) $('enzyme-unit').value = r.enzyme_unit;
   state.excluded = new Set(r.excluded_lines ?? []);
+  if (r.weighting) $('weighting').value = r.weighting;
+  if (r.interval_method) $('interval-method').value = r.interval_method;
+  if (r.bootstrap) {
+    $('resamples').value = r.bootstrap.resamples ?? 2000;
+    $('seed').value = r.bootstrap.seed ?? 1;
+    $('resample-by').value = r.bootstrap.scheme ?? 'residual';
+  }
+  $('bootstrap-options').hidden = $('interval-method').value !== 'bootstrap';
   $('saved-info').textContent = `opened a saved analysis from ${saved.saved_at}`;
 }
 
@@ -320,13 +423,23 @@ function loadDemo() {
   $('rate-unit').value = '';
   $('enzyme').value = '25';
   $('enzyme-unit').value = 'nM';
+  state.enzymeFromDemo = true;
   state.excluded.clear();
+}
+
+// Called when the table is replaced by the user's own data.
+function forgetDemoEnzyme() {
+  if (state.enzymeFromDemo) {
+    $('enzyme').value = '';
+    state.enzymeFromDemo = false;
+  }
 }
 
 function readFile(file) {
   const reader = new FileReader();
   reader.onload = () => {
     $('data-input').value = String(reader.result);
+    forgetDemoEnzyme();
     state.excluded.clear();
     analyse();
   };
@@ -337,11 +450,23 @@ function readFile(file) {
 function wire() {
   $('analyse').addEventListener('click', analyse);
   $('data-input').addEventListener('input', () => {
+    if (!$('data-input').value.startsWith('# Demo (invented data)')) forgetDemoEnzyme();
     state.excluded.clear();
     analyseSoon();
   });
-  for (const id of ['substrate-unit', 'rate-unit', 'enzyme-unit']) $(id).addEventListener('change', analyse);
-  $('enzyme').addEventListener('input', analyseSoon);
+  $('data-input').addEventListener('paste', () => setTimeout(() => {
+    if (!$('data-input').value.startsWith('# Demo (invented data)')) forgetDemoEnzyme();
+  }, 0));
+  for (const id of ['substrate-unit', 'rate-unit', 'enzyme-unit', 'weighting', 'resample-by']) $(id).addEventListener('change', analyse);
+  $('interval-method').addEventListener('change', () => {
+    $('bootstrap-options').hidden = $('interval-method').value !== 'bootstrap';
+    analyse();
+  });
+  for (const id of ['resamples', 'seed']) $(id).addEventListener('input', analyseSoon);
+  $('enzyme').addEventListener('input', () => {
+    state.enzymeFromDemo = false;
+    analyseSoon();
+  });
   $('load-demo').addEventListener('click', () => {
     loadDemo();
     analyse();

@@ -335,7 +335,7 @@ pub fn diagnostic_plots(
     // median Km so the crowd of intersections is in view.
     let used: Vec<&RatePoint> = points.iter().filter(|p| !p.excluded && p.s > 0.0).collect();
     let s_max = used.iter().map(|p| p.s).fold(0.0, f64::max);
-    let k_end = robust.km.map_or(s_max, |k| 2.5 * k).max(f64::MIN_POSITIVE);
+    let k_end = robust.km.map_or(s_max, |k| (2.5 * k).max(0.5 * s_max)).max(f64::MIN_POSITIVE);
     let segments = used.iter().map(|p| ((-p.s, 0.0), (k_end, p.v + p.v / p.s * k_end))).collect();
     let marks = match (robust.km, robust.vmax) {
         (Some(k), Some(v)) => vec![Mark { x: k, y: v, label: "median".to_string() }],

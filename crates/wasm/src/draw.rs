@@ -127,11 +127,17 @@ pub fn draw_plot<DB: DrawingBackend>(
             ],
             style,
         )))?;
-        chart.draw_series(std::iter::once(Text::new(
-            format!("{} ({}, {})", mark.label, tick(mark.x), tick(mark.y)),
-            (mark.x + (x1 - x0) * 0.025, mark.y),
-            ("sans-serif", 12).into_font().color(&INK),
-        )))?;
+        // Labels go to the right of the mark, or to the left in the
+        // right-hand third of the plot so they are not cut off.
+        let text = format!("{} ({}, {})", mark.label, tick(mark.x), tick(mark.y));
+        let left = mark.x > x0 + (x1 - x0) * 0.6;
+        let offset = (x1 - x0) * 0.025;
+        let anchor_x = if left { mark.x - offset } else { mark.x + offset };
+        let style = ("sans-serif", 12).into_font().color(&INK).pos(plotters::style::text_anchor::Pos::new(
+            if left { plotters::style::text_anchor::HPos::Right } else { plotters::style::text_anchor::HPos::Left },
+            plotters::style::text_anchor::VPos::Bottom,
+        ));
+        chart.draw_series(std::iter::once(Text::new(text, (anchor_x, mark.y), style)))?;
     }
     Ok(plot
         .points
