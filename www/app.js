@@ -356,10 +356,11 @@ function resultsAsText() {
   const fit = state.result.fit;
   const lines = [
     `# Turnover ${wasm_bindgen.version()} · ${fit.equation} · ${new Date().toISOString()}`,
-    ['constant', 'estimate', 'std_error', 'ci_low', 'ci_high', 'unit'].join('\t'),
+    `# weighting: ${fit.weighting}; ${Math.round(fit.confidence_level * 100)}% intervals`,
+    ['constant', 'estimate', 'std_error', 'ci_low', 'ci_high', 'ci_method', 'unit'].join('\t'),
   ];
   for (const p of fit.parameters) {
-    lines.push([p.name, p.value, p.std_error ?? '', p.ci_low ?? '', p.ci_high ?? '', p.unit ?? ''].join('\t'));
+    lines.push([p.name, p.value, p.std_error ?? '', p.ci_low ?? '', p.ci_high ?? '', p.ci_method, p.unit ?? ''].join('\t'));
   }
   lines.push(`# n = ${fit.n}, dof = ${fit.dof}, residual SD = ${fit.sigma}, RSS = ${fit.rss}, R² = ${fit.r_squared}, AICc = ${fit.aicc}, converged = ${fit.converged}`);
   const excluded = state.result.points.filter((p) => p.excluded).map((p) => p.line);

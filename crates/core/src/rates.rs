@@ -313,6 +313,17 @@ pub fn analyse_rates(request: &RateRequest) -> Result<RateAnalysis, Error> {
             n_params
         )));
     }
+    let mut distinct: Vec<f64> = used.iter().map(|p| p.s).collect();
+    distinct.sort_by(f64::total_cmp);
+    distinct.dedup();
+    if distinct.len() < n_params {
+        return Err(Error::invalid_data(format!(
+            "the points cover only {} distinct [S] value(s); {} parameters need at least {} (for a useful fit, 5 or more spread around Km)",
+            distinct.len(),
+            n_params,
+            n_params
+        )));
+    }
     let observations = Observations::new(
         1,
         used.iter().map(|p| p.s).collect(),
@@ -673,6 +684,8 @@ mod tests {
             ("S\tv\n1\t2\n2\t3\n", "only 2 usable point(s) remain"),
             ("time\ttemp\tabs\n1\t2\t3\n", "cannot tell which columns hold [S] and v"),
             ("1\n2\n3\n", "the table needs two columns"),
+            ("S\tv\n1\t2\n1\t2.1\n1\t1.9\n", "only 1 distinct [S] value(s)"),
+            ("S\tv\n1\t-1\n2\t-2\n3\t-2.5\n", "enter the rates as positive numbers"),
         ];
         for (text, expected) in cases {
             let error = analyse_rates(&request(text)).unwrap_err();

@@ -52,7 +52,8 @@ impl Model for MichaelisMenten {
             s.iter().zip(v).filter(|(s, v)| **s > 0.0 && **v > 0.0).map(|(s, v)| (*s, *v)).collect();
         if usable.len() < 2 {
             return Err(Error::numerical(
-                "starting values need at least two points with positive [S] and positive rate",
+                "a Michaelis-Menten fit needs at least two points with positive [S] and a positive rate; \
+                 if your signal falls as the reaction runs, enter the rates as positive numbers",
             ));
         }
         let points: Vec<(f64, f64)> = usable.iter().map(|(s, v)| (*s, s / v)).collect();
