@@ -48,12 +48,19 @@ const state = {
 
 let workbench = null;
 
-function startWasm() {
+async function startWasm() {
   const holder = $('turnover-wasm');
   if (holder) {
-    const binary = Uint8Array.from(atob(holder.textContent.trim()), (c) => c.charCodeAt(0));
+    let binary = Uint8Array.from(atob(holder.textContent.trim()), (c) => c.charCodeAt(0));
+    if (holder.dataset.encoding === 'gzip') {
+      if (typeof DecompressionStream === 'undefined') {
+        throw new Error('this browser is too old to unpack the page (it lacks DecompressionStream); use a current Chrome, Edge, Firefox or Safari');
+      }
+      const stream = new Blob([binary]).stream().pipeThrough(new DecompressionStream('gzip'));
+      binary = new Uint8Array(await new Response(stream).arrayBuffer());
+    }
     wasm_bindgen.initSync({ module: binary });
-    return Promise.resolve();
+    return;
   }
   // Development only: served from a folder next to target/pkg.
   return wasm_bindgen({ module_or_path: '../target/pkg/turnover_wasm_bg.wasm' });
