@@ -536,7 +536,8 @@ window.turnover = {
   analyse,
 };
 
-startWasm()
+// Other page modules wait on this before calling into the core.
+window.turnover.ready = startWasm()
   .then(() => {
     workbench = new wasm_bindgen.Workbench();
     $('version').textContent = wasm_bindgen.version();
@@ -550,6 +551,7 @@ startWasm()
     if (saved && saved.format === 'turnover-saved-state') restore(saved);
     else loadDemo();
     analyse();
+    return wasm_bindgen;
   })
   .catch((error) => {
     $('status').dataset.state = 'error';
