@@ -18,6 +18,10 @@
 //!   serialisable [`fit::FitSummary`].
 //! - [`plots`]: the data behind the direct, residual and linearised plots.
 //! - [`rates`]: the whole rate analysis used by page and CLI alike.
+//! - [`traces`]: time courses to initial rates (windows, flags, blanks,
+//!   Beer-Lambert or a standard curve), and the rate table they make.
+//! - [`lambert`]: the Lambert W function.
+//! - [`progress`]: the integrated Michaelis-Menten fit to whole time courses.
 //!
 //! ```
 //! use turnover_core::rates::{analyse_rates, RateRequest};
@@ -37,12 +41,15 @@
 
 pub mod error;
 pub mod fit;
+pub mod lambert;
 pub mod model;
 pub mod models;
 pub mod plots;
+pub mod progress;
 pub mod rates;
 pub mod solver;
 pub mod table;
+pub mod traces;
 pub mod units;
 
 pub use error::{Error, ErrorKind};
