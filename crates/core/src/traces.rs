@@ -388,7 +388,7 @@ fn is_time_name(name: &str) -> bool {
 fn is_temperature(heading: &ColumnHeading) -> bool {
     let name = normalise_name(&heading.name);
     name.starts_with("temp")
-        || name.contains("°c")
+        || name.contains('°')
         || heading.unit.as_deref().is_some_and(|u| u.contains('°') || u == "C" || u == "K")
 }
 
@@ -488,6 +488,24 @@ fn read_traces(
         ));
     }
     let (header_line, header_cells) = &split_lines[header_index];
+    let merged;
+    let header_cells = if sep == ' ' {
+        // Aligned with spaces, `time (s)` splits in two: a cell that is a
+        // unit in brackets belongs to the cell before it.
+        let mut cells: Vec<String> = Vec::new();
+        for cell in header_cells {
+            let is_unit = (cell.starts_with('(') && cell.ends_with(')')) || (cell.starts_with('[') && cell.ends_with(']') && cell.len() > 2 && !cells.is_empty() && cell.chars().nth(1).is_some_and(|c| !c.is_ascii_uppercase() || cell.len() > 3));
+            match cells.last_mut() {
+                Some(last) if is_unit && cell.starts_with('(') => { last.push(' '); last.push_str(cell); }
+                _ => cells.push(cell.to_string()),
+            }
+        }
+        merged = cells;
+        merged.iter().map(String::as_str).collect::<Vec<&str>>()
+    } else {
+        header_cells.clone()
+    };
+    let header_cells = &header_cells;
     let headings: Vec<ColumnHeading> = header_cells.iter().map(|c| parse_heading(c)).collect();
     let time_heading = &headings[0];
     let clock = split_lines.get(header_index + 1).is_some_and(|(_, c)| c.first().is_some_and(|c| parse_clock(c).is_some()));
@@ -560,11 +578,13 @@ fn read_traces(
                 continue;
             }
         }
-        if row.len() != headings.len() {
+        // A short row is read as empty cells at its end (a spreadsheet drops
+        // trailing blanks), each flagged below; a long one is a problem.
+        if row.len() > headings.len() {
             problems.push(InputProblem {
                 line: *line,
                 column: None,
-                message: format!("expected {} columns, found {}", headings.len(), row.len()),
+                message: format!("expected {} columns, found {}; the extra cells were not used", headings.len(), row.len()),
             });
         }
         times.push(time);
@@ -1359,4 +1379,111 @@ fn enzyme_check(s: Option<f64>, i: Option<f64>, points: Vec<(f64, f64, String)>)
         curvature_p,
         messages,
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn request(traces: &str, layout: &str) -> TraceRequest {
+        TraceRequest { traces: traces.into(), layout: layout.into(), epsilon: Some(6220.0), path_cm: Some(1.0), ..TraceRequest::default() }
+    }
+
+    /// A plate-reader style export: metadata block, clock times, a
+    /// temperature column, overflow markers and a blank cell.
+    const EXPORT: &str = "Plate run 7\nWavelength: 340 nm\n\nTime\tTemp (°C)\tA1\tA2\tA3\n0:00:00\t25.0\t0.100\t0.200\t0.050\n0:00:30\t25.1\t0.110\t0.220\t0.050\n0:01:00\t25.0\t0.120\tOVRFLW\t\n0:01:30\t25.0\t0.130\t>3.5\t0.050\n0:02:00\t25.1\t0.140\t*\t0.050\n0:02:30\t25.0\t0.150\tOVER\t0.050\n";
+
+    #[test]
+    fn plate_export_is_read_with_markers_flagged() {
+        let layout = "trace\tS (µM)\trole\nA1\t100\tsample\nA2\t100\tsample\nA3\t\tblank\n";
+        let result = analyse_traces(&request(EXPORT, layout)).unwrap();
+        assert_eq!(result.time_unit, "s");
+        assert_eq!(result.traces.iter().map(|t| t.name.as_str()).collect::<Vec<_>>(), ["A1", "A2", "A3"]);
+        assert!(result.notes.iter().any(|n| n.contains("Lines 1–2") && n.contains("metadata")), "{:?}", result.notes);
+        assert!(result.notes.iter().any(|n| n.contains("temperature")), "{:?}", result.notes);
+        let found: Vec<String> = result.problems.iter().map(|p| p.to_string()).collect();
+        let expected = [
+            "line 7, column 4: 'OVRFLW' marks a reading over the detector's range; it and later points are not used for the rate",
+            "line 7, column 5: the cell is empty; it is left out, not guessed",
+            "line 8, column 4: '>3.5' marks a reading over the detector's range; it and later points are not used for the rate",
+            "line 9, column 4: '*' marks a reading over the detector's range; it and later points are not used for the rate",
+            "line 10, column 4: 'OVER' marks a reading over the detector's range; it and later points are not used for the rate",
+        ];
+        assert_eq!(found, expected);
+        let a1 = &result.traces[0];
+        assert_eq!(a1.blanks_subtracted, ["A3"]);
+        // 0.010 absorbance per 30 s over ε = 6220 M⁻¹cm⁻¹, 1 cm: 1.6077 µM/30 s,
+        // 3.2154 µM/min in µM/s: 0.053591 µM/s. The blank's missing cell at
+        // 60 s makes that point missing, not guessed.
+        assert!((a1.rate.unwrap() - 0.01 / 30.0 / 6220.0 * 1e6).abs() < 1e-12, "{:?}", a1.rate);
+        assert_eq!(a1.values[2], None);
+        let a2 = &result.traces[1];
+        assert!(a2.flags.contains(&"over-range".to_string()));
+        assert!(a2.flags.contains(&"few-points".to_string()));
+        assert_eq!(a2.rate, None);
+    }
+
+    /// Each bad input and the error it must give.
+    #[test]
+    fn fatal_inputs_name_what_was_expected() {
+        let cases = [
+            ("", "the time-course table is empty"),
+            ("time\tA1\n0\t1\n", "line 1, column 1: the time heading 'time' has no unit"),
+            ("time (fortnight)\tA1\n0\t1\n", "line 1, column 1: unknown time unit 'fortnight'"),
+            ("time (s)\tTemp (°C)\n0\t25\n", "the header names no trace columns"),
+            ("time (s)\tA1\n", "no rows of numbers"),
+        ];
+        for (text, expected) in cases {
+            let error = analyse_traces(&request(text, "")).unwrap_err();
+            assert!(error.message.contains(expected), "{text:?}: {}", error.message);
+        }
+        let error = analyse_traces(&request("time (s)\tA1\n0\t1\n1\t2\n", "S (µM)\n1\n")).unwrap_err();
+        assert!(error.message.contains("needs a 'trace'"), "{}", error.message);
+    }
+
+    #[test]
+    fn bad_cells_and_times_are_problems_not_panics() {
+        let text = "time (min)\tA1\tA1\tB1\n0\t0.1\t0.1\t0.2\n1\tx\t0.2\t0.3\n1\t0.3\t0.3\t0.4\nzz\t0.4\t0.4\t0.5\n2\t0.5\t0.5\t0.6\n";
+        let result = analyse_traces(&request(text, "trace\tS (mM)\tE (nM)\nA1\t1\t5\nB1\t2\tabc\n")).unwrap();
+        let found: Vec<String> = result.problems.iter().map(|p| p.to_string()).collect();
+        assert_eq!(
+            found,
+            [
+                "line 1, column 3: the trace name 'A1' is used twice; the second column was not used",
+                "line 3, column 2: expected a number, found 'x'",
+                "line 3, column 3: layout: expected a number, found 'abc'",
+                "line 4, column 1: the time 1 does not increase from the line before (1); the line was not used",
+                "line 5, column 1: expected a number, found 'zz' (the time); the line was not used",
+            ]
+        );
+    }
+
+    /// Microplate path length: 200 µL in a 6.4 mm well, h = 200/(π·3.2²)
+    /// mm = 6.217 mm (arithmetic; the well size is typical of a 96-well
+    /// plate, common practice, no source).
+    #[test]
+    fn path_length_from_well_geometry() {
+        let path = path_from_well(200.0, 6.4).unwrap();
+        assert!((path - 200.0 / (std::f64::consts::PI * 3.2 * 3.2) / 10.0).abs() < 1e-15);
+        assert!((path - 0.6217).abs() < 1e-4, "{path}");
+        assert!(path_from_well(0.0, 6.4).is_err());
+    }
+
+    /// A standard curve with exact points returns its line and converts.
+    #[test]
+    fn standard_curve_converts_signal() {
+        let standard = "c (µM)\tA405\n0\t0.05\n10\t0.23\n20\t0.41\n40\t0.77\n";
+        let traces = "time (min)\tW1\n0\t0.05\n1\t0.068\n2\t0.086\n3\t0.104\n4\t0.122\n5\t0.140\n";
+        let mut req = request(traces, "trace\tS (mM)\nW1\t1\n");
+        req.epsilon = None;
+        req.path_cm = None;
+        req.standard = Some(standard.into());
+        let result = analyse_traces(&req).unwrap();
+        let curve = result.standard.as_ref().unwrap();
+        assert!((curve.slope - 0.018).abs() < 1e-12 && (curve.intercept - 0.05).abs() < 1e-12);
+        // 0.018 per minute is 1 µM/min = 0.001 mM/min.
+        assert_eq!(result.rate_unit, "mM/min");
+        assert!((result.traces[0].rate.unwrap() - 0.001).abs() < 1e-12);
+        assert!(result.rate_table.starts_with("[S] (mM)\tv (mM/min)\n1\t"));
+    }
 }
