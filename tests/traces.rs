@@ -181,3 +181,35 @@ fn integrated_fit_recovers_the_constants() {
     assert!((vmax.value - 2.0).abs() <= 3.0 * vmax.std_error.unwrap());
     assert_eq!(s.dof, 24 * 100 - 26);
 }
+
+/// Lambert W against SciPy: `scipy.special.lambertw(z, k=0)` on 261
+/// points from just above −1/e to 1e300, written by
+/// tests/scipy/lambertw_grid.py into tests/data/lambertw/scipy_grid.csv.
+/// Agreement to 4e-15 relative (or absolute near W = 0); near the branch
+/// point, where W has infinite slope, the SciPy value is itself only as
+/// good as z's last digit allows, so the bound there is scaled by the
+/// condition number |z·W'/W|.
+#[test]
+fn lambert_w_matches_scipy() {
+    use turnover_core::lambert::lambert_w0;
+    let text = include_str!("data/lambertw/scipy_grid.csv");
+    let (mut passed, mut failed) = (0, 0);
+    let mut worst: f64 = 0.0;
+    for line in text.lines().filter(|l| !l.starts_with('#') && !l.starts_with('z')) {
+        let (z, w) = line.split_once(',').unwrap();
+        let (z, expected): (f64, f64) = (z.parse().unwrap(), w.parse().unwrap());
+        let w = lambert_w0(z).unwrap();
+        let condition = if expected != 0.0 { (1.0 / (1.0 + expected)).abs().max(1.0) } else { 1.0 };
+        let error = if expected == 0.0 { w.abs() } else { (w - expected).abs() / expected.abs() };
+        worst = worst.max(error / condition);
+        if error <= 4e-15 * condition {
+            passed += 1;
+        } else {
+            failed += 1;
+            println!("z = {z:e}: W = {w:e}, SciPy {expected:e}, relative error {error:e}");
+        }
+    }
+    println!("Lambert W vs SciPy: {passed} passed, {failed} failed, worst scaled error {worst:e}");
+    assert_eq!(failed, 0);
+    assert!(passed >= 261);
+}

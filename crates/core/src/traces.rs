@@ -25,7 +25,8 @@
 //!    errors). So the curvature is also estimated once, by a quadratic over
 //!    a longer reference span (up to three times the conversion limit), and
 //!    the bias it implies for the line over the window, `c₂·Σ(t−t̄)t²/Σ(t−t̄)²`,
-//!    must stay below half the line's standard error.
+//!    must stay below half the line's standard error (or below 0.01 % of
+//!    the slope, negligible whatever the noise).
 //! 3. **Initial-rate conditions:** the product formed by the end of the
 //!    window is at most [`TraceRequest::max_conversion`] of [S]0 (10 % by
 //!    default: common practice for initial-rate conditions, no source).
@@ -923,6 +924,7 @@ fn automatic_window(t: &[f64], y: &[f64], rules: &WindowRules) -> Option<(Window
     let y0 = y[0];
     let scaled: Vec<f64> = t.iter().map(|v| (v - t0) / span).collect();
     let shifted: Vec<f64> = y.iter().map(|v| v - y0).collect();
+    let y_scale = shifted.iter().fold(0.0f64, |m, v| m.max(v.abs())).max(f64::MIN_POSITIVE);
 
     // Reference span for the curvature: up to three times the conversion
     // limit (or every point when [S]0 is unknown).
@@ -952,7 +954,10 @@ fn automatic_window(t: &[f64], y: &[f64], rules: &WindowRules) -> Option<(Window
             }
         }
         let dof_quad = points as f64 - 3.0;
-        let linear_ok = match sums.quadratic_rss() {
+        // Residuals at the level of rounding (exact or synthetic data) say
+        // nothing about curvature.
+        let rounding = (rss_line / points as f64).sqrt() <= 1e-9 * y_scale;
+        let linear_ok = rounding || match sums.quadratic_rss() {
             Some(rss_quad) if rss_quad > 0.0 => {
                 let f = (rss_line - rss_quad) / (rss_quad / dof_quad);
                 let critical = student_t_quantile(0.975, dof_quad).map(|q| q * q).unwrap_or(f64::INFINITY);
@@ -967,7 +972,9 @@ fn automatic_window(t: &[f64], y: &[f64], rules: &WindowRules) -> Option<(Window
                 let mean_t = sums.t[1] / sums.n;
                 let bias = c2 * (sums.t[3] - mean_t * sums.t[2]) / sxx;
                 let se = (rss_line / (points as f64 - 2.0) / sxx).sqrt();
-                bias.abs() <= 0.5 * se
+                // A bias below 0.01 % of the slope is negligible for any
+                // use of a rate, even when the noise is smaller still.
+                rounding || bias.abs() <= (0.5 * se).max(1e-4 * slope.abs())
             }
             None => true,
         };
@@ -1312,7 +1319,7 @@ fn rate_for_trace(result: &mut TraceResult, cells: &[CellState], request: &Trace
         }
     }
     if let Some(se) = fit.slope_se {
-        if fit.slope == 0.0 || se > NOISY_RELATIVE_SE * fit.slope.abs() {
+        if result.role == Role::Sample && se > NOISY_RELATIVE_SE * fit.slope.abs() {
             flag(result, "noisy", format!("The rate's standard error is more than {:.0} % of the rate.", NOISY_RELATIVE_SE * 100.0));
         }
     }
