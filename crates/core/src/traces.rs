@@ -1215,9 +1215,27 @@ pub fn analyse_traces(request: &TraceRequest) -> Result<TraceAnalysis, Error> {
         rate_table.push_str(&format!("\t[I]{}", unit_suffix(&layout.i_unit)));
     }
     rate_table.push('\n');
+    // Rates at different [E] do not belong in one Michaelis-Menten fit: when
+    // [E] varies, only the samples at the most common [E] go in.
+    let mut enzyme_levels: Vec<(f64, usize)> = Vec::new();
+    for r in results.iter().filter(|r| r.role == Role::Sample && !r.excluded && r.rate.is_some()) {
+        if let Some(e) = r.e {
+            match enzyme_levels.iter_mut().find(|(v, _)| same(Some(*v), Some(e))) {
+                Some(level) => level.1 += 1,
+                None => enzyme_levels.push((e, 1)),
+            }
+        }
+    }
+    let chosen_enzyme = (enzyme_levels.len() > 1).then(|| enzyme_levels.iter().max_by_key(|l| l.1).map(|l| l.0)).flatten();
+    if let Some(e) = chosen_enzyme {
+        notes.push(format!("[E] differs between samples; the rate table holds the samples at [E] = {e}, the most common."));
+    }
     let mut rate_links = Vec::new();
     for r in &results {
         if r.role != Role::Sample || r.excluded {
+            continue;
+        }
+        if chosen_enzyme.is_some() && !same(r.e, chosen_enzyme) {
             continue;
         }
         let (Some(s), Some(rate), Some(start), Some(end)) = (r.s, r.rate, r.window_start, r.window_end) else { continue };
