@@ -213,3 +213,42 @@ fn lambert_w_matches_scipy() {
     assert_eq!(failed, 0);
     assert!(passed >= 261);
 }
+
+/// Benchmark, not a test of speed: `cargo test --release -p turnover-tests
+/// --test traces -- --ignored --nocapture`. Times the rates for a
+/// 384-well plate of 100 points and the whole-curve fit, and prints each as
+/// a ratio to a reference computed in the same run: a plain least-squares
+/// line through every full trace (the least any rate finder must do).
+#[test]
+#[ignore]
+fn benchmark_384_wells() {
+    use std::time::Instant;
+    let p = plate(99, 384, 100, 0.25, 50.0, 2.0, 0.001, &[5.0, 10.0, 20.0, 40.0, 80.0, 160.0, 320.0, 640.0]);
+    let req = request(&p);
+    let reference = || {
+        let t0 = Instant::now();
+        let mut total = 0.0;
+        for _ in 0..20 {
+            let table: Vec<Vec<f64>> = p.traces.lines().skip(2).map(|l| l.split('\t').map(|c| c.parse().unwrap()).collect()).collect();
+            for w in 1..=384 {
+                let x: Vec<f64> = table.iter().map(|r| r[0]).collect();
+                let y: Vec<f64> = table.iter().map(|r| r[w]).collect();
+                total += turnover_core::traces::straight_line(&x, &y).unwrap().slope;
+            }
+        }
+        assert!(total.is_finite());
+        t0.elapsed().as_secs_f64() / 20.0
+    };
+    let base = reference();
+    let t0 = Instant::now();
+    let analysis = analyse_traces(&req).unwrap();
+    let rates = t0.elapsed().as_secs_f64();
+    let t1 = Instant::now();
+    let fit = fit_progress(&analysis).unwrap();
+    let whole = t1.elapsed().as_secs_f64();
+    assert!(fit.summary.converged);
+    println!(
+        "384 wells × 100 points: reference lines {:.2} ms; rates {:.1} ms ({:.0}× reference); whole-curve fit {:.1} ms ({:.0}× reference)",
+        base * 1e3, rates * 1e3, rates / base, whole * 1e3, whole / base
+    );
+}
