@@ -5,6 +5,8 @@
 //! [`main`]: 0 success, 2 bad input or usage, 3 the fit did not converge
 //! (its numbers are still printed, marked as such).
 
+mod traces;
+
 use std::io::Read;
 use std::process::ExitCode;
 use turnover_core::fit::FitSummary;
@@ -19,7 +21,7 @@ turnover: enzyme kinetics from the command line
 USAGE:
     turnover fit FILE [OPTIONS]        fit a table of [S] and v (FILE '-' reads standard input)
     turnover help                      show this text
-
+{TRACE_USAGE}
 OPTIONS for fit:
     --model NAME           model to fit (mm: Michaelis-Menten; the default)
     --json                 print one JSON object instead of a table
@@ -43,6 +45,10 @@ The constants are statistical estimates; they mean what they claim only for
 valid initial-rate data. Follow your laboratory's validated procedures.
 ";
 
+fn usage() -> String {
+    USAGE.replace("{TRACE_USAGE}", traces::USAGE)
+}
+
 /// A failure with the exit code it maps to.
 enum Failure {
     Usage(String),
@@ -61,7 +67,7 @@ fn main() -> ExitCode {
     match run(&args) {
         Ok(code) => code,
         Err(Failure::Usage(message)) => {
-            eprintln!("turnover: {message}\n\n{USAGE}");
+            eprintln!("turnover: {message}\n\n{}", usage());
             ExitCode::from(2)
         }
         Err(Failure::Input(message)) => {
@@ -74,8 +80,10 @@ fn main() -> ExitCode {
 fn run(args: &[String]) -> Result<ExitCode, Failure> {
     match args.first().map(String::as_str) {
         Some("fit") => fit(parse_fit_args(&args[1..])?),
+        Some("rates") => traces::rates(&args[1..]),
+        Some("fit-progress") => traces::fit_progress_command(&args[1..]),
         Some("help") | Some("--help") | Some("-h") => {
-            print!("{USAGE}");
+            print!("{}", usage());
             Ok(ExitCode::SUCCESS)
         }
         Some(other) => Err(Failure::Usage(format!("unknown command '{other}'"))),
@@ -170,7 +178,7 @@ fn split_quantity(text: &str) -> Option<(f64, Option<String>)> {
     Some((number, (!unit.is_empty()).then(|| unit.to_string())))
 }
 
-fn read_input(path: &str) -> Result<String, Failure> {
+pub(crate) fn read_input(path: &str) -> Result<String, Failure> {
     if path == "-" {
         let mut text = String::new();
         std::io::stdin()
@@ -236,7 +244,7 @@ fn number(value: Option<f64>) -> String {
 
 /// Formats with `digits` significant figures, switching to exponent form
 /// for very large or small magnitudes.
-fn format_significant(value: f64, digits: usize) -> String {
+pub(crate) fn format_significant(value: f64, digits: usize) -> String {
     if value == 0.0 || !value.is_finite() {
         return format!("{value}");
     }

@@ -23,6 +23,10 @@
 //! - [`robust`]: the direct linear plot's median estimates.
 //! - [`random`]: the seeded generator behind resampling.
 //! - [`rates`]: the whole rate analysis used by page and CLI alike.
+//! - [`traces`]: time courses to initial rates (windows, flags, blanks,
+//!   Beer-Lambert or a standard curve), and the rate table they make.
+//! - [`lambert`]: the Lambert W function.
+//! - [`progress`]: the integrated Michaelis-Menten fit to whole time courses.
 //!
 //! ```
 //! use turnover_core::rates::{analyse_rates, RateRequest};
@@ -44,14 +48,17 @@ pub mod diagnostics;
 pub mod error;
 pub mod fit;
 pub mod intervals;
+pub mod lambert;
 pub mod model;
 pub mod models;
 pub mod plots;
+pub mod progress;
 pub mod random;
 pub mod rates;
 pub mod robust;
 pub mod solver;
 pub mod table;
+pub mod traces;
 pub mod units;
 pub mod weighting;
 

@@ -13,6 +13,7 @@
 #![deny(missing_docs)]
 
 mod draw;
+mod traces;
 
 use plotters::prelude::*;
 use plotters_canvas::CanvasBackend;
@@ -22,6 +23,7 @@ use turnover_core::rates::{analyse_rates, RateAnalysis, RateRequest};
 use wasm_bindgen::prelude::*;
 
 pub use draw::{draw_plot, PointPosition};
+pub use traces::TraceBench;
 
 /// Holds the most recent analysis for drawing.
 #[wasm_bindgen]

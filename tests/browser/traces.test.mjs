@@ -1,0 +1,199 @@
+// Browser tests for the time-course panel of dist/turnover.html: paste a
+// plate, see the small multiples and flags, drag a window, send the rates to
+// the Michaelis-Menten fit, fit whole curves, and time a 384-well plate.
+//
+// Same harness as turnover.test.mjs: Debian's Chromium through playwright-core,
+// the page from file://, every non-local request counted and refused.
+
+import { test, before, after } from 'node:test';
+import assert from 'node:assert/strict';
+import { mkdirSync, mkdtempSync, rmSync, existsSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join, resolve, dirname } from 'node:path';
+import { fileURLToPath, pathToFileURL } from 'node:url';
+import { chromium } from 'playwright-core';
+
+const here = dirname(fileURLToPath(import.meta.url));
+const htmlPath = resolve(process.env.TURNOVER_HTML ?? join(here, '..', '..', 'dist', 'turnover.html'));
+const pageUrl = pathToFileURL(htmlPath).href;
+const shotDir = resolve(process.env.TURNOVER_SCREENSHOTS ?? join(here, '..', '..', 'target', 'screenshots'));
+const chromiumPath = process.env.TURNOVER_CHROMIUM ?? '/usr/bin/chromium';
+const isLocal = (url) => /^(file|data|blob|about):/i.test(url);
+
+let context;
+let userDataDir;
+
+before(async () => {
+  assert.ok(existsSync(htmlPath), `page not built: ${htmlPath} does not exist (run build.sh)`);
+  mkdirSync(shotDir, { recursive: true });
+  userDataDir = mkdtempSync(join(tmpdir(), 'turnover-traces-'));
+  context = await chromium.launchPersistentContext(userDataDir, {
+    executablePath: chromiumPath,
+    headless: true,
+    viewport: { width: 1280, height: 900 },
+    args: ['--headless', '--no-sandbox', '--disable-gpu', '--disable-background-networking',
+      '--disable-component-update', '--disable-sync', '--no-first-run', '--disable-quic'],
+  });
+  await context.route('**/*', (route) => (isLocal(route.request().url()) ? route.continue() : route.abort('blockedbyclient')));
+  for (const p of context.pages()) await p.close();
+});
+
+after(async () => {
+  if (context) await context.close();
+  if (userDataDir) rmSync(userDataDir, { recursive: true, force: true });
+});
+
+async function openPage() {
+  const page = await context.newPage();
+  const watch = { external: [], errors: [] };
+  page.on('request', (req) => { if (!isLocal(req.url())) watch.external.push(req.url()); });
+  page.on('console', (msg) => { if (msg.type() === 'error') watch.errors.push(msg.text()); });
+  page.on('pageerror', (err) => watch.errors.push(String(err?.stack ?? err)));
+  await page.goto(pageUrl, { waitUntil: 'load' });
+  await page.waitForFunction(() => window.turnoverTraces?.lastResult() !== null && window.turnoverTraces?.lastResult() !== undefined);
+  return { page, watch };
+}
+
+// A small invented plate typed as a scientist would paste it: a run
+// header, clock times, a temperature column, an overflow mark and a blank.
+const PLATE = [
+  'Run 12 (invented)',
+  'time (min)\tTemp (°C)\tA1\tA2\tA3\tA4\tA5\tH12',
+  ...Array.from({ length: 21 }, (_, j) => {
+    const t = j * 0.5;
+    // Linear rises of 0.01, 0.02, 0.04, 0.08 A/min; A5 rises fast and
+    // overflows; H12 is the blank.
+    const cells = [0.01, 0.02, 0.04, 0.08].map((k) => (0.05 + k * t + 0.0005 * Math.sin(7 * j)).toFixed(4));
+    const fast = 0.05 + 0.6 * t;
+    cells.push(fast > 3 ? 'OVRFLW' : fast.toFixed(4));
+    cells.push(j === 4 ? '' : (0.05).toFixed(4));
+    return [t.toFixed(1), '25.0', ...cells].join('\t');
+  }),
+].join('\n');
+const LAYOUT = 'trace\tS (µM)\trole\nA1\t20\nA2\t50\nA3\t100\nA4\t400\nA5\t800\nH12\t\tblank\n';
+
+test('a pasted plate gives rates, flags and a rate table the fit accepts', async () => {
+  const { page, watch } = await openPage();
+  await page.fill('#traces-input', PLATE);
+  await page.fill('#layout-input', LAYOUT);
+  await page.selectOption('#tr-conversion', 'epsilon');
+  await page.fill('#tr-epsilon', '6220');
+  await page.fill('#tr-path', '1');
+  await page.click('#traces-analyse');
+  const result = await page.evaluate(() => window.turnoverTraces.lastResult());
+  assert.deepEqual(result.traces.map((t) => t.name), ['A1', 'A2', 'A3', 'A4', 'A5', 'H12']);
+  // 0.01 A/min over 6220 M⁻¹ cm⁻¹ × 1 cm is 1.6077 µM/min (Beer-Lambert arithmetic).
+  const a1 = result.traces[0];
+  assert.ok(Math.abs(a1.rate - 0.01 / 6220 * 1e6) <= 3 * a1.rate_se, `A1 rate ${a1.rate} ± ${a1.rate_se}`);
+  assert.ok(result.traces[4].flags.includes('over-range'), `A5 flags ${result.traces[4].flags}`);
+  assert.ok(result.notes.some((n) => n.includes('temperature')));
+  assert.ok(result.problems.some((p) => p.message.includes('OVRFLW')));
+  assert.ok(result.problems.some((p) => p.message.includes('empty')));
+  // The table shows the flags as words.
+  const a5flags = await page.getAttribute('#trace-table tr[data-trace="A5"]', 'data-flags');
+  assert.match(a5flags, /over-range/);
+  await page.locator('#traces-panel').screenshot({ path: join(shotDir, 'traces-pasted.png') });
+  assert.deepEqual(watch.external, []);
+  assert.deepEqual(watch.errors, []);
+  await page.close();
+});
+
+test('the demo plate: small multiples, a dragged window, rates sent to the fit, whole curves', async () => {
+  const { page, watch } = await openPage();
+  const before = await page.evaluate(() => window.turnoverTraces.lastResult());
+  assert.ok(before.traces.length >= 20);
+  assert.ok(before.enzyme_checks.length >= 1, 'v against [E] check present');
+  // Click a well in the plate view; the large plot follows.
+  await page.locator('#plate-grid').scrollIntoViewIfNeeded();
+  const box = await page.evaluate(() => window.turnoverTraces.cellBox('A3'));
+  const grid = await page.locator('#plate-grid').boundingBox();
+  await page.mouse.click(grid.x + box.x, grid.y + box.y);
+  assert.match(await page.textContent('#trace-info'), /A3/);
+  // Drag across the large plot from 2 to 6 min.
+  await page.locator('#trace-detail').scrollIntoViewIfNeeded();
+  const detail = await page.locator('#trace-detail').boundingBox();
+  const x2 = await page.evaluate(() => window.turnoverTraces.detailX(2));
+  const x6 = await page.evaluate(() => window.turnoverTraces.detailX(6));
+  const y = detail.y + detail.height / 2;
+  await page.mouse.move(detail.x + x2, y);
+  await page.mouse.down();
+  await page.mouse.move(detail.x + (x2 + x6) / 2, y);
+  await page.mouse.move(detail.x + x6, y);
+  await page.mouse.up();
+  const a3 = (await page.evaluate(() => window.turnoverTraces.lastResult())).traces.find((t) => t.name === 'A3');
+  assert.equal(a3.manual_window, true);
+  assert.ok(Math.abs(a3.window_start - 2) <= 0.5 && Math.abs(a3.window_end - 6) <= 0.5, `window ${a3.window_start}–${a3.window_end}`);
+  await page.locator('#traces-panel').screenshot({ path: join(shotDir, 'traces-demo.png') });
+  // Send the rates to the Michaelis-Menten fit.
+  await page.click('#traces-send');
+  await page.waitForFunction(() => document.querySelector('#parameters tr[data-param="Km"]'));
+  const text = await page.inputValue('#data-input');
+  assert.match(text, /^\[S\] \(µM\)\tv \(µM\/min\)/);
+  const km = Number(await page.getAttribute('#parameters tr[data-param="Km"]', 'data-value'));
+  // The demo was simulated with Km = 60 µM.
+  assert.ok(km > 30 && km < 120, `Km from sent rates ${km}`);
+  await page.click('#traces-progress');
+  await page.waitForFunction(() => window.turnoverTraces.lastProgress() !== null);
+  const fit = await page.evaluate(() => window.turnoverTraces.lastProgress());
+  assert.equal(fit.summary.converged, true);
+  const kmWhole = fit.summary.parameters[0];
+  assert.equal(kmWhole.name, 'Km');
+  assert.ok(Math.abs(kmWhole.value - 60) <= 4 * kmWhole.std_error + 3, `Km whole curves ${kmWhole.value} ± ${kmWhole.std_error}`);
+  await page.locator('#traces-panel').screenshot({ path: join(shotDir, 'traces-progress.png') });
+  assert.deepEqual(watch.external, []);
+  assert.deepEqual(watch.errors, []);
+  await page.close();
+});
+
+// Not a pass/fail speed test: the time for a 384-well plate of 100 points is
+// printed beside the time the same page takes for a plain JavaScript
+// reference computation (a straight line through every trace), as a ratio.
+test('a 384-well plate is analysed (timing reported, not asserted)', async () => {
+  const { page } = await openPage();
+  const report = await page.evaluate(() => {
+    const wells = [];
+    for (const r of 'ABCDEFGHIJKLMNOP') for (let c = 1; c <= 24; c++) wells.push(`${r}${c}`);
+    let seed = 7;
+    const u = () => ((seed = (seed * 1664525 + 1013904223) >>> 0) + 0.5) / 4294967296;
+    const rows = [`time (s)\t${wells.join('\t')}`];
+    const data = [];
+    for (let j = 0; j < 100; j++) {
+      const row = [String(j * 10)];
+      const values = [];
+      wells.forEach((_, k) => {
+        const s0 = 5 * 2 ** (k % 8);
+        const v = 0.05 + 0.002 * s0 / (50 + s0) * j * 10 * (1 - 0.0005 * j) + 0.001 * (u() - 0.5);
+        values.push(v);
+        row.push(v.toFixed(5));
+      });
+      data.push(values);
+      rows.push(row.join('\t'));
+    }
+    const layout = ['trace\tS (µM)', ...wells.map((w, k) => `${w}\t${5 * 2 ** (k % 8)}`)].join('\n');
+    document.getElementById('traces-input').value = rows.join('\n');
+    document.getElementById('layout-input').value = layout;
+    document.getElementById('tr-conversion').value = 'epsilon';
+    const t0 = performance.now();
+    const result = window.turnoverTraces.analyse();
+    const t1 = performance.now();
+    document.getElementById('traces-progress').click();
+    const t2 = performance.now();
+    // Reference: least-squares lines through all 384 traces in plain JS.
+    const t3 = performance.now();
+    let check = 0;
+    for (let k = 0; k < wells.length; k++) {
+      let sx = 0, sy = 0, sxx = 0, sxy = 0;
+      for (let j = 0; j < 100; j++) { const x = j * 10; const yv = data[j][k]; sx += x; sy += yv; sxx += x * x; sxy += x * yv; }
+      check += (100 * sxy - sx * sy) / (100 * sxx - sx * sx);
+    }
+    const t4 = performance.now();
+    return { rates: result.traces.filter((t) => t.rate !== null).length, analyse: t1 - t0, fit: t2 - t1, reference: Math.max(t4 - t3, 0.01), check,
+      converged: window.turnoverTraces.lastProgress()?.summary.converged };
+  });
+  console.log(`384 wells × 100 points: rates ${report.analyse.toFixed(0)} ms, whole-curve fit ${report.fit.toFixed(0)} ms, ` +
+    `plain-JS straight lines ${report.reference.toFixed(2)} ms (ratio ${(report.analyse / report.reference).toFixed(0)}×)`);
+  assert.equal(report.rates, 384);
+  assert.ok(Number.isFinite(report.check));
+  assert.equal(report.converged, true);
+  await page.close();
+});

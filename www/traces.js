@@ -1,0 +1,663 @@
+// Time courses → initial rates: the page's trace panel. Every number shown
+// comes from the WebAssembly core (turnover-wasm TraceBench); this file only
+// draws it and turns clicks and drags into requests.
+
+/* global wasm_bindgen */
+
+const $ = (id) => document.getElementById(id);
+
+const COLOURS = {
+  ink: '#263238', muted: '#5f6b70', teal: '#00696e', tealSoft: 'rgba(0, 105, 110, 0.14)',
+  amber: '#d68a14', brick: '#b23a2e', line: '#d9d6cf', paper: '#fcfcfa',
+};
+
+// Short marks for the plate view; the full words are in the table.
+const FLAG_MARKS = {
+  depletion: 'D', nonlinear: 'C', 'over-range': 'O', 'few-points': 'F', noisy: 'N',
+  lag: 'L', burst: 'B', excluded: 'X', 'no-blank': '∅',
+};
+
+const traceState = {
+  bench: null,
+  result: null,
+  progress: null,
+  selected: null,
+  windows: new Map(),   // trace name (or '*') → {start, end}
+  excluded: new Set(),
+  cellBoxes: [],        // plate grid hit boxes
+  detailMap: null,      // detail plot coordinate map
+  elapsed: null,
+};
+
+// ------------------------------------------------------------ demo plate
+
+// An invented assay: a dehydrogenase making NADH (A340 rises), Km 60 µM,
+// 4 µM/min at 1 nM enzyme, read every 30 s for 30 min in 200 µL wells.
+// Simulated here from the integrated rate law with seeded noise; not a
+// measurement.
+function demoPlate() {
+  let seed = 20240611;
+  const uniform = () => {
+    seed = (seed * 1664525 + 1013904223) >>> 0;
+    return (seed + 0.5) / 4294967296;
+  };
+  const normal = () => Math.sqrt(-2 * Math.log(uniform())) * Math.cos(2 * Math.PI * uniform());
+  const km = 60;
+  const vPerNm = 4;
+  const eps = 6220;
+  const path = 200 / (Math.PI * 3.2 * 3.2) / 10;
+  const product = (t, s0, v) => {
+    // S0 − S + Km ln(S0/S) = V t, by bisection.
+    let lo = 0;
+    let hi = s0;
+    for (let k = 0; k < 80; k++) {
+      const s = (lo + hi) / 2;
+      if (s0 - s + km * Math.log(s0 / s) - v * t > 0) lo = s; else hi = s;
+    }
+    return s0 - (lo + hi) / 2;
+  };
+  const wells = [];
+  const series = [10, 20, 40, 80, 160, 320, 640, 1280];
+  for (const row of ['A', 'B']) series.forEach((s, i) => wells.push({ name: `${row}${i + 1}`, s, e: 1, role: 'sample' }));
+  [0.5, 1, 2, 4].forEach((e, i) => wells.push({ name: `C${i + 1}`, s: 160, e, role: 'sample' }));
+  wells.push({ name: 'D1', s: null, e: null, role: 'blank' });
+  wells.push({ name: 'D2', s: null, e: null, role: 'blank' });
+  wells.push({ name: 'D3', s: 160, e: 0, role: 'no-enzyme' });
+  const lines = ['Demo plate (simulated)', 'Read: absorbance 340 nm, 200 µL per well', ''];
+  lines.push(['time (min)', 'Temp (°C)', ...wells.map((w) => w.name)].join('\t'));
+  const base = wells.map(() => 0.045 + 0.01 * uniform());
+  for (let j = 0; j <= 60; j++) {
+    const t = j * 0.5;
+    const cells = [t.toFixed(1), (25 + 0.1 * normal()).toFixed(1)];
+    wells.forEach((w, k) => {
+      let a = base[k] + 0.0008 * normal();
+      if (w.role !== 'blank' && w.s) a += (product(t, w.s, vPerNm * (w.e ?? 0) + 0.02) * 1e-6 * eps * path);
+      cells.push(a > 3.2 ? 'OVRFLW' : a.toFixed(4));
+    });
+    lines.push(cells.join('\t'));
+  }
+  const layout = ['trace\tS (µM)\tE (nM)\trole', ...wells.map((w) => `${w.name}\t${w.s ?? ''}\t${w.e ?? ''}\t${w.role}`)];
+  return { traces: lines.join('\n') + '\n', layout: layout.join('\n') + '\n', epsilon: eps, volume: 200, diameter: 6.4 };
+}
+
+// ------------------------------------------------------------ requests
+
+function number(id) {
+  const text = $(id).value.trim().replace(',', '.');
+  if (text === '') return null;
+  const v = Number(text);
+  return Number.isFinite(v) ? v : NaN;
+}
+
+function traceRequest() {
+  const windows = [...traceState.windows].map(([trace, w]) => ({ trace, start: w.start, end: w.end }));
+  const mode = $('tr-conversion').value;
+  const standard = mode === 'standard' ? $('tr-standard').value : null;
+  return {
+    traces: $('traces-input').value,
+    layout: $('layout-input').value,
+    epsilon: mode === 'epsilon' ? number('tr-epsilon') : null,
+    path_cm: mode === 'epsilon' ? number('tr-path') : null,
+    standard,
+    direction: $('tr-direction').value,
+    linear_limit: number('tr-limit'),
+    max_conversion: (number('tr-max-conversion') ?? 10) / 100,
+    windows,
+    excluded: [...traceState.excluded],
+  };
+}
+
+function setStatus(state, text) {
+  $('traces-status').dataset.state = state;
+  $('traces-status').textContent = text;
+}
+
+function analyseTraces() {
+  const request = traceRequest();
+  for (const [key, label] of [['epsilon', 'ε'], ['path_cm', 'path length'], ['linear_limit', 'linear limit'], ['max_conversion', 'conversion limit']]) {
+    if (Number.isNaN(request[key])) {
+      setStatus('error', `The ${label} is not a number.`);
+      return null;
+    }
+  }
+  const started = performance.now();
+  try {
+    traceState.result = traceState.bench.analyse(request);
+  } catch (error) {
+    traceState.result = null;
+    setStatus('error', error?.message ?? String(error));
+    $('traces-problems').textContent = '';
+    drawAll();
+    return null;
+  }
+  traceState.elapsed = performance.now() - started;
+  traceState.progress = null;
+  const r = traceState.result;
+  if (!traceState.selected || !r.traces.some((t) => t.name === traceState.selected)) {
+    traceState.selected = (r.traces.find((t) => t.role === 'sample') ?? r.traces[0])?.name ?? null;
+  }
+  const flagged = r.traces.filter((t) => t.flags.some((f) => f !== 'excluded')).length;
+  const rated = r.traces.filter((t) => t.rate !== null).length;
+  setStatus(flagged ? 'warn' : 'ok',
+    `${r.traces.length} traces read, ${rated} rates in ${r.rate_unit}; ${flagged} flagged${r.problems.length ? `; ${r.problems.length} cell(s) not used` : ''}.`);
+  showProblems(r);
+  drawAll();
+  return r;
+}
+
+function showProblems(r) {
+  const box = $('traces-problems');
+  box.textContent = '';
+  const items = [...r.problems.map((p) => `line ${p.line}${p.column ? `, column ${p.column}` : ''}: ${p.message}`)];
+  if (items.length) {
+    const details = document.createElement('details');
+    const summary = document.createElement('summary');
+    summary.textContent = `${items.length} cell(s) or line(s) not used (blanks and overflow markers are never guessed)`;
+    details.append(summary);
+    const ul = document.createElement('ul');
+    for (const text of items.slice(0, 400)) {
+      const li = document.createElement('li');
+      li.textContent = text;
+      ul.append(li);
+    }
+    details.append(ul);
+    box.append(details);
+  }
+  const notes = $('traces-notes');
+  notes.textContent = '';
+  for (const n of r.notes) {
+    const li = document.createElement('li');
+    li.textContent = n;
+    notes.append(li);
+  }
+}
+
+// ------------------------------------------------------------ drawing
+
+function fmt(v, digits = 3) {
+  if (v === null || v === undefined || !Number.isFinite(v)) return '—';
+  if (v === 0) return '0';
+  const m = Math.floor(Math.log10(Math.abs(v)));
+  if (m < -3 || m > 5) return v.toExponential(digits - 1);
+  return v.toFixed(Math.max(0, digits - 1 - m));
+}
+
+function extent(values) {
+  let lo = Infinity;
+  let hi = -Infinity;
+  for (const v of values) {
+    if (v === null || !Number.isFinite(v)) continue;
+    if (v < lo) lo = v;
+    if (v > hi) hi = v;
+  }
+  if (!Number.isFinite(lo)) return [0, 1];
+  if (hi === lo) return [lo - 0.5, hi + 0.5];
+  return [lo, hi];
+}
+
+function drawPlate() {
+  const canvas = $('plate-grid');
+  const ctx = canvas.getContext('2d');
+  const r = traceState.result;
+  const traces = r ? r.traces : [];
+  const columns = traces.length > 96 ? 24 : traces.length > 24 ? 12 : 8;
+  const rows = Math.max(1, Math.ceil(traces.length / columns));
+  const cellW = Math.floor(1160 / columns);
+  const cellH = columns === 24 ? 46 : 70;
+  canvas.width = cellW * columns;
+  canvas.height = cellH * rows;
+  ctx.clearRect(0, 0, canvas.width, canvas.height);
+  traceState.cellBoxes = [];
+  if (!r) return;
+  const tMin = r.traces[0]?.times[0] ?? 0;
+  const tMax = r.traces[0]?.times.at(-1) ?? 1;
+  traces.forEach((trace, index) => {
+    const x0 = (index % columns) * cellW;
+    const y0 = Math.floor(index / columns) * cellH;
+    traceState.cellBoxes.push({ name: trace.name, x: x0, y: y0, w: cellW, h: cellH });
+    ctx.fillStyle = trace.name === traceState.selected ? '#fff7e6' : trace.excluded ? '#f1efea' : COLOURS.paper;
+    ctx.fillRect(x0 + 1, y0 + 1, cellW - 2, cellH - 2);
+    ctx.strokeStyle = trace.name === traceState.selected ? COLOURS.amber : COLOURS.line;
+    ctx.lineWidth = trace.name === traceState.selected ? 2 : 1;
+    ctx.strokeRect(x0 + 1, y0 + 1, cellW - 2, cellH - 2);
+    const pad = 3;
+    const top = y0 + 13;
+    const h = cellH - 16 - pad;
+    const [vLo, vHi] = extent(trace.values);
+    const X = (t) => x0 + pad + ((t - tMin) / (tMax - tMin || 1)) * (cellW - 2 * pad);
+    const Y = (v) => top + h - ((v - vLo) / (vHi - vLo)) * h;
+    if (trace.window_start !== null) {
+      ctx.fillStyle = COLOURS.tealSoft;
+      ctx.fillRect(X(trace.window_start), top, Math.max(1, X(trace.window_end) - X(trace.window_start)), h);
+    }
+    ctx.strokeStyle = trace.role === 'sample' ? COLOURS.teal : COLOURS.muted;
+    ctx.lineWidth = 1;
+    ctx.beginPath();
+    let pen = false;
+    trace.values.forEach((v, j) => {
+      if (v === null) { pen = false; return; }
+      if (pen) ctx.lineTo(X(trace.times[j]), Y(v)); else ctx.moveTo(X(trace.times[j]), Y(v));
+      pen = true;
+    });
+    ctx.stroke();
+    ctx.fillStyle = COLOURS.brick;
+    trace.cells.forEach((c, j) => {
+      if (c === 'overflow' || c === 'over-range') ctx.fillRect(X(trace.times[j]) - 1, top, 2, 3);
+      if (c === 'missing' || c === 'unreadable') ctx.fillRect(X(trace.times[j]) - 1, top + h - 3, 2, 3);
+    });
+    ctx.font = '10px system-ui, sans-serif';
+    ctx.fillStyle = COLOURS.ink;
+    ctx.textBaseline = 'top';
+    ctx.fillText(trace.name + (trace.role === 'blank' ? ' blank' : trace.role === 'no-enzyme' ? ' no E' : ''), x0 + 4, y0 + 3);
+    const marks = trace.flags.map((f) => FLAG_MARKS[f] ?? '?').join('');
+    if (marks) {
+      ctx.fillStyle = COLOURS.brick;
+      ctx.textAlign = 'right';
+      ctx.fillText(marks, x0 + cellW - 4, y0 + 3);
+      ctx.textAlign = 'left';
+    }
+  });
+}
+
+function axes(ctx, box, xRange, yRange, xLabel, yLabel) {
+  const { left, top, width, height } = box;
+  ctx.strokeStyle = COLOURS.ink;
+  ctx.lineWidth = 1;
+  ctx.strokeRect(left, top, width, height);
+  ctx.fillStyle = COLOURS.ink;
+  ctx.font = '11px system-ui, sans-serif';
+  ctx.textAlign = 'center';
+  ctx.textBaseline = 'top';
+  for (let k = 0; k <= 4; k++) {
+    const v = xRange[0] + (k / 4) * (xRange[1] - xRange[0]);
+    ctx.fillText(fmt(v), left + (k / 4) * width, top + height + 4);
+  }
+  ctx.fillText(xLabel, left + width / 2, top + height + 18);
+  ctx.textAlign = 'right';
+  ctx.textBaseline = 'middle';
+  for (let k = 0; k <= 4; k++) {
+    const v = yRange[0] + (k / 4) * (yRange[1] - yRange[0]);
+    ctx.fillText(fmt(v), left - 4, top + height - (k / 4) * height);
+  }
+  ctx.save();
+  ctx.translate(12, top + height / 2);
+  ctx.rotate(-Math.PI / 2);
+  ctx.textAlign = 'center';
+  ctx.fillText(yLabel, 0, 0);
+  ctx.restore();
+  const X = (x) => left + ((x - xRange[0]) / (xRange[1] - xRange[0] || 1)) * width;
+  const Y = (y) => top + height - ((y - yRange[0]) / (yRange[1] - yRange[0] || 1)) * height;
+  return { X, Y, left, top, width, height, xRange };
+}
+
+function selectedTrace() {
+  return traceState.result?.traces.find((t) => t.name === traceState.selected) ?? null;
+}
+
+function drawDetail() {
+  const canvas = $('trace-detail');
+  const ctx = canvas.getContext('2d');
+  ctx.clearRect(0, 0, canvas.width, canvas.height);
+  const trace = selectedTrace();
+  const r = traceState.result;
+  const info = $('trace-info');
+  info.textContent = '';
+  if (!trace) return;
+  const tRange = extent(trace.times);
+  const vRange = extent(trace.values);
+  const map = axes(ctx, { left: 62, top: 14, width: canvas.width - 80, height: canvas.height - 52 }, tRange, vRange,
+    `time (${r.time_unit})`, `${r.value_unit === 'signal' ? 'signal' : `product (${r.value_unit})`}`);
+  traceState.detailMap = map;
+  if (trace.window_start !== null) {
+    ctx.fillStyle = COLOURS.tealSoft;
+    ctx.fillRect(map.X(trace.window_start), map.top, map.X(trace.window_end) - map.X(trace.window_start), map.height);
+  }
+  trace.values.forEach((v, j) => {
+    if (v === null) return;
+    const inWindow = trace.window_start !== null && trace.times[j] >= trace.window_start && trace.times[j] <= trace.window_end;
+    ctx.fillStyle = inWindow ? COLOURS.teal : COLOURS.muted;
+    ctx.beginPath();
+    ctx.arc(map.X(trace.times[j]), map.Y(v), inWindow ? 3 : 2.2, 0, 2 * Math.PI);
+    ctx.fill();
+  });
+  trace.cells.forEach((c, j) => {
+    if (c === 'overflow' || c === 'over-range') {
+      ctx.fillStyle = COLOURS.brick;
+      ctx.fillRect(map.X(trace.times[j]) - 1.5, map.top, 3, 8);
+    }
+  });
+  if (trace.rate !== null) {
+    ctx.strokeStyle = COLOURS.amber;
+    ctx.lineWidth = 2;
+    ctx.beginPath();
+    const a = trace.window_start;
+    const b = trace.window_end;
+    ctx.moveTo(map.X(a), map.Y(trace.intercept));
+    ctx.lineTo(map.X(b), map.Y(trace.intercept + trace.rate * (b - a)));
+    ctx.stroke();
+  }
+  const parts = [
+    ['Trace', `${trace.name} (${trace.role})`],
+    ['[S]₀', trace.s === null ? '—' : `${fmt(trace.s, 4)} ${r.substrate_unit ?? ''}`],
+    ['Rate', trace.rate === null ? '—' : `${fmt(trace.rate, 4)} ± ${fmt(trace.rate_se, 2)} ${r.rate_unit}`],
+    ['Window', trace.window_start === null ? '—' : `${fmt(trace.window_start)}–${fmt(trace.window_end)} ${r.time_unit}, ${trace.window_points} points, ${trace.manual_window ? 'set by hand' : 'automatic'}`],
+    ['Used', trace.fraction_converted === null ? '—' : `${(100 * trace.fraction_converted).toFixed(1)} % of [S]₀`],
+    ['Blank', trace.blanks_subtracted.length ? trace.blanks_subtracted.join(', ') : 'none'],
+  ];
+  const dl = document.createElement('dl');
+  for (const [k, v] of parts) {
+    const dt = document.createElement('dt');
+    dt.textContent = k;
+    const dd = document.createElement('dd');
+    dd.textContent = v;
+    dl.append(dt, dd);
+  }
+  info.append(dl);
+  if (trace.messages.length) {
+    const ul = document.createElement('ul');
+    ul.className = 'warnings';
+    for (const m of trace.messages) {
+      const li = document.createElement('li');
+      li.textContent = m;
+      ul.append(li);
+    }
+    info.append(ul);
+  }
+  $('tr-exclude').textContent = traceState.excluded.has(trace.name) ? 'Bring trace back' : 'Leave trace out';
+}
+
+function drawEnzymeCheck() {
+  const canvas = $('enzyme-check');
+  const ctx = canvas.getContext('2d');
+  ctx.clearRect(0, 0, canvas.width, canvas.height);
+  const r = traceState.result;
+  const text = $('enzyme-check-text');
+  text.textContent = '';
+  const check = r?.enzyme_checks?.[0];
+  if (!check) {
+    text.textContent = 'Needs samples at one [S] with three or more [E] (an E column in the layout).';
+    return;
+  }
+  const xs = check.points.map((p) => p[0]);
+  const ys = check.points.map((p) => p[1]);
+  const xr = [0, Math.max(...xs) * 1.05];
+  const yr = extent([0, ...ys, check.intercept]);
+  const map = axes(ctx, { left: 62, top: 12, width: canvas.width - 76, height: canvas.height - 48 }, xr, [Math.min(0, yr[0]), yr[1] * 1.05],
+    `[E] (${r.enzyme_unit ?? '?'})`, `v (${r.rate_unit})`);
+  ctx.strokeStyle = COLOURS.amber;
+  ctx.lineWidth = 2;
+  ctx.beginPath();
+  ctx.moveTo(map.X(0), map.Y(check.intercept));
+  ctx.lineTo(map.X(xr[1]), map.Y(check.intercept + check.slope * xr[1]));
+  ctx.stroke();
+  ctx.fillStyle = COLOURS.teal;
+  for (const [x, y] of check.points) {
+    ctx.beginPath();
+    ctx.arc(map.X(x), map.Y(y), 3.5, 0, 2 * Math.PI);
+    ctx.fill();
+  }
+  text.textContent = `At [S] = ${fmt(check.s, 4)} ${r.substrate_unit ?? ''}: slope ${fmt(check.slope, 4)} ± ${fmt(check.slope_se, 2)}, intercept ${fmt(check.intercept, 3)} ± ${fmt(check.intercept_se, 2)} ${r.rate_unit} (${check.intercept_zero ? 'zero within its 95 % interval' : 'not zero within its 95 % interval'}), R² ${fmt(check.r_squared, 4)}${check.curvature_p !== null ? `, curvature p = ${fmt(check.curvature_p, 2)}` : ''}. ${check.messages.join(' ')}`;
+}
+
+function drawProgress() {
+  const canvas = $('progress-plot');
+  const ctx = canvas.getContext('2d');
+  ctx.clearRect(0, 0, canvas.width, canvas.height);
+  const body = $('progress-parameters').querySelector('tbody');
+  body.textContent = '';
+  const fit = traceState.progress;
+  const r = traceState.result;
+  if (!fit || !r) return;
+  const allT = fit.curves.flatMap((c) => c.times);
+  const allY = fit.curves.flatMap((c) => c.observed.concat(c.fitted));
+  const map = axes(ctx, { left: 62, top: 12, width: canvas.width - 76, height: canvas.height - 48 }, extent(allT), extent(allY),
+    `time (${r.time_unit})`, `product (${r.value_unit})`);
+  for (const c of fit.curves) {
+    ctx.fillStyle = 'rgba(0, 105, 110, 0.45)';
+    c.times.forEach((t, j) => ctx.fillRect(map.X(t) - 1, map.Y(c.observed[j]) - 1, 2, 2));
+    ctx.strokeStyle = COLOURS.amber;
+    ctx.lineWidth = 1.5;
+    ctx.beginPath();
+    c.times.forEach((t, j) => (j ? ctx.lineTo(map.X(t), map.Y(c.fitted[j])) : ctx.moveTo(map.X(t), map.Y(c.fitted[j]))));
+    ctx.stroke();
+  }
+  for (const p of fit.summary.parameters.slice(0, 2)) {
+    const tr = document.createElement('tr');
+    tr.dataset.param = p.name;
+    tr.dataset.value = p.value;
+    tr.dataset.se = p.std_error ?? '';
+    for (const v of [p.name, fmt(p.value, 4), fmt(p.std_error, 2), p.ci_low === null ? '—' : `${fmt(p.ci_low, 4)} to ${fmt(p.ci_high, 4)}`, p.unit ?? '']) {
+      const td = document.createElement('td');
+      td.textContent = v;
+      tr.append(td);
+    }
+    body.append(tr);
+  }
+  $('progress-note').textContent = `${fit.summary.converged ? 'Converged' : 'Did not converge'}; ${fit.curves.length} traces, n = ${fit.summary.n}, residual SD ${fmt(fit.summary.sigma, 3)} ${r.value_unit}. ${fit.summary.warnings.join(' ')} ${fit.notes.join(' ')} ${fit.caution}`;
+}
+
+function drawTable() {
+  const body = $('trace-table').querySelector('tbody');
+  body.textContent = '';
+  const r = traceState.result;
+  if (!r) return;
+  for (const t of r.traces) {
+    const tr = document.createElement('tr');
+    tr.dataset.trace = t.name;
+    tr.dataset.flags = t.flags.join(' ');
+    if (t.rate !== null) tr.dataset.rate = t.rate;
+    const cells = [t.name, t.role, t.s === null ? '—' : fmt(t.s, 4), fmt(t.rate, 4), fmt(t.rate_se, 2),
+      t.window_start === null ? '—' : `${fmt(t.window_start)}–${fmt(t.window_end)}`,
+      t.fraction_converted === null ? '—' : `${(100 * t.fraction_converted).toFixed(1)} %`, t.flags.join(', ')];
+    for (const v of cells) {
+      const td = document.createElement('td');
+      td.textContent = v;
+      tr.append(td);
+    }
+    tr.addEventListener('click', () => { traceState.selected = t.name; drawPlate(); drawDetail(); });
+    body.append(tr);
+  }
+  $('trace-table-unit').textContent = `Rates in ${r.rate_unit}, windows in ${r.time_unit}.`;
+}
+
+function drawAll() {
+  drawPlate();
+  drawDetail();
+  drawEnzymeCheck();
+  drawProgress();
+  drawTable();
+}
+
+// ------------------------------------------------------------ actions
+
+function sendRates() {
+  const r = traceState.result ?? analyseTraces();
+  if (!r) return;
+  if (r.rate_links.length < 3) {
+    setStatus('error', 'Fewer than three sample rates with [S] to send; check the layout.');
+    return;
+  }
+  $('data-input').value = r.rate_table;
+  window.turnover.analyse();
+  $('data-panel').scrollIntoView({ behavior: 'instant', block: 'start' });
+  setStatus('ok', `${r.rate_links.length} rates sent to the rate fit (traces ${r.rate_links.map((l) => l.trace).join(', ')}).`);
+}
+
+function fitWhole() {
+  if (!traceState.result && !analyseTraces()) return;
+  try {
+    traceState.progress = traceState.bench.fitProgress();
+  } catch (error) {
+    traceState.progress = null;
+    setStatus('error', error?.message ?? String(error));
+  }
+  drawProgress();
+}
+
+function setWindow(name, start, end) {
+  traceState.windows.set(name, { start: Math.min(start, end), end: Math.max(start, end) });
+  return analyseTraces();
+}
+
+function loadDemo() {
+  const demo = demoPlate();
+  $('traces-input').value = demo.traces;
+  $('layout-input').value = demo.layout;
+  $('tr-conversion').value = 'epsilon';
+  $('tr-epsilon').value = String(demo.epsilon);
+  $('tr-volume').value = String(demo.volume);
+  $('tr-diameter').value = String(demo.diameter);
+  $('tr-path').value = wasm_bindgen.pathFromWell(demo.volume, demo.diameter).toFixed(4);
+  traceState.windows.clear();
+  traceState.excluded.clear();
+  traceState.selected = null;
+  analyseTraces();
+}
+
+function wire() {
+  const presets = wasm_bindgen.tracePresets();
+  const select = $('tr-preset');
+  for (const p of presets) {
+    const o = document.createElement('option');
+    o.value = p.key;
+    o.textContent = `${p.name}, ${p.wavelength_nm} nm: ${p.epsilon}`;
+    o.title = p.source;
+    select.append(o);
+  }
+  select.addEventListener('change', () => {
+    const p = presets.find((q) => q.key === select.value);
+    if (p) {
+      $('tr-epsilon').value = String(p.epsilon);
+      $('tr-conversion').value = 'epsilon';
+      $('tr-preset-source').textContent = `Source: ${p.source}.`;
+    }
+  });
+  $('tr-well-path').addEventListener('click', () => {
+    try {
+      $('tr-path').value = wasm_bindgen.pathFromWell(number('tr-volume'), number('tr-diameter')).toFixed(4);
+    } catch (error) {
+      setStatus('error', error?.message ?? String(error));
+    }
+  });
+  $('traces-analyse').addEventListener('click', analyseTraces);
+  $('traces-demo').addEventListener('click', loadDemo);
+  $('traces-send').addEventListener('click', sendRates);
+  $('traces-progress').addEventListener('click', fitWhole);
+  $('tr-auto').addEventListener('click', () => {
+    if (!traceState.selected) return;
+    traceState.windows.delete(traceState.selected);
+    analyseTraces();
+  });
+  $('tr-all').addEventListener('click', () => {
+    const t = selectedTrace();
+    if (!t || t.window_start === null) return;
+    traceState.windows.clear();
+    traceState.windows.set('*', { start: t.window_start, end: t.window_end });
+    analyseTraces();
+  });
+  $('tr-auto-all').addEventListener('click', () => { traceState.windows.clear(); analyseTraces(); });
+  $('tr-exclude').addEventListener('click', () => {
+    const name = traceState.selected;
+    if (!name) return;
+    if (traceState.excluded.has(name)) traceState.excluded.delete(name); else traceState.excluded.add(name);
+    analyseTraces();
+  });
+  $('plate-grid').addEventListener('click', (event) => {
+    const canvas = event.currentTarget;
+    const rect = canvas.getBoundingClientRect();
+    const x = (event.clientX - rect.left) * (canvas.width / rect.width);
+    const y = (event.clientY - rect.top) * (canvas.height / rect.height);
+    const hit = traceState.cellBoxes.find((b) => x >= b.x && x < b.x + b.w && y >= b.y && y < b.y + b.h);
+    if (hit) {
+      traceState.selected = hit.name;
+      drawPlate();
+      drawDetail();
+    }
+  });
+  // Drag across the large plot to set the window of the shown trace.
+  const detail = $('trace-detail');
+  let dragFrom = null;
+  const timeAt = (event) => {
+    const rect = detail.getBoundingClientRect();
+    const x = (event.clientX - rect.left) * (detail.width / rect.width);
+    const m = traceState.detailMap;
+    if (!m) return null;
+    return m.xRange[0] + ((x - m.left) / m.width) * (m.xRange[1] - m.xRange[0]);
+  };
+  detail.addEventListener('mousedown', (event) => { dragFrom = timeAt(event); });
+  detail.addEventListener('mousemove', (event) => {
+    if (dragFrom === null) return;
+    drawDetail();
+    const m = traceState.detailMap;
+    const ctx = detail.getContext('2d');
+    const to = timeAt(event);
+    ctx.fillStyle = 'rgba(214, 138, 20, 0.2)';
+    ctx.fillRect(m.X(Math.min(dragFrom, to)), m.top, Math.abs(m.X(to) - m.X(dragFrom)), m.height);
+  });
+  detail.addEventListener('mouseup', (event) => {
+    if (dragFrom === null) return;
+    const to = timeAt(event);
+    const from = dragFrom;
+    dragFrom = null;
+    if (traceState.selected && to !== null && Math.abs(to - from) > 0) setWindow(traceState.selected, from, to);
+    else drawDetail();
+  });
+}
+
+const style = document.createElement('style');
+style.textContent = `
+#traces-panel .trace-inputs { display: grid; grid-template-columns: 3fr 2fr; gap: 0.8rem; }
+#traces-panel .trace-inputs textarea { height: 9rem; }
+#traces-panel label.stack { display: flex; flex-direction: column; font-size: 0.85rem; gap: 0.2rem; }
+#traces-panel canvas { max-width: 100%; border: 1px solid var(--line); border-radius: 4px; background: #fff; }
+#plate-grid { cursor: pointer; width: 100%; }
+#trace-detail { cursor: col-resize; }
+#traces-panel .trace-views { display: grid; grid-template-columns: minmax(0, 3fr) minmax(0, 2fr); gap: 1rem; align-items: start; }
+#traces-panel .trace-views.two { grid-template-columns: 1fr 1fr; }
+#trace-info dl { display: grid; grid-template-columns: auto 1fr; gap: 0.15rem 0.6rem; font-size: 0.85rem; margin: 0.3rem 0; }
+#trace-info dt { color: var(--muted); }
+#trace-info dd { margin: 0; }
+#traces-status[data-state=error] { color: var(--brick); font-weight: 600; }
+#traces-status[data-state=warn] { color: #8a5a00; }
+#trace-table { border-collapse: collapse; font-size: 0.8rem; width: 100%; }
+#trace-table th, #trace-table td { border-bottom: 1px solid var(--line); padding: 0.15rem 0.4rem; text-align: left; }
+#trace-table tbody tr { cursor: pointer; }
+#trace-table tbody tr:hover { background: var(--teal-soft); }
+#traces-panel .table-scroll { max-height: 18rem; overflow: auto; }
+#traces-panel .flag-key { font-size: 0.8rem; color: var(--muted); }
+#traces-panel .flag-key b { color: var(--brick); }
+`;
+document.head.append(style);
+
+function start() {
+  traceState.bench = new wasm_bindgen.TraceBench();
+  wire();
+  loadDemo();
+}
+
+// For tests and for scripting from the browser console.
+window.turnoverTraces = {
+  lastResult: () => traceState.result,
+  lastProgress: () => traceState.progress,
+  elapsed: () => traceState.elapsed,
+  analyse: analyseTraces,
+  setWindow,
+  select(name) { traceState.selected = name; drawPlate(); drawDetail(); },
+  cellBox(name) {
+    const canvas = $('plate-grid');
+    const b = traceState.cellBoxes.find((c) => c.name === name);
+    if (!b) return null;
+    const s = canvas.clientWidth / canvas.width;
+    return { x: (b.x + b.w / 2) * s, y: (b.y + b.h / 2) * s };
+  },
+  detailX(time) {
+    const m = traceState.detailMap;
+    const canvas = $('trace-detail');
+    return m ? m.X(time) * (canvas.clientWidth / canvas.width) : null;
+  },
+};
+
+// app.js starts the WebAssembly core; wait for it.
+window.turnover.ready.then((core) => {
+  if (core) start();
+});
