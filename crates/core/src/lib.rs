@@ -35,8 +35,11 @@
 
 #![deny(missing_docs)]
 
+pub mod compare;
+pub mod dose;
 pub mod error;
 pub mod fit;
+pub mod inhibition;
 pub mod model;
 pub mod models;
 pub mod plots;

@@ -9,6 +9,8 @@
 
 use serde::Serialize;
 
+pub mod family;
+
 /// Which plot.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "kebab-case")]
@@ -23,6 +25,27 @@ pub enum PlotKind {
     EadieHofstee,
     /// [S]/v against [S] (Hanes-Woolf).
     HanesWoolf,
+    /// v against [S], one fitted curve per [I] from the global fit.
+    InhibitionDirect,
+    /// 1/v against 1/[S], one line per [I].
+    InhibitionLineweaverBurk,
+    /// v against v/[S], one line per [I].
+    InhibitionEadieHofstee,
+    /// [S]/v against [S], one line per [I].
+    InhibitionHanesWoolf,
+    /// 1/v against [I], one line per [S] (Dixon).
+    Dixon,
+    /// [S]/v against [I], one line per [S] (Cornish-Bowden).
+    CornishBowden,
+    /// Slope of the double-reciprocal line against [I].
+    SlopeReplot,
+    /// Intercept of the double-reciprocal line against [I].
+    InterceptReplot,
+    /// Response against log [I] with the IC50 marked.
+    DoseResponse,
+    /// Rate against [I] for a tight-binding inhibitor, with the classical
+    /// hyperbola for contrast.
+    Morrison,
 }
 
 impl PlotKind {
@@ -38,12 +61,38 @@ impl PlotKind {
             PlotKind::LineweaverBurk => "lineweaver-burk",
             PlotKind::EadieHofstee => "eadie-hofstee",
             PlotKind::HanesWoolf => "hanes-woolf",
+            PlotKind::InhibitionDirect => "inhibition-direct",
+            PlotKind::InhibitionLineweaverBurk => "inhibition-lineweaver-burk",
+            PlotKind::InhibitionEadieHofstee => "inhibition-eadie-hofstee",
+            PlotKind::InhibitionHanesWoolf => "inhibition-hanes-woolf",
+            PlotKind::Dixon => "dixon",
+            PlotKind::CornishBowden => "cornish-bowden",
+            PlotKind::SlopeReplot => "slope-replot",
+            PlotKind::InterceptReplot => "intercept-replot",
+            PlotKind::DoseResponse => "dose-response",
+            PlotKind::Morrison => "morrison",
         }
     }
 
+    /// The plots of an inhibition analysis, in page order.
+    pub const INHIBITION: [PlotKind; 8] = [
+        PlotKind::InhibitionDirect,
+        PlotKind::InhibitionLineweaverBurk,
+        PlotKind::InhibitionEadieHofstee,
+        PlotKind::InhibitionHanesWoolf,
+        PlotKind::Dixon,
+        PlotKind::CornishBowden,
+        PlotKind::SlopeReplot,
+        PlotKind::InterceptReplot,
+    ];
+
     /// Looks a plot up by [`PlotKind::name`].
     pub fn from_name(name: &str) -> Option<PlotKind> {
-        PlotKind::ALL.into_iter().find(|k| k.name() == name)
+        PlotKind::ALL
+            .into_iter()
+            .chain(PlotKind::INHIBITION)
+            .chain([PlotKind::DoseResponse, PlotKind::Morrison])
+            .find(|k| k.name() == name)
     }
 }
 
@@ -79,6 +128,43 @@ pub struct PlotData {
     pub zero_line: bool,
     /// A sentence under the plot.
     pub note: String,
+    /// Labelled groups of points with their own curve, drawn in distinct
+    /// colours with a legend (one per [I] or per [S]). Empty for the
+    /// single-curve plots, which use `points` and `curve` only. When not
+    /// empty, `points` still lists every point (for hit-testing) and
+    /// `curve` is empty.
+    pub series: Vec<Series>,
+    /// Whether the horizontal axis is logarithmic (every x then is > 0).
+    pub log_x: bool,
+    /// Vertical marker lines with a label, such as the IC50.
+    pub marks: Vec<Mark>,
+}
+
+/// A labelled group of points and its curve.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct Series {
+    /// Legend text, such as `[I] = 5 µM`.
+    pub label: String,
+    /// The group's points.
+    pub points: Vec<PlotPoint>,
+    /// The group's curve, as a polyline; may be empty.
+    pub curve: Vec<(f64, f64)>,
+    /// Whether the curve is drawn dashed (a contrast or reference curve).
+    pub dashed: bool,
+}
+
+/// A vertical marker line.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct Mark {
+    /// Where, in plot coordinates.
+    pub x: f64,
+    /// Its label, such as `IC50 = 3.2 µM`.
+    pub label: String,
+}
+
+/// The extra fields of a plot with only the single curve.
+fn single_curve() -> (Vec<Series>, bool, Vec<Mark>) {
+    (Vec::new(), false, Vec::new())
 }
 
 /// One measured point in the untransformed coordinates.
@@ -162,6 +248,9 @@ pub fn rate_plots(
         curve: direct_curve,
         zero_line: false,
         note: "Click a point to leave it out of the fit; click again to bring it back.".to_string(),
+        series: single_curve().0,
+        log_x: single_curve().1,
+        marks: single_curve().2,
     });
 
     plots.push(PlotData {
@@ -178,6 +267,9 @@ pub fn rate_plots(
         zero_line: true,
         note: "A pattern (runs of the same sign, a trend, a funnel) says the model or the weighting is wrong."
             .to_string(),
+        series: single_curve().0,
+        log_x: single_curve().1,
+        marks: single_curve().2,
     });
 
     let transformable: Vec<(usize, &RatePoint)> =
@@ -224,6 +316,9 @@ pub fn rate_plots(
         curve: lb_curve,
         zero_line: true,
         note: format!("{note_linearised} For Michaelis-Menten the line meets the axes at −1/Km and 1/Vmax.{hidden_note}"),
+        series: single_curve().0,
+        log_x: single_curve().1,
+        marks: single_curve().2,
     });
 
     let eh_curve = match hyperbola {
@@ -239,6 +334,9 @@ pub fn rate_plots(
         curve: eh_curve,
         zero_line: false,
         note: format!("{note_linearised} For Michaelis-Menten the slope is −Km and the v-intercept is Vmax.{hidden_note}"),
+        series: single_curve().0,
+        log_x: single_curve().1,
+        marks: single_curve().2,
     });
 
     let hw_curve = match hyperbola {
@@ -258,6 +356,9 @@ pub fn rate_plots(
         curve: hw_curve,
         zero_line: true,
         note: format!("{note_linearised} For Michaelis-Menten the line meets the [S] axis at −Km; its slope is 1/Vmax.{hidden_note}"),
+        series: single_curve().0,
+        log_x: single_curve().1,
+        marks: single_curve().2,
     });
 
     plots

@@ -94,18 +94,18 @@ struct Roles {
     rate: usize,
 }
 
-fn normalise_name(name: &str) -> String {
+pub(crate) fn normalise_name(name: &str) -> String {
     name.chars()
         .filter(|c| !matches!(c, '[' | ']' | ' ' | '_' | '-' | '.'))
         .flat_map(char::to_lowercase)
         .collect()
 }
 
-fn is_substrate_name(name: &str) -> bool {
+pub(crate) fn is_substrate_name(name: &str) -> bool {
     matches!(normalise_name(name).as_str(), "s" | "s0" | "substrate" | "conc" | "concentration" | "substrateconcentration")
 }
 
-fn is_rate_name(name: &str) -> bool {
+pub(crate) fn is_rate_name(name: &str) -> bool {
     matches!(
         normalise_name(name).as_str(),
         "v" | "v0" | "vi" | "rate" | "velocity" | "initialrate" | "initialvelocity"
@@ -175,7 +175,15 @@ fn choose_unit<T>(
 /// CLI show.
 pub fn analyse_rates(request: &RateRequest) -> Result<RateAnalysis, Error> {
     let model_name = if request.model.trim().is_empty() { "mm" } else { request.model.trim() };
+    if crate::models::model_input(model_name).is_some_and(|input| input != crate::models::ModelInput::Substrate) {
+        return Err(Error::invalid_option(format!(
+            "the {model_name} model needs an inhibitor column; it is fitted by the inhibition or inhibitor-series analysis"
+        )));
+    }
     let model = model_by_name(model_name)?;
+    // The hyperbola-specific parts (design rules, kcat/Km, straight
+    // linearised lines) apply to Michaelis-Menten only.
+    let hyperbolic = model.name() == "mm";
     let table = parse_table(&request.text);
     let mut notes = Vec::new();
     if table.rows.is_empty() {
@@ -270,7 +278,7 @@ pub fn analyse_rates(request: &RateRequest) -> Result<RateAnalysis, Error> {
     let (vmax, km) = (values[0], values[1]);
     let s_used_max = used.iter().map(|p| p.s).fold(f64::MIN, f64::max);
     let s_used_min = used.iter().map(|p| p.s).fold(f64::MAX, f64::min);
-    if fit.summary.converged {
+    if fit.summary.converged && hyperbolic {
         if km <= 0.0 || vmax <= 0.0 {
             summary.warnings.push(format!(
                 "The fit gives a non-positive {} ; this has no physical meaning. Check the data and the model.",
@@ -320,7 +328,7 @@ pub fn analyse_rates(request: &RateRequest) -> Result<RateAnalysis, Error> {
                 kcat.unit = Some("s⁻¹".to_string());
                 kcat.derived = true;
                 summary.parameters.push(kcat);
-                if let Some(substrate) = substrate {
+                if let (Some(substrate), true) = (substrate, hyperbolic) {
                     let scale = to_kcat / substrate.in_molar();
                     let value = scale * vmax / km;
                     let se = covariance.map(|c| {
@@ -332,7 +340,7 @@ pub fn analyse_rates(request: &RateRequest) -> Result<RateAnalysis, Error> {
                     specificity.unit = Some("M⁻¹ s⁻¹".to_string());
                     specificity.derived = true;
                     summary.parameters.push(specificity);
-                } else {
+                } else if hyperbolic {
                     summary.warnings.push("kcat/Km needs the unit of [S]; choose it or write it in the header.".to_string());
                 }
             }
@@ -349,7 +357,7 @@ pub fn analyse_rates(request: &RateRequest) -> Result<RateAnalysis, Error> {
         rate: rate_unit.map(|u| u.symbol()).unwrap_or_default(),
     };
     let curve = |s: f64| model.value(&[s], &values);
-    let plots = rate_plots(&rate_points, &curve, Some((vmax, km)), &axis_units);
+    let plots = rate_plots(&rate_points, &curve, hyperbolic.then_some((vmax, km)), &axis_units);
 
     Ok(RateAnalysis {
         fit: summary,
