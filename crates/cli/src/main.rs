@@ -192,6 +192,9 @@ fn fit(mut args: FitArgs) -> Result<ExitCode, Failure> {
                 text: args.request.text.clone(),
                 models: vec![name],
                 excluded_lines: args.request.excluded_lines.clone(),
+                substrate_unit: args.request.substrate_unit.clone(),
+                inhibitor_unit: None,
+                rate_unit: args.request.rate_unit.clone(),
             };
             let analysis = analyse_inhibition(&request).map_err(|e| Failure::Input(e.message))?;
             check_problems(&args, &analysis.problems)?;
@@ -273,7 +276,14 @@ fn compare(mut args: FitArgs) -> Result<ExitCode, Failure> {
         return Err(Failure::Usage(format!("unknown model '{}'; available: {}", models[k], MODEL_NAMES.join(", "))));
     }
     let (comparison, fits, problems, notes, caution) = if inputs.iter().all(|i| *i == Some(ModelInput::SubstrateAndInhibitor)) {
-        let request = InhibitionRequest { text: args.request.text.clone(), models, excluded_lines: args.request.excluded_lines.clone() };
+        let request = InhibitionRequest {
+            text: args.request.text.clone(),
+            models,
+            excluded_lines: args.request.excluded_lines.clone(),
+            substrate_unit: args.request.substrate_unit.clone(),
+            inhibitor_unit: None,
+            rate_unit: args.request.rate_unit.clone(),
+        };
         let a = analyse_inhibition(&request).map_err(|e| Failure::Input(e.message))?;
         (a.comparison, a.fits, a.problems, a.notes, a.caution)
     } else if inputs.iter().all(|i| *i == Some(ModelInput::Substrate)) {

@@ -38,6 +38,13 @@ pub struct InhibitionRequest {
     pub models: Vec<String>,
     /// Input line numbers (1-based) to leave out of the fit.
     pub excluded_lines: Vec<usize>,
+    /// Unit of [S]; `None` or empty means "as the header says".
+    pub substrate_unit: Option<String>,
+    /// Unit of [I]; `None` or empty means "as the header says".
+    pub inhibitor_unit: Option<String>,
+    /// Unit of v; `None` or empty means "as the header says" (a matrix
+    /// header has no place for it, so give it here).
+    pub rate_unit: Option<String>,
 }
 
 /// How the table was laid out.
@@ -362,7 +369,20 @@ pub fn analyse_inhibition(request: &InhibitionRequest) -> Result<InhibitionAnaly
     };
     mechanisms.dedup();
     let Read { layout, mut points, problems, mut notes, units } = read(&request.text, &request.excluded_lines)?;
-    let (substrate_unit, inhibitor_unit, rate_unit) = units;
+    let (mut substrate_unit, mut inhibitor_unit, mut rate_unit) = units;
+    let given = |u: &Option<String>| u.as_deref().map(str::trim).filter(|t| !t.is_empty()).map(str::to_string);
+    if let Some(u) = given(&request.substrate_unit) {
+        substrate_unit = Some(ConcentrationUnit::parse(&u).map_err(Error::invalid_option)?);
+    }
+    if let Some(u) = given(&request.inhibitor_unit) {
+        inhibitor_unit = Some(ConcentrationUnit::parse(&u).map_err(Error::invalid_option)?);
+    }
+    if let Some(u) = given(&request.rate_unit) {
+        rate_unit = Some(RateUnit::parse(&u).map_err(Error::invalid_option)?);
+    }
+    if rate_unit.is_none() && layout == TableLayout::Matrix {
+        notes.push("A matrix table's header has no place for the unit of v; choose it to label the rates.".to_string());
+    }
     let used: Vec<InhibitionPoint> = points.iter().filter(|p| !p.excluded).cloned().collect();
     let most = mechanisms.iter().map(|m| Inhibition::new(*m).parameters().len()).max().unwrap_or(3);
     if used.len() <= most {
