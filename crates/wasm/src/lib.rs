@@ -13,6 +13,7 @@
 #![deny(missing_docs)]
 
 mod draw;
+mod inhibition;
 
 use plotters::prelude::*;
 use plotters_canvas::CanvasBackend;
@@ -22,6 +23,7 @@ use turnover_core::rates::{analyse_rates, RateAnalysis, RateRequest};
 use wasm_bindgen::prelude::*;
 
 pub use draw::{draw_plot, PointPosition};
+pub use inhibition::{is_inhibition_table, InhibitionBench};
 
 /// Holds the most recent analysis for drawing.
 #[wasm_bindgen]
