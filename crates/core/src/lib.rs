@@ -18,6 +18,10 @@
 //!   serialisable [`fit::FitSummary`].
 //! - [`plots`]: the data behind the direct, residual and linearised plots.
 //! - [`rates`]: the whole rate analysis used by page and CLI alike.
+//! - [`inhibition`]: rates at several [S] and [I], every reversible
+//!   mechanism fitted globally, compared and plotted.
+//! - [`dose`]: inhibitor series (IC50 logistic, Morrison tight binding).
+//! - [`compare`]: AICc ranking, Akaike weights, F tests, verdict.
 //!
 //! ```
 //! use turnover_core::rates::{analyse_rates, RateRequest};
