@@ -308,7 +308,29 @@ function drawPlots() {
   }
 }
 
+// Other page modules (inhibition.js) ask to hear of every analysis; each
+// hook receives the request that was analysed.
+const analysedHooks = [];
+function notifyAnalysed() {
+  const sent = request();
+  for (const hook of analysedHooks) {
+    try {
+      hook(sent);
+    } catch (error) {
+      console.warn(`analysis hook: ${error?.message ?? error}`);
+    }
+  }
+}
+
 function analyse() {
+  try {
+    analyseRates();
+  } finally {
+    notifyAnalysed();
+  }
+}
+
+function analyseRates() {
   let result;
   try {
     result = workbench.analyse(request());
@@ -534,6 +556,7 @@ window.turnover = {
     return (state.positions[kind] ?? []).map((p) => ({ row: p.row, x: p.x * sx, y: p.y * sy }));
   },
   analyse,
+  onAnalysed: (hook) => analysedHooks.push(hook),
 };
 
 // Other page modules wait on this before calling into the core.

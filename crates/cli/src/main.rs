@@ -9,9 +9,13 @@ mod traces;
 
 use std::io::Read;
 use std::process::ExitCode;
+use turnover_core::compare::compare_fits;
+use turnover_core::dose::{analyse_dose, DoseRequest};
 use turnover_core::fit::FitSummary;
 use turnover_core::intervals::{BootstrapScheme, IntervalMethod};
 use turnover_core::weighting::Weighting;
+use turnover_core::inhibition::{analyse_inhibition, InhibitionRequest};
+use turnover_core::models::{model_input, Mechanism, ModelInput, MODEL_NAMES};
 use turnover_core::rates::{analyse_rates, RateAnalysis, RateRequest};
 use turnover_core::table::InputProblem;
 
@@ -20,14 +24,21 @@ turnover: enzyme kinetics from the command line
 
 USAGE:
     turnover fit FILE [OPTIONS]        fit a table of [S] and v (FILE '-' reads standard input)
+    turnover compare FILE --models LIST [--json]
+                                       fit several models to the same data, rank them (AICc,
+                                       Akaike weights), F-test nested pairs and give a verdict
     turnover help                      show this text
 {TRACE_USAGE}
 OPTIONS for fit:
-    --model NAME           model to fit (mm: Michaelis-Menten; the default)
+    --model NAME           model to fit (default mm). On [S], v: mm, substrate-inhibition, hill.
+                           On [S], [I], v (long or matrix table), fitted globally: competitive,
+                           uncompetitive, mixed, noncompetitive. On [I], response: ic50, morrison.
     --json                 print one JSON object instead of a table
     --substrate-unit U     unit of [S] (M, mM, µM or uM, nM, pM); default: from the header
     --rate-unit U          unit of v, a concentration per time (µM/min, nM/s, ...); default: from the header
-    --enzyme CONC          total enzyme concentration for kcat, such as '10 nM' or '10nM'
+    --enzyme CONC          total enzyme concentration for kcat, such as '10 nM' or '10nM';
+                           for morrison, [E]t in the units of [I] (a bare number)
+    --top Y, --bottom Y    fix the top or bottom plateau of the ic50 model
     --enzyme-unit U        unit of --enzyme when CONC is a bare number
     --exclude-lines LIST   input line numbers to leave out of the fit, such as 4,9
     --weighting W          uniform (default), relative (1/v²), poisson (1/v) or sd (1/sd² from an sd column)
@@ -37,6 +48,12 @@ OPTIONS for fit:
     --resample-by WHAT     bootstrap scheme: residuals (default) or cases
     --lenient              fit the usable rows even when some lines have problems
                            (the problems are still reported on standard error)
+
+OPTIONS for compare:
+    --models LIST          comma-separated model names, all on the same data: inhibition
+                           mechanisms (default: competitive,uncompetitive,mixed,noncompetitive)
+                           or mm with substrate-inhibition and/or hill
+    --json                 print one JSON object: models, f_tests, preferred, verdict
 
 EXIT CODES:
     0 success; 2 bad input or usage; 3 the fit did not converge.
@@ -60,6 +77,9 @@ struct FitArgs {
     json: bool,
     lenient: bool,
     request: RateRequest,
+    models: Vec<String>,
+    top: Option<f64>,
+    bottom: Option<f64>,
 }
 
 fn main() -> ExitCode {
@@ -82,6 +102,7 @@ fn run(args: &[String]) -> Result<ExitCode, Failure> {
         Some("fit") => fit(parse_fit_args(&args[1..])?),
         Some("rates") => traces::rates(&args[1..]),
         Some("fit-progress") => traces::fit_progress_command(&args[1..]),
+        Some("compare") => compare(parse_fit_args(&args[1..])?),
         Some("help") | Some("--help") | Some("-h") => {
             print!("{}", usage());
             Ok(ExitCode::SUCCESS)
@@ -97,6 +118,11 @@ fn parse_fit_args(args: &[String]) -> Result<FitArgs, Failure> {
     let mut lenient = false;
     let mut request = RateRequest::default();
     let mut enzyme_text: Option<String> = None;
+    let mut models = Vec::new();
+    let (mut top, mut bottom) = (None, None);
+    let number = |text: String, name: &str| -> Result<f64, Failure> {
+        text.trim().parse::<f64>().ok().filter(|v| v.is_finite()).ok_or_else(|| Failure::Usage(format!("{name}: '{text}' is not a number")))
+    };
     let mut i = 0;
     let value = |i: &mut usize, name: &str| -> Result<String, Failure> {
         *i += 1;
@@ -107,6 +133,11 @@ fn parse_fit_args(args: &[String]) -> Result<FitArgs, Failure> {
             "--json" => json = true,
             "--lenient" => lenient = true,
             "--model" => request.model = value(&mut i, "--model")?,
+            "--models" => {
+                models = value(&mut i, "--models")?.split(',').map(|m| m.trim().to_string()).filter(|m| !m.is_empty()).collect()
+            }
+            "--top" => top = Some(number(value(&mut i, "--top")?, "--top")?),
+            "--bottom" => bottom = Some(number(value(&mut i, "--bottom")?, "--bottom")?),
             "--substrate-unit" => request.substrate_unit = Some(value(&mut i, "--substrate-unit")?),
             "--rate-unit" => request.rate_unit = Some(value(&mut i, "--rate-unit")?),
             "--enzyme" => enzyme_text = Some(value(&mut i, "--enzyme")?),
@@ -161,7 +192,7 @@ fn parse_fit_args(args: &[String]) -> Result<FitArgs, Failure> {
         }
     }
     let file = file.ok_or_else(|| Failure::Usage("fit needs an input file ('-' for standard input)".to_string()))?;
-    Ok(FitArgs { file, json, lenient, request })
+    Ok(FitArgs { file, json, lenient, request, models, top, bottom })
 }
 
 /// Splits `10 nM`, `10nM` or `10` into the number and an optional unit.
@@ -192,6 +223,45 @@ pub(crate) fn read_input(path: &str) -> Result<String, Failure> {
 
 fn fit(mut args: FitArgs) -> Result<ExitCode, Failure> {
     args.request.text = read_input(&args.file)?;
+    let name = if args.request.model.trim().is_empty() { "mm".to_string() } else { args.request.model.trim().to_string() };
+    match model_input(&name) {
+        Some(ModelInput::SubstrateAndInhibitor) => {
+            let request = InhibitionRequest {
+                text: args.request.text.clone(),
+                models: vec![name],
+                excluded_lines: args.request.excluded_lines.clone(),
+                substrate_unit: args.request.substrate_unit.clone(),
+                inhibitor_unit: None,
+                rate_unit: args.request.rate_unit.clone(),
+            };
+            let analysis = analyse_inhibition(&request).map_err(|e| Failure::Input(e.message))?;
+            check_problems(&args, &analysis.problems)?;
+            let fit = &analysis.fits[0];
+            let extra = serde_json::json!({
+                "problems": analysis.problems, "notes": analysis.notes, "units": analysis.units,
+                "points": analysis.points, "caution": analysis.caution,
+            });
+            return Ok(print_fit(&args, fit, extra, &analysis.notes, &analysis.caution));
+        }
+        Some(ModelInput::Inhibitor) => {
+            let request = DoseRequest {
+                text: args.request.text.clone(),
+                model: name,
+                enzyme: args.request.enzyme,
+                fixed_top: args.top,
+                fixed_bottom: args.bottom,
+                excluded_lines: args.request.excluded_lines.clone(),
+            };
+            let analysis = analyse_dose(&request).map_err(|e| Failure::Input(e.message))?;
+            check_problems(&args, &analysis.problems)?;
+            let extra = serde_json::json!({
+                "problems": analysis.problems, "notes": analysis.notes, "units": {"inhibitor": analysis.inhibitor_unit},
+                "points": analysis.points, "caution": analysis.caution,
+            });
+            return Ok(print_fit(&args, &analysis.fit, extra, &analysis.notes, &analysis.caution));
+        }
+        _ => {}
+    }
     let analysis = analyse_rates(&args.request).map_err(|e| Failure::Input(e.message))?;
     report_problems(&args.file, &analysis.problems);
     if !analysis.problems.is_empty() && !args.lenient {
@@ -208,6 +278,115 @@ fn fit(mut args: FitArgs) -> Result<ExitCode, Failure> {
     Ok(if analysis.fit.converged { ExitCode::SUCCESS } else { ExitCode::from(3) })
 }
 
+fn check_problems(args: &FitArgs, problems: &[InputProblem]) -> Result<(), Failure> {
+    report_problems(&args.file, problems);
+    if !problems.is_empty() && !args.lenient {
+        return Err(Failure::Input(format!(
+            "{} problem(s) in the input; fix them, or pass --lenient to fit the remaining rows",
+            problems.len()
+        )));
+    }
+    Ok(())
+}
+
+fn print_fit(args: &FitArgs, fit: &FitSummary, extra: serde_json::Value, notes: &[String], caution: &str) -> ExitCode {
+    if args.json {
+        println!("{}", fit_json(fit, extra));
+    } else {
+        print!("{}", fit_table(fit, "", notes, caution));
+    }
+    if fit.converged {
+        ExitCode::SUCCESS
+    } else {
+        ExitCode::from(3)
+    }
+}
+
+fn compare(mut args: FitArgs) -> Result<ExitCode, Failure> {
+    args.request.text = read_input(&args.file)?;
+    let models = if args.models.is_empty() {
+        Mechanism::ALL.iter().map(|m| m.name().to_string()).collect()
+    } else {
+        args.models.clone()
+    };
+    let inputs: Vec<Option<ModelInput>> = models.iter().map(|m| model_input(m)).collect();
+    if let Some(k) = inputs.iter().position(Option::is_none) {
+        return Err(Failure::Usage(format!("unknown model '{}'; available: {}", models[k], MODEL_NAMES.join(", "))));
+    }
+    let (comparison, fits, problems, notes, caution) = if inputs.iter().all(|i| *i == Some(ModelInput::SubstrateAndInhibitor)) {
+        let request = InhibitionRequest {
+            text: args.request.text.clone(),
+            models,
+            excluded_lines: args.request.excluded_lines.clone(),
+            substrate_unit: args.request.substrate_unit.clone(),
+            inhibitor_unit: None,
+            rate_unit: args.request.rate_unit.clone(),
+        };
+        let a = analyse_inhibition(&request).map_err(|e| Failure::Input(e.message))?;
+        (a.comparison, a.fits, a.problems, a.notes, a.caution)
+    } else if inputs.iter().all(|i| *i == Some(ModelInput::Substrate)) {
+        let mut fits = Vec::new();
+        let mut first: Option<RateAnalysis> = None;
+        for model in &models {
+            let mut request = args.request.clone();
+            request.model = model.clone();
+            let a = analyse_rates(&request).map_err(|e| Failure::Input(e.message))?;
+            fits.push(a.fit.clone());
+            first.get_or_insert(a);
+        }
+        let first = first.expect("at least one model");
+        (compare_fits(&fits), fits, first.problems, first.notes, first.caution)
+    } else {
+        return Err(Failure::Usage(
+            "compare needs models of the same data: all inhibition mechanisms, or mm with substrate-inhibition and hill".to_string(),
+        ));
+    };
+    check_problems(&args, &problems)?;
+    if args.json {
+        let value = serde_json::json!({
+            "models": comparison.models,
+            "f_tests": comparison.f_tests,
+            "preferred": comparison.preferred,
+            "verdict": comparison.verdict,
+            "problems": problems,
+            "notes": notes,
+            "caution": caution,
+        });
+        println!("{}", serde_json::to_string_pretty(&value).expect("JSON values always serialise"));
+    } else {
+        let mut out = String::new();
+        out.push_str(&format!("{:<22} {:>12} {:>5} {:>12} {:>8}  parameters\n", "model", "RSS", "dof", "AICc", "weight"));
+        for m in &comparison.models {
+            let params: Vec<String> = m.parameters.iter().map(|p| format!("{} = {}", p.name, number(Some(p.value)))).collect();
+            out.push_str(&format!(
+                "{:<22} {:>12} {:>5} {:>12} {:>8}  {}\n",
+                m.model,
+                number(Some(m.rss)),
+                m.dof,
+                number(m.aicc),
+                m.akaike_weight.map_or("—".to_string(), |w| format!("{w:.3}")),
+                params.join(", ")
+            ));
+        }
+        out.push('\n');
+        for t in &comparison.f_tests {
+            out.push_str(&format!("F test {} inside {}: F = {:.3} on ({}, {}) df, p = {}\n", t.simpler, t.general, t.f, t.df_extra, t.df_general, number(Some(t.p_value))));
+        }
+        out.push_str(&format!("\nVerdict: {}\n", comparison.verdict));
+        for note in &notes {
+            out.push_str(&format!("note: {note}\n"));
+        }
+        for fit in &fits {
+            for w in &fit.warnings {
+                out.push_str(&format!("warning ({}): {w}\n", fit.model));
+            }
+        }
+        out.push_str(&format!("\n{caution}\n"));
+        print!("{out}");
+    }
+    Ok(ExitCode::SUCCESS)
+}
+
 fn report_problems(file: &str, problems: &[InputProblem]) {
     for problem in problems {
         eprintln!("{file}: {problem}");
@@ -217,8 +396,6 @@ fn report_problems(file: &str, problems: &[InputProblem]) {
 /// The JSON form: the fit record's fields at the top level, then the input
 /// problems, notes, units, points and the caution.
 fn to_json(analysis: &RateAnalysis) -> String {
-    let mut value = serde_json::to_value(&analysis.fit).expect("a fit record always serialises");
-    let object = value.as_object_mut().expect("a fit record is an object");
     let extra = serde_json::json!({
         "problems": analysis.problems,
         "notes": analysis.notes,
@@ -229,6 +406,13 @@ fn to_json(analysis: &RateAnalysis) -> String {
         "bootstrap": analysis.bootstrap,
         "caution": analysis.caution,
     });
+    fit_json(&analysis.fit, extra)
+}
+
+/// The fit record's fields at the top level, then `extra`'s.
+fn fit_json(fit: &FitSummary, extra: serde_json::Value) -> String {
+    let mut value = serde_json::to_value(fit).expect("a fit record always serialises");
+    let object = value.as_object_mut().expect("a fit record is an object");
     for (key, item) in extra.as_object().expect("built as an object") {
         object.insert(key.clone(), item.clone());
     }
@@ -257,7 +441,37 @@ pub(crate) fn format_significant(value: f64, digits: usize) -> String {
 }
 
 fn to_table(analysis: &RateAnalysis) -> String {
-    let fit: &FitSummary = &analysis.fit;
+    let mut extra = String::new();
+    let diagnostics = &analysis.diagnostics;
+    if let Some(runs) = &diagnostics.runs {
+        extra.push_str(&format!(
+            "Runs test: {} runs ({:.1} expected), P(as few or fewer) = {:.3}\n",
+            runs.runs, runs.expected, runs.p_too_few
+        ));
+    }
+    if let Some(l) = &diagnostics.lack_of_fit {
+        extra.push_str(&format!(
+            "Lack of fit: F = {:.3} on {} and {} df, P = {:.3}\n",
+            l.f, l.lack_of_fit_dof, l.pure_error_dof, l.p_value
+        ));
+    }
+    if let (Some(km), Some(vmax)) = (analysis.direct_linear.km, analysis.direct_linear.vmax) {
+        extra.push_str(&format!(
+            "Direct linear plot (medians of {} intersections): Km = {}, Vmax = {}\n",
+            analysis.direct_linear.intersections,
+            number(Some(km)),
+            number(Some(vmax))
+        ));
+    }
+    if let Some(b) = &analysis.bootstrap {
+        extra.push_str(&format!("Bootstrap: {} resamples, seed {}, {} refits left out\n", b.resamples, b.seed, b.failures));
+    }
+    fit_table(&analysis.fit, &extra, &analysis.notes, &analysis.caution)
+}
+
+/// The readable table of one fit; `extra` holds further lines (checks)
+/// printed before the notes.
+fn fit_table(fit: &FitSummary, extra: &str, notes: &[String], caution: &str) -> String {
     let mut out = String::new();
     out.push_str(&format!("Model: {} ({})\n", fit.model, fit.equation));
     out.push_str(&format!("Fit {} after {} iteration(s).\n\n", fit.termination_text, fit.iterations));
@@ -299,36 +513,13 @@ fn to_table(analysis: &RateAnalysis) -> String {
         number(fit.r_squared),
         number(fit.aicc)
     ));
-    let diagnostics = &analysis.diagnostics;
-    if let Some(runs) = &diagnostics.runs {
-        out.push_str(&format!(
-            "Runs test: {} runs ({:.1} expected), P(as few or fewer) = {:.3}\n",
-            runs.runs, runs.expected, runs.p_too_few
-        ));
-    }
-    if let Some(l) = &diagnostics.lack_of_fit {
-        out.push_str(&format!(
-            "Lack of fit: F = {:.3} on {} and {} df, P = {:.3}\n",
-            l.f, l.lack_of_fit_dof, l.pure_error_dof, l.p_value
-        ));
-    }
-    if let (Some(km), Some(vmax)) = (analysis.direct_linear.km, analysis.direct_linear.vmax) {
-        out.push_str(&format!(
-            "Direct linear plot (medians of {} intersections): Km = {}, Vmax = {}\n",
-            analysis.direct_linear.intersections,
-            number(Some(km)),
-            number(Some(vmax))
-        ));
-    }
-    if let Some(b) = &analysis.bootstrap {
-        out.push_str(&format!("Bootstrap: {} resamples, seed {}, {} refits left out\n", b.resamples, b.seed, b.failures));
-    }
-    for note in &analysis.notes {
+    out.push_str(extra);
+    for note in notes {
         out.push_str(&format!("note: {note}\n"));
     }
     for warning in &fit.warnings {
         out.push_str(&format!("warning: {warning}\n"));
     }
-    out.push_str(&format!("\n{}\n", analysis.caution));
+    out.push_str(&format!("\n{caution}\n"));
     out
 }

@@ -27,6 +27,10 @@
 //!   Beer-Lambert or a standard curve), and the rate table they make.
 //! - [`lambert`]: the Lambert W function.
 //! - [`progress`]: the integrated Michaelis-Menten fit to whole time courses.
+//! - [`inhibition`]: rates at several [S] and [I], every reversible
+//!   mechanism fitted globally, compared and plotted.
+//! - [`dose`]: inhibitor series (IC50 logistic, Morrison tight binding).
+//! - [`compare`]: AICc ranking, Akaike weights, F tests, verdict.
 //!
 //! ```
 //! use turnover_core::rates::{analyse_rates, RateRequest};
@@ -44,9 +48,12 @@
 
 #![deny(missing_docs)]
 
+pub mod compare;
 pub mod diagnostics;
+pub mod dose;
 pub mod error;
 pub mod fit;
+pub mod inhibition;
 pub mod intervals;
 pub mod lambert;
 pub mod model;

@@ -9,6 +9,8 @@
 
 use serde::Serialize;
 
+pub mod family;
+
 /// Which plot.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "kebab-case")]
@@ -27,6 +29,27 @@ pub enum PlotKind {
     NormalQuantile,
     /// The direct linear plot in (Km, Vmax) space.
     DirectLinear,
+    /// v against [S], one fitted curve per [I] from the global fit.
+    InhibitionDirect,
+    /// 1/v against 1/[S], one line per [I].
+    InhibitionLineweaverBurk,
+    /// v against v/[S], one line per [I].
+    InhibitionEadieHofstee,
+    /// [S]/v against [S], one line per [I].
+    InhibitionHanesWoolf,
+    /// 1/v against [I], one line per [S] (Dixon).
+    Dixon,
+    /// [S]/v against [I], one line per [S] (Cornish-Bowden).
+    CornishBowden,
+    /// Slope of the double-reciprocal line against [I].
+    SlopeReplot,
+    /// Intercept of the double-reciprocal line against [I].
+    InterceptReplot,
+    /// Response against log [I] with the IC50 marked.
+    DoseResponse,
+    /// Rate against [I] for a tight-binding inhibitor, with the classical
+    /// hyperbola for contrast.
+    Morrison,
 }
 
 impl PlotKind {
@@ -51,12 +74,38 @@ impl PlotKind {
             PlotKind::HanesWoolf => "hanes-woolf",
             PlotKind::NormalQuantile => "normal-quantile",
             PlotKind::DirectLinear => "direct-linear",
+            PlotKind::InhibitionDirect => "inhibition-direct",
+            PlotKind::InhibitionLineweaverBurk => "inhibition-lineweaver-burk",
+            PlotKind::InhibitionEadieHofstee => "inhibition-eadie-hofstee",
+            PlotKind::InhibitionHanesWoolf => "inhibition-hanes-woolf",
+            PlotKind::Dixon => "dixon",
+            PlotKind::CornishBowden => "cornish-bowden",
+            PlotKind::SlopeReplot => "slope-replot",
+            PlotKind::InterceptReplot => "intercept-replot",
+            PlotKind::DoseResponse => "dose-response",
+            PlotKind::Morrison => "morrison",
         }
     }
 
+    /// The plots of an inhibition analysis, in page order.
+    pub const INHIBITION: [PlotKind; 8] = [
+        PlotKind::InhibitionDirect,
+        PlotKind::InhibitionLineweaverBurk,
+        PlotKind::InhibitionEadieHofstee,
+        PlotKind::InhibitionHanesWoolf,
+        PlotKind::Dixon,
+        PlotKind::CornishBowden,
+        PlotKind::SlopeReplot,
+        PlotKind::InterceptReplot,
+    ];
+
     /// Looks a plot up by [`PlotKind::name`].
     pub fn from_name(name: &str) -> Option<PlotKind> {
-        PlotKind::ALL.into_iter().find(|k| k.name() == name)
+        PlotKind::ALL
+            .into_iter()
+            .chain(PlotKind::INHIBITION)
+            .chain([PlotKind::DoseResponse, PlotKind::Morrison])
+            .find(|k| k.name() == name)
     }
 }
 
@@ -93,15 +142,52 @@ pub struct PlotData {
     /// Thin auxiliary straight segments `((x0, y0), (x1, y1))`, such as the
     /// lines of the direct linear plot.
     pub segments: Vec<((f64, f64), (f64, f64))>,
-    /// Labelled marks drawn over everything, such as a median estimate.
-    pub marks: Vec<Mark>,
+    /// Labelled points drawn over everything, such as a median estimate.
+    pub spots: Vec<Spot>,
     /// A sentence under the plot.
     pub note: String,
+    /// Labelled groups of points with their own curve, drawn in distinct
+    /// colours with a legend (one per [I] or per [S]). Empty for the
+    /// single-curve plots, which use `points` and `curve` only. When not
+    /// empty, `points` still lists every point (for hit-testing) and
+    /// `curve` is empty.
+    pub series: Vec<Series>,
+    /// Whether the horizontal axis is logarithmic (every x then is > 0).
+    pub log_x: bool,
+    /// Vertical marker lines with a label, such as the IC50.
+    pub marks: Vec<Mark>,
 }
 
-/// A labelled mark on a plot.
+/// A labelled group of points and its curve.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct Series {
+    /// Legend text, such as `[I] = 5 µM`.
+    pub label: String,
+    /// The group's points.
+    pub points: Vec<PlotPoint>,
+    /// The group's curve, as a polyline; may be empty.
+    pub curve: Vec<(f64, f64)>,
+    /// Whether the curve is drawn dashed (a contrast or reference curve).
+    pub dashed: bool,
+}
+
+/// A vertical marker line.
 #[derive(Clone, Debug, PartialEq, Serialize)]
 pub struct Mark {
+    /// Where, in plot coordinates.
+    pub x: f64,
+    /// Its label, such as `IC50 = 3.2 µM`.
+    pub label: String,
+}
+
+/// The extra fields of a plot with only the single curve.
+fn single_curve() -> (Vec<Series>, bool, Vec<Mark>) {
+    (Vec::new(), false, Vec::new())
+}
+
+/// A labelled point on a plot.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct Spot {
     /// Horizontal coordinate.
     pub x: f64,
     /// Vertical coordinate.
@@ -193,8 +279,11 @@ pub fn rate_plots(
         curve: direct_curve,
         zero_line: false,
         segments: Vec::new(),
-        marks: Vec::new(),
+        spots: Vec::new(),
         note: "Click a point to leave it out of the fit; click again to bring it back.".to_string(),
+        series: single_curve().0,
+        log_x: single_curve().1,
+        marks: single_curve().2,
     });
 
     let weighted = points.iter().any(|p| p.weight != 1.0);
@@ -211,9 +300,12 @@ pub fn rate_plots(
         curve: Vec::new(),
         zero_line: true,
         segments: Vec::new(),
-        marks: Vec::new(),
+        spots: Vec::new(),
         note: "A pattern (runs of the same sign, a trend, a funnel) says the model or the weighting is wrong."
             .to_string(),
+        series: single_curve().0,
+        log_x: single_curve().1,
+        marks: single_curve().2,
     });
 
     let transformable: Vec<(usize, &RatePoint)> =
@@ -260,8 +352,11 @@ pub fn rate_plots(
         curve: lb_curve,
         zero_line: true,
         segments: Vec::new(),
-        marks: Vec::new(),
+        spots: Vec::new(),
         note: format!("{note_linearised} For Michaelis-Menten the line meets the axes at −1/Km and 1/Vmax.{hidden_note}"),
+        series: single_curve().0,
+        log_x: single_curve().1,
+        marks: single_curve().2,
     });
 
     let eh_curve = match hyperbola {
@@ -277,8 +372,11 @@ pub fn rate_plots(
         curve: eh_curve,
         zero_line: false,
         segments: Vec::new(),
-        marks: Vec::new(),
+        spots: Vec::new(),
         note: format!("{note_linearised} For Michaelis-Menten the slope is −Km and the v-intercept is Vmax.{hidden_note}"),
+        series: single_curve().0,
+        log_x: single_curve().1,
+        marks: single_curve().2,
     });
 
     let hw_curve = match hyperbola {
@@ -298,8 +396,11 @@ pub fn rate_plots(
         curve: hw_curve,
         zero_line: true,
         segments: Vec::new(),
-        marks: Vec::new(),
+        spots: Vec::new(),
         note: format!("{note_linearised} For Michaelis-Menten the line meets the [S] axis at −Km; its slope is 1/Vmax.{hidden_note}"),
+        series: single_curve().0,
+        log_x: single_curve().1,
+        marks: single_curve().2,
     });
 
     plots
@@ -326,6 +427,9 @@ pub fn diagnostic_plots(
         curve: vec![(-extent, -extent), (extent, extent)],
         zero_line: false,
         segments: Vec::new(),
+        spots: Vec::new(),
+        series: Vec::new(),
+        log_x: false,
         marks: Vec::new(),
         note: "Points near the line mean roughly normal residuals; a bend means skewed errors, and lone points far off are worth a look at the bench.".to_string(),
     };
@@ -337,8 +441,8 @@ pub fn diagnostic_plots(
     let s_max = used.iter().map(|p| p.s).fold(0.0, f64::max);
     let k_end = robust.km.map_or(s_max, |k| (2.5 * k).max(0.5 * s_max)).max(f64::MIN_POSITIVE);
     let segments = used.iter().map(|p| ((-p.s, 0.0), (k_end, p.v + p.v / p.s * k_end))).collect();
-    let marks = match (robust.km, robust.vmax) {
-        (Some(k), Some(v)) => vec![Mark { x: k, y: v, label: "median".to_string() }],
+    let spots = match (robust.km, robust.vmax) {
+        (Some(k), Some(v)) => vec![Spot { x: k, y: v, label: "median".to_string() }],
         _ => Vec::new(),
     };
     let direct_linear = PlotData {
@@ -350,7 +454,10 @@ pub fn diagnostic_plots(
         curve: Vec::new(),
         zero_line: true,
         segments,
-        marks,
+        spots,
+        series: Vec::new(),
+        log_x: false,
+        marks: Vec::new(),
         note: format!(
             "Each line is one measurement: every (Km, Vmax) that fits it exactly. The medians of the {} intersections{} are a distribution-free check on the least-squares values.",
             robust.intersections,

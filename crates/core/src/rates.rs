@@ -134,18 +134,18 @@ struct Roles {
     sd: Option<usize>,
 }
 
-fn normalise_name(name: &str) -> String {
+pub(crate) fn normalise_name(name: &str) -> String {
     name.chars()
         .filter(|c| !matches!(c, '[' | ']' | ' ' | '_' | '-' | '.'))
         .flat_map(char::to_lowercase)
         .collect()
 }
 
-fn is_substrate_name(name: &str) -> bool {
+pub(crate) fn is_substrate_name(name: &str) -> bool {
     matches!(normalise_name(name).as_str(), "s" | "s0" | "substrate" | "conc" | "concentration" | "substrateconcentration")
 }
 
-fn is_rate_name(name: &str) -> bool {
+pub(crate) fn is_rate_name(name: &str) -> bool {
     matches!(
         normalise_name(name).as_str(),
         "v" | "v0" | "vi" | "rate" | "velocity" | "initialrate" | "initialvelocity"
@@ -220,7 +220,15 @@ fn choose_unit<T>(
 /// CLI show.
 pub fn analyse_rates(request: &RateRequest) -> Result<RateAnalysis, Error> {
     let model_name = if request.model.trim().is_empty() { "mm" } else { request.model.trim() };
+    if crate::models::model_input(model_name).is_some_and(|input| input != crate::models::ModelInput::Substrate) {
+        return Err(Error::invalid_option(format!(
+            "the {model_name} model needs an inhibitor column; it is fitted by the inhibition or inhibitor-series analysis"
+        )));
+    }
     let model = model_by_name(model_name)?;
+    // The hyperbola-specific parts (design rules, kcat/Km, straight
+    // linearised lines) apply to Michaelis-Menten only.
+    let hyperbolic = model.name() == "mm";
     let table = parse_table(&request.text);
     let mut notes = Vec::new();
     if table.rows.is_empty() {
@@ -358,7 +366,9 @@ pub fn analyse_rates(request: &RateRequest) -> Result<RateAnalysis, Error> {
     for (estimate, spec) in summary.parameters.iter_mut().zip(model.parameters()) {
         estimate.unit = unit_of(spec.dimension);
     }
-    summary.warnings.extend(design_warnings(&fit, &used));
+    if hyperbolic {
+        summary.warnings.extend(design_warnings(&fit, &used));
+    }
 
     // kcat and kcat/Km from [E]t: the factors that turn Vmax into kcat and
     // Vmax/Km into kcat/Km, when the units allow.
@@ -378,11 +388,12 @@ pub fn analyse_rates(request: &RateRequest) -> Result<RateAnalysis, Error> {
             Some(rate) => {
                 let to_kcat = kcat_per_second(1.0, rate, enzyme, enzyme_unit);
                 kcat_factor = Some(to_kcat);
-                match substrate_unit {
+                match substrate_unit.filter(|_| hyperbolic) {
                     Some(substrate) => specificity_factor = Some(to_kcat / substrate.in_molar()),
-                    None => summary
+                    None if hyperbolic => summary
                         .warnings
                         .push("kcat/Km needs the unit of [S]; choose it or write it in the header.".to_string()),
+                    None => {}
                 }
             }
             None => summary
@@ -412,7 +423,7 @@ pub fn analyse_rates(request: &RateRequest) -> Result<RateAnalysis, Error> {
 
     let robust_points: Vec<(f64, f64)> = used.iter().filter(|p| p.s > 0.0).map(|p| (p.s, p.v)).collect();
     let robust = direct_linear(&robust_points);
-    if let (Some(km_robust), Some(vmax_robust)) = (robust.km, robust.vmax) {
+    if let (Some(km_robust), Some(vmax_robust), true) = (robust.km, robust.vmax, hyperbolic) {
         let (vmax, km) = (values[0], values[1]);
         if fit.summary.converged && ((km_robust / km - 1.0).abs() > 0.5 || (vmax_robust / vmax - 1.0).abs() > 0.25) {
             summary.warnings.push(format!(
@@ -430,7 +441,7 @@ pub fn analyse_rates(request: &RateRequest) -> Result<RateAnalysis, Error> {
         rate: rate_unit.map(|u| u.symbol()).unwrap_or_default(),
     };
     let curve = |s: f64| model.value(&[s], &values);
-    let mut plots = rate_plots(&rate_points, &curve, Some((values[0], values[1])), &axis_units);
+    let mut plots = rate_plots(&rate_points, &curve, hyperbolic.then_some((values[0], values[1])), &axis_units);
     let studentised: Vec<(usize, f64, bool)> =
         points.iter().filter_map(|p| p.studentised.map(|r| (p.row, r, p.excluded))).collect();
     plots.extend(diagnostic_plots(&studentised, &rate_points, &robust, &axis_units));

@@ -13,6 +13,7 @@
 #![deny(missing_docs)]
 
 mod draw;
+mod inhibition;
 mod traces;
 
 use plotters::prelude::*;
@@ -23,6 +24,7 @@ use turnover_core::rates::{analyse_rates, RateAnalysis, RateRequest};
 use wasm_bindgen::prelude::*;
 
 pub use draw::{draw_plot, PointPosition};
+pub use inhibition::{is_inhibition_table, InhibitionBench};
 pub use traces::TraceBench;
 
 /// Holds the most recent analysis for drawing.

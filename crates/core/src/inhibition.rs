@@ -1,0 +1,558 @@
+//! The inhibition analysis: rates at several [S] and [I] in, every
+//! reversible mechanism fitted globally, ranked and tested, with the
+//! family of plots out. [`analyse_inhibition`] is the one code path behind
+//! the page's inhibition section and the CLI's `compare` command (and its
+//! `fit` for the inhibition models).
+//!
+//! Two table layouts are read:
+//!
+//! - **long**: one row per measurement, with columns for [S], [I] and v
+//!   (header names such as `[S] (mM)`, `[I] (µM)` or `inhibitor (µM)`,
+//!   `v (µM/min)`); replicates are repeated rows;
+//! - **matrix**: the first column is [S] and every other column holds the
+//!   rates at one inhibitor concentration, written in its header (`0`,
+//!   `5 µM`, `10 µM`); empty cells are measurements not made.
+//!
+//! Both give the same observations, so the same fit.
+
+use crate::compare::{compare_fits, Comparison};
+use crate::error::Error;
+use crate::fit::{fit_model, Fit, FitSettings, FitSummary};
+use crate::model::{Dimension, Model, Observations};
+use crate::models::{Inhibition, Mechanism, MichaelisMenten};
+use crate::plots::family::{inhibition_plots, short_number, FamilyPoint, FamilyUnits, GlobalFit};
+use crate::plots::PlotData;
+use crate::rates::{is_rate_name, is_substrate_name, normalise_name, CAUTION};
+use crate::table::{parse_table, ColumnHeading, InputProblem, Table};
+use crate::units::{ConcentrationUnit, RateUnit};
+use serde::{Deserialize, Serialize};
+
+/// What to analyse.
+#[derive(Clone, Debug, Default, PartialEq, Deserialize)]
+#[serde(default)]
+pub struct InhibitionRequest {
+    /// The pasted or loaded table (long or matrix layout).
+    pub text: String,
+    /// Mechanisms to fit (`competitive`, `uncompetitive`, `mixed`,
+    /// `noncompetitive`); empty means all four.
+    pub models: Vec<String>,
+    /// Input line numbers (1-based) to leave out of the fit.
+    pub excluded_lines: Vec<usize>,
+    /// Unit of [S]; `None` or empty means "as the header says".
+    pub substrate_unit: Option<String>,
+    /// Unit of [I]; `None` or empty means "as the header says".
+    pub inhibitor_unit: Option<String>,
+    /// Unit of v; `None` or empty means "as the header says" (a matrix
+    /// header has no place for it, so give it here).
+    pub rate_unit: Option<String>,
+}
+
+/// How the table was laid out.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum TableLayout {
+    /// One row per measurement: [S], [I], v.
+    Long,
+    /// [S] then one column of rates per [I].
+    Matrix,
+}
+
+/// One measurement as the analysis saw it.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct InhibitionPoint {
+    /// Index in [`InhibitionAnalysis::points`].
+    pub row: usize,
+    /// Input line, counting from 1.
+    pub line: usize,
+    /// Input column of the rate, counting from 1.
+    pub column: usize,
+    /// Substrate concentration.
+    pub s: f64,
+    /// Inhibitor concentration.
+    pub i: f64,
+    /// Measured rate.
+    pub v: f64,
+    /// Whether the point was left out.
+    pub excluded: bool,
+    /// Rate of the preferred model at this ([S], [I]).
+    pub fitted: f64,
+}
+
+/// Units used, as symbols.
+#[derive(Clone, Debug, Default, PartialEq, Serialize)]
+pub struct InhibitionUnits {
+    /// Unit of [S].
+    pub substrate: Option<String>,
+    /// Unit of [I].
+    pub inhibitor: Option<String>,
+    /// Unit of v.
+    pub rate: Option<String>,
+}
+
+/// The whole inhibition analysis.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct InhibitionAnalysis {
+    /// The layout read.
+    pub layout: TableLayout,
+    /// One fit per mechanism, in the order asked for.
+    pub fits: Vec<FitSummary>,
+    /// Ranking, F tests and verdict.
+    pub comparison: Comparison,
+    /// The model whose curves the plots show (the preferred one, or the
+    /// lowest AICc when the comparison cannot decide).
+    pub shown: String,
+    /// The distinct inhibitor concentrations.
+    pub inhibitor_levels: Vec<f64>,
+    /// Every measurement.
+    pub points: Vec<InhibitionPoint>,
+    /// Problems with the input.
+    pub problems: Vec<InputProblem>,
+    /// How the table was read.
+    pub notes: Vec<String>,
+    /// Units.
+    pub units: InhibitionUnits,
+    /// The family of plots.
+    pub plots: Vec<PlotData>,
+    /// The standing caution.
+    pub caution: String,
+}
+
+pub(crate) fn is_inhibitor_name(name: &str) -> bool {
+    matches!(normalise_name(name).as_str(), "i" | "i0" | "inhibitor" | "inh" | "inhibitorconcentration")
+}
+
+/// Reads `5 µM`, `5µM`, `5`, `[I] = 5 µM` or `5 (µM)` as a concentration
+/// with an optional unit.
+fn heading_concentration(heading: &ColumnHeading) -> Option<(f64, Option<String>)> {
+    let mut text = heading.name.trim();
+    if let Some((before, after)) = text.split_once('=') {
+        if is_inhibitor_name(before) {
+            text = after.trim();
+        } else {
+            return None;
+        }
+    }
+    let end = text
+        .char_indices()
+        .find(|(_, c)| !(c.is_ascii_digit() || matches!(c, '.' | ',' | '-' | '+' | 'e' | 'E')))
+        .map_or(text.len(), |(i, _)| i);
+    let number: f64 = text[..end].replace(',', ".").parse().ok()?;
+    let unit = text[end..].trim();
+    let unit = if unit.is_empty() { heading.unit.clone() } else { Some(unit.to_string()) };
+    number.is_finite().then_some((number, unit))
+}
+
+enum Layout {
+    Long { s: usize, i: usize, v: usize },
+    Matrix { levels: Vec<(usize, f64)>, unit: Option<ConcentrationUnit> },
+}
+
+fn find_layout(table: &Table, notes: &mut Vec<String>) -> Result<Option<Layout>, Error> {
+    let Some(headings) = &table.headings else { return Ok(None) };
+    if let Some(i) = headings.iter().position(|h| is_inhibitor_name(&h.name)) {
+        let s = headings.iter().position(|h| is_substrate_name(&h.name));
+        let v = headings.iter().position(|h| is_rate_name(&h.name));
+        let (Some(s), Some(v)) = (s, v) else {
+            return Err(Error::invalid_data(
+                "the header names an inhibitor column but not both [S] (S, [S], substrate) and v (v, rate, velocity)",
+            ));
+        };
+        for (index, heading) in headings.iter().enumerate() {
+            if ![s, i, v].contains(&index) {
+                notes.push(format!("Column {} ('{}') is not used.", index + 1, heading.name));
+            }
+        }
+        return Ok(Some(Layout::Long { s, i, v }));
+    }
+    if headings.len() < 3 {
+        return Ok(None);
+    }
+    let quantities: Option<Vec<(f64, Option<String>)>> = headings[1..].iter().map(heading_concentration).collect();
+    let Some(quantities) = quantities else { return Ok(None) };
+    // All inhibitor concentrations are expressed in the first unit given.
+    let mut unit: Option<ConcentrationUnit> = None;
+    let mut levels = Vec::new();
+    for (k, (value, text)) in quantities.into_iter().enumerate() {
+        let column = k + 1;
+        let parsed = match text {
+            Some(t) => Some(ConcentrationUnit::parse(&t).map_err(|m| {
+                Error::invalid_data(format!("line {}, column {}: the inhibitor concentration's unit: {m}", header_line(table), column + 1))
+            })?),
+            None => None,
+        };
+        let value = match (parsed, unit) {
+            (Some(p), None) => {
+                unit = Some(p);
+                value
+            }
+            // Molar units differ by powers of ten; use the exact power.
+            (Some(p), Some(u)) => value * 10f64.powi((p.in_molar() / u.in_molar()).log10().round() as i32),
+            (None, _) => value,
+        };
+        if value < 0.0 {
+            return Err(Error::invalid_data(format!(
+                "line {}, column {}: an inhibitor concentration cannot be negative",
+                header_line(table),
+                column + 1
+            )));
+        }
+        levels.push((column, value));
+    }
+    notes.push(format!(
+        "Matrix layout: column 1 is [S]; columns 2 to {} hold v at {} inhibitor concentrations.",
+        headings.len(),
+        levels.len()
+    ));
+    Ok(Some(Layout::Matrix { levels, unit }))
+}
+
+fn header_line(table: &Table) -> usize {
+    table.rows.first().map_or(1, |r| r.line.saturating_sub(1)).max(1)
+}
+
+/// Whether `text` is a table of rates at several inhibitor concentrations
+/// (long layout with an inhibitor column, or matrix layout).
+pub fn is_inhibition_table(text: &str) -> bool {
+    let table = parse_table(text);
+    matches!(find_layout(&table, &mut Vec::new()), Ok(Some(_)))
+}
+
+struct Read {
+    layout: TableLayout,
+    points: Vec<InhibitionPoint>,
+    problems: Vec<InputProblem>,
+    notes: Vec<String>,
+    units: (Option<ConcentrationUnit>, Option<ConcentrationUnit>, Option<RateUnit>),
+}
+
+fn unit_from<T>(heading: Option<&ColumnHeading>, parse: fn(&str) -> Result<T, String>, what: &str, notes: &mut Vec<String>) -> Option<T> {
+    let text = heading.and_then(|h| h.unit.as_deref())?;
+    match parse(text) {
+        Ok(u) => Some(u),
+        Err(m) => {
+            notes.push(format!("The header's unit for {what} was not understood ({m}); it is shown without a unit."));
+            None
+        }
+    }
+}
+
+fn read(text: &str, excluded_lines: &[usize]) -> Result<Read, Error> {
+    let table = parse_table(text);
+    let mut notes = Vec::new();
+    if table.rows.is_empty() {
+        return Err(Error::invalid_data("no data rows found; paste a table with columns [S], [I] and v"));
+    }
+    let layout = find_layout(&table, &mut notes)?.ok_or_else(|| {
+        Error::invalid_data(
+            "this is not an inhibitor table: give a header with columns [S], [I] and v, or [S] followed by one column per inhibitor concentration (0, 5 µM, 10 µM)",
+        )
+    })?;
+    let headings = table.headings.as_ref().expect("a layout needs a header");
+    let mut problems = Vec::new();
+    let mut points = Vec::new();
+    let mut push = |line: usize, column: usize, s: f64, i: f64, v: f64| {
+        points.push(InhibitionPoint { row: points.len(), line, column, s, i, v, excluded: excluded_lines.contains(&line), fitted: f64::NAN });
+    };
+    match &layout {
+        Layout::Long { s, i, v } => {
+            problems = table.problems.clone();
+            for row in &table.rows {
+                let cell = |c: usize| row.cells.get(c).copied().flatten();
+                let (Some(sv), Some(iv), Some(vv)) = (cell(*s), cell(*i), cell(*v)) else {
+                    if !problems.iter().any(|p| p.line == row.line) {
+                        problems.push(InputProblem { line: row.line, column: None, message: "the row has no [S], [I] or v value".into() });
+                    }
+                    continue;
+                };
+                if sv < 0.0 || iv < 0.0 {
+                    let column = if sv < 0.0 { s + 1 } else { i + 1 };
+                    problems.push(InputProblem { line: row.line, column: Some(column), message: "a concentration cannot be negative".into() });
+                    continue;
+                }
+                push(row.line, v + 1, sv, iv, vv);
+            }
+        }
+        Layout::Matrix { levels, .. } => {
+            // Empty cells and short rows are measurements not made; every
+            // other problem stands.
+            let mut empty = 0;
+            for problem in &table.problems {
+                let short_row = problem.column.is_none() && problem.message.starts_with("expected");
+                let empty_cell = problem.column.is_some_and(|c| c > 1) && problem.message.starts_with("the cell is empty");
+                let row_cells = table.rows.iter().find(|r| r.line == problem.line).map_or(0, |r| r.cells.len());
+                if empty_cell || (short_row && row_cells < table.width) {
+                    empty += usize::from(empty_cell);
+                } else {
+                    problems.push(problem.clone());
+                }
+            }
+            for row in &table.rows {
+                let Some(Some(sv)) = row.cells.first() else { continue };
+                if *sv < 0.0 {
+                    problems.push(InputProblem { line: row.line, column: Some(1), message: "a concentration cannot be negative".into() });
+                    continue;
+                }
+                for (column, i) in levels {
+                    if let Some(Some(v)) = row.cells.get(*column) {
+                        push(row.line, column + 1, *sv, *i, *v);
+                    }
+                }
+            }
+            if empty > 0 {
+                notes.push(format!("{empty} empty cell(s) in the matrix are read as measurements not made."));
+            }
+        }
+    }
+    problems.sort_by_key(|p| (p.line, p.column));
+    let (units, layout_kind) = match &layout {
+        Layout::Long { s, i, v } => (
+            (
+                unit_from(headings.get(*s), ConcentrationUnit::parse, "[S]", &mut notes),
+                unit_from(headings.get(*i), ConcentrationUnit::parse, "[I]", &mut notes),
+                unit_from(headings.get(*v), RateUnit::parse, "v", &mut notes),
+            ),
+            TableLayout::Long,
+        ),
+        Layout::Matrix { unit, .. } => {
+            // In a matrix, the first heading's unit is that of [S]; rates
+            // have no heading of their own, so their unit is unknown.
+            ((unit_from(headings.first(), ConcentrationUnit::parse, "[S]", &mut notes), *unit, None), TableLayout::Matrix)
+        }
+    };
+    Ok(Read { layout: layout_kind, points, problems, notes, units })
+}
+
+/// Fits one mechanism. Mixed inhibition is also started from each
+/// single-mechanism solution given in `seeds` (with the missing constant
+/// far above the [I] range), and the best converged result is kept: when
+/// the data are in truth competitive, the mixed fit's Kiu runs off towards
+/// infinity and a single start can stall far from the minimum.
+pub fn fit_mechanism(mechanism: Mechanism, data: &Observations, seeds: &[(Mechanism, Vec<f64>)]) -> Result<Fit, Error> {
+    let model = Inhibition::new(mechanism);
+    let settings = FitSettings::default();
+    let mut best = fit_model(&model, data, None, &settings)?;
+    if mechanism == Mechanism::Mixed {
+        let far = 1e3 * data.predictor_column(1).into_iter().fold(0.0, f64::max).max(f64::MIN_POSITIVE);
+        for (seed_mechanism, p) in seeds {
+            let start = match seed_mechanism {
+                Mechanism::Competitive => vec![p[0], p[1], p[2], far],
+                Mechanism::Uncompetitive => vec![p[0], p[1], far, p[2]],
+                Mechanism::Noncompetitive => vec![p[0], p[1], p[2], p[2]],
+                Mechanism::Mixed => continue,
+            };
+            let candidate = fit_model(&model, data, Some(&start), &settings)?;
+            let better = (candidate.summary.converged && !best.summary.converged)
+                || (candidate.summary.converged == best.summary.converged && candidate.summary.rss < best.summary.rss);
+            if better {
+                best = candidate;
+            }
+        }
+    }
+    Ok(best)
+}
+
+fn mechanism_named(name: &str) -> Result<Mechanism, Error> {
+    Mechanism::ALL.into_iter().find(|m| m.name() == name.trim()).ok_or_else(|| {
+        Error::invalid_option(format!(
+            "'{name}' is not an inhibition mechanism; choose from competitive, uncompetitive, mixed, noncompetitive"
+        ))
+    })
+}
+
+/// Reads the table, fits the mechanisms globally, compares them and builds
+/// the plots.
+pub fn analyse_inhibition(request: &InhibitionRequest) -> Result<InhibitionAnalysis, Error> {
+    let mut mechanisms: Vec<Mechanism> = if request.models.is_empty() {
+        Mechanism::ALL.to_vec()
+    } else {
+        request.models.iter().map(|m| mechanism_named(m)).collect::<Result<_, _>>()?
+    };
+    mechanisms.dedup();
+    let Read { layout, mut points, problems, mut notes, units } = read(&request.text, &request.excluded_lines)?;
+    let (mut substrate_unit, mut inhibitor_unit, mut rate_unit) = units;
+    let given = |u: &Option<String>| u.as_deref().map(str::trim).filter(|t| !t.is_empty()).map(str::to_string);
+    if let Some(u) = given(&request.substrate_unit) {
+        substrate_unit = Some(ConcentrationUnit::parse(&u).map_err(Error::invalid_option)?);
+    }
+    if let Some(u) = given(&request.inhibitor_unit) {
+        inhibitor_unit = Some(ConcentrationUnit::parse(&u).map_err(Error::invalid_option)?);
+    }
+    if let Some(u) = given(&request.rate_unit) {
+        rate_unit = Some(RateUnit::parse(&u).map_err(Error::invalid_option)?);
+    }
+    if rate_unit.is_none() && layout == TableLayout::Matrix {
+        notes.push("A matrix table's header has no place for the unit of v; choose it to label the rates.".to_string());
+    }
+    let used: Vec<InhibitionPoint> = points.iter().filter(|p| !p.excluded).cloned().collect();
+    let most = mechanisms.iter().map(|m| Inhibition::new(*m).parameters().len()).max().unwrap_or(3);
+    if used.len() <= most {
+        return Err(Error::invalid_data(format!(
+            "only {} usable point(s) remain; at least {} are needed to fit {} parameters with an uncertainty",
+            used.len(),
+            most + 1,
+            most
+        )));
+    }
+    let data = Observations::new(
+        2,
+        used.iter().flat_map(|p| [p.s, p.i]).collect(),
+        used.iter().map(|p| p.v).collect(),
+        None,
+    )?;
+    let mut inhibitor_levels: Vec<f64> = points.iter().map(|p| p.i).collect();
+    inhibitor_levels.sort_by(f64::total_cmp);
+    inhibitor_levels.dedup();
+
+    // Singles first, so that mixed can start from their solutions.
+    let mut order = mechanisms.clone();
+    order.sort_by_key(|m| *m == Mechanism::Mixed);
+    let mut fitted: Vec<(Mechanism, Fit)> = Vec::new();
+    for mechanism in order {
+        let seeds: Vec<(Mechanism, Vec<f64>)> = fitted.iter().map(|(m, f)| (*m, f.values().to_vec())).collect();
+        fitted.push((mechanism, fit_mechanism(mechanism, &data, &seeds)?));
+    }
+    fitted.sort_by_key(|(m, _)| mechanisms.iter().position(|x| x == m));
+
+    let unit_of = |dimension: Dimension| -> Option<String> {
+        match dimension {
+            Dimension::Response => rate_unit.map(|u| u.symbol()),
+            Dimension::Predictor(0) => substrate_unit.map(|u| u.symbol().to_string()),
+            Dimension::Predictor(_) => inhibitor_unit.map(|u| u.symbol().to_string()),
+            Dimension::Dimensionless => Some(String::new()),
+            Dimension::Unspecified => None,
+        }
+    };
+    let i_max = inhibitor_levels.last().copied().unwrap_or(0.0);
+    let mut fits: Vec<FitSummary> = Vec::new();
+    for (mechanism, fit) in &fitted {
+        let model = Inhibition::new(*mechanism);
+        let mut summary = fit.summary.clone();
+        for (estimate, spec) in summary.parameters.iter_mut().zip(model.parameters()) {
+            estimate.unit = unit_of(spec.dimension);
+        }
+        if summary.converged {
+            for (estimate, spec) in summary.parameters.iter().zip(model.parameters()) {
+                if estimate.value <= 0.0 {
+                    summary.warnings.push(format!("{} is not positive ({}); it has no physical meaning.", spec.name, short_number(estimate.value)));
+                } else if spec.dimension == Dimension::Predictor(1) && i_max < estimate.value {
+                    summary.warnings.push(format!(
+                        "The highest [I] is only {:.2}×{}; the constant is poorly defined. Common practice (no formal source) is to reach several times Ki.",
+                        i_max / estimate.value,
+                        spec.name
+                    ));
+                }
+            }
+        }
+        fits.push(summary);
+    }
+    let comparison = compare_fits(&fits);
+    if inhibitor_levels.iter().filter(|i| **i > 0.0).count() < 2 {
+        notes.push("Fewer than two inhibitor concentrations above zero: the mechanisms can hardly be told apart.".to_string());
+    }
+
+    let shown = comparison.preferred.clone().unwrap_or_else(|| comparison.models[0].model.clone());
+    let (shown_mechanism, shown_fit) = fitted
+        .iter()
+        .find(|(m, _)| m.name() == shown)
+        .map(|(m, f)| (*m, f))
+        .unwrap_or_else(|| (fitted[0].0, &fitted[0].1));
+    let model = Inhibition::new(shown_mechanism);
+    let values = shown_fit.values().to_vec();
+    for point in &mut points {
+        point.fitted = model.value(&[point.s, point.i], &values);
+    }
+
+    // Separate Michaelis-Menten fits at each [I], for the replots' points.
+    let separate: Vec<(f64, Option<(f64, f64)>)> = inhibitor_levels
+        .iter()
+        .map(|&i| {
+            let level: Vec<&InhibitionPoint> = used.iter().filter(|p| p.i == i).collect();
+            let s: Vec<f64> = level.iter().map(|p| p.s).collect();
+            let v: Vec<f64> = level.iter().map(|p| p.v).collect();
+            let fit = Observations::single(&s, &v)
+                .ok()
+                .and_then(|o| fit_model(&MichaelisMenten, &o, None, &FitSettings::default()).ok())
+                .filter(|f| f.summary.converged && f.values().iter().all(|v| *v > 0.0))
+                .map(|f| (f.values()[0], f.values()[1]));
+            (i, fit)
+        })
+        .collect();
+    let family_points: Vec<FamilyPoint> =
+        points.iter().map(|p| FamilyPoint { row: p.row, s: p.s, i: p.i, v: p.v, excluded: p.excluded }).collect();
+    let rate = |s: f64, i: f64| model.value(&[s, i], &values);
+    let apparent = |i: f64| model.apparent(i, &values);
+    let global = GlobalFit { rate: &rate, apparent: &apparent, constants: model.constants(&values), mechanism: shown_mechanism.name() };
+    let symbol = |u: Option<ConcentrationUnit>| u.map(|u| u.symbol().to_string());
+    let family_units = FamilyUnits {
+        substrate: symbol(substrate_unit).unwrap_or_default(),
+        inhibitor: symbol(inhibitor_unit).unwrap_or_default(),
+        rate: rate_unit.map(|u| u.symbol()).unwrap_or_default(),
+    };
+    let plots = inhibition_plots(&family_points, &global, &separate, &family_units);
+
+    Ok(InhibitionAnalysis {
+        layout,
+        fits,
+        comparison,
+        shown,
+        inhibitor_levels,
+        points,
+        problems,
+        notes,
+        units: InhibitionUnits { substrate: symbol(substrate_unit), inhibitor: symbol(inhibitor_unit), rate: rate_unit.map(|u| u.symbol()) },
+        plots,
+        caution: CAUTION.to_string(),
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    const LONG: &str = "[S] (mM)\t[I] (µM)\tv (µM/min)\n0.2\t0\t2.9\n0.5\t0\t5.1\n1\t0\t6.6\n3\t0\t8.6\n\
+        0.2\t5\t1.6\n0.5\t5\t3.3\n1\t5\t4.9\n3\t5\t7.4\n0.2\t10\t1.2\n0.5\t10\t2.4\n1\t10\t3.9\n3\t10\t6.5\n";
+    const MATRIX: &str = "[S] (mM)\t0\t5 µM\t10 µM\n0.2\t2.9\t1.6\t1.2\n0.5\t5.1\t3.3\t2.4\n1\t6.6\t4.9\t3.9\n3\t8.6\t7.4\t6.5\n";
+
+    #[test]
+    fn long_and_matrix_layouts_read_the_same_points() {
+        let long = read(LONG, &[]).unwrap();
+        let matrix = read(MATRIX, &[]).unwrap();
+        assert_eq!(long.layout, TableLayout::Long);
+        assert_eq!(matrix.layout, TableLayout::Matrix);
+        let key = |r: &Read| {
+            let mut v: Vec<(u64, u64, u64)> = r.points.iter().map(|p| (p.s.to_bits(), p.i.to_bits(), p.v.to_bits())).collect();
+            v.sort();
+            v
+        };
+        assert_eq!(key(&long), key(&matrix));
+        assert_eq!(matrix.units.1, Some(ConcentrationUnit::parse("µM").unwrap()));
+        assert!(is_inhibition_table(LONG) && is_inhibition_table(MATRIX));
+        assert!(!is_inhibition_table("[S] (mM)\tv (µM/min)\n1\t2\n"));
+    }
+
+    #[test]
+    fn mixed_units_in_matrix_headers_are_converted() {
+        let text = "[S] (mM)\t0\t500 nM\t1 µM\n0.2\t2.9\t1.6\t1.2\n";
+        let r = read(text, &[]).unwrap();
+        let levels: Vec<f64> = r.points.iter().map(|p| p.i).collect();
+        assert_eq!(levels, [0.0, 500.0, 1000.0]);
+    }
+
+    /// Bad inputs and the message each must give.
+    #[test]
+    fn bad_inputs_name_line_and_column() {
+        let r = read("[S]\t[I]\tv\n1\t0\t2\n1\tx\t2\n2\t-1\t3\n", &[]).unwrap();
+        let found: Vec<String> = r.problems.iter().map(|p| p.to_string()).collect();
+        assert_eq!(found, ["line 3, column 2: expected a number, found 'x'", "line 4, column 2: a concentration cannot be negative"]);
+        let e = read("[S] (mM)\t0\t5 ppm\n1\t2\t3\n", &[]).err().unwrap();
+        assert!(e.message.starts_with("line 1, column 3"), "{}", e.message);
+        let e = analyse_inhibition(&InhibitionRequest { text: "S\tv\n1\t2\n".into(), ..Default::default() }).unwrap_err();
+        assert!(e.message.contains("not an inhibitor table"), "{}", e.message);
+        let e = analyse_inhibition(&InhibitionRequest { text: LONG.into(), models: vec!["allosteric".into()], ..Default::default() }).unwrap_err();
+        assert!(e.message.contains("not an inhibition mechanism"), "{}", e.message);
+        // Empty matrix cells are measurements not made, not problems.
+        let r = read("[S]\t0\t5\n1\t2\t\n2\t3\t1\n", &[]).unwrap();
+        assert!(r.problems.is_empty(), "{:?}", r.problems);
+        assert_eq!(r.points.len(), 3);
+    }
+}

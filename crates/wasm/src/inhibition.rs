@@ -1,0 +1,79 @@
+//! The page's window onto the inhibition analysis: fit every mechanism to
+//! a table of rates at several [S] and [I], and draw the family of plots.
+//! Like [`crate::Workbench`], it keeps the last analysis on the Rust side.
+
+use crate::draw::{draw_plot, plot_svg};
+use crate::to_js;
+use plotters::prelude::*;
+use plotters_canvas::CanvasBackend;
+use turnover_core::inhibition::{analyse_inhibition, InhibitionAnalysis, InhibitionRequest};
+use turnover_core::plots::{PlotData, PlotKind};
+use wasm_bindgen::prelude::*;
+
+/// Holds the most recent inhibition analysis for drawing.
+#[wasm_bindgen]
+#[derive(Default)]
+pub struct InhibitionBench {
+    last: Option<InhibitionAnalysis>,
+}
+
+/// Whether `text` is a table of rates at several inhibitor concentrations
+/// (a long table with an [I] column, or a matrix with concentrations in
+/// its header).
+#[wasm_bindgen(js_name = isInhibitionTable)]
+pub fn is_inhibition_table(text: &str) -> bool {
+    turnover_core::inhibition::is_inhibition_table(text)
+}
+
+impl InhibitionBench {
+    fn plot(&self, kind: &str) -> Result<&PlotData, JsError> {
+        let analysis = self.last.as_ref().ok_or_else(|| JsError::new("there is no inhibition analysis to draw"))?;
+        let kind = PlotKind::from_name(kind).ok_or_else(|| JsError::new(&format!("unknown plot '{kind}'")))?;
+        analysis.plots.iter().find(|p| p.kind == kind).ok_or_else(|| JsError::new("that plot is not part of this analysis"))
+    }
+}
+
+#[wasm_bindgen]
+impl InhibitionBench {
+    /// An empty bench.
+    #[wasm_bindgen(constructor)]
+    pub fn new() -> InhibitionBench {
+        InhibitionBench::default()
+    }
+
+    /// Analyses an inhibitor table. `request` has the fields of
+    /// `InhibitionRequest` (`text`, `models`, `excluded_lines`,
+    /// `substrate_unit`, `inhibitor_unit`, `rate_unit`). Throws an `Error`
+    /// with a message for the scientist when no analysis can be made.
+    pub fn analyse(&mut self, request: JsValue) -> Result<JsValue, JsError> {
+        let request: InhibitionRequest = serde_wasm_bindgen::from_value(request)
+            .map_err(|e| JsError::new(&format!("the page sent a request Turnover cannot read: {e}")))?;
+        match analyse_inhibition(&request) {
+            Ok(analysis) => {
+                let value = to_js(&analysis)?;
+                self.last = Some(analysis);
+                Ok(value)
+            }
+            Err(error) => {
+                self.last = None;
+                Err(JsError::new(&error.message))
+            }
+        }
+    }
+
+    /// Draws plot `kind` of the last analysis on canvas `canvas_id`;
+    /// returns where each point landed, as `{row, x, y}` in pixels.
+    pub fn draw(&self, canvas_id: &str, kind: &str) -> Result<JsValue, JsError> {
+        let plot = self.plot(kind)?;
+        let backend = CanvasBackend::new(canvas_id).ok_or_else(|| JsError::new(&format!("no canvas '{canvas_id}'")))?;
+        let root = backend.into_drawing_area();
+        let positions = draw_plot(&root, plot).map_err(|e| JsError::new(&format!("drawing failed: {e}")))?;
+        root.present().map_err(|e| JsError::new(&format!("drawing failed: {e}")))?;
+        to_js(&positions)
+    }
+
+    /// Plot `kind` of the last analysis as an SVG document.
+    pub fn svg(&self, kind: &str, width: u32, height: u32) -> Result<String, JsError> {
+        plot_svg(self.plot(kind)?, width, height).map_err(|e| JsError::new(&format!("drawing failed: {e}")))
+    }
+}
