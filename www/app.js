@@ -93,7 +93,7 @@ function wholeNumber(text, fallback) {
 }
 
 const METHOD_TEXT = {
-  asymptotic: 'intervals from the asymptotic covariance s²(JᵀJ)⁻¹ and Student\'s t',
+  asymptotic: 'intervals estimate ± t(0.975, n − p)·SE',
   profile: 'profile-likelihood intervals (each constant held fixed in turn, the others refitted; F-based cut-off), which follow the curvature of the model and may be asymmetric',
   bootstrap: 'bootstrap percentile intervals',
 };
