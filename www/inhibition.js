@@ -87,10 +87,13 @@ function showConstants(result) {
     row.dataset.param = p.name;
     row.dataset.value = String(p.value);
     row.dataset.se = String(p.std_error ?? '');
-    const interval = p.ci_low === null ? '—' : `${format(p.ci_low)} to ${format(p.ci_high)}`;
+    const end = (x) => (x === null || x === undefined ? 'open' : format(x));
+    const interval = p.ci_low === null && p.ci_high === null ? '—' : `${end(p.ci_low)} to ${end(p.ci_high)}`;
     row.append(cell('td', p.name), cell('td', format(p.value)), cell('td', format(p.std_error)), cell('td', interval), cell('td', p.unit ?? ''));
     body.append(row);
   }
+  const method = fit.parameters[0]?.ci_method ?? 'asymptotic';
+  $('inhibition-ci-heading').textContent = `95% interval (${method})`;
   const warnings = $('inhibition-warnings');
   warnings.replaceChildren();
   for (const w of [...fit.warnings, ...result.notes]) warnings.append(cell('li', w));
@@ -150,6 +153,10 @@ function analyseInhibition(sent) {
       substrate_unit: sent.substrate_unit,
       inhibitor_unit: null,
       rate_unit: sent.rate_unit,
+      // The interval choice of the rate panel applies here too; weighting
+      // is not yet available for inhibition fits, which use equal weights.
+      interval_method: sent.interval_method,
+      bootstrap: sent.bootstrap,
     });
     lastError = null;
   } catch (error) {

@@ -224,6 +224,11 @@ pub(crate) fn read_input(path: &str) -> Result<String, Failure> {
 fn fit(mut args: FitArgs) -> Result<ExitCode, Failure> {
     args.request.text = read_input(&args.file)?;
     let name = if args.request.model.trim().is_empty() { "mm".to_string() } else { args.request.model.trim().to_string() };
+    if args.request.weighting != Weighting::Uniform && model_input(&name).is_some_and(|i| i != ModelInput::Substrate) {
+        return Err(Failure::Usage(format!(
+            "--weighting is available so far only for models fitted to [S] and v (mm, substrate-inhibition, hill), not for {name}"
+        )));
+    }
     match model_input(&name) {
         Some(ModelInput::SubstrateAndInhibitor) => {
             let request = InhibitionRequest {
@@ -233,6 +238,8 @@ fn fit(mut args: FitArgs) -> Result<ExitCode, Failure> {
                 substrate_unit: args.request.substrate_unit.clone(),
                 inhibitor_unit: None,
                 rate_unit: args.request.rate_unit.clone(),
+                interval_method: args.request.interval_method,
+                bootstrap: args.request.bootstrap,
             };
             let analysis = analyse_inhibition(&request).map_err(|e| Failure::Input(e.message))?;
             check_problems(&args, &analysis.problems)?;
@@ -251,6 +258,8 @@ fn fit(mut args: FitArgs) -> Result<ExitCode, Failure> {
                 fixed_top: args.top,
                 fixed_bottom: args.bottom,
                 excluded_lines: args.request.excluded_lines.clone(),
+                interval_method: args.request.interval_method,
+                bootstrap: args.request.bootstrap,
             };
             let analysis = analyse_dose(&request).map_err(|e| Failure::Input(e.message))?;
             check_problems(&args, &analysis.problems)?;
@@ -321,6 +330,8 @@ fn compare(mut args: FitArgs) -> Result<ExitCode, Failure> {
             substrate_unit: args.request.substrate_unit.clone(),
             inhibitor_unit: None,
             rate_unit: args.request.rate_unit.clone(),
+            interval_method: args.request.interval_method,
+            bootstrap: args.request.bootstrap,
         };
         let a = analyse_inhibition(&request).map_err(|e| Failure::Input(e.message))?;
         (a.comparison, a.fits, a.problems, a.notes, a.caution)

@@ -8,8 +8,7 @@ use std::process::ExitCode;
 use turnover_core::progress::fit_progress;
 use turnover_core::traces::{analyse_traces, path_from_well, Direction, TraceAnalysis, TraceRequest, PRESETS};
 
-pub const USAGE: &str = "\
-    turnover rates TRACES --layout LAYOUT [CONVERSION] [OPTIONS]
+pub const USAGE: &str = "    turnover rates TRACES --layout LAYOUT [CONVERSION] [OPTIONS]
                                        initial rates from a time-course table
     turnover fit-progress TRACES --layout LAYOUT CONVERSION [--json]
                                        integrated Michaelis-Menten fit to whole traces

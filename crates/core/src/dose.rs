@@ -31,6 +31,10 @@ pub struct DoseRequest {
     pub fixed_bottom: Option<f64>,
     /// Input line numbers to leave out.
     pub excluded_lines: Vec<usize>,
+    /// How intervals are computed. Default asymptotic.
+    pub interval_method: crate::intervals::IntervalMethod,
+    /// Bootstrap settings, used when `interval_method` is bootstrap.
+    pub bootstrap: crate::intervals::BootstrapSettings,
 }
 
 /// One point of the series.
@@ -142,6 +146,7 @@ pub fn analyse_dose(request: &DoseRequest) -> Result<DoseAnalysis, Error> {
         p.fitted = model.value(&[p.i], &values);
     }
     let mut summary = fit.summary.clone();
+    crate::intervals::apply_interval_method(&mut summary, model.as_ref(), &data, &fit, request.interval_method, &request.bootstrap)?;
     let i_symbol = inhibitor_unit.map(|u| u.symbol().to_string());
     for (estimate, spec) in summary.parameters.iter_mut().zip(model.parameters()) {
         estimate.unit = match spec.dimension {

@@ -45,6 +45,10 @@ pub struct InhibitionRequest {
     /// Unit of v; `None` or empty means "as the header says" (a matrix
     /// header has no place for it, so give it here).
     pub rate_unit: Option<String>,
+    /// How intervals are computed for every mechanism. Default asymptotic.
+    pub interval_method: crate::intervals::IntervalMethod,
+    /// Bootstrap settings, used when `interval_method` is bootstrap.
+    pub bootstrap: crate::intervals::BootstrapSettings,
 }
 
 /// How the table was laid out.
@@ -427,6 +431,7 @@ pub fn analyse_inhibition(request: &InhibitionRequest) -> Result<InhibitionAnaly
     for (mechanism, fit) in &fitted {
         let model = Inhibition::new(*mechanism);
         let mut summary = fit.summary.clone();
+        crate::intervals::apply_interval_method(&mut summary, &model, &data, fit, request.interval_method, &request.bootstrap)?;
         for (estimate, spec) in summary.parameters.iter_mut().zip(model.parameters()) {
             estimate.unit = unit_of(spec.dimension);
         }

@@ -18,7 +18,7 @@
 //! fitted residuals; case resampling draws whole rows. The generator is
 //! seeded by the caller, so results are reproducible.
 
-use crate::fit::Fit;
+use crate::fit::{Fit, FitSummary};
 use crate::model::{Model, Observations, ParameterSpec};
 use crate::random::SplitMix64;
 use crate::solver::{minimise, SolverSettings};
@@ -292,6 +292,71 @@ pub fn bootstrap(model: &dyn Model, data: &Observations, fit: &Fit, settings: &B
         }
     }
     BootstrapSample { estimates, failures }
+}
+
+/// Replaces the intervals of the fitted parameters in `summary` (the first
+/// `p` entries) by profile or bootstrap intervals; asymptotic leaves them.
+/// Returns `(resamples, failures)` when a bootstrap ran. Warnings about
+/// open profile ends or failed refits go into `summary.warnings`. The
+/// interval step every analysis shares, so that a `--ci` choice is never
+/// silently ignored.
+pub fn apply_interval_method(
+    summary: &mut FitSummary,
+    model: &dyn Model,
+    data: &Observations,
+    fit: &Fit,
+    method: IntervalMethod,
+    settings: &BootstrapSettings,
+) -> Result<Option<(usize, usize)>, crate::Error> {
+    let p = fit.values().len();
+    match method {
+        IntervalMethod::Asymptotic => Ok(None),
+        IntervalMethod::Profile => {
+            let mut open = Vec::new();
+            for j in 0..p {
+                let (low, high) = profile_interval(model, data, fit, j);
+                let estimate = &mut summary.parameters[j];
+                if low.is_none() || high.is_none() {
+                    open.push(estimate.name.clone());
+                }
+                estimate.ci_low = low;
+                estimate.ci_high = high;
+                estimate.ci_method = IntervalMethod::Profile.name().to_string();
+            }
+            if !open.is_empty() {
+                summary.warnings.push(format!(
+                    "The profile interval of {} is open on at least one side: within the search the data do not bound it at this confidence level.",
+                    open.join(", ")
+                ));
+            }
+            Ok(None)
+        }
+        IntervalMethod::Bootstrap => {
+            if settings.resamples < 100 || settings.resamples > 100_000 {
+                return Err(crate::Error::invalid_option("the number of bootstrap resamples must be between 100 and 100,000"));
+            }
+            if !fit.summary.converged {
+                summary.warnings.push("No bootstrap was run because the fit itself did not converge.".to_string());
+                return Ok(Some((0, 0)));
+            }
+            let sample = bootstrap(model, data, fit, settings);
+            for j in 0..p {
+                let values: Vec<f64> = sample.estimates.iter().map(|e| e[j]).collect();
+                let (low, high) = percentile_interval(&values, summary.confidence_level);
+                let estimate = &mut summary.parameters[j];
+                estimate.ci_low = low;
+                estimate.ci_high = high;
+                estimate.ci_method = IntervalMethod::Bootstrap.name().to_string();
+            }
+            if sample.failures * 20 > settings.resamples {
+                summary.warnings.push(format!(
+                    "{} of {} bootstrap refits did not converge and were left out; the intervals may be too narrow.",
+                    sample.failures, settings.resamples
+                ));
+            }
+            Ok(Some((settings.resamples, sample.failures)))
+        }
+    }
 }
 
 /// The `q` quantile (0 ≤ q ≤ 1) of `values` by linear interpolation between

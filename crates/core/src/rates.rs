@@ -7,7 +7,7 @@
 use crate::diagnostics::{residual_diagnostics, ResidualDiagnostics};
 use crate::error::Error;
 use crate::fit::{estimate, fit_model, Fit, FitSettings, FitSummary, ParameterEstimate};
-use crate::intervals::{bootstrap, percentile_interval, profile_interval, BootstrapScheme, BootstrapSettings, IntervalMethod};
+use crate::intervals::{apply_interval_method, bootstrap, percentile_interval, profile_interval, BootstrapScheme, BootstrapSettings, IntervalMethod};
 use crate::model::{Dimension, Model, Observations};
 use crate::models::{model_by_name, MichaelisMentenSpecificity};
 use crate::plots::{diagnostic_plots, rate_plots, AxisUnits, PlotData, RatePoint};
@@ -542,16 +542,9 @@ fn profile_intervals(
 ) {
     let n_fitted = fit.values().len();
     let mut unbounded = Vec::new();
-    for j in 0..n_fitted {
-        let (low, high) = profile_interval(model, data, fit, j);
-        let estimate = &mut summary.parameters[j];
-        if low.is_none() || high.is_none() {
-            unbounded.push(estimate.name.clone());
-        }
-        estimate.ci_low = low;
-        estimate.ci_high = high;
-        estimate.ci_method = "profile".to_string();
-    }
+    // The fitted constants go through the step every analysis shares; it
+    // cannot fail for the profile method.
+    let _ = apply_interval_method(summary, model, data, fit, IntervalMethod::Profile, &BootstrapSettings::default());
     let mut next = n_fitted;
     if let Some(factor) = kcat_factor {
         let (low, high) = (summary.parameters[0].ci_low, summary.parameters[0].ci_high);
