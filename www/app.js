@@ -277,6 +277,39 @@ function showChecks(result) {
   });
 }
 
+// Rate laws are compared only when the panel is open: it costs three fits.
+function showRateLaws() {
+  const body = $('rate-law-ranking').tBodies[0];
+  const verdict = $('rate-law-verdict');
+  body.replaceChildren();
+  verdict.textContent = '';
+  if (!$('rate-laws').open || !state.result) return;
+  let view;
+  try {
+    view = workbench.compare_rate_laws(request());
+  } catch (error) {
+    verdict.textContent = `No comparison: ${error?.message ?? error}`;
+    return;
+  }
+  const tests = view.comparison.f_tests;
+  for (const m of view.comparison.models) {
+    const fit = view.fits.find((f) => f.model === m.model);
+    const test = tests.find((t) => t.general === m.model);
+    const constants = (fit?.parameters ?? []).filter((p) => !p.derived).map((p) => `${p.name} = ${formatNumber(p.value, 4)}`).join(', ');
+    const row = element('tr', { 'data-model': m.model });
+    row.append(
+      element('td', {}, m.model),
+      element('td', {}, constants),
+      element('td', {}, formatNumber(m.rss, 4)),
+      element('td', {}, m.aicc === null ? '—' : m.aicc.toFixed(2)),
+      element('td', {}, m.akaike_weight === null ? '—' : m.akaike_weight.toFixed(3)),
+      element('td', {}, test ? `F = ${test.f.toFixed(2)}, p = ${test.p_value < 1e-4 ? test.p_value.toExponential(1) : test.p_value.toFixed(4)}` : '—'),
+    );
+    body.append(row);
+  }
+  verdict.textContent = view.comparison.verdict;
+}
+
 function clearResult(message) {
   $('status').dataset.state = 'error';
   $('status').textContent = message;
@@ -348,6 +381,7 @@ function analyseRates() {
   showProblems(result.problems, null);
   showResult(result);
   drawPlots();
+  showRateLaws();
 }
 
 let pending = null;
@@ -532,6 +566,7 @@ function wire() {
       download(`turnover-${button.dataset.kind}.svg`, 'image/svg+xml', workbench.svg(button.dataset.kind, 640, 460));
     });
   }
+  $('rate-laws').addEventListener('toggle', showRateLaws);
   $('save-page').addEventListener('click', savePage);
   $('copy-results').addEventListener('click', async () => {
     const text = resultsAsText();

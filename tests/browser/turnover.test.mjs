@@ -13,6 +13,7 @@ import { mkdirSync, mkdtempSync, rmSync, existsSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join, resolve, dirname } from 'node:path';
 import { fileURLToPath, pathToFileURL } from 'node:url';
+import { spawnSync } from 'node:child_process';
 import { chromium } from 'playwright-core';
 
 const here = dirname(fileURLToPath(import.meta.url));
@@ -506,6 +507,47 @@ test('g. the saved page carries its data and reopens with the same fit', { timeo
     } finally {
       await reopened.page.close();
     }
+    assertClean(watch);
+  } finally {
+    await page.close();
+  }
+});
+
+// The page and the CLI share one code path: the same table must give the
+// same numbers in both (DEVELOPERS.md, invariant). The CLI is the release
+// binary build.sh builds before the browser tests.
+const cliPath = resolve(process.env.TURNOVER_BIN ?? join(here, '..', '..', 'target', 'release', 'turnover'));
+function cliJson(args, input) {
+  const run = spawnSync(cliPath, [...args, '--json'], { input, encoding: 'utf8' });
+  assert.equal(run.status, 0, `turnover ${args.join(' ')} failed: ${run.stderr}`);
+  return JSON.parse(run.stdout);
+}
+
+const SUBSTRATE_INHIBITED = 'S\tv\n0.1\t1.9\n0.2\t3.1\n0.5\t5.2\n1\t6.4\n2\t7.5\n5\t8.3\n10\t8.1\n20\t7.2\n';
+
+test('h. the page shows the same numbers as the CLI for the same table', { timeout: TEST_TIMEOUT }, async (t) => {
+  const { page, watch } = await openPage();
+  try {
+    await waitForOk(page, 'demo fit on load');
+    await analyse(page, PUROMYCIN_TEXT);
+    await waitForConverged(page, 'Puromycin fit', t);
+    const f = await readFit(page);
+    const cli = cliJson(['fit', '-'], PUROMYCIN_TEXT);
+    for (const p of cli.parameters) {
+      assert.equal(Number(f.params[p.name].value), p.value, `${p.name}: page and CLI agree exactly`);
+      assert.equal(Number(f.params[p.name].se), p.std_error, `SE(${p.name}): page and CLI agree exactly`);
+    }
+    await analyse(page, SUBSTRATE_INHIBITED);
+    await page.locator('#rate-laws summary').click();
+    await page.waitForFunction(() => document.querySelectorAll('#rate-law-ranking tbody tr').length === 3, null, { timeout: FIT_TIMEOUT });
+    const shown = await page.evaluate(() => ({
+      models: [...document.querySelectorAll('#rate-law-ranking tbody tr')].map((r) => r.dataset.model),
+      verdict: document.querySelector('#rate-law-verdict').textContent,
+    }));
+    const compared = cliJson(['compare', '-', '--models', 'mm,substrate-inhibition,hill'], SUBSTRATE_INHIBITED);
+    assert.deepEqual(shown.models, compared.models.map((m) => m.model), 'same ranking');
+    assert.equal(shown.verdict, compared.verdict, 'same verdict');
+    await screenshot(page, 'rate-laws.png');
     assertClean(watch);
   } finally {
     await page.close();

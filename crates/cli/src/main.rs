@@ -9,14 +9,13 @@ mod traces;
 
 use std::io::Read;
 use std::process::ExitCode;
-use turnover_core::compare::compare_fits;
 use turnover_core::dose::{analyse_dose, DoseRequest};
 use turnover_core::fit::FitSummary;
 use turnover_core::intervals::{BootstrapScheme, IntervalMethod};
 use turnover_core::weighting::Weighting;
 use turnover_core::inhibition::{analyse_inhibition, InhibitionRequest};
 use turnover_core::models::{model_input, Mechanism, ModelInput, MODEL_NAMES};
-use turnover_core::rates::{analyse_rates, RateAnalysis, RateRequest};
+use turnover_core::rates::{analyse_rates, compare_rate_models, RateAnalysis, RateRequest};
 use turnover_core::table::InputProblem;
 
 const USAGE: &str = "\
@@ -336,17 +335,8 @@ fn compare(mut args: FitArgs) -> Result<ExitCode, Failure> {
         let a = analyse_inhibition(&request).map_err(|e| Failure::Input(e.message))?;
         (a.comparison, a.fits, a.problems, a.notes, a.caution)
     } else if inputs.iter().all(|i| *i == Some(ModelInput::Substrate)) {
-        let mut fits = Vec::new();
-        let mut first: Option<RateAnalysis> = None;
-        for model in &models {
-            let mut request = args.request.clone();
-            request.model = model.clone();
-            let a = analyse_rates(&request).map_err(|e| Failure::Input(e.message))?;
-            fits.push(a.fit.clone());
-            first.get_or_insert(a);
-        }
-        let first = first.expect("at least one model");
-        (compare_fits(&fits), fits, first.problems, first.notes, first.caution)
+        let c = compare_rate_models(&args.request, &models).map_err(|e| Failure::Input(e.message))?;
+        (c.comparison, c.fits, c.first.problems, c.first.notes, c.first.caution)
     } else {
         return Err(Failure::Usage(
             "compare needs models of the same data: all inhibition mechanisms, or mm with substrate-inhibition and hill".to_string(),

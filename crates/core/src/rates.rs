@@ -464,6 +464,38 @@ pub fn analyse_rates(request: &RateRequest) -> Result<RateAnalysis, Error> {
     })
 }
 
+/// Several rate laws fitted to the same [S]–v table and compared.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct RateComparison {
+    /// Ranking, F tests of nested pairs and the verdict.
+    pub comparison: crate::compare::Comparison,
+    /// One fit per model, in the order asked for.
+    pub fits: Vec<FitSummary>,
+    /// The first model's full analysis (problems, notes, units).
+    pub first: RateAnalysis,
+}
+
+/// Fits every model in `models` (rate laws on [S] and v: `mm`,
+/// `substrate-inhibition`, `hill`) to the table of `request` and compares
+/// them. The one code path behind the CLI's `compare` on rate tables and the
+/// page's comparison of rate laws.
+pub fn compare_rate_models(request: &RateRequest, models: &[String]) -> Result<RateComparison, Error> {
+    if models.is_empty() {
+        return Err(Error::invalid_option("name at least one model to compare"));
+    }
+    let mut fits = Vec::with_capacity(models.len());
+    let mut first = None;
+    for model in models {
+        let mut one = request.clone();
+        one.model = model.clone();
+        let analysis = analyse_rates(&one)?;
+        fits.push(analysis.fit.clone());
+        first.get_or_insert(analysis);
+    }
+    let comparison = crate::compare::compare_fits(&fits);
+    Ok(RateComparison { comparison, fits, first: first.expect("at least one model was fitted") })
+}
+
 /// Warnings about what the design lets the data determine, for the
 /// hyperbola (common practice, no source: the usual advice is to span
 /// roughly 0.2–5×Km, and at least past 2×Km).

@@ -20,7 +20,7 @@ use plotters::prelude::*;
 use plotters_canvas::CanvasBackend;
 use serde::Serialize;
 use turnover_core::plots::PlotKind;
-use turnover_core::rates::{analyse_rates, RateAnalysis, RateRequest};
+use turnover_core::rates::{analyse_rates, compare_rate_models, RateAnalysis, RateComparison, RateRequest};
 use wasm_bindgen::prelude::*;
 
 pub use draw::{draw_plot, PointPosition};
@@ -88,6 +88,18 @@ impl Workbench {
         to_js(&positions)
     }
 
+    /// Fits the rate laws `mm`, `substrate-inhibition` and `hill` to the
+    /// request's table and returns `{comparison, fits}`: the ranking, F
+    /// tests against Michaelis-Menten and the verdict. Does not change the
+    /// analysis kept for drawing.
+    pub fn compare_rate_laws(&self, request: JsValue) -> Result<JsValue, JsError> {
+        let request: RateRequest = serde_wasm_bindgen::from_value(request)
+            .map_err(|e| JsError::new(&format!("the page sent a request Turnover cannot read: {e}")))?;
+        let models: Vec<String> = ["mm", "substrate-inhibition", "hill"].iter().map(|m| m.to_string()).collect();
+        let result = compare_rate_models(&request, &models).map_err(|e| JsError::new(&e.message))?;
+        to_js(&serde_json_like(&result))
+    }
+
     /// The plot `kind` of the last analysis as a standalone SVG document,
     /// `width` × `height` pixels, for figures.
     pub fn svg(&self, kind: &str, width: u32, height: u32) -> Result<String, JsError> {
@@ -100,6 +112,17 @@ impl Workbench {
             .ok_or_else(|| JsError::new("that plot is not part of this analysis"))?;
         draw::plot_svg(plot, width, height).map_err(|e| JsError::new(&format!("drawing failed: {e}")))
     }
+}
+
+/// The part of a rate comparison the page shows.
+#[derive(Serialize)]
+struct ComparisonView<'a> {
+    comparison: &'a turnover_core::compare::Comparison,
+    fits: &'a [turnover_core::fit::FitSummary],
+}
+
+fn serde_json_like(result: &RateComparison) -> ComparisonView<'_> {
+    ComparisonView { comparison: &result.comparison, fits: &result.fits }
 }
 
 /// The version of Turnover, for the page footer and saved files.
