@@ -230,16 +230,7 @@ fn fit(mut args: FitArgs) -> Result<ExitCode, Failure> {
     }
     match model_input(&name) {
         Some(ModelInput::SubstrateAndInhibitor) => {
-            let request = InhibitionRequest {
-                text: args.request.text.clone(),
-                models: vec![name],
-                excluded_lines: args.request.excluded_lines.clone(),
-                substrate_unit: args.request.substrate_unit.clone(),
-                inhibitor_unit: None,
-                rate_unit: args.request.rate_unit.clone(),
-                interval_method: args.request.interval_method,
-                bootstrap: args.request.bootstrap,
-            };
+            let request = inhibition_request(&args, vec![name]);
             let analysis = analyse_inhibition(&request).map_err(|e| Failure::Input(e.message))?;
             check_problems(&args, &analysis.problems)?;
             let fit = &analysis.fits[0];
@@ -286,6 +277,20 @@ fn fit(mut args: FitArgs) -> Result<ExitCode, Failure> {
     Ok(if analysis.fit.converged { ExitCode::SUCCESS } else { ExitCode::from(3) })
 }
 
+/// The inhibition request for the table and options of `args`.
+fn inhibition_request(args: &FitArgs, models: Vec<String>) -> InhibitionRequest {
+    InhibitionRequest {
+        text: args.request.text.clone(),
+        models,
+        excluded_lines: args.request.excluded_lines.clone(),
+        substrate_unit: args.request.substrate_unit.clone(),
+        inhibitor_unit: None,
+        rate_unit: args.request.rate_unit.clone(),
+        interval_method: args.request.interval_method,
+        bootstrap: args.request.bootstrap,
+    }
+}
+
 fn check_problems(args: &FitArgs, problems: &[InputProblem]) -> Result<(), Failure> {
     report_problems(&args.file, problems);
     if !problems.is_empty() && !args.lenient {
@@ -322,16 +327,7 @@ fn compare(mut args: FitArgs) -> Result<ExitCode, Failure> {
         return Err(Failure::Usage(format!("unknown model '{}'; available: {}", models[k], MODEL_NAMES.join(", "))));
     }
     let (comparison, fits, problems, notes, caution) = if inputs.iter().all(|i| *i == Some(ModelInput::SubstrateAndInhibitor)) {
-        let request = InhibitionRequest {
-            text: args.request.text.clone(),
-            models,
-            excluded_lines: args.request.excluded_lines.clone(),
-            substrate_unit: args.request.substrate_unit.clone(),
-            inhibitor_unit: None,
-            rate_unit: args.request.rate_unit.clone(),
-            interval_method: args.request.interval_method,
-            bootstrap: args.request.bootstrap,
-        };
+        let request = inhibition_request(&args, models);
         let a = analyse_inhibition(&request).map_err(|e| Failure::Input(e.message))?;
         (a.comparison, a.fits, a.problems, a.notes, a.caution)
     } else if inputs.iter().all(|i| *i == Some(ModelInput::Substrate)) {

@@ -69,18 +69,23 @@ impl Workbench {
         }
     }
 
+    /// The plot named `kind` of the last analysis.
+    fn plot(&self, kind: &str) -> Result<&turnover_core::plots::PlotData, JsError> {
+        let analysis = self.last.as_ref().ok_or_else(|| JsError::new("there is no analysis to draw"))?;
+        let kind = PlotKind::from_name(kind).ok_or_else(|| JsError::new(&format!("unknown plot '{kind}'")))?;
+        analysis
+            .plots
+            .iter()
+            .find(|p| p.kind == kind)
+            .ok_or_else(|| JsError::new("that plot is not part of this analysis"))
+    }
+
     /// Draws plot `kind` (`direct`, `residuals`, `lineweaver-burk`,
     /// `eadie-hofstee`, `hanes-woolf`) of the last analysis on the canvas
     /// with id `canvas_id`, and returns an array of `{row, x, y}`: where
     /// each data point was drawn, in canvas pixels.
     pub fn draw(&self, canvas_id: &str, kind: &str) -> Result<JsValue, JsError> {
-        let analysis = self.last.as_ref().ok_or_else(|| JsError::new("there is no analysis to draw"))?;
-        let kind = PlotKind::from_name(kind).ok_or_else(|| JsError::new(&format!("unknown plot '{kind}'")))?;
-        let plot = analysis
-            .plots
-            .iter()
-            .find(|p| p.kind == kind)
-            .ok_or_else(|| JsError::new("that plot is not part of this analysis"))?;
+        let plot = self.plot(kind)?;
         let backend = CanvasBackend::new(canvas_id).ok_or_else(|| JsError::new(&format!("no canvas '{canvas_id}'")))?;
         let root = backend.into_drawing_area();
         let positions = draw_plot(&root, plot).map_err(|e| JsError::new(&format!("drawing failed: {e}")))?;
@@ -103,13 +108,7 @@ impl Workbench {
     /// The plot `kind` of the last analysis as a standalone SVG document,
     /// `width` × `height` pixels, for figures.
     pub fn svg(&self, kind: &str, width: u32, height: u32) -> Result<String, JsError> {
-        let analysis = self.last.as_ref().ok_or_else(|| JsError::new("there is no analysis to draw"))?;
-        let kind = PlotKind::from_name(kind).ok_or_else(|| JsError::new(&format!("unknown plot '{kind}'")))?;
-        let plot = analysis
-            .plots
-            .iter()
-            .find(|p| p.kind == kind)
-            .ok_or_else(|| JsError::new("that plot is not part of this analysis"))?;
+        let plot = self.plot(kind)?;
         draw::plot_svg(plot, width, height).map_err(|e| JsError::new(&format!("drawing failed: {e}")))
     }
 }
