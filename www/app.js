@@ -257,7 +257,7 @@ function showChecks(result) {
   const robust = result.direct_linear;
   const units = result.units;
   add('Direct linear plot medians', robust.km === null || robust.vmax === null
-    ? 'not available'
+    ? (robust.intersections === 0 && result.points.length > 1000 ? 'not computed for more than 1,000 points' : 'not available')
     : `Km ${formatNumber(robust.km, 4)} ${units.substrate ?? ''}, Vmax ${formatNumber(robust.vmax, 4)} ${units.rate ?? ''} (from ${robust.intersections} intersections)`);
 
   const table = $('correlation');

@@ -89,7 +89,7 @@ fn ln_choose(n: usize, k: usize) -> f64 {
 }
 
 fn ln_factorial(n: usize) -> f64 {
-    (2..=n).map(|k| (k as f64).ln()).sum()
+    statrs::function::gamma::ln_gamma(n as f64 + 1.0)
 }
 
 /// Exact P(R = r) for the number of runs R in a random arrangement of `a`

@@ -39,8 +39,17 @@ fn median(values: &mut [f64]) -> Option<f64> {
     value.is_finite().then_some(value)
 }
 
-/// Estimates from observations `(s, v)` with s > 0.
+/// Above this many observations the pairwise intersections (n²/2 of them)
+/// are not formed: the plot is for designs of tens of points, and the
+/// memory and time would grow past what a page should take.
+pub const MAX_POINTS: usize = 1000;
+
+/// Estimates from observations `(s, v)` with s > 0. With more than
+/// [`MAX_POINTS`] observations nothing is computed (`intersections` = 0).
 pub fn direct_linear(points: &[(f64, f64)]) -> DirectLinearEstimate {
+    if points.len() > MAX_POINTS {
+        return DirectLinearEstimate { km: None, vmax: None, intersections: 0, at_infinity: 0, points: Vec::new() };
+    }
     let mut ks = Vec::new();
     let mut vs = Vec::new();
     let mut finite = Vec::new();
