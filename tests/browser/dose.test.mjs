@@ -203,6 +203,7 @@ test('Morrison mode: v0, Ki_app, both curves, and the tight-binding warning only
   assert.deepEqual(plot.series.map((s) => s.dashed), [false, true], 'Morrison fit solid, classical hyperbola dashed');
   assert.ok((await inked(page, 'plot-dose')) > 3000);
   assert.match(await page.textContent('#dose-ki'), /classical IC50 only/);
+  await (await page.$('#dose-panel')).screenshot({ path: join(shotDir, 'dose-morrison.png') });
 
   // With little enzyme (Ki_app ≫ 10×[E]t) there is no warning.
   await page.fill('#dose-enzyme', '0.001');
@@ -223,6 +224,7 @@ test('a click on a dose-response point leaves it out and refits', { timeout: 60_
   const { page, errors } = await openPage();
   await loadDoseDemo(page);
   const before = await page.evaluate(() => window.turnover.dose.lastResult());
+  await page.locator('#plot-dose').scrollIntoViewIfNeeded();
   const target = (await page.evaluate(() => window.turnover.dose.pointPositions()))[6];
   const box = await (await page.$('#plot-dose')).boundingBox();
   await page.mouse.click(box.x + target.x, box.y + target.y);
@@ -239,6 +241,7 @@ test('inhibitor-series plots: a point click leaves that one rate out, changes th
   await page.waitForFunction(() => ['ok', 'warn'].includes(document.querySelector('#inhibition-status')?.dataset.state), null, { timeout: 20_000 });
   const first = await page.evaluate(() => window.turnover.inhibition.lastResult());
   const constants = (r) => r.fits.map((f) => f.parameters.map((p) => p.value));
+  await page.locator('#plot-dixon').scrollIntoViewIfNeeded();
   const positions = await page.evaluate(() => window.turnover.inhibition.pointPositions('dixon'));
   assert.ok(positions.length > 40, `${positions.length} points on the Dixon plot`);
   // A point well inside the plot: the highest [I] at the lowest [S].
@@ -256,10 +259,9 @@ test('inhibitor-series plots: a point click leaves that one rate out, changes th
   // Drawn as an open ring: the excluded point's place is not teal-filled.
   const ringed = await page.evaluate(() => window.turnover.inhibition.lastResult().plots.find((p) => p.kind === 'dixon').series.some((s) => s.points.some((p) => p.excluded)));
   assert.ok(ringed);
-  const again = await page.evaluate(() => window.turnover.inhibition.pointPositions('dixon').find((p) => p.row !== undefined));
-  assert.ok(again);
   const back = (await page.evaluate(() => window.turnover.inhibition.pointPositions('dixon'))).find((p) => p.row === target.row);
-  await page.mouse.click(box.x + back.x, box.y + back.y);
+  const box2 = await (await page.$('#plot-dixon')).boundingBox();
+  await page.mouse.click(box2.x + back.x, box2.y + back.y);
   await page.waitForFunction(() => window.turnover.inhibition.lastResult()?.points.every((p) => !p.excluded), null, { timeout: 20_000 });
   const third = await page.evaluate(() => window.turnover.inhibition.lastResult());
   assert.deepEqual(constants(third), constants(first));

@@ -279,7 +279,10 @@ pub fn analyse_dose(request: &DoseRequest) -> Result<DoseAnalysis, Error> {
                 short_number(enzyme)
             ));
         }
-        morrison_plot(&dose_points, &curve, v0, ki, &unit_text, response_unit.as_deref().unwrap_or(""))
+        let mut plot = morrison_plot(&dose_points, &curve, v0, ki, &unit_text, response_unit.as_deref().unwrap_or(""));
+        // The response is labelled as the table names it (v, % activity, ...).
+        plot.y_label = response_label.clone();
+        plot
     } else {
         let full = DoseResponse::new(request.fixed_top, request.fixed_bottom).full(&values);
         if summary.converged && (full[2] <= 0.0 || !full[2].is_finite()) {
