@@ -36,6 +36,14 @@ const $ = (id) => document.getElementById(id);
 let bench = null;
 let lastResult = null;
 let lastError = null;
+let lastSent = null;
+// Where each point of each plot was drawn, for click-to-exclude.
+const positions = {};
+// Left-out points: whole input lines (long layout, one rate per line) and
+// single cells "line:column" (matrix layout, one rate per [I] on a line).
+const excludedLines = new Set();
+const excludedCells = new Set();
+let excludedFor = null;
 
 function format(value, digits = 4) {
   if (value === null || value === undefined || !Number.isFinite(value)) return '—';
@@ -103,9 +111,10 @@ function drawAll(result) {
   for (const kind of INHIBITION_PLOTS) {
     const canvas = $(`plot-${kind}`);
     try {
-      bench.draw(canvas.id, kind);
+      positions[kind] = bench.draw(canvas.id, kind);
       canvas.dataset.drawn = 'yes';
     } catch (error) {
+      positions[kind] = [];
       canvas.dataset.drawn = 'no';
       console.warn(`plot ${kind}: ${error?.message ?? error}`);
     }
@@ -132,6 +141,7 @@ function pointToThisSection() {
 }
 
 function analyseInhibition(sent) {
+  lastSent = sent;
   const results = $('inhibition-results');
   if (!wasm_bindgen.isInhibitionTable(sent.text)) {
     results.hidden = true;
@@ -141,6 +151,11 @@ function analyseInhibition(sent) {
     return;
   }
   bench ??= new wasm_bindgen.InhibitionBench();
+  if (excludedFor !== sent.text) {
+    excludedLines.clear();
+    excludedCells.clear();
+    excludedFor = sent.text;
+  }
   $('inhibition-hint').hidden = true;
   pointToThisSection();
   results.hidden = false;
@@ -149,7 +164,8 @@ function analyseInhibition(sent) {
     lastResult = bench.analyse({
       text: sent.text,
       models: [],
-      excluded_lines: [],
+      excluded_lines: [...excludedLines],
+      excluded_cells: [...excludedCells].map((key) => key.split(':').map(Number)),
       substrate_unit: sent.substrate_unit,
       inhibitor_unit: null,
       rate_unit: sent.rate_unit,
@@ -180,12 +196,76 @@ function analyseInhibition(sent) {
   drawAll(result);
 }
 
+// A click near a drawn point leaves that rate out (or brings it back) and
+// refits every mechanism: in a long table by its input line, in a matrix by
+// its cell, since a matrix line holds one rate per [I].
+function toggleAt(kind, event) {
+  if (!lastResult || !lastSent) return;
+  const canvas = $(`plot-${kind}`);
+  const box = canvas.getBoundingClientRect();
+  const scaleX = canvas.width / canvas.clientWidth;
+  const x = (event.clientX - box.left) * scaleX;
+  const y = (event.clientY - box.top) * (canvas.height / canvas.clientHeight);
+  let best = null;
+  let bestDistance = 10 * scaleX;
+  for (const p of positions[kind] ?? []) {
+    const distance = Math.hypot(p.x - x, p.y - y);
+    if (distance < bestDistance) {
+      best = p;
+      bestDistance = distance;
+    }
+  }
+  if (!best) return;
+  const point = lastResult.points[best.row];
+  if (lastResult.layout === 'matrix') {
+    const key = `${point.line}:${point.column}`;
+    if (excludedCells.has(key)) excludedCells.delete(key);
+    else excludedCells.add(key);
+  } else if (excludedLines.has(point.line)) {
+    excludedLines.delete(point.line);
+  } else {
+    excludedLines.add(point.line);
+  }
+  analyseInhibition(lastSent);
+}
+
+function download(name, type, content) {
+  const url = URL.createObjectURL(new Blob([content], { type }));
+  const link = cell('a', '', { href: url, download: name });
+  document.body.append(link);
+  link.click();
+  link.remove();
+  setTimeout(() => URL.revokeObjectURL(url), 1000);
+}
+
 window.turnover.onAnalysed(analyseInhibition);
 window.turnover.inhibition = {
   lastResult: () => lastResult,
   lastError: () => lastError,
   plots: INHIBITION_PLOTS,
+  // Where the points of plot `kind` are, in CSS pixels of its canvas.
+  pointPositions(kind) {
+    const canvas = $(`plot-${kind}`);
+    const sx = canvas.clientWidth / canvas.width;
+    const sy = canvas.clientHeight / canvas.height;
+    return (positions[kind] ?? []).map((p) => ({ row: p.row, x: p.x * sx, y: p.y * sy }));
+  },
 };
+
+for (const kind of INHIBITION_PLOTS) {
+  $(`plot-${kind}`).addEventListener('click', (event) => toggleAt(kind, event));
+}
+for (const button of document.querySelectorAll('button.inhibition-svg')) {
+  button.addEventListener('click', () => {
+    if (!lastResult) return;
+    download(`turnover-${button.dataset.kind}.svg`, 'image/svg+xml', bench.svg(button.dataset.kind, 640, 460));
+  });
+}
+$('inhibition-include-all').addEventListener('click', () => {
+  excludedLines.clear();
+  excludedCells.clear();
+  if (lastSent) analyseInhibition(lastSent);
+});
 
 $('load-inhibition-demo').addEventListener('click', () => {
   $('data-input').value = INHIBITION_DEMO;

@@ -9,7 +9,7 @@ mod traces;
 
 use std::io::Read;
 use std::process::ExitCode;
-use turnover_core::dose::{analyse_dose, DoseRequest};
+use turnover_core::dose::{analyse_dose, ChengPrusoffRequest, DoseRequest};
 use turnover_core::fit::FitSummary;
 use turnover_core::intervals::{BootstrapScheme, IntervalMethod};
 use turnover_core::weighting::Weighting;
@@ -17,6 +17,7 @@ use turnover_core::inhibition::{analyse_inhibition, InhibitionRequest};
 use turnover_core::models::{model_input, Mechanism, ModelInput, MODEL_NAMES};
 use turnover_core::rates::{analyse_rates, compare_rate_models, RateAnalysis, RateRequest};
 use turnover_core::table::InputProblem;
+use turnover_core::units::ConcentrationUnit;
 
 const USAGE: &str = "\
 turnover: enzyme kinetics from the command line
@@ -38,6 +39,14 @@ OPTIONS for fit:
     --enzyme CONC          total enzyme concentration for kcat, such as '10 nM' or '10nM';
                            for morrison, [E]t in the units of [I] (a bare number)
     --top Y, --bottom Y    fix the top or bottom plateau of the ic50 model
+    --cheng-prusoff MECH   with ic50: add Ki converted from the IC50 for a competitive,
+                           uncompetitive or noncompetitive inhibitor (Cheng & Prusoff 1973:
+                           Ki = IC50/(1 + [S]/Km), IC50/(1 + Km/[S]), IC50); needs --substrate
+                           and --km. Assumes classical (not tight-binding) conditions.
+    --substrate CONC       [S] of the IC50 assay, such as '50 µM' or a bare number
+    --km KM                Km of the substrate, in the same form as --substrate (both bare
+                           numbers in one unit, or both with units)
+    --km-se SE             standard error of Km (bare: in the unit of --km); default: Km exact
     --enzyme-unit U        unit of --enzyme when CONC is a bare number
     --exclude-lines LIST   input line numbers to leave out of the fit, such as 4,9
     --weighting W          uniform (default), relative (1/v²), poisson (1/v) or sd (1/sd² from an sd column)
@@ -79,6 +88,7 @@ struct FitArgs {
     models: Vec<String>,
     top: Option<f64>,
     bottom: Option<f64>,
+    cheng_prusoff: Option<ChengPrusoffRequest>,
 }
 
 fn main() -> ExitCode {
@@ -119,6 +129,8 @@ fn parse_fit_args(args: &[String]) -> Result<FitArgs, Failure> {
     let mut enzyme_text: Option<String> = None;
     let mut models = Vec::new();
     let (mut top, mut bottom) = (None, None);
+    let mut mechanism: Option<String> = None;
+    let (mut substrate_text, mut km_text, mut km_se_text): (Option<String>, Option<String>, Option<String>) = (None, None, None);
     let number = |text: String, name: &str| -> Result<f64, Failure> {
         text.trim().parse::<f64>().ok().filter(|v| v.is_finite()).ok_or_else(|| Failure::Usage(format!("{name}: '{text}' is not a number")))
     };
@@ -137,6 +149,10 @@ fn parse_fit_args(args: &[String]) -> Result<FitArgs, Failure> {
             }
             "--top" => top = Some(number(value(&mut i, "--top")?, "--top")?),
             "--bottom" => bottom = Some(number(value(&mut i, "--bottom")?, "--bottom")?),
+            "--cheng-prusoff" => mechanism = Some(value(&mut i, "--cheng-prusoff")?),
+            "--substrate" => substrate_text = Some(value(&mut i, "--substrate")?),
+            "--km" => km_text = Some(value(&mut i, "--km")?),
+            "--km-se" => km_se_text = Some(value(&mut i, "--km-se")?),
             "--substrate-unit" => request.substrate_unit = Some(value(&mut i, "--substrate-unit")?),
             "--rate-unit" => request.rate_unit = Some(value(&mut i, "--rate-unit")?),
             "--enzyme" => enzyme_text = Some(value(&mut i, "--enzyme")?),
@@ -190,8 +206,69 @@ fn parse_fit_args(args: &[String]) -> Result<FitArgs, Failure> {
             request.enzyme_unit = Some(unit);
         }
     }
+    let cheng_prusoff = conversion_request(mechanism, substrate_text, km_text, km_se_text)?;
+    let name = request.model.trim();
+    if cheng_prusoff.is_some() && name != "ic50" {
+        return Err(Failure::Usage(format!(
+            "--cheng-prusoff converts the IC50 of the ic50 model; it does not apply to {}",
+            if name.is_empty() { "mm" } else { name }
+        )));
+    }
+    if (top.is_some() || bottom.is_some()) && name != "ic50" {
+        return Err(Failure::Usage("--top and --bottom fix the plateaus of the ic50 model; they apply to no other model".to_string()));
+    }
     let file = file.ok_or_else(|| Failure::Usage("fit needs an input file ('-' for standard input)".to_string()))?;
-    Ok(FitArgs { file, json, lenient, request, models, top, bottom })
+    Ok(FitArgs { file, json, lenient, request, models, top, bottom, cheng_prusoff })
+}
+
+/// Reads `--cheng-prusoff`, `--substrate`, `--km` and `--km-se` into one
+/// request, [S] and Km's error expressed in the unit of Km. Refuses any of
+/// the numbers without the mechanism, and the mechanism without [S] and Km.
+fn conversion_request(
+    mechanism: Option<String>,
+    substrate: Option<String>,
+    km: Option<String>,
+    km_se: Option<String>,
+) -> Result<Option<ChengPrusoffRequest>, Failure> {
+    let Some(mechanism) = mechanism else {
+        for (given, name) in [(&substrate, "--substrate"), (&km, "--km"), (&km_se, "--km-se")] {
+            if given.is_some() {
+                return Err(Failure::Usage(format!("{name} is used only with --cheng-prusoff MECHANISM")));
+            }
+        }
+        return Ok(None);
+    };
+    let (Some(substrate), Some(km)) = (substrate, km) else {
+        return Err(Failure::Usage("--cheng-prusoff needs both --substrate (the assay's [S]) and --km".to_string()));
+    };
+    let quantity = |text: &str, name: &str| -> Result<(f64, Option<ConcentrationUnit>), Failure> {
+        let (value, unit) = split_quantity(text)
+            .filter(|(v, _)| v.is_finite())
+            .ok_or_else(|| Failure::Usage(format!("{name}: '{text}' is not a concentration such as '50 µM' or '50'")))?;
+        let unit = unit.map(|u| ConcentrationUnit::parse(&u).map_err(|m| Failure::Usage(format!("{name}: {m}")))).transpose()?;
+        Ok((value, unit))
+    };
+    let (km_value, km_unit) = quantity(&km, "--km")?;
+    let (s_value, s_unit) = quantity(&substrate, "--substrate")?;
+    let in_km_unit = |value: f64, unit: Option<ConcentrationUnit>, name: &str| -> Result<f64, Failure> {
+        match (unit, km_unit) {
+            (Some(u), Some(k)) => Ok(value * u.in_molar() / k.in_molar()),
+            (None, None) => Ok(value),
+            (None, Some(_)) if name == "--km-se" => Ok(value),
+            _ => Err(Failure::Usage(format!(
+                "{name} and --km must both carry a unit (such as '50 µM') or both be bare numbers in one unit"
+            ))),
+        }
+    };
+    let substrate = in_km_unit(s_value, s_unit, "--substrate")?;
+    let km_se = match km_se {
+        Some(text) => {
+            let (value, unit) = quantity(&text, "--km-se")?;
+            Some(in_km_unit(value, unit, "--km-se")?)
+        }
+        None => None,
+    };
+    Ok(Some(ChengPrusoffRequest { mechanism, substrate, km: km_value, km_se }))
 }
 
 /// Splits `10 nM`, `10nM` or `10` into the number and an optional unit.
@@ -250,6 +327,7 @@ fn fit(mut args: FitArgs) -> Result<ExitCode, Failure> {
                 excluded_lines: args.request.excluded_lines.clone(),
                 interval_method: args.request.interval_method,
                 bootstrap: args.request.bootstrap,
+                cheng_prusoff: args.cheng_prusoff.clone(),
             };
             let analysis = analyse_dose(&request).map_err(|e| Failure::Input(e.message))?;
             check_problems(&args, &analysis.problems)?;
@@ -283,6 +361,7 @@ fn inhibition_request(args: &FitArgs, models: Vec<String>) -> InhibitionRequest 
         text: args.request.text.clone(),
         models,
         excluded_lines: args.request.excluded_lines.clone(),
+        excluded_cells: Vec::new(),
         substrate_unit: args.request.substrate_unit.clone(),
         inhibitor_unit: None,
         rate_unit: args.request.rate_unit.clone(),

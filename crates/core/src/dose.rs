@@ -1,16 +1,21 @@
 //! Inhibitor series at one substrate concentration: a response against
 //! [I], fitted by the four-parameter logistic (`ic50`) or by the Morrison
 //! tight-binding equation (`morrison`). [`analyse_dose`] is the code path
-//! behind `turnover fit --model ic50|morrison`.
+//! behind `turnover fit --model ic50|morrison` and the page's dose-response
+//! section; with a [`ChengPrusoffRequest`] it also converts the fitted IC50
+//! into Ki (see [`ChengPrusoffRequest`] for the conversions and their
+//! source).
 
 use crate::error::Error;
 use crate::fit::{fit_model, FitSettings, FitSummary};
 use crate::inhibition::is_inhibitor_name;
 use crate::model::{Dimension, Observations};
-use crate::models::{model_with_options, DoseResponse, ModelOptions};
+use crate::fit::{Fit, ParameterEstimate};
+use crate::intervals::IntervalMethod;
+use crate::models::{cheng_prusoff, model_with_options, DoseResponse, Mechanism, ModelOptions};
 use crate::plots::family::{dose_response_plot, morrison_plot, short_number, DosePoint};
 use crate::plots::PlotData;
-use crate::rates::{is_rate_name, normalise_name, CAUTION};
+use crate::rates::{is_rate_name, is_substrate_name, normalise_name, CAUTION};
 use crate::table::{parse_table, InputProblem};
 use crate::units::ConcentrationUnit;
 use serde::{Deserialize, Serialize};
@@ -35,6 +40,48 @@ pub struct DoseRequest {
     pub interval_method: crate::intervals::IntervalMethod,
     /// Bootstrap settings, used when `interval_method` is bootstrap.
     pub bootstrap: crate::intervals::BootstrapSettings,
+    /// Convert the fitted IC50 into Ki (`ic50` only); `None` for no
+    /// conversion.
+    pub cheng_prusoff: Option<ChengPrusoffRequest>,
+}
+
+/// Converts the fitted IC50 into an inhibition constant Ki for a stated
+/// mechanism, by the relations of Cheng & Prusoff (1973, Biochem.
+/// Pharmacol. 22, 3099; the relations quoted from memory):
+///
+/// - competitive: Ki = IC50 / (1 + [S]/Km)
+/// - uncompetitive: Ki = IC50 / (1 + Km/[S])
+/// - noncompetitive: Ki = IC50
+///
+/// A mixed inhibitor has two constants that one IC50 cannot give, so
+/// `mixed` is refused. The relations assume classical conditions: the
+/// inhibitor is not tight-binding (free [I] ≈ total [I], so [E]t ≪ Ki),
+/// the mechanism is the one stated, and [S] and Km hold for the assay in
+/// which the IC50 was measured. Ki is a statistical estimate resting on
+/// all three.
+///
+/// The result is a derived parameter `Ki` in the unit of [I]. Its standard
+/// error is by the delta method ([`cheng_prusoff`]), with IC50's standard
+/// error and, when `km_se` is given, Km's, taken as independent; [S] is
+/// taken as exact. Its interval: with asymptotic intervals, Ki ± t·SE
+/// (`ci_method` `delta`); with profile or bootstrap intervals and no Km
+/// error, IC50's interval divided by the same factor (exact for a fixed
+/// factor; `ci_method` `profile` or `bootstrap`); with a Km error, the
+/// delta-method interval, since Km's uncertainty cannot enter a profile or
+/// a bootstrap of these data (`ci_method` `delta`, and a note says so).
+#[derive(Clone, Debug, Default, PartialEq, Deserialize)]
+#[serde(default)]
+pub struct ChengPrusoffRequest {
+    /// `competitive`, `uncompetitive` or `noncompetitive` (`mixed` is
+    /// refused with a reason).
+    pub mechanism: String,
+    /// The substrate concentration of the assay, in the unit of `km`;
+    /// zero or positive (positive for uncompetitive).
+    pub substrate: f64,
+    /// The Michaelis constant of the substrate, positive.
+    pub km: f64,
+    /// The standard error of `km`, in its unit; `None` to take Km as exact.
+    pub km_se: Option<f64>,
 }
 
 /// One point of the series.
@@ -73,8 +120,45 @@ pub struct DoseAnalysis {
     pub caution: String,
 }
 
+/// Response names that are not also rate names.
+fn is_signal_name(name: &str) -> bool {
+    matches!(normalise_name(name).as_str(), "response" | "activity" | "signal" | "y" | "%activity" | "percentactivity" | "%" | "%control")
+}
+
 fn is_response_name(name: &str) -> bool {
-    is_rate_name(name) || matches!(normalise_name(name).as_str(), "response" | "activity" | "signal" | "y" | "%activity" | "percentactivity")
+    is_rate_name(name) || is_signal_name(name)
+}
+
+/// The ([I], response) columns named by a header, if it names them: an
+/// inhibitor column (`I`, `[I]`, `inhibitor`, ...) with any response
+/// column (`response`, `activity`, `signal`, `% activity`, `v`), or a
+/// `conc`/`concentration` column with a response that is not a rate (a
+/// `conc`, `v` table is a Michaelis-Menten table, whose concentration is
+/// [S]). A header that also names [S] is not an inhibitor series.
+fn named_columns(headings: &[crate::table::ColumnHeading]) -> Option<(usize, usize)> {
+    let substrate_only = |n: &str| matches!(normalise_name(n).as_str(), "s" | "s0" | "substrate" | "substrateconcentration");
+    if headings.iter().any(|h| substrate_only(&h.name)) {
+        return None;
+    }
+    let y_any = headings.iter().position(|h| is_response_name(&h.name));
+    let y_signal = headings.iter().position(|h| is_signal_name(&h.name));
+    if let (Some(i), Some(y)) = (headings.iter().position(|h| is_inhibitor_name(&h.name)), y_any) {
+        return Some((i, y));
+    }
+    let conc = headings.iter().position(|h| matches!(normalise_name(&h.name).as_str(), "conc" | "concentration"));
+    match (conc, y_signal) {
+        (Some(i), Some(y)) => Some((i, y)),
+        _ => None,
+    }
+}
+
+/// Whether `text` is an inhibitor series for [`analyse_dose`]: its header
+/// names an [I] column and a response column and no [S] column (see
+/// [`named_columns`]). The page uses this to decide when to show the
+/// dose-response section.
+pub fn is_dose_table(text: &str) -> bool {
+    let table = parse_table(text);
+    table.headings.as_deref().and_then(named_columns).is_some()
 }
 
 /// Reads the series and fits it.
@@ -83,6 +167,24 @@ pub fn analyse_dose(request: &DoseRequest) -> Result<DoseAnalysis, Error> {
     if name != "ic50" && name != "morrison" {
         return Err(Error::invalid_option(format!("'{name}' is not an inhibitor-series model; choose ic50 or morrison")));
     }
+    // Options that do not apply to the chosen model are refused, never
+    // ignored.
+    if name == "morrison" {
+        if request.fixed_top.is_some() || request.fixed_bottom.is_some() {
+            return Err(Error::invalid_option("a fixed top or bottom applies to the ic50 model only; the Morrison fit has v0 and Ki_app"));
+        }
+        if request.cheng_prusoff.is_some() {
+            return Err(Error::invalid_option(
+                "the Cheng-Prusoff conversion applies to the ic50 model only; it assumes classical (not tight-binding) conditions, which the Morrison fit is for when they do not hold",
+            ));
+        }
+    } else if request.enzyme.is_some() {
+        return Err(Error::invalid_option("[E]t applies to the morrison model only; the ic50 model does not use it"));
+    }
+    let conversion = match &request.cheng_prusoff {
+        Some(c) => Some(check_conversion(c)?),
+        None => None,
+    };
     let options = ModelOptions { enzyme: request.enzyme, fixed_top: request.fixed_top, fixed_bottom: request.fixed_bottom };
     let model = model_with_options(name, &options)?;
     let table = parse_table(&request.text);
@@ -91,8 +193,13 @@ pub fn analyse_dose(request: &DoseRequest) -> Result<DoseAnalysis, Error> {
         return Err(Error::invalid_data("no data rows found; paste a table with [I] in the first column and the response in the second"));
     }
     let (ci, cy) = match &table.headings {
-        Some(h) => match (h.iter().position(|c| is_inhibitor_name(&c.name)), h.iter().position(|c| is_response_name(&c.name))) {
-            (Some(i), Some(y)) => (i, y),
+        Some(h) => match named_columns(h) {
+            Some((i, y)) => (i, y),
+            None if h.iter().any(|c| is_substrate_name(&c.name) && !matches!(normalise_name(&c.name).as_str(), "conc" | "concentration")) => {
+                return Err(Error::invalid_data(
+                    "the header names an [S] column; an inhibitor series has [I] and a response only (fit rates at several [S] and [I] with an inhibition mechanism instead)",
+                ))
+            }
             _ if h.len() >= 2 => {
                 notes.push(format!("Column 1 ('{}') is read as [I] and column 2 ('{}') as the response.", h[0].name, h[1].name));
                 (0, 1)
@@ -172,7 +279,10 @@ pub fn analyse_dose(request: &DoseRequest) -> Result<DoseAnalysis, Error> {
                 short_number(enzyme)
             ));
         }
-        morrison_plot(&dose_points, &curve, v0, ki, &unit_text, response_unit.as_deref().unwrap_or(""))
+        let mut plot = morrison_plot(&dose_points, &curve, v0, ki, &unit_text, response_unit.as_deref().unwrap_or(""));
+        // The response is labelled as the table names it (v, % activity, ...).
+        plot.y_label = response_label.clone();
+        plot
     } else {
         let full = DoseResponse::new(request.fixed_top, request.fixed_bottom).full(&values);
         if summary.converged && (full[2] <= 0.0 || !full[2].is_finite()) {
@@ -183,9 +293,100 @@ pub fn analyse_dose(request: &DoseRequest) -> Result<DoseAnalysis, Error> {
         if summary.converged && (full[2] > i_max || full[2] < i_min) {
             summary.warnings.push("The IC50 lies outside the tested concentrations; it is an extrapolation.".to_string());
         }
+        if let Some((conversion, mechanism)) = &conversion {
+            add_ki(&mut summary, &fit, &request.fixed_top, &request.fixed_bottom, conversion, *mechanism, request.interval_method, &mut notes)?;
+        }
         dose_response_plot(&dose_points, &curve, full[2], &unit_text, &response_label)
     };
     Ok(DoseAnalysis { fit: summary, points, problems, notes, inhibitor_unit: i_symbol, plots: vec![plot], caution: CAUTION.to_string() })
+}
+
+/// Checks the numbers of a conversion request and reads its mechanism.
+fn check_conversion(request: &ChengPrusoffRequest) -> Result<(ChengPrusoffRequest, Mechanism), Error> {
+    let mechanism = Mechanism::ALL.into_iter().find(|m| m.name() == request.mechanism.trim()).ok_or_else(|| {
+        Error::invalid_option(format!(
+            "Cheng-Prusoff: '{}' is not a mechanism; choose competitive, uncompetitive or noncompetitive",
+            request.mechanism
+        ))
+    })?;
+    if !(request.km.is_finite() && request.km > 0.0) {
+        return Err(Error::invalid_option(format!("Cheng-Prusoff: Km must be a positive number, not {}", request.km)));
+    }
+    if !(request.substrate.is_finite() && request.substrate >= 0.0) {
+        return Err(Error::invalid_option(format!("Cheng-Prusoff: [S] must be zero or a positive number, not {}", request.substrate)));
+    }
+    if let Some(se) = request.km_se {
+        if !(se.is_finite() && se >= 0.0) {
+            return Err(Error::invalid_option(format!("Cheng-Prusoff: the standard error of Km must be zero or positive, not {se}")));
+        }
+    }
+    Ok((request.clone(), mechanism))
+}
+
+/// Appends the derived `Ki` (see [`ChengPrusoffRequest`]).
+#[allow(clippy::too_many_arguments)]
+fn add_ki(
+    summary: &mut FitSummary,
+    fit: &Fit,
+    fixed_top: &Option<f64>,
+    fixed_bottom: &Option<f64>,
+    request: &ChengPrusoffRequest,
+    mechanism: Mechanism,
+    method: IntervalMethod,
+    notes: &mut Vec<String>,
+) -> Result<(), Error> {
+    // IC50 sits after the plateaus that are fitted.
+    let k = usize::from(fixed_top.is_none()) + usize::from(fixed_bottom.is_none());
+    let ic50 = summary.parameters[k].clone();
+    let ratio = request.substrate / request.km;
+    // [S]/Km with [S] exact: se(ratio) = [S]·se(Km)/Km² (delta method).
+    let ratio_se = request.km_se.map(|se| request.substrate * se / (request.km * request.km));
+    let converted = cheng_prusoff(ic50.value, ic50.std_error, mechanism, ratio, ratio_se)?;
+    let with_km_error = request.km_se.is_some_and(|se| se > 0.0);
+    let delta = |se: Option<f64>| match (se, fit.t_quantile) {
+        (Some(se), Some(t)) => (Some(converted.ki - t * se), Some(converted.ki + t * se)),
+        _ => (None, None),
+    };
+    let (ci_low, ci_high, ci_method) = match method {
+        IntervalMethod::Asymptotic => {
+            let (low, high) = delta(converted.std_error);
+            (low, high, "delta".to_string())
+        }
+        _ if with_km_error => {
+            notes.push(format!(
+                "Ki's interval is by the delta method (Ki ± t·SE), not by the {} method: the standard error of Km is not part of these data, so it cannot enter a {} of them.",
+                method.name(),
+                method.name()
+            ));
+            let (low, high) = delta(converted.std_error);
+            (low, high, "delta".to_string())
+        }
+        _ => (ic50.ci_low.map(|v| v / converted.divisor), ic50.ci_high.map(|v| v / converted.divisor), ic50.ci_method.clone()),
+    };
+    let relation = match mechanism {
+        Mechanism::Competitive => "Ki = IC50/(1 + [S]/Km)",
+        Mechanism::Uncompetitive => "Ki = IC50/(1 + Km/[S])",
+        _ => "Ki = IC50",
+    };
+    notes.push(format!(
+        "Ki by Cheng-Prusoff for a {} inhibitor: {relation} with [S] = {}, Km = {}{} (divisor {}). This assumes classical conditions: the inhibitor is not tight-binding (free [I] ≈ total [I]), the mechanism is the one stated, and [S] and Km hold for this assay.",
+        mechanism.name(),
+        short_number(request.substrate),
+        short_number(request.km),
+        request.km_se.map_or(String::new(), |se| format!(" ± {}", short_number(se))),
+        short_number(converted.divisor)
+    ));
+    summary.parameters.push(ParameterEstimate {
+        name: "Ki".to_string(),
+        value: converted.ki,
+        std_error: converted.std_error,
+        ci_low,
+        ci_high,
+        unit: ic50.unit.clone(),
+        derived: true,
+        ci_method,
+    });
+    Ok(())
 }
 
 #[cfg(test)]
@@ -201,5 +402,112 @@ mod tests {
         assert!(a.fit.converged);
         assert!(a.fit.warnings.iter().any(|w| w.contains("below 10×[E]t")), "{:?}", a.fit.warnings);
         assert_eq!(a.fit.parameters[1].unit.as_deref(), Some("nM"));
+    }
+
+    /// Invented, noise-free-ish series for the conversion tests.
+    const SERIES: &str = "[I] (µM)\t% activity\n0\t99.1\n0.1\t96.8\n0.3\t88.9\n1\t68.2\n3\t40.5\n10\t16.1\n30\t6.2\n100\t2.9\n0\t100.6\n1\t70.3\n10\t14.8\n";
+
+    fn converted(mechanism: &str, substrate: f64, km: f64, km_se: Option<f64>, method: IntervalMethod) -> DoseAnalysis {
+        let conversion = ChengPrusoffRequest { mechanism: mechanism.into(), substrate, km, km_se };
+        let request = DoseRequest {
+            text: SERIES.into(),
+            model: "ic50".into(),
+            cheng_prusoff: Some(conversion),
+            interval_method: method,
+            ..Default::default()
+        };
+        analyse_dose(&request).unwrap()
+    }
+
+    fn parameter<'a>(a: &'a DoseAnalysis, name: &str) -> &'a ParameterEstimate {
+        a.fit.parameters.iter().find(|p| p.name == name).unwrap()
+    }
+
+    /// Cheng & Prusoff (1973): competitive Ki = IC50/(1 + [S]/Km),
+    /// uncompetitive Ki = IC50/(1 + Km/[S]), noncompetitive Ki = IC50, on
+    /// the IC50 this very fit gives (the relations from memory).
+    #[test]
+    fn ki_follows_the_stated_relation_for_each_mechanism() {
+        for (mechanism, divisor) in [("competitive", 1.0 + 50.0 / 20.0), ("uncompetitive", 1.0 + 20.0 / 50.0), ("noncompetitive", 1.0)] {
+            let a = converted(mechanism, 50.0, 20.0, None, IntervalMethod::Asymptotic);
+            let (ic50, ki) = (parameter(&a, "IC50"), parameter(&a, "Ki"));
+            assert!((ki.value - ic50.value / divisor).abs() < 1e-12 * ki.value, "{mechanism}");
+            assert!((ki.std_error.unwrap() - ic50.std_error.unwrap() / divisor).abs() < 1e-12, "{mechanism}");
+            assert!(ki.derived && !ic50.derived);
+            assert_eq!(ki.unit.as_deref(), Some("µM"));
+            assert_eq!(ki.ci_method, "delta");
+            // The interval is Ki ± t(0.975, n − p)·SE, n − p = 11 − 4 = 7;
+            // t(0.975, 7) = 2.364624 (statistical tables).
+            let half = (ki.ci_high.unwrap() - ki.ci_low.unwrap()) / 2.0;
+            assert!((half / ki.std_error.unwrap() - 2.364624).abs() < 1e-5, "{half}");
+            assert!(a.notes.iter().any(|n| n.contains("not tight-binding")), "{:?}", a.notes);
+        }
+    }
+
+    /// With a Km error the delta method adds (IC50·[S]/Km²)²·var(Km)/(1 +
+    /// [S]/Km)⁴ for competitive; checked against a central difference of
+    /// Ki in Km.
+    #[test]
+    fn km_error_enters_by_the_delta_method() {
+        let (s, km, km_se) = (50.0, 20.0, 3.0);
+        let a = converted("competitive", s, km, Some(km_se), IntervalMethod::Asymptotic);
+        let ic50 = parameter(&a, "IC50");
+        let ki = parameter(&a, "Ki");
+        let h = 1e-5;
+        let slope = (ic50.value / (1.0 + s / (km + h)) - ic50.value / (1.0 + s / (km - h))) / (2.0 * h);
+        let expected = ((ic50.std_error.unwrap() / (1.0 + s / km)).powi(2) + (slope * km_se).powi(2)).sqrt();
+        assert!((ki.std_error.unwrap() - expected).abs() < 1e-7 * expected, "{} vs {expected}", ki.std_error.unwrap());
+    }
+
+    /// With profile intervals and Km exact, Ki's interval is IC50's divided
+    /// by the factor; with a Km error it falls back to the delta method and
+    /// says so.
+    #[test]
+    fn profile_interval_is_scaled_and_km_error_falls_back_to_delta() {
+        let a = converted("competitive", 10.0, 10.0, None, IntervalMethod::Profile);
+        let (ic50, ki) = (parameter(&a, "IC50"), parameter(&a, "Ki"));
+        assert_eq!(ki.ci_method, "profile");
+        assert!((ki.ci_low.unwrap() - ic50.ci_low.unwrap() / 2.0).abs() < 1e-12);
+        assert!((ki.ci_high.unwrap() - ic50.ci_high.unwrap() / 2.0).abs() < 1e-12);
+        let b = converted("competitive", 10.0, 10.0, Some(1.0), IntervalMethod::Profile);
+        assert_eq!(parameter(&b, "Ki").ci_method, "delta");
+        assert!(b.notes.iter().any(|n| n.contains("delta method")), "{:?}", b.notes);
+    }
+
+    /// Options that do not apply are refused with a reason, never ignored.
+    #[test]
+    fn options_that_do_not_apply_are_refused() {
+        let conversion = Some(ChengPrusoffRequest { mechanism: "competitive".into(), substrate: 1.0, km: 1.0, km_se: None });
+        let check = |request: DoseRequest, expected: &str| {
+            let e = analyse_dose(&request).unwrap_err();
+            assert!(e.message.contains(expected), "{}", e.message);
+        };
+        let base = DoseRequest { text: SERIES.into(), model: "ic50".into(), ..Default::default() };
+        check(DoseRequest { model: "morrison".into(), enzyme: Some(1.0), cheng_prusoff: conversion.clone(), ..base.clone() }, "ic50 model only");
+        check(DoseRequest { model: "morrison".into(), enzyme: Some(1.0), fixed_top: Some(100.0), ..base.clone() }, "ic50 model only");
+        check(DoseRequest { enzyme: Some(1.0), ..base.clone() }, "morrison model only");
+        let with = |mechanism: &str, substrate: f64, km: f64, km_se: Option<f64>| DoseRequest {
+            cheng_prusoff: Some(ChengPrusoffRequest { mechanism: mechanism.into(), substrate, km, km_se }),
+            ..base.clone()
+        };
+        check(with("mixed", 1.0, 1.0, None), "two constants");
+        check(with("allosteric", 1.0, 1.0, None), "not a mechanism");
+        check(with("competitive", 1.0, 0.0, None), "Km must be a positive number");
+        check(with("competitive", -1.0, 1.0, None), "[S] must be zero or a positive");
+        check(with("competitive", 1.0, 1.0, Some(-2.0)), "standard error of Km");
+        check(with("uncompetitive", 0.0, 1.0, None), "no IC50 at [S] = 0");
+    }
+
+    #[test]
+    fn dose_tables_are_told_from_rate_and_inhibition_tables() {
+        assert!(is_dose_table(SERIES));
+        assert!(is_dose_table("[I] (nM)\tv\n1\t2\n"));
+        assert!(is_dose_table("conc (µM)\tsignal\n1\t2\n"));
+        assert!(is_dose_table("inhibitor (µM)\tresponse\n1\t2\n"));
+        assert!(!is_dose_table("conc (mM)\tv\n1\t2\n"), "conc with v is a Michaelis-Menten table");
+        assert!(!is_dose_table("[S] (mM)\t[I] (µM)\tv\n1\t0\t2\n"));
+        assert!(!is_dose_table("[S] (mM)\tv\n1\t2\n"));
+        let e = analyse_dose(&DoseRequest { text: "[S]\tv\n1\t2\n2\t3\n".into(), model: "ic50".into(), ..Default::default() }).unwrap_err();
+        assert!(e.message.contains("names an [S] column"), "{}", e.message);
     }
 }

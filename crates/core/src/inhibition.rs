@@ -36,8 +36,13 @@ pub struct InhibitionRequest {
     /// Mechanisms to fit (`competitive`, `uncompetitive`, `mixed`,
     /// `noncompetitive`); empty means all four.
     pub models: Vec<String>,
-    /// Input line numbers (1-based) to leave out of the fit.
+    /// Input line numbers (1-based) to leave out of the fit: every rate on
+    /// the line.
     pub excluded_lines: Vec<usize>,
+    /// Single rates to leave out, as (input line, input column), both
+    /// 1-based: in a matrix table a line holds one rate per [I], so one
+    /// point is a cell, not a line.
+    pub excluded_cells: Vec<(usize, usize)>,
     /// Unit of [S]; `None` or empty means "as the header says".
     pub substrate_unit: Option<String>,
     /// Unit of [I]; `None` or empty means "as the header says".
@@ -240,7 +245,7 @@ fn unit_from<T>(heading: Option<&ColumnHeading>, parse: fn(&str) -> Result<T, St
     }
 }
 
-fn read(text: &str, excluded_lines: &[usize]) -> Result<Read, Error> {
+fn read(text: &str, excluded_lines: &[usize], excluded_cells: &[(usize, usize)]) -> Result<Read, Error> {
     let table = parse_table(text);
     let mut notes = Vec::new();
     if table.rows.is_empty() {
@@ -255,7 +260,7 @@ fn read(text: &str, excluded_lines: &[usize]) -> Result<Read, Error> {
     let mut problems = Vec::new();
     let mut points = Vec::new();
     let mut push = |line: usize, column: usize, s: f64, i: f64, v: f64| {
-        points.push(InhibitionPoint { row: points.len(), line, column, s, i, v, excluded: excluded_lines.contains(&line), fitted: f64::NAN });
+        points.push(InhibitionPoint { row: points.len(), line, column, s, i, v, excluded: excluded_lines.contains(&line) || excluded_cells.contains(&(line, column)), fitted: f64::NAN });
     };
     match &layout {
         Layout::Long { s, i, v } => {
@@ -372,7 +377,7 @@ pub fn analyse_inhibition(request: &InhibitionRequest) -> Result<InhibitionAnaly
         request.models.iter().map(|m| mechanism_named(m)).collect::<Result<_, _>>()?
     };
     mechanisms.dedup();
-    let Read { layout, mut points, problems, mut notes, units } = read(&request.text, &request.excluded_lines)?;
+    let Read { layout, mut points, problems, mut notes, units } = read(&request.text, &request.excluded_lines, &request.excluded_cells)?;
     let (mut substrate_unit, mut inhibitor_unit, mut rate_unit) = units;
     let given = |u: &Option<String>| u.as_deref().map(str::trim).filter(|t| !t.is_empty()).map(str::to_string);
     if let Some(u) = given(&request.substrate_unit) {
@@ -520,8 +525,8 @@ mod tests {
 
     #[test]
     fn long_and_matrix_layouts_read_the_same_points() {
-        let long = read(LONG, &[]).unwrap();
-        let matrix = read(MATRIX, &[]).unwrap();
+        let long = read(LONG, &[], &[]).unwrap();
+        let matrix = read(MATRIX, &[], &[]).unwrap();
         assert_eq!(long.layout, TableLayout::Long);
         assert_eq!(matrix.layout, TableLayout::Matrix);
         let key = |r: &Read| {
@@ -538,7 +543,7 @@ mod tests {
     #[test]
     fn mixed_units_in_matrix_headers_are_converted() {
         let text = "[S] (mM)\t0\t500 nM\t1 µM\n0.2\t2.9\t1.6\t1.2\n";
-        let r = read(text, &[]).unwrap();
+        let r = read(text, &[], &[]).unwrap();
         let levels: Vec<f64> = r.points.iter().map(|p| p.i).collect();
         assert_eq!(levels, [0.0, 500.0, 1000.0]);
     }
@@ -546,18 +551,28 @@ mod tests {
     /// Bad inputs and the message each must give.
     #[test]
     fn bad_inputs_name_line_and_column() {
-        let r = read("[S]\t[I]\tv\n1\t0\t2\n1\tx\t2\n2\t-1\t3\n", &[]).unwrap();
+        let r = read("[S]\t[I]\tv\n1\t0\t2\n1\tx\t2\n2\t-1\t3\n", &[], &[]).unwrap();
         let found: Vec<String> = r.problems.iter().map(|p| p.to_string()).collect();
         assert_eq!(found, ["line 3, column 2: expected a number, found 'x'", "line 4, column 2: a concentration cannot be negative"]);
-        let e = read("[S] (mM)\t0\t5 ppm\n1\t2\t3\n", &[]).err().unwrap();
+        let e = read("[S] (mM)\t0\t5 ppm\n1\t2\t3\n", &[], &[]).err().unwrap();
         assert!(e.message.starts_with("line 1, column 3"), "{}", e.message);
         let e = analyse_inhibition(&InhibitionRequest { text: "S\tv\n1\t2\n".into(), ..Default::default() }).unwrap_err();
         assert!(e.message.contains("not an inhibitor table"), "{}", e.message);
         let e = analyse_inhibition(&InhibitionRequest { text: LONG.into(), models: vec!["allosteric".into()], ..Default::default() }).unwrap_err();
         assert!(e.message.contains("not an inhibition mechanism"), "{}", e.message);
         // Empty matrix cells are measurements not made, not problems.
-        let r = read("[S]\t0\t5\n1\t2\t\n2\t3\t1\n", &[]).unwrap();
+        let r = read("[S]\t0\t5\n1\t2\t\n2\t3\t1\n", &[], &[]).unwrap();
         assert!(r.problems.is_empty(), "{:?}", r.problems);
         assert_eq!(r.points.len(), 3);
+    }
+
+    /// In a matrix, a cell leaves out one rate; a line leaves out the row.
+    #[test]
+    fn cells_and_lines_are_left_out() {
+        let cell = read(MATRIX, &[], &[(3, 3)]).unwrap();
+        let out: Vec<(usize, usize)> = cell.points.iter().filter(|p| p.excluded).map(|p| (p.line, p.column)).collect();
+        assert_eq!(out, [(3, 3)]);
+        let line = read(MATRIX, &[3], &[]).unwrap();
+        assert_eq!(line.points.iter().filter(|p| p.excluded).count(), 3, "three [I] columns");
     }
 }

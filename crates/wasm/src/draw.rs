@@ -8,7 +8,7 @@
 use plotters::coord::Shift;
 use plotters::prelude::*;
 use serde::Serialize;
-use turnover_core::plots::PlotData;
+use turnover_core::plots::{PlotData, PlotKind};
 
 /// Where one data point was drawn, in backend pixels.
 #[derive(Clone, Copy, Debug, PartialEq, Serialize)]
@@ -228,7 +228,13 @@ pub fn draw_plot<DB: DrawingBackend>(
     if !plot.series.is_empty() {
         chart
             .configure_series_labels()
-            .position(SeriesLabelPosition::UpperLeft)
+            // Inhibitor series fall from the upper left, where the legend
+            // would hide the points without inhibitor.
+            .position(if matches!(plot.kind, PlotKind::DoseResponse | PlotKind::Morrison) {
+                SeriesLabelPosition::UpperRight
+            } else {
+                SeriesLabelPosition::UpperLeft
+            })
             .background_style(WHITE.mix(0.85))
             .border_style(GRID)
             .label_font(("sans-serif", 11).into_font().color(&INK))

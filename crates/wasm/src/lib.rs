@@ -12,6 +12,7 @@
 
 #![deny(missing_docs)]
 
+mod dose;
 mod draw;
 mod inhibition;
 mod traces;
@@ -23,6 +24,7 @@ use turnover_core::plots::PlotKind;
 use turnover_core::rates::{analyse_rates, compare_rate_models, RateAnalysis, RateComparison, RateRequest};
 use wasm_bindgen::prelude::*;
 
+pub use dose::{is_dose_table, DoseBench};
 pub use draw::{draw_plot, PointPosition};
 pub use inhibition::{is_inhibition_table, InhibitionBench};
 pub use traces::TraceBench;

@@ -1,0 +1,80 @@
+//! The page's window onto the inhibitor-series (dose-response) analysis:
+//! fit the logistic or the Morrison equation to a table of [I] and a
+//! response, optionally convert the IC50 into Ki, and draw the plot. Like
+//! [`crate::Workbench`], it keeps the last analysis on the Rust side.
+
+use crate::draw::{draw_plot, plot_svg};
+use crate::to_js;
+use plotters::prelude::*;
+use plotters_canvas::CanvasBackend;
+use turnover_core::dose::{analyse_dose, DoseAnalysis, DoseRequest};
+use turnover_core::plots::PlotData;
+use wasm_bindgen::prelude::*;
+
+/// Holds the most recent dose-response analysis for drawing.
+#[wasm_bindgen]
+#[derive(Default)]
+pub struct DoseBench {
+    last: Option<DoseAnalysis>,
+}
+
+/// Whether `text` is an inhibitor series: a header naming an [I] column
+/// and a response column, and no [S] column.
+#[wasm_bindgen(js_name = isDoseTable)]
+pub fn is_dose_table(text: &str) -> bool {
+    turnover_core::dose::is_dose_table(text)
+}
+
+impl DoseBench {
+    fn plot(&self) -> Result<&PlotData, JsError> {
+        let analysis = self.last.as_ref().ok_or_else(|| JsError::new("there is no dose-response analysis to draw"))?;
+        analysis.plots.first().ok_or_else(|| JsError::new("this analysis has no plot"))
+    }
+}
+
+#[wasm_bindgen]
+impl DoseBench {
+    /// An empty bench.
+    #[wasm_bindgen(constructor)]
+    pub fn new() -> DoseBench {
+        DoseBench::default()
+    }
+
+    /// Analyses an inhibitor series. `request` has the fields of
+    /// `DoseRequest` (`text`, `model`, `enzyme`, `fixed_top`,
+    /// `fixed_bottom`, `excluded_lines`, `interval_method`, `bootstrap`,
+    /// `cheng_prusoff`). Throws an `Error` with a message for the scientist
+    /// when no fit can be made; the previous analysis is then forgotten.
+    pub fn analyse(&mut self, request: JsValue) -> Result<JsValue, JsError> {
+        let request: DoseRequest = serde_wasm_bindgen::from_value(request)
+            .map_err(|e| JsError::new(&format!("the page sent a request Turnover cannot read: {e}")))?;
+        match analyse_dose(&request) {
+            Ok(analysis) => {
+                let value = to_js(&analysis)?;
+                self.last = Some(analysis);
+                Ok(value)
+            }
+            Err(error) => {
+                self.last = None;
+                Err(JsError::new(&error.message))
+            }
+        }
+    }
+
+    /// Draws the analysis' plot (dose-response or Morrison) on canvas
+    /// `canvas_id`; returns where each point landed, as `{row, x, y}` in
+    /// canvas pixels.
+    pub fn draw(&self, canvas_id: &str) -> Result<JsValue, JsError> {
+        let plot = self.plot()?;
+        let backend = CanvasBackend::new(canvas_id).ok_or_else(|| JsError::new(&format!("no canvas '{canvas_id}'")))?;
+        let root = backend.into_drawing_area();
+        let positions = draw_plot(&root, plot).map_err(|e| JsError::new(&format!("drawing failed: {e}")))?;
+        root.present().map_err(|e| JsError::new(&format!("drawing failed: {e}")))?;
+        to_js(&positions)
+    }
+
+    /// The plot as a standalone SVG document, `width` × `height` pixels.
+    pub fn svg(&self, width: u32, height: u32) -> Result<String, JsError> {
+        plot_svg(self.plot()?, width, height).map_err(|e| JsError::new(&format!("drawing failed: {e}")))
+    }
+}

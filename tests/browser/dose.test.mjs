@@ -1,0 +1,280 @@
+// Browser tests for the dose-response section of dist/turnover.html (IC50,
+// Cheng-Prusoff Ki, Morrison tight binding) and for the inhibitor-series
+// plots' SVG buttons and click-to-exclude, in headless Debian Chromium
+// through playwright-core, from file://, with every non-local request
+// counted and refused.
+//
+// Run:  cd tests/browser && TURNOVER_HTML=../../dist/turnover.html node --test
+
+import { test, before, after } from 'node:test';
+import assert from 'node:assert/strict';
+import { mkdirSync, mkdtempSync, rmSync, existsSync, readFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join, resolve, dirname } from 'node:path';
+import { fileURLToPath, pathToFileURL } from 'node:url';
+import { chromium } from 'playwright-core';
+
+const here = dirname(fileURLToPath(import.meta.url));
+const htmlPath = resolve(process.env.TURNOVER_HTML ?? join(here, '..', '..', 'dist', 'turnover.html'));
+const pageUrl = pathToFileURL(htmlPath).href;
+const shotDir = resolve(process.env.TURNOVER_SCREENSHOTS ?? join(here, '..', '..', 'target', 'screenshots'));
+const chromiumPath = process.env.TURNOVER_CHROMIUM ?? '/usr/bin/chromium';
+const isLocal = (url) => /^(file|data|blob|about):/i.test(url);
+
+let context;
+let userDataDir;
+const external = [];
+
+before(async () => {
+  assert.ok(existsSync(htmlPath), `page not built: ${htmlPath} does not exist (run build.sh)`);
+  mkdirSync(shotDir, { recursive: true });
+  userDataDir = mkdtempSync(join(tmpdir(), 'turnover-dose-'));
+  context = await chromium.launchPersistentContext(userDataDir, {
+    executablePath: chromiumPath,
+    headless: true,
+    acceptDownloads: true,
+    viewport: { width: 1280, height: 900 },
+    args: ['--headless', '--no-sandbox', '--disable-gpu', '--disable-background-networking',
+      '--disable-component-update', '--disable-sync', '--no-first-run', '--disable-quic'],
+  });
+  await context.route('**/*', (route) => {
+    const url = route.request().url();
+    if (isLocal(url)) return route.continue();
+    external.push(url);
+    return route.abort('blockedbyclient');
+  });
+  for (const p of context.pages()) await p.close();
+});
+
+after(async () => {
+  if (context) await context.close();
+  if (userDataDir) rmSync(userDataDir, { recursive: true, force: true });
+});
+
+async function openPage() {
+  const page = await context.newPage();
+  const errors = [];
+  page.on('console', (msg) => { if (msg.type() === 'error') errors.push(msg.text()); });
+  page.on('pageerror', (err) => errors.push(String(err?.stack ?? err)));
+  await page.goto(pageUrl, { waitUntil: 'load' });
+  await page.waitForFunction(() => document.querySelector('#status')?.dataset.state !== 'idle', null, { timeout: 15_000 });
+  return { page, errors };
+}
+
+async function inked(page, id) {
+  return page.evaluate((canvasId) => {
+    const canvas = document.getElementById(canvasId);
+    const data = canvas.getContext('2d').getImageData(0, 0, canvas.width, canvas.height).data;
+    let count = 0;
+    for (let k = 0; k < data.length; k += 4) if (!(data[k] > 245 && data[k + 1] > 245 && data[k + 2] > 245)) count += 1;
+    return count;
+  }, id);
+}
+
+// Waits until the dose result differs from `before` (compared by JSON).
+async function nextDoseResult(page, before) {
+  await page.waitForFunction((old) => {
+    const r = window.turnover.dose.lastResult();
+    return r && JSON.stringify(r.fit.parameters) !== old;
+  }, before, { timeout: 20_000 });
+  return page.evaluate(() => window.turnover.dose.lastResult());
+}
+
+async function loadDoseDemo(page) {
+  await page.click('#load-dose-demo');
+  await page.waitForFunction(() => ['ok', 'warn'].includes(document.querySelector('#dose-status')?.dataset.state),
+    null, { timeout: 20_000 });
+}
+
+const paramRows = (page) => page.$$eval('#dose-parameters tbody tr',
+  (rows) => Object.fromEntries(rows.map((r) => [r.dataset.param, { value: Number(r.dataset.value), se: Number(r.dataset.se), derived: r.classList.contains('derived') }])));
+
+test('dose-response demo: IC50 with intervals and a drawn log-axis plot with the IC50 marked', { timeout: 60_000 }, async () => {
+  const { page, errors } = await openPage();
+  assert.equal(await page.isHidden('#dose-results'), true, 'the section stays quiet for a rate table');
+  await loadDoseDemo(page);
+  assert.equal(await page.isVisible('#dose-results'), true);
+  // The rate panel says where this table's fit is.
+  assert.match(await page.textContent('#status'), /dose-response section/);
+
+  const rows = await paramRows(page);
+  assert.deepEqual(Object.keys(rows), ['bottom', 'top', 'IC50', 'hill_slope']);
+  // The demo was made from the Morrison equation with Ki_app = 0.5 µM and
+  // [E]t = 0.2 µM, whose half-inhibition point is Ki_app + [E]t/2 = 0.6 µM
+  // (Morrison 1969, the relation from memory); the logistic's IC50 must be
+  // near it.
+  assert.ok(rows.IC50.value > 0.5 && rows.IC50.value < 0.7, `IC50 ${rows.IC50.value}`);
+  assert.ok(rows.IC50.se > 0 && rows.IC50.se < 0.2 * rows.IC50.value);
+  const fit = await page.evaluate(() => window.turnover.dose.lastResult().fit);
+  const ic50 = fit.parameters.find((p) => p.name === 'IC50');
+  assert.equal(ic50.unit, 'µM');
+  assert.ok(ic50.ci_low < ic50.value && ic50.value < ic50.ci_high);
+  assert.match(await page.textContent('#dose-ci-heading'), /95% interval \(asymptotic\)/);
+
+  const plot = await page.evaluate(() => window.turnover.dose.lastResult().plots[0]);
+  assert.equal(plot.kind, 'dose-response');
+  assert.equal(plot.log_x, true);
+  assert.equal(plot.marks.length, 1);
+  assert.equal(plot.marks[0].x, ic50.value, 'the marker sits at the fitted IC50');
+  assert.equal(await page.getAttribute('#plot-dose', 'data-drawn'), 'yes');
+  assert.ok((await inked(page, 'plot-dose')) > 3000);
+  // Points at [I] = 0 cannot sit on a log axis: 18 of the 20 are drawn.
+  const drawn = await page.evaluate(() => window.turnover.dose.pointPositions().length);
+  assert.equal(drawn, 18);
+
+  // The interval choice of the rate panel applies here.
+  const before = JSON.stringify(fit.parameters);
+  await page.selectOption('#interval-method', 'profile');
+  const profiled = await nextDoseResult(page, before);
+  assert.ok(profiled.fit.parameters.every((p) => p.ci_method === 'profile'));
+
+  // Fixing the plateaus removes them from the fitted parameters.
+  await page.check('#dose-fix-top');
+  await page.check('#dose-fix-bottom');
+  await page.waitForFunction(() => window.turnover.dose.lastResult()?.fit.parameters.length === 2, null, { timeout: 20_000 });
+  assert.deepEqual(Object.keys(await paramRows(page)), ['IC50', 'hill_slope']);
+  await page.fill('#dose-top', 'abc');
+  await page.waitForFunction(() => document.querySelector('#dose-status').dataset.state === 'error', null, { timeout: 10_000 });
+  assert.match(await page.textContent('#dose-status'), /Fixed top: 'abc' is not a number/);
+
+  const panel = await page.$('#dose-panel');
+  await page.fill('#dose-top', '100');
+  await page.uncheck('#dose-fix-top');
+  await page.uncheck('#dose-fix-bottom');
+  await page.selectOption('#interval-method', 'asymptotic');
+  await page.waitForFunction(() => window.turnover.dose.lastResult()?.fit.parameters.length === 4, null, { timeout: 20_000 });
+  await panel.screenshot({ path: join(shotDir, 'dose-panel.png') });
+  assert.deepEqual(errors, []);
+  assert.deepEqual(external, []);
+  await page.close();
+});
+
+test('Cheng-Prusoff: competitive Ki = IC50/(1 + [S]/Km) on the page’s own IC50', { timeout: 60_000 }, async () => {
+  const { page, errors } = await openPage();
+  await loadDoseDemo(page);
+  const rows = await paramRows(page);
+  await page.selectOption('#dose-cp-mechanism', 'competitive');
+  // A mechanism without [S] and Km asks for them; it does not guess.
+  await page.waitForFunction(() => /Enter the assay/.test(document.querySelector('#dose-ki').textContent), null, { timeout: 10_000 });
+  await page.fill('#dose-cp-substrate', '40');
+  await page.fill('#dose-cp-km', '20');
+  await page.waitForFunction(() => document.querySelector('#dose-ki').dataset.value !== undefined, null, { timeout: 20_000 });
+  const ki = Number(await page.getAttribute('#dose-ki', 'data-value'));
+  const kiSe = Number(await page.getAttribute('#dose-ki', 'data-se'));
+  // Cheng & Prusoff (1973), competitive: Ki = IC50/(1 + [S]/Km), here
+  // IC50/3; the standard error scales the same way with Km exact.
+  const expected = rows.IC50.value / (1 + 40 / 20);
+  assert.ok(Math.abs(ki - expected) <= 1e-12 * expected, `Ki ${ki} vs ${expected}`);
+  assert.ok(Math.abs(kiSe - rows.IC50.se / 3) <= 1e-12 * kiSe, `SE ${kiSe}`);
+  assert.match(await page.textContent('#dose-ki'), /^Ki = [\d.]+ ± [\d.]+ µM/);
+  const table = await paramRows(page);
+  assert.equal(table.Ki.derived, true);
+  assert.equal(table.Ki.value, ki);
+
+  // A Km error makes Ki less certain; uncompetitive uses 1 + Km/[S].
+  await page.fill('#dose-cp-km-se', '2');
+  await page.waitForFunction((se) => Number(document.querySelector('#dose-ki').dataset.se) > se, kiSe, { timeout: 20_000 });
+  await page.selectOption('#dose-cp-mechanism', 'uncompetitive');
+  const unExpected = rows.IC50.value / (1 + 20 / 40);
+  await page.waitForFunction((v) => Math.abs(Number(document.querySelector('#dose-ki').dataset.value) - v) <= 1e-12 * v, unExpected, { timeout: 20_000 });
+
+  // Unreadable input is named, not dropped.
+  await page.fill('#dose-cp-km', '2O');
+  await page.waitForFunction(() => /Km: '2O' is not a number/.test(document.querySelector('#dose-ki').textContent), null, { timeout: 10_000 });
+  assert.deepEqual(errors, []);
+  assert.deepEqual(external, []);
+  await page.close();
+});
+
+test('Morrison mode: v0, Ki_app, both curves, and the tight-binding warning only when it applies', { timeout: 60_000 }, async () => {
+  const { page, errors } = await openPage();
+  await loadDoseDemo(page);
+  await page.selectOption('#dose-model', 'morrison');
+  await page.waitForFunction(() => window.turnover.dose.lastResult()?.fit.model === 'morrison', null, { timeout: 20_000 });
+  assert.deepEqual(Object.keys(await paramRows(page)), ['v0', 'Ki_app']);
+  const fit = await page.evaluate(() => window.turnover.dose.lastResult().fit);
+  const kiApp = fit.parameters[1].value;
+  // The demo was made with Ki_app = 0.5 µM at [E]t = 0.2 µM (invented).
+  assert.ok(kiApp > 0.4 && kiApp < 0.6, `Ki_app ${kiApp}`);
+  const warnings = await page.$$eval('#dose-warnings li', (items) => items.map((i) => i.textContent));
+  assert.ok(warnings.some((w) => /below 10×\[E\]t/.test(w)), warnings.join(' | '));
+  const plot = await page.evaluate(() => window.turnover.dose.lastResult().plots[0]);
+  assert.equal(plot.kind, 'morrison');
+  assert.deepEqual(plot.series.map((s) => s.dashed), [false, true], 'Morrison fit solid, classical hyperbola dashed');
+  assert.ok((await inked(page, 'plot-dose')) > 3000);
+  assert.match(await page.textContent('#dose-ki'), /classical IC50 only/);
+  await (await page.$('#dose-panel')).screenshot({ path: join(shotDir, 'dose-morrison.png') });
+
+  // With little enzyme (Ki_app ≫ 10×[E]t) there is no warning.
+  await page.fill('#dose-enzyme', '0.001');
+  await page.waitForFunction(() => {
+    const r = window.turnover.dose.lastResult();
+    return r && r.fit.model === 'morrison' && !r.fit.warnings.some((w) => w.includes('10×[E]t'));
+  }, null, { timeout: 20_000 });
+  assert.equal(await page.$$eval('#dose-warnings li', (items) => items.filter((i) => /10×\[E\]t/.test(i.textContent)).length), 0);
+  // No [E]t: asked for, not guessed.
+  await page.fill('#dose-enzyme', '');
+  await page.waitForFunction(() => document.querySelector('#dose-status').dataset.state === 'error', null, { timeout: 10_000 });
+  assert.match(await page.textContent('#dose-status'), /Enter \[E\]t/);
+  assert.deepEqual(errors, []);
+  await page.close();
+});
+
+test('a click on a dose-response point leaves it out and refits', { timeout: 60_000 }, async () => {
+  const { page, errors } = await openPage();
+  await loadDoseDemo(page);
+  const before = await page.evaluate(() => window.turnover.dose.lastResult());
+  await page.locator('#plot-dose').scrollIntoViewIfNeeded();
+  const target = (await page.evaluate(() => window.turnover.dose.pointPositions()))[6];
+  const box = await (await page.$('#plot-dose')).boundingBox();
+  await page.mouse.click(box.x + target.x, box.y + target.y);
+  const after = await nextDoseResult(page, JSON.stringify(before.fit.parameters));
+  assert.equal(after.fit.n, before.fit.n - 1);
+  assert.deepEqual(after.points.filter((p) => p.excluded).map((p) => p.row), [target.row]);
+  assert.deepEqual(errors, []);
+  await page.close();
+});
+
+test('inhibitor-series plots: a point click leaves that one rate out, changes the constants, and a second click restores them; SVG download', { timeout: 90_000 }, async () => {
+  const { page, errors } = await openPage();
+  await page.click('#load-inhibition-demo');
+  await page.waitForFunction(() => ['ok', 'warn'].includes(document.querySelector('#inhibition-status')?.dataset.state), null, { timeout: 20_000 });
+  const first = await page.evaluate(() => window.turnover.inhibition.lastResult());
+  const constants = (r) => r.fits.map((f) => f.parameters.map((p) => p.value));
+  await page.locator('#plot-dixon').scrollIntoViewIfNeeded();
+  const positions = await page.evaluate(() => window.turnover.inhibition.pointPositions('dixon'));
+  assert.ok(positions.length > 40, `${positions.length} points on the Dixon plot`);
+  // A point well inside the plot: the highest [I] at the lowest [S].
+  const target = positions.reduce((a, b) => (b.y < a.y ? b : a));
+  const box = await (await page.$('#plot-dixon')).boundingBox();
+  await page.mouse.click(box.x + target.x, box.y + target.y);
+  await page.waitForFunction((n) => window.turnover.inhibition.lastResult()?.points.filter((p) => p.excluded).length === n, 1, { timeout: 20_000 });
+  const second = await page.evaluate(() => window.turnover.inhibition.lastResult());
+  const out = second.points.filter((p) => p.excluded);
+  // In the matrix demo one click is one cell, not the whole line.
+  assert.equal(out.length, 1);
+  assert.equal(out[0].row, target.row);
+  assert.equal(second.fits[0].n, first.fits[0].n - 1);
+  assert.notDeepEqual(constants(second), constants(first));
+  // Drawn as an open ring: the excluded point's place is not teal-filled.
+  const ringed = await page.evaluate(() => window.turnover.inhibition.lastResult().plots.find((p) => p.kind === 'dixon').series.some((s) => s.points.some((p) => p.excluded)));
+  assert.ok(ringed);
+  const back = (await page.evaluate(() => window.turnover.inhibition.pointPositions('dixon'))).find((p) => p.row === target.row);
+  const box2 = await (await page.$('#plot-dixon')).boundingBox();
+  await page.mouse.click(box2.x + back.x, box2.y + back.y);
+  await page.waitForFunction(() => window.turnover.inhibition.lastResult()?.points.every((p) => !p.excluded), null, { timeout: 20_000 });
+  const third = await page.evaluate(() => window.turnover.inhibition.lastResult());
+  assert.deepEqual(constants(third), constants(first));
+
+  const [download] = await Promise.all([
+    page.waitForEvent('download', { timeout: 10_000 }),
+    page.click('button.inhibition-svg[data-kind="dixon"]'),
+  ]);
+  assert.equal(download.suggestedFilename(), 'turnover-dixon.svg');
+  const svg = readFileSync(await download.path(), 'utf8');
+  assert.match(svg, /<svg[\s\S]*<\/svg>/);
+  assert.equal((await page.$$('button.inhibition-svg')).length, 8);
+  assert.deepEqual(errors, []);
+  assert.deepEqual(external, []);
+  await page.close();
+});

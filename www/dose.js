@@ -1,0 +1,341 @@
+// Turnover page, dose-response: when the table is an inhibitor series (a
+// header naming [I] and a response, and no [S]), fits the four-parameter
+// logistic (IC50) or the Morrison tight-binding equation in the WebAssembly
+// core, converts the IC50 into Ki by Cheng-Prusoff on request, and draws
+// the curve. Every number comes from the core; this file only presents it.
+
+/* global wasm_bindgen */
+
+// Invented demo scenario (not measured data): the fictional kinase "Kin-9"
+// with an imaginary inhibitor "compound 12", percent of the uninhibited
+// rate at ten concentrations in duplicate. The values were made from the
+// Morrison equation with [E]t = 0.2 µM, Ki_app = 0.5 µM and v0 = 100, plus
+// hand-written scatter of one or two per cent, so the inhibitor is
+// tight-binding at this enzyme concentration.
+const DOSE_DEMO = `# Demo (invented data): kinase Kin-9 with compound 12, [E]t = 0.2 µM, [S] = 40 µM (Km 20 µM)
+# percent of the rate without inhibitor, duplicates
+[I] (µM)\t% activity
+0\t100.8
+0\t98.5
+0.03\t97.0
+0.03\t95.2
+0.1\t85.2
+0.1\t88.0
+0.2\t78.0
+0.2\t75.8
+0.4\t59.7
+0.4\t62.4
+0.7\t46.5
+0.7\t44.6
+1\t35.5
+1\t37.0
+2\t21.8
+2\t20.6
+4\t12.0
+4\t11.3
+10\t5.0
+10\t5.1
+`;
+
+const $ = (id) => document.getElementById(id);
+let bench = null;
+let lastResult = null;
+let lastError = null;
+let lastSent = null;
+let positions = [];
+const excluded = new Set();
+let excludedFor = null;
+
+function format(value, digits = 4) {
+  if (value === null || value === undefined || !Number.isFinite(value)) return '—';
+  if (value === 0) return '0';
+  const magnitude = Math.floor(Math.log10(Math.abs(value)));
+  if (magnitude >= 6 || magnitude <= -4) return value.toExponential(digits - 1);
+  return value.toPrecision(digits);
+}
+
+function cell(tag, text, attributes = {}) {
+  const node = document.createElement(tag);
+  for (const [k, v] of Object.entries(attributes)) node.setAttribute(k, v);
+  node.textContent = text;
+  return node;
+}
+
+// A number typed into a field: null when empty, NaN when unreadable.
+function fieldNumber(id) {
+  const text = $(id).value.trim().replace(',', '.');
+  if (text === '') return null;
+  const value = Number(text);
+  return Number.isFinite(value) ? value : NaN;
+}
+
+// The options of this section as a request, or a message saying which
+// field is wrong. Nothing unreadable is sent or silently dropped.
+function options() {
+  const morrison = $('dose-model').value === 'morrison';
+  const out = { model: morrison ? 'morrison' : 'ic50', enzyme: null, fixed_top: null, fixed_bottom: null, cheng_prusoff: null };
+  if (morrison) {
+    const enzyme = fieldNumber('dose-enzyme');
+    if (enzyme === null) return { problem: 'Enter [E]t, the total enzyme concentration in the unit of [I], for the tight-binding fit.' };
+    if (Number.isNaN(enzyme) || enzyme <= 0) return { problem: `[E]t: '${$('dose-enzyme').value}' is not a positive number.` };
+    out.enzyme = enzyme;
+    return { request: out };
+  }
+  for (const [box, field, key, what] of [['dose-fix-top', 'dose-top', 'fixed_top', 'top'], ['dose-fix-bottom', 'dose-bottom', 'fixed_bottom', 'bottom']]) {
+    if (!$(box).checked) continue;
+    const value = fieldNumber(field);
+    if (value === null || Number.isNaN(value)) return { problem: `Fixed ${what}: '${$(field).value}' is not a number.` };
+    out[key] = value;
+  }
+  const mechanism = $('dose-cp-mechanism').value;
+  if (mechanism) {
+    const s = fieldNumber('dose-cp-substrate');
+    const km = fieldNumber('dose-cp-km');
+    const kmSe = fieldNumber('dose-cp-km-se');
+    const bad = [['[S]', 'dose-cp-substrate', s], ['Km', 'dose-cp-km', km], ['SE of Km', 'dose-cp-km-se', kmSe]]
+      .find(([, , v]) => Number.isNaN(v));
+    if (bad) return { request: out, cpProblem: `${bad[0]}: '${$(bad[1]).value}' is not a number.` };
+    if (s === null || km === null) return { request: out, cpProblem: 'Enter the assay’s [S] and the substrate’s Km (one unit for both) to convert the IC50 into Ki.' };
+    out.cheng_prusoff = { mechanism, substrate: s, km, km_se: kmSe };
+  }
+  return { request: out };
+}
+
+function showParameters(fit) {
+  const body = $('dose-parameters').tBodies[0];
+  body.replaceChildren();
+  for (const p of fit.parameters) {
+    const row = document.createElement('tr');
+    row.dataset.param = p.name;
+    row.dataset.value = String(p.value);
+    row.dataset.se = String(p.std_error ?? '');
+    if (p.derived) row.className = 'derived';
+    const end = (x) => (x === null || x === undefined ? 'open' : format(x));
+    const interval = p.ci_low === null && p.ci_high === null ? '—' : `${end(p.ci_low)} to ${end(p.ci_high)}`;
+    row.append(cell('td', p.name), cell('td', format(p.value)), cell('td', format(p.std_error)),
+      cell('td', interval, { title: `interval: ${p.ci_method}` }), cell('td', p.unit ?? ''));
+    body.append(row);
+  }
+  const method = fit.parameters[0]?.ci_method ?? 'asymptotic';
+  $('dose-ci-heading').textContent = `${Math.round(fit.confidence_level * 100)}% interval (${method})`;
+  const stats = $('dose-stats');
+  stats.replaceChildren();
+  for (const [key, label, value, text] of [
+    ['n', 'points used', fit.n, String(fit.n)],
+    ['dof', 'degrees of freedom', fit.dof, String(fit.dof)],
+    ['sigma', 'residual SD', fit.sigma, format(fit.sigma)],
+    ['r_squared', 'R²', fit.r_squared, fit.r_squared === null ? '—' : fit.r_squared.toFixed(4)],
+  ]) {
+    const item = cell('div', '', { 'data-stat': key, 'data-value': value === null ? '' : String(value) });
+    item.append(cell('dt', label), cell('dd', text));
+    stats.append(item);
+  }
+}
+
+function showKi(result, cpProblem) {
+  const box = $('dose-ki');
+  delete box.dataset.value;
+  delete box.dataset.se;
+  box.dataset.state = 'idle';
+  if (result?.fit.model === 'morrison') {
+    box.textContent = 'The Cheng-Prusoff conversion applies to the classical IC50 only; under tight binding use the Morrison fit’s Ki_app.';
+    return;
+  }
+  if (cpProblem) {
+    box.dataset.state = $('dose-cp-mechanism').value ? 'warn' : 'idle';
+    box.textContent = cpProblem;
+    return;
+  }
+  const ki = result?.fit.parameters.find((p) => p.name === 'Ki');
+  if (!ki) {
+    box.textContent = 'Choose a mechanism to convert the IC50 into Ki.';
+    return;
+  }
+  box.dataset.state = 'ok';
+  box.dataset.value = String(ki.value);
+  box.dataset.se = String(ki.std_error ?? '');
+  const unit = ki.unit ? ` ${ki.unit}` : '';
+  const interval = ki.ci_low === null || ki.ci_high === null ? '' : `; ${Math.round(result.fit.confidence_level * 100)}% interval ${format(ki.ci_low)} to ${format(ki.ci_high)}${unit} (${ki.ci_method})`;
+  box.textContent = `Ki = ${format(ki.value)} ± ${format(ki.std_error, 3)}${unit} (standard error)${interval}`;
+}
+
+function draw(result) {
+  const canvas = $('plot-dose');
+  try {
+    positions = bench.draw(canvas.id);
+    canvas.dataset.drawn = 'yes';
+  } catch (error) {
+    positions = [];
+    canvas.dataset.drawn = 'no';
+    console.warn(`dose plot: ${error?.message ?? error}`);
+  }
+  canvas.dataset.kind = result.plots[0]?.kind ?? '';
+  $('dose-note').textContent = result.plots[0]?.note ?? '';
+}
+
+function clearPlot() {
+  const canvas = $('plot-dose');
+  const context = canvas.getContext('2d');
+  context.fillStyle = '#ffffff';
+  context.fillRect(0, 0, canvas.width, canvas.height);
+  canvas.dataset.drawn = 'no';
+  positions = [];
+}
+
+// The rate panel fits [S] and v; an inhibitor series has no [S]. Say where
+// its fit is instead of leaving a meaningless Michaelis-Menten fit unexplained.
+function pointToThisSection() {
+  const status = $('status');
+  const text = 'This table is an inhibitor series ([I] and a response, no [S]): its IC50 fit is in the dose-response section below.';
+  status.dataset.state = 'warn';
+  if (window.turnover.lastError()) {
+    status.textContent = text;
+    $('input-problems').replaceChildren();
+  } else {
+    status.textContent = `Note: the Michaelis-Menten fit here reads [I] as [S] and means nothing. ${text}`;
+  }
+}
+
+function analyseDose(sent) {
+  lastSent = sent;
+  const results = $('dose-results');
+  if (!wasm_bindgen.isDoseTable(sent.text)) {
+    results.hidden = true;
+    $('dose-hint').hidden = false;
+    lastResult = null;
+    lastError = null;
+    return;
+  }
+  bench ??= new wasm_bindgen.DoseBench();
+  if (excludedFor !== sent.text) {
+    excluded.clear();
+    excludedFor = sent.text;
+  }
+  $('dose-hint').hidden = true;
+  results.hidden = false;
+  pointToThisSection();
+  $('dose-ic50-options').hidden = $('dose-model').value === 'morrison';
+  $('dose-morrison-options').hidden = $('dose-model').value !== 'morrison';
+  const status = $('dose-status');
+  const chosen = options();
+  if (chosen.problem) {
+    lastResult = null;
+    lastError = chosen.problem;
+    status.dataset.state = 'error';
+    status.textContent = chosen.problem;
+    $('dose-parameters').tBodies[0].replaceChildren();
+    $('dose-warnings').replaceChildren();
+    showKi(null, null);
+    clearPlot();
+    return;
+  }
+  try {
+    lastResult = bench.analyse({
+      text: sent.text,
+      ...chosen.request,
+      excluded_lines: [...excluded],
+      // The interval choice of the rate panel applies here too; weighting
+      // is not yet available for dose-response fits (equal weights).
+      interval_method: sent.interval_method,
+      bootstrap: sent.bootstrap,
+    });
+    lastError = null;
+  } catch (error) {
+    lastResult = null;
+    lastError = error?.message ?? String(error);
+    status.dataset.state = 'error';
+    status.textContent = `No dose-response fit: ${lastError}`;
+    $('dose-parameters').tBodies[0].replaceChildren();
+    $('dose-warnings').replaceChildren();
+    showKi(null, null);
+    clearPlot();
+    return;
+  }
+  const result = lastResult;
+  const fit = result.fit;
+  const warned = fit.warnings.length > 0 || result.problems.length > 0;
+  status.dataset.state = fit.converged ? (warned ? 'warn' : 'ok') : 'error';
+  const what = fit.model === 'morrison' ? 'Morrison (tight-binding) fit' : 'Four-parameter logistic fit';
+  const left = result.points.filter((p) => p.excluded).length;
+  status.textContent = fit.converged
+    ? `${what} to ${fit.n} points${left ? ` (${left} left out)` : ''}${warned ? ': read the warnings below' : ''}.`
+    : `The fit ${fit.termination_text}. The numbers below are not a least-squares solution.`;
+  $('dose-equation').textContent = fit.equation;
+  showParameters(fit);
+  const problems = result.problems.map((p) => `${p.column ? `line ${p.line}, column ${p.column}` : `line ${p.line}`}: ${p.message} (not used)`);
+  $('dose-warnings').replaceChildren(...[...fit.warnings, ...problems, ...result.notes].map((w) => cell('li', w)));
+  showKi(result, chosen.cpProblem);
+  $('dose-caution').textContent = result.caution;
+  draw(result);
+}
+
+function reanalyse() {
+  if (lastSent) analyseDose(lastSent);
+}
+
+function toggleAt(canvas, event) {
+  if (!lastResult) return;
+  const box = canvas.getBoundingClientRect();
+  const scaleX = canvas.width / canvas.clientWidth;
+  const x = (event.clientX - box.left) * scaleX;
+  const y = (event.clientY - box.top) * (canvas.height / canvas.clientHeight);
+  let best = null;
+  let bestDistance = 10 * scaleX;
+  for (const p of positions) {
+    const distance = Math.hypot(p.x - x, p.y - y);
+    if (distance < bestDistance) {
+      best = p;
+      bestDistance = distance;
+    }
+  }
+  if (!best) return;
+  const line = lastResult.points[best.row].line;
+  if (excluded.has(line)) excluded.delete(line);
+  else excluded.add(line);
+  reanalyse();
+}
+
+function download(name, type, content) {
+  const url = URL.createObjectURL(new Blob([content], { type }));
+  const link = cell('a', '', { href: url, download: name });
+  document.body.append(link);
+  link.click();
+  link.remove();
+  setTimeout(() => URL.revokeObjectURL(url), 1000);
+}
+
+window.turnover.onAnalysed(analyseDose);
+window.turnover.dose = {
+  lastResult: () => lastResult,
+  lastError: () => lastError,
+  pointPositions() {
+    const canvas = $('plot-dose');
+    const sx = canvas.clientWidth / canvas.width;
+    const sy = canvas.clientHeight / canvas.height;
+    return positions.map((p) => ({ row: p.row, x: p.x * sx, y: p.y * sy }));
+  },
+};
+
+$('load-dose-demo').addEventListener('click', () => {
+  $('data-input').value = DOSE_DEMO;
+  $('dose-enzyme').value = '0.2';
+  window.turnover.analyse();
+});
+$('dose-model').addEventListener('change', reanalyse);
+for (const id of ['dose-fix-top', 'dose-fix-bottom', 'dose-cp-mechanism']) $(id).addEventListener('change', reanalyse);
+let pending = null;
+for (const id of ['dose-top', 'dose-bottom', 'dose-enzyme', 'dose-cp-substrate', 'dose-cp-km', 'dose-cp-km-se']) {
+  $(id).addEventListener('input', () => {
+    clearTimeout(pending);
+    pending = setTimeout(reanalyse, 300);
+  });
+}
+$('plot-dose').addEventListener('click', (event) => toggleAt($('plot-dose'), event));
+$('dose-include-all').addEventListener('click', () => {
+  excluded.clear();
+  reanalyse();
+});
+$('dose-svg').addEventListener('click', () => {
+  if (!lastResult) return;
+  download(`turnover-${lastResult.plots[0]?.kind ?? 'dose'}.svg`, 'image/svg+xml', bench.svg(640, 460));
+});
