@@ -96,6 +96,7 @@ run_tests() {
   ensure_python_packages
   TURNOVER_BIN="$ROOT/target/release/turnover" python3 tests/scipy/crosscheck.py
   TURNOVER_BIN="$ROOT/target/release/turnover" python3 tests/scipy/progress_crosscheck.py
+  TURNOVER_BIN="$ROOT/target/release/turnover" python3 tests/scipy/rates_crosscheck.py
   TURNOVER_BIN="$ROOT/target/release/turnover" python3 tests/scipy/models_crosscheck.py
   say "browser tests (headless Debian chromium, page opened from file://)"
   ensure_chromium

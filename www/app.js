@@ -47,6 +47,9 @@ const state = {
 };
 
 let workbench = null;
+// The WebAssembly bytes as unpacked, kept for www/traces.js, which hands
+// them to its Web Worker. Null when the core was loaded from a file.
+let wasmBinary = null;
 
 async function startWasm() {
   const holder = $('turnover-wasm');
@@ -60,6 +63,7 @@ async function startWasm() {
       binary = new Uint8Array(await new Response(stream).arrayBuffer());
     }
     wasm_bindgen.initSync({ module: binary });
+    wasmBinary = binary;
     return;
   }
   // Development only: served from a folder next to target/pkg.
@@ -592,6 +596,7 @@ window.turnover = {
   },
   analyse,
   onAnalysed: (hook) => analysedHooks.push(hook),
+  wasmBinary: () => wasmBinary,
 };
 
 // Other page modules wait on this before calling into the core.

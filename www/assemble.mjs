@@ -30,7 +30,9 @@ const blocks = {
     readFileSync(join(pkgDir, 'turnover_wasm_bg.wasm')),
     { level: constants.Z_BEST_COMPRESSION },
   ).toString('base64')}</script>`,
-  bindings: `<script>\n${scriptSafe(read(join(pkgDir, 'turnover_wasm.js')))}\n</script>`,
+  // The id lets www/traces.js reuse this text as the start of its Web
+  // Worker's source (a Blob URL), so the glue is in the page only once.
+  bindings: `<script id="turnover-bindings">\n${scriptSafe(read(join(pkgDir, 'turnover_wasm.js')))}\n</script>`,
 };
 // The app block holds one or more <script type="module" src="NAME.js">
 // tags; each becomes an inline module with that file's text, in order.

@@ -27,6 +27,7 @@ const traceState = {
   cellBoxes: [],        // plate grid hit boxes
   detailMap: null,      // detail plot coordinate map
   elapsed: null,
+  engine: null,
 };
 
 // ------------------------------------------------------------ demo plate
@@ -112,7 +113,136 @@ function setStatus(state, text) {
   $('traces-status').textContent = text;
 }
 
-function analyseTraces() {
+// ------------------------------------------------------------ the worker
+
+// A plate of 384 traces takes the core a few hundred milliseconds, too long
+// to hold the page still. Above this many characters of time-course table
+// (about 5,000 readings, some tens of milliseconds of work) the analysis and
+// the whole-curve fit run in a Web Worker, with a progress bar; below it
+// they run at once on the page, which is quicker than a round trip. Both
+// call the same core with the same request, so the numbers are the same.
+const WORKER_CHARACTERS = 40000;
+
+// The worker's own code. Its source is the wasm-bindgen glue (the page's
+// #turnover-bindings script) followed by this function's text; it is given
+// the WebAssembly bytes by message, so nothing is fetched.
+function workerMain() {
+  /* global wasm_bindgen */
+  let bench = null;
+  self.onmessage = (event) => {
+    const job = event.data;
+    try {
+      if (job.kind === 'start') {
+        wasm_bindgen.initSync({ module: job.module });
+        bench = new wasm_bindgen.TraceBench();
+        self.postMessage({ kind: 'ready' });
+        return;
+      }
+      let last = -1;
+      if (job.kind === 'analyse') {
+        const text = bench.analyseJson(job.request, (done, total) => {
+          const step = Math.floor((20 * done) / total);
+          if (step !== last) {
+            last = step;
+            self.postMessage({ id: job.id, kind: 'progress', done, total });
+          }
+        });
+        self.postMessage({ id: job.id, kind: 'done', text });
+      } else if (job.kind === 'fit') {
+        const text = bench.fitProgressJson((iteration) => self.postMessage({ id: job.id, kind: 'progress', iteration }));
+        self.postMessage({ id: job.id, kind: 'done', text });
+      }
+    } catch (error) {
+      self.postMessage({ id: job.id, kind: 'error', message: error?.message ?? String(error) });
+    }
+  };
+}
+
+const worker = {
+  handle: null,     // the Worker, once it answered 'ready'
+  failed: false,    // it could not be made: everything runs on the page
+  pending: new Map(), // job id → {resolve, reject, onProgress}
+  nextId: 1,
+  starting: null,
+};
+
+function startWorker() {
+  if (worker.starting) return worker.starting;
+  const glue = $('turnover-bindings')?.textContent;
+  const binary = window.turnover.wasmBinary?.();
+  if (!glue || !binary || typeof Worker === 'undefined' || typeof Blob === 'undefined') {
+    worker.failed = true;
+    return Promise.resolve(null);
+  }
+  worker.starting = new Promise((resolve) => {
+    let handle;
+    const url = URL.createObjectURL(new Blob([`${glue}\n(${workerMain.toString()})();\n`], { type: 'text/javascript' }));
+    const fail = (why) => {
+      worker.failed = true;
+      worker.handle = null;
+      for (const job of worker.pending.values()) job.reject(new Error(`the background computation stopped: ${why}`));
+      worker.pending.clear();
+      resolve(null);
+    };
+    try {
+      handle = new Worker(url);
+    } catch (error) {
+      URL.revokeObjectURL(url);
+      fail(error?.message ?? String(error));
+      return;
+    }
+    handle.onerror = (event) => fail(event.message || 'the worker failed to start');
+    handle.onmessage = (event) => {
+      const m = event.data;
+      if (m.kind === 'ready') {
+        URL.revokeObjectURL(url);
+        worker.handle = handle;
+        resolve(handle);
+        return;
+      }
+      const job = worker.pending.get(m.id);
+      if (!job) return;
+      if (m.kind === 'progress') job.onProgress(m);
+      else {
+        worker.pending.delete(m.id);
+        if (m.kind === 'done') job.resolve(m.text);
+        else job.reject(new Error(m.message));
+      }
+    };
+    // A copy of the bytes: the page keeps its own.
+    handle.postMessage({ kind: 'start', module: binary.slice() });
+  });
+  return worker.starting;
+}
+
+async function inWorker(kind, request, onProgress) {
+  const handle = await startWorker();
+  if (!handle || worker.handle !== handle) return null;
+  const id = worker.nextId++;
+  return new Promise((resolve, reject) => {
+    worker.pending.set(id, { resolve, reject, onProgress });
+    handle.postMessage({ id, kind, request });
+  });
+}
+
+function showBusy(text, fraction) {
+  $('traces-busy').hidden = false;
+  $('traces-busy-text').textContent = text;
+  const bar = $('traces-progressbar');
+  if (fraction === null) bar.removeAttribute('value'); else bar.value = fraction;
+}
+
+function hideBusy() {
+  $('traces-busy').hidden = true;
+}
+
+// ------------------------------------------------------------ analysis
+
+// Each analysis gets a number; a result that arrives after a newer request
+// was made is not shown (the worker cannot be interrupted mid-plate).
+let analysisCount = 0;
+
+function checkedRequest() {
   const request = traceRequest();
   for (const [key, label] of [['epsilon', 'ε'], ['path_cm', 'path length'], ['linear_limit', 'linear limit'], ['max_conversion', 'conversion limit']]) {
     if (Number.isNaN(request[key])) {
@@ -120,18 +250,45 @@ function analyseTraces() {
       return null;
     }
   }
+  return request;
+}
+
+// Analyses the pasted tables. Small tables are analysed before this
+// returns; large ones in the worker, and the returned promise settles with
+// the result (null on an error, which is shown in #traces-status).
+async function analyseTraces() {
+  const request = checkedRequest();
+  if (!request) return null;
+  const number = ++analysisCount;
+  const text = JSON.stringify(request);
   const started = performance.now();
+  traceState.progress = null;
+  let json;
+  let engine = 'page';
   try {
-    traceState.result = traceState.bench.analyse(request);
+    if (request.traces.length > WORKER_CHARACTERS && !worker.failed) {
+      showBusy('Finding initial rates…', 0);
+      json = await inWorker('analyse', text, (m) => showBusy(`Finding initial rates: ${m.done} of ${m.total} traces`, m.done / m.total));
+      engine = 'worker';
+    }
+    if (json === undefined || json === null) {
+      engine = 'page';
+      json = traceState.bench.analyseJson(text);
+    }
   } catch (error) {
+    if (number !== analysisCount) return null;
+    hideBusy();
     traceState.result = null;
     setStatus('error', error?.message ?? String(error));
     $('traces-problems').textContent = '';
     drawAll();
     return null;
   }
+  if (number !== analysisCount) return null;
+  hideBusy();
+  traceState.result = JSON.parse(json);
+  traceState.engine = engine;
   traceState.elapsed = performance.now() - started;
-  traceState.progress = null;
   const r = traceState.result;
   if (!traceState.selected || !r.traces.some((t) => t.name === traceState.selected)) {
     traceState.selected = (r.traces.find((t) => t.role === 'sample') ?? r.traces[0])?.name ?? null;
@@ -141,7 +298,19 @@ function analyseTraces() {
   setStatus(flagged ? 'warn' : 'ok',
     `${r.traces.length} traces read, ${rated} rates in ${r.rate_unit}; ${flagged} flagged${r.problems.length ? `; ${r.problems.length} cell(s) not used` : ''}.`);
   showProblems(r);
-  drawAll();
+  if (engine === 'worker') {
+    // A plate's drawing is split over tasks so that no one task holds the
+    // page for long.
+    drawPlate();
+    drawDetail();
+    await new Promise((resolve) => setTimeout(resolve, 0));
+    if (number !== analysisCount) return r;
+    drawEnzymeCheck();
+    drawProgress();
+    drawTable();
+  } else {
+    drawAll();
+  }
   return r;
 }
 
@@ -470,8 +639,8 @@ function drawAll() {
 
 // ------------------------------------------------------------ actions
 
-function sendRates() {
-  const r = traceState.result ?? analyseTraces();
+async function sendRates() {
+  const r = traceState.result ?? await analyseTraces();
   if (!r) return;
   if (r.rate_links.length < 3) {
     setStatus('error', 'Fewer than three sample rates with [S] to send; check the layout.');
@@ -483,14 +652,30 @@ function sendRates() {
   setStatus('ok', `${r.rate_links.length} rates sent to the rate fit (traces ${r.rate_links.map((l) => l.trace).join(', ')}).`);
 }
 
-function fitWhole() {
-  if (!traceState.result && !analyseTraces()) return;
+// The whole-curve fit runs where the last analysis ran, since that bench
+// holds it.
+async function fitWhole() {
+  if (!traceState.result && !(await analyseTraces())) return;
+  const number = analysisCount;
+  let json = null;
   try {
-    traceState.progress = traceState.bench.fitProgress();
+    if (traceState.engine === 'worker') {
+      showBusy('Fitting whole curves…', null);
+      json = await inWorker('fit', null, (m) => showBusy(`Fitting whole curves: iteration ${m.iteration}`, null));
+    }
+    if (json === null && traceState.engine === 'worker') {
+      // The worker stopped after analysing: analyse again on the page.
+      if (!(await analyseTraces())) return;
+    }
+    if (json === null) json = traceState.bench.fitProgressJson();
+    if (number !== analysisCount && traceState.engine === 'worker') return;
+    traceState.progress = JSON.parse(json);
   } catch (error) {
+    if (number !== analysisCount) return;
     traceState.progress = null;
     setStatus('error', error?.message ?? String(error));
   }
+  hideBusy();
   drawProgress();
 }
 
@@ -626,6 +811,8 @@ style.textContent = `
 #traces-panel .table-scroll { max-height: 18rem; overflow: auto; }
 #traces-panel .flag-key { font-size: 0.8rem; color: var(--muted); }
 #traces-panel .flag-key b { color: var(--brick); }
+#traces-busy:not([hidden]) { display: flex; align-items: center; gap: 0.6rem; font-size: 0.85rem; color: var(--muted); }
+#traces-busy progress { width: 16rem; accent-color: var(--teal); }
 `;
 document.head.append(style);
 
@@ -633,6 +820,9 @@ function start() {
   traceState.bench = new wasm_bindgen.TraceBench();
   wire();
   loadDemo();
+  // Start the worker while the page is idle, so that the first large plate
+  // does not wait for it.
+  setTimeout(startWorker, 200);
 }
 
 // For tests and for scripting from the browser console.
@@ -640,7 +830,10 @@ window.turnoverTraces = {
   lastResult: () => traceState.result,
   lastProgress: () => traceState.progress,
   elapsed: () => traceState.elapsed,
+  // 'page' or 'worker': where the last analysis ran.
+  engine: () => traceState.engine,
   analyse: analyseTraces,
+  fitWhole,
   setWindow,
   select(name) { traceState.selected = name; drawPlate(); drawDetail(); },
   cellBox(name) {

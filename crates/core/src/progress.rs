@@ -40,7 +40,7 @@
 
 use crate::error::Error;
 use crate::fit::{aicc, estimate, fit_model, student_t_quantile, FitSettings, FitSummary};
-use crate::lambert::lambert_w0_exp;
+use crate::lambert::lambert_w0_exp_with_log;
 use crate::model::Observations;
 use crate::models::MichaelisMenten;
 use crate::solver::Termination;
@@ -56,14 +56,29 @@ pub fn product_and_gradient(t: f64, s0: f64, km: f64, vmax: f64) -> Option<(f64,
     if !(km > 0.0 && vmax > 0.0 && s0 > 0.0) {
         return None;
     }
-    let log_z = (s0 / km).ln() + (s0 - vmax * t) / km;
-    let w = lambert_w0_exp(log_z);
+    product_and_gradient_at(t, s0, km, vmax, (s0 / km).ln())
+}
+
+/// [`product_and_gradient`] with `ln(S0/Km)` given, which is the same for
+/// every point of a trace (the fit computes it once per trace). The caller
+/// has checked that Km, Vmax and S0 are positive.
+fn product_and_gradient_at(t: f64, s0: f64, km: f64, vmax: f64, log_ratio: f64) -> Option<(f64, f64, f64)> {
+    product_near(t, s0, km, vmax, log_ratio, None).map(|(p, dk, dv, _)| (p, dk, dv))
+}
+
+/// The work of [`product_and_gradient`], started from the Lambert W of a
+/// nearby point `near = (log_z, W)`; also returns this point's `(log_z, W)`
+/// for the next. `ln(S0/S) = ln(S0/Km) − ln W` uses the logarithm the W
+/// iteration already has.
+fn product_near(t: f64, s0: f64, km: f64, vmax: f64, log_ratio: f64, near: Option<(f64, f64)>) -> Option<(f64, f64, f64, (f64, f64))> {
+    let log_z = log_ratio + (s0 - vmax * t) / km;
+    let (w, log_w) = lambert_w0_exp_with_log(log_z, near);
     let s = km * w;
     let ratio = w / (1.0 + w);
     let d_s_d_v = -t * ratio;
-    let d_s_d_km = ratio * (s0 / s).ln();
+    let d_s_d_km = ratio * (log_ratio - log_w);
     let p = s0 - s;
-    (p.is_finite() && d_s_d_km.is_finite()).then_some((p, -d_s_d_km, -d_s_d_v))
+    (p.is_finite() && d_s_d_km.is_finite()).then_some((p, -d_s_d_km, -d_s_d_v, (log_z, w)))
 }
 
 /// One trace as fitted.
@@ -117,6 +132,13 @@ struct Problem<'a> {
     theta: Vector2<f64>,
     /// Jacobian evaluations: one per outer iteration of the minimiser.
     jacobian_calls: std::cell::Cell<usize>,
+    /// The Jacobian computed with the last residuals, and where. Nearly all
+    /// the cost of a point is its Lambert W, which residuals and Jacobian
+    /// share, so `residuals` computes both and `jacobian` (which the
+    /// minimiser asks for at the point it just accepted) reuses it.
+    cached: std::cell::RefCell<Option<(Vector2<f64>, DMatrix<f64>)>>,
+    /// Called with the number of Jacobians so far, for a progress display.
+    progress: std::cell::RefCell<&'a mut dyn FnMut(usize)>,
 }
 
 impl Problem<'_> {
@@ -129,11 +151,18 @@ impl Problem<'_> {
         let mut r = DVector::zeros(n);
         let mut j = if with_jacobian { DMatrix::zeros(n, 2) } else { DMatrix::zeros(0, 2) };
         let mut means = Vec::with_capacity(d.bounds.len() - 1);
+        let (km, vmax) = (self.theta[0], self.theta[1]);
+        if !(km > 0.0 && vmax > 0.0) {
+            return None;
+        }
         for k in 0..d.bounds.len() - 1 {
             let (a, b) = (d.bounds[k], d.bounds[k + 1]);
             let mut sums = [0.0; 3];
+            let log_ratio = (d.s0[a] / km).ln();
+            let mut near = None;
             for i in a..b {
-                let (p, dk, dv) = product_and_gradient(d.t[i], d.s0[i], self.theta[0], self.theta[1] * d.scale[i])?;
+                let (p, dk, dv, here) = product_near(d.t[i], d.s0[i], km, vmax * d.scale[i], log_ratio, near)?;
+                near = Some(here);
                 r[i] = d.y[i] - p;
                 sums[0] += r[i];
                 if with_jacobian {
@@ -174,15 +203,23 @@ impl LeastSquaresProblem<f64, Dyn, nalgebra::U2> for Problem<'_> {
     /// A trial point outside Km, Vmax > 0 is a rejected step (a very large
     /// residual), as in [`crate::solver`].
     fn residuals(&self) -> Option<DVector<f64>> {
-        match self.evaluate(false) {
-            Some((r, _, _)) => Some(r),
+        match self.evaluate(true) {
+            Some((r, j, _)) => {
+                *self.cached.borrow_mut() = Some((self.theta, j));
+                Some(r)
+            }
             None => Some(DVector::from_element(self.data.t.len(), 1e100)),
         }
     }
 
     fn jacobian(&self) -> Option<nalgebra::OMatrix<f64, Dyn, nalgebra::U2>> {
         self.jacobian_calls.set(self.jacobian_calls.get() + 1);
-        let (_, j, _) = self.evaluate(true)?;
+        (self.progress.borrow_mut())(self.jacobian_calls.get());
+        let cached = self.cached.borrow_mut().take().filter(|(at, _)| *at == self.theta).map(|(_, j)| j);
+        let j = match cached {
+            Some(j) => j,
+            None => self.evaluate(true)?.1,
+        };
         // The residual is y − P, so its Jacobian is the negated model's.
         let mut out = nalgebra::OMatrix::<f64, Dyn, nalgebra::U2>::zeros(j.nrows());
         for i in 0..j.nrows() {
@@ -198,6 +235,13 @@ impl LeastSquaresProblem<f64, Dyn, nalgebra::U2> for Problem<'_> {
 /// converted to concentrations. Points from the first overflow or
 /// over-range reading on are left out.
 pub fn fit_progress(analysis: &TraceAnalysis) -> Result<ProgressFit, Error> {
+    fit_progress_with(analysis, &mut |_| {})
+}
+
+/// [`fit_progress`], calling `progress` with the iteration count at each
+/// outer iteration of the minimiser (how many there will be is not known in
+/// advance), so that a page can show that work goes on.
+pub fn fit_progress_with(analysis: &TraceAnalysis, progress: &mut dyn FnMut(usize)) -> Result<ProgressFit, Error> {
     if analysis.value_unit == "signal" {
         return Err(Error::invalid_option(
             "the integrated fit needs concentrations: give ε and the path length, or a standard curve",
@@ -289,7 +333,13 @@ pub fn fit_progress(analysis: &TraceAnalysis) -> Result<ProgressFit, Error> {
         }
     }
 
-    let problem = Problem { data: &data, theta: start, jacobian_calls: std::cell::Cell::new(0) };
+    let problem = Problem {
+        data: &data,
+        theta: start,
+        jacobian_calls: std::cell::Cell::new(0),
+        cached: std::cell::RefCell::new(None),
+        progress: std::cell::RefCell::new(progress),
+    };
     let (problem, report) =
         LevenbergMarquardt::new().with_ftol(1e-14).with_xtol(1e-14).with_gtol(1e-14).with_patience(400).minimize(problem);
     // The same reading of MINPACK's stopping reasons as crate::solver.

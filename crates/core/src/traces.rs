@@ -1007,6 +1007,12 @@ fn same(a: Option<f64>, b: Option<f64>) -> bool {
 /// flags. The one code path behind the page's trace panel and the CLI's
 /// `rates` command.
 pub fn analyse_traces(request: &TraceRequest) -> Result<TraceAnalysis, Error> {
+    analyse_traces_with(request, &mut |_, _| {})
+}
+
+/// [`analyse_traces`], calling `progress(done, total)` after each trace's
+/// window and rate, so that a page can show how far a plate has got.
+pub fn analyse_traces_with(request: &TraceRequest, progress: &mut dyn FnMut(usize, usize)) -> Result<TraceAnalysis, Error> {
     let mut problems = Vec::new();
     let mut notes = Vec::new();
     if !(request.max_conversion > 0.0 && request.max_conversion < 1.0) {
@@ -1170,6 +1176,7 @@ pub fn analyse_traces(request: &TraceRequest) -> Result<TraceAnalysis, Error> {
         }
         rate_for_trace(&mut result, &cells[k], request, converted, time_symbol);
         results.push(result);
+        progress(results.len(), raw.names.len());
     }
 
     // v against [E]: groups of samples with the same [S] and [I].

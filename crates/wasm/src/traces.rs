@@ -1,11 +1,11 @@
 //! The page's window onto the time-course analysis: [`TraceBench`] keeps
-//! the last `TraceAnalysis` on the Rust side and returns plain objects.
+//! the last `TraceAnalysis` on the Rust side and returns JSON text.
 //! Only conversion happens here; the numbers come from
 //! `turnover_core::traces` and `turnover_core::progress`.
 
 use crate::to_js;
-use turnover_core::progress::fit_progress;
-use turnover_core::traces::{analyse_traces, path_from_well, TraceAnalysis, TraceRequest, PRESETS};
+use turnover_core::progress::fit_progress_with;
+use turnover_core::traces::{analyse_traces_with, path_from_well, TraceAnalysis, TraceRequest, PRESETS};
 use wasm_bindgen::prelude::*;
 
 /// Holds the most recent trace analysis.
@@ -23,18 +23,32 @@ impl TraceBench {
         TraceBench::default()
     }
 
-    /// Analyses time courses. `request` has the fields of `TraceRequest`
-    /// (`traces`, `layout`, `epsilon`, `path_cm`, `standard`, `direction`,
-    /// `linear_limit`, `max_conversion`, `windows`, `excluded`). Throws an
-    /// `Error` with a message for the scientist when nothing can be read.
-    pub fn analyse(&mut self, request: JsValue) -> Result<JsValue, JsError> {
-        let request: TraceRequest = serde_wasm_bindgen::from_value(request)
+    /// Analyses time courses. `request` is the JSON text of a
+    /// `TraceRequest` (`traces`, `layout`, `epsilon`, `path_cm`, `standard`,
+    /// `direction`, `linear_limit`, `max_conversion`, `windows`,
+    /// `excluded`); the result is the JSON text of the `TraceAnalysis`.
+    /// JSON text both ways because a plate's result has some hundred
+    /// thousand numbers: one string and `JSON.parse` are far quicker than
+    /// building the objects across the boundary, and a string is what a Web
+    /// Worker posts back cheaply. `progress`, when given, is called with
+    /// (traces done, traces in all). Throws an `Error` with a message for
+    /// the scientist when nothing can be read.
+    #[wasm_bindgen(js_name = analyseJson)]
+    pub fn analyse_json(&mut self, request: &str, progress: Option<js_sys::Function>) -> Result<String, JsError> {
+        let request: TraceRequest = serde_json::from_str(request)
             .map_err(|e| JsError::new(&format!("the page sent a request Turnover cannot read: {e}")))?;
-        match analyse_traces(&request) {
+        let mut report = |done: usize, total: usize| {
+            if let Some(f) = &progress {
+                // A failing progress display must not stop the analysis.
+                let _ = f.call2(&JsValue::NULL, &JsValue::from(done as f64), &JsValue::from(total as f64));
+            }
+        };
+        match analyse_traces_with(&request, &mut report) {
             Ok(analysis) => {
-                let value = to_js(&analysis)?;
+                let text = serde_json::to_string(&analysis)
+                    .map_err(|e| JsError::new(&format!("internal error while returning a result: {e}")))?;
                 self.last = Some(analysis);
-                Ok(value)
+                Ok(text)
             }
             Err(error) => {
                 self.last = None;
@@ -43,12 +57,19 @@ impl TraceBench {
         }
     }
 
-    /// The integrated Michaelis-Menten fit to the last analysis's samples.
-    #[wasm_bindgen(js_name = fitProgress)]
-    pub fn fit_progress(&self) -> Result<JsValue, JsError> {
+    /// The integrated Michaelis-Menten fit to the last analysis's samples,
+    /// as the JSON text of a `ProgressFit`. `progress`, when given, is
+    /// called with the iteration count at each outer iteration.
+    #[wasm_bindgen(js_name = fitProgressJson)]
+    pub fn fit_progress_json(&self, progress: Option<js_sys::Function>) -> Result<String, JsError> {
         let analysis = self.last.as_ref().ok_or_else(|| JsError::new("analyse the traces first"))?;
-        let fit = fit_progress(analysis).map_err(|e| JsError::new(&e.message))?;
-        to_js(&fit)
+        let mut report = |iteration: usize| {
+            if let Some(f) = &progress {
+                let _ = f.call1(&JsValue::NULL, &JsValue::from(iteration as f64));
+            }
+        };
+        let fit = fit_progress_with(analysis, &mut report).map_err(|e| JsError::new(&e.message))?;
+        serde_json::to_string(&fit).map_err(|e| JsError::new(&format!("internal error while returning a result: {e}")))
     }
 }
 
