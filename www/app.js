@@ -47,6 +47,8 @@ const state = {
 };
 
 let workbench = null;
+// The saved state this page was opened with, if any.
+let openedState = null;
 // The WebAssembly bytes as unpacked, kept for www/traces.js, which hands
 // them to its Web Worker. Null when the core was loaded from a file.
 let wasmBinary = null;
@@ -446,10 +448,49 @@ function download(name, type, content) {
   setTimeout(() => URL.revokeObjectURL(url), 1000);
 }
 
+// Form fields of every section (time courses, dose-response, ...) are kept
+// by id, so a saved page reopens with each section as it was. The rate
+// panel's own fields travel in `request`; file choosers are never saved.
+const SECTION_FIELDS = 'main input[id], main select[id], main textarea[id]';
+const RATE_PANEL = new Set(['data-input', 'substrate-unit', 'rate-unit', 'enzyme', 'enzyme-unit', 'weighting',
+  'interval-method', 'resamples', 'seed', 'resample-by', 'file-input']);
+
+function collectFields() {
+  const fields = {};
+  for (const el of document.querySelectorAll(SECTION_FIELDS)) {
+    if (RATE_PANEL.has(el.id) || el.type === 'file') continue;
+    fields[el.id] = el.type === 'checkbox' || el.type === 'radio' ? { checked: el.checked } : { value: el.value };
+  }
+  return fields;
+}
+
+function restoreFields(fields) {
+  for (const [id, saved] of Object.entries(fields ?? {})) {
+    const el = document.getElementById(id);
+    if (!el || el.type === 'file') continue;
+    if ('checked' in saved) el.checked = Boolean(saved.checked);
+    else el.value = saved.value;
+  }
+}
+
+// Modules that keep choices beyond form fields (a trace's window, say)
+// register here to have them saved and restored.
+const stateKeepers = new Map();
+
 function savedState() {
+  const sections = {};
+  for (const [name, keeper] of stateKeepers) {
+    try {
+      sections[name] = keeper.save();
+    } catch (error) {
+      console.warn(`could not save the ${name} section: ${error?.message ?? error}`);
+    }
+  }
   return {
     format: 'turnover-saved-state',
     version: 1,
+    fields: collectFields(),
+    sections,
     saved_at: new Date().toISOString(),
     turnover_version: wasm_bindgen.version(),
     request: request(),
@@ -596,6 +637,11 @@ window.turnover = {
   },
   analyse,
   onAnalysed: (hook) => analysedHooks.push(hook),
+  // keepState(name, {save() -> JSON value, restore(value)}); `saved(name)`
+  // is what a saved page brought for that section, or undefined.
+  keepState: (name, keeper) => stateKeepers.set(name, keeper),
+  saved: (name) => openedState?.sections?.[name],
+  savedFields: () => openedState?.fields,
   wasmBinary: () => wasmBinary,
 };
 
@@ -611,8 +657,11 @@ window.turnover.ready = startWasm()
     } catch {
       saved = null;
     }
-    if (saved && saved.format === 'turnover-saved-state') restore(saved);
-    else loadDemo();
+    if (saved && saved.format === 'turnover-saved-state') {
+      openedState = saved;
+      restore(saved);
+      restoreFields(saved.fields);
+    } else loadDemo();
     analyse();
     return wasm_bindgen;
   })

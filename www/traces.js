@@ -819,7 +819,19 @@ document.head.append(style);
 function start() {
   traceState.bench = new wasm_bindgen.TraceBench();
   wire();
-  loadDemo();
+  // A saved page brings its own plate, windows and left-out traces.
+  window.turnover.keepState('traces', {
+    save: () => ({ windows: [...traceState.windows], excluded: [...traceState.excluded] }),
+  });
+  const fields = window.turnover.savedFields();
+  if (fields && fields['traces-input']) {
+    const saved = window.turnover.saved('traces') ?? {};
+    traceState.windows = new Map(saved.windows ?? []);
+    traceState.excluded = new Set(saved.excluded ?? []);
+    analyseTraces();
+  } else {
+    loadDemo();
+  }
   // Start the worker while the page is idle, so that the first large plate
   // does not wait for it.
   setTimeout(startWorker, 200);

@@ -488,6 +488,10 @@ test('g. the saved page carries its data and reopens with the same fit', { timeo
     await waitForOk(page, 'demo fit on load');
     await analyse(page, PUROMYCIN_TEXT);
     await waitForConverged(page, 'Puromycin fit', t);
+    // Other sections keep their fields too: change the time-course ε.
+    await page.waitForFunction(() => document.querySelector('#traces-input')?.value.length > 0, null, { timeout: FIT_TIMEOUT });
+    const plate = await page.locator('#traces-input').inputValue();
+    await page.locator('#tr-epsilon').fill('6300');
     const [download] = await Promise.all([
       page.waitForEvent('download'),
       page.locator('button#save-page').click(),
@@ -503,6 +507,9 @@ test('g. the saved page carries its data and reopens with the same fit', { timeo
       const text = await reopened.page.locator('textarea#data-input').inputValue();
       assert.equal(text, PUROMYCIN_TEXT, 'the saved page holds the pasted table');
       assert.match(await reopened.page.locator('#saved-info').textContent(), /saved analysis/);
+      await reopened.page.waitForFunction(() => document.querySelector('#traces-input')?.value.length > 0, null, { timeout: FIT_TIMEOUT });
+      assert.equal(await reopened.page.locator('#tr-epsilon').inputValue(), '6300', 'the time-course ε is kept');
+      assert.equal(await reopened.page.locator('#traces-input').inputValue(), plate, 'the plate is kept');
       assertClean(reopened.watch);
     } finally {
       await reopened.page.close();
