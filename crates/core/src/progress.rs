@@ -45,7 +45,7 @@ use crate::model::Observations;
 use crate::models::MichaelisMenten;
 use crate::solver::Termination;
 use crate::traces::{CellState, Role, TraceAnalysis};
-use levenberg_marquardt::{LeastSquaresProblem, LevenbergMarquardt, TerminationReason};
+use levenberg_marquardt::{LeastSquaresProblem, LevenbergMarquardt};
 use nalgebra::{DMatrix, DVector, Dyn, Matrix2, Owned, Vector2};
 use serde::Serialize;
 
@@ -342,16 +342,7 @@ pub fn fit_progress_with(analysis: &TraceAnalysis, progress: &mut dyn FnMut(usiz
     };
     let (problem, report) =
         LevenbergMarquardt::new().with_ftol(1e-14).with_xtol(1e-14).with_gtol(1e-14).with_patience(400).minimize(problem);
-    // The same reading of MINPACK's stopping reasons as crate::solver.
-    let termination = match report.termination {
-        TerminationReason::Converged { .. } => Termination::Converged,
-        TerminationReason::Orthogonal => Termination::Stationary,
-        TerminationReason::ResidualsZero => Termination::ExactFit,
-        TerminationReason::NoImprovementPossible(_) => Termination::PrecisionLimit,
-        TerminationReason::LostPatience => Termination::TooManyEvaluations,
-        TerminationReason::Numerical(_) | TerminationReason::User(_) => Termination::NonFinite,
-        _ => Termination::Unusable,
-    };
+    let termination = crate::solver::termination_of(&report.termination);
     let theta = problem.theta;
     let (residuals, jacobian, means) = problem
         .evaluate(true)

@@ -117,7 +117,14 @@ pub fn minimise(model: &dyn Model, data: &Observations, start: &[f64], settings:
         .with_gtol(settings.gtol)
         .with_patience(settings.patience)
         .minimize(problem);
-    let termination = match report.termination {
+    let termination = termination_of(&report.termination);
+    finish(problem, termination, report.number_of_evaluations)
+}
+
+/// Turnover's reading of MINPACK's stopping reasons, shared by every fit
+/// that drives the `levenberg-marquardt` crate.
+pub(crate) fn termination_of(reason: &TerminationReason) -> Termination {
+    match reason {
         TerminationReason::Converged { .. } => Termination::Converged,
         TerminationReason::Orthogonal => Termination::Stationary,
         TerminationReason::ResidualsZero => Termination::ExactFit,
@@ -127,8 +134,7 @@ pub fn minimise(model: &dyn Model, data: &Observations, start: &[f64], settings:
         TerminationReason::NoParameters | TerminationReason::NoResiduals | TerminationReason::WrongDimensions(_) => {
             Termination::Unusable
         }
-    };
-    finish(problem, termination, report.number_of_evaluations)
+    }
 }
 
 /// A stationary point is accepted at the precision limit when every

@@ -46,19 +46,7 @@ impl DoseBench {
     /// `cheng_prusoff`). Throws an `Error` with a message for the scientist
     /// when no fit can be made; the previous analysis is then forgotten.
     pub fn analyse(&mut self, request: JsValue) -> Result<JsValue, JsError> {
-        let request: DoseRequest = serde_wasm_bindgen::from_value(request)
-            .map_err(|e| JsError::new(&format!("the page sent a request Turnover cannot read: {e}")))?;
-        match analyse_dose(&request) {
-            Ok(analysis) => {
-                let value = to_js(&analysis)?;
-                self.last = Some(analysis);
-                Ok(value)
-            }
-            Err(error) => {
-                self.last = None;
-                Err(JsError::new(&error.message))
-            }
-        }
+        crate::analyse_and_keep(request, &mut self.last, |r: &DoseRequest| analyse_dose(r))
     }
 
     /// Draws the analysis' plot (dose-response or Morrison) on canvas

@@ -46,19 +46,7 @@ impl InhibitionBench {
     /// `substrate_unit`, `inhibitor_unit`, `rate_unit`). Throws an `Error`
     /// with a message for the scientist when no analysis can be made.
     pub fn analyse(&mut self, request: JsValue) -> Result<JsValue, JsError> {
-        let request: InhibitionRequest = serde_wasm_bindgen::from_value(request)
-            .map_err(|e| JsError::new(&format!("the page sent a request Turnover cannot read: {e}")))?;
-        match analyse_inhibition(&request) {
-            Ok(analysis) => {
-                let value = to_js(&analysis)?;
-                self.last = Some(analysis);
-                Ok(value)
-            }
-            Err(error) => {
-                self.last = None;
-                Err(JsError::new(&error.message))
-            }
-        }
+        crate::analyse_and_keep(request, &mut self.last, |r: &InhibitionRequest| analyse_inhibition(r))
     }
 
     /// Draws plot `kind` of the last analysis on canvas `canvas_id`;

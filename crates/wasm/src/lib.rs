@@ -36,7 +36,35 @@ pub struct Workbench {
     last: Option<RateAnalysis>,
 }
 
-fn to_js<T: Serialize>(value: &T) -> Result<JsValue, JsError> {
+/// Reads a request object sent by the page.
+pub(crate) fn read_request<R: serde::de::DeserializeOwned>(request: JsValue) -> Result<R, JsError> {
+    serde_wasm_bindgen::from_value(request)
+        .map_err(|e| JsError::new(&format!("the page sent a request Turnover cannot read: {e}")))
+}
+
+/// Reads a request, runs `analysis` on it and keeps the result in `last`
+/// for drawing; on failure `last` is forgotten, so no stale plot is drawn,
+/// and the error becomes a JS exception with the core's message.
+pub(crate) fn analyse_and_keep<R: serde::de::DeserializeOwned, A: Serialize>(
+    request: JsValue,
+    last: &mut Option<A>,
+    analysis: impl FnOnce(&R) -> Result<A, turnover_core::Error>,
+) -> Result<JsValue, JsError> {
+    let request: R = read_request(request)?;
+    match analysis(&request) {
+        Ok(result) => {
+            let value = to_js(&result)?;
+            *last = Some(result);
+            Ok(value)
+        }
+        Err(error) => {
+            *last = None;
+            Err(JsError::new(&error.message))
+        }
+    }
+}
+
+pub(crate) fn to_js<T: Serialize>(value: &T) -> Result<JsValue, JsError> {
     value
         .serialize(&serde_wasm_bindgen::Serializer::json_compatible())
         .map_err(|e| JsError::new(&format!("internal error while returning a result: {e}")))
@@ -56,19 +84,7 @@ impl Workbench {
     /// message is written for the scientist when no fit can be made; the
     /// previous analysis is then forgotten so no stale plot is drawn.
     pub fn analyse(&mut self, request: JsValue) -> Result<JsValue, JsError> {
-        let request: RateRequest = serde_wasm_bindgen::from_value(request)
-            .map_err(|e| JsError::new(&format!("the page sent a request Turnover cannot read: {e}")))?;
-        match analyse_rates(&request) {
-            Ok(analysis) => {
-                let value = to_js(&analysis)?;
-                self.last = Some(analysis);
-                Ok(value)
-            }
-            Err(error) => {
-                self.last = None;
-                Err(JsError::new(&error.message))
-            }
-        }
+        crate::analyse_and_keep(request, &mut self.last, |r: &RateRequest| analyse_rates(r))
     }
 
     /// The plot named `kind` of the last analysis.
@@ -100,8 +116,7 @@ impl Workbench {
     /// tests against Michaelis-Menten and the verdict. Does not change the
     /// analysis kept for drawing.
     pub fn compare_rate_laws(&self, request: JsValue) -> Result<JsValue, JsError> {
-        let request: RateRequest = serde_wasm_bindgen::from_value(request)
-            .map_err(|e| JsError::new(&format!("the page sent a request Turnover cannot read: {e}")))?;
+        let request: RateRequest = read_request(request)?;
         let models: Vec<String> = ["mm", "substrate-inhibition", "hill"].iter().map(|m| m.to_string()).collect();
         let result = compare_rate_models(&request, &models).map_err(|e| JsError::new(&e.message))?;
         to_js(&serde_json_like(&result))
