@@ -274,7 +274,7 @@ pub fn analyse_dose(request: &DoseRequest) -> Result<DoseAnalysis, Error> {
         // and Ki_app rests on [E]t being right.
         if summary.converged && ki < 10.0 * enzyme {
             summary.warnings.push(format!(
-                "Ki_app ({}) is below 10×[E]t ({}): the inhibitor binds tightly, so the result rests on [E]t being the true active-enzyme concentration; when Ki_app ≪ [E]t the data measure [E]t more than Ki_app (rule of thumb: common practice, no source).",
+                "Ki_app ({}) is below 10×[E]t ([E]t = {}): the inhibitor binds tightly, so the result rests on [E]t being the true active-enzyme concentration; when Ki_app ≪ [E]t the data measure [E]t more than Ki_app (rule of thumb: common practice, no source).",
                 short_number(ki),
                 short_number(enzyme)
             ));
