@@ -301,12 +301,17 @@ async function analyseTraces() {
   if (engine === 'worker') {
     // A plate's drawing is split over tasks so that no one task holds the
     // page for long.
+    const yieldToPage = () => new Promise((resolve) => setTimeout(resolve, 0));
     drawPlate();
-    drawDetail();
-    await new Promise((resolve) => setTimeout(resolve, 0));
+    await yieldToPage();
     if (number !== analysisCount) return r;
+    drawDetail();
     drawEnzymeCheck();
+    await yieldToPage();
+    if (number !== analysisCount) return r;
     drawProgress();
+    await yieldToPage();
+    if (number !== analysisCount) return r;
     drawTable();
   } else {
     drawAll();
@@ -808,7 +813,7 @@ style.textContent = `
 #trace-table th, #trace-table td { border-bottom: 1px solid var(--line); padding: 0.15rem 0.4rem; text-align: left; }
 #trace-table tbody tr { cursor: pointer; }
 #trace-table tbody tr:hover { background: var(--teal-soft); }
-#traces-panel .table-scroll { max-height: 18rem; overflow: auto; }
+#traces-panel .table-scroll { max-height: 18rem; overflow: auto; content-visibility: auto; contain-intrinsic-size: auto 18rem; }
 #traces-panel .flag-key { font-size: 0.8rem; color: var(--muted); }
 #traces-panel .flag-key b { color: var(--brick); }
 #traces-busy:not([hidden]) { display: flex; align-items: center; gap: 0.6rem; font-size: 0.85rem; color: var(--muted); }
