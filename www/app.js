@@ -640,6 +640,18 @@ window.turnover = {
   // keepState(name, {save() -> JSON value, restore(value)}); `saved(name)`
   // is what a saved page brought for that section, or undefined.
   keepState: (name, keeper) => stateKeepers.set(name, keeper),
+  // Small helpers the other page modules share, so that every section
+  // formats numbers and downloads files the same way.
+  ui: {
+    format: formatNumber,
+    cell(tag, text, attributes = {}) {
+      const node = document.createElement(tag);
+      for (const [key, value] of Object.entries(attributes)) node.setAttribute(key, value);
+      node.textContent = text;
+      return node;
+    },
+    download,
+  },
   saved: (name) => openedState?.sections?.[name],
   savedFields: () => openedState?.fields,
   wasmBinary: () => wasmBinary,

@@ -45,20 +45,8 @@ const excludedLines = new Set();
 const excludedCells = new Set();
 let excludedFor = null;
 
-function format(value, digits = 4) {
-  if (value === null || value === undefined || !Number.isFinite(value)) return '—';
-  if (value === 0) return '0';
-  const magnitude = Math.floor(Math.log10(Math.abs(value)));
-  if (magnitude >= 6 || magnitude <= -4) return value.toExponential(digits - 1);
-  return value.toPrecision(digits);
-}
-
-function cell(tag, text, attributes = {}) {
-  const node = document.createElement(tag);
-  for (const [k, v] of Object.entries(attributes)) node.setAttribute(k, v);
-  node.textContent = text;
-  return node;
-}
+// Shared with the rest of the page (app.js).
+const { format, cell, download } = window.turnover.ui;
 
 function showRanking(result) {
   const body = $('mechanism-ranking').tBodies[0];
@@ -229,14 +217,6 @@ function toggleAt(kind, event) {
   analyseInhibition(lastSent);
 }
 
-function download(name, type, content) {
-  const url = URL.createObjectURL(new Blob([content], { type }));
-  const link = cell('a', '', { href: url, download: name });
-  document.body.append(link);
-  link.click();
-  link.remove();
-  setTimeout(() => URL.revokeObjectURL(url), 1000);
-}
 
 window.turnover.onAnalysed(analyseInhibition);
 window.turnover.inhibition = {
