@@ -8,47 +8,26 @@
 
 import { test, before, after } from 'node:test';
 import assert from 'node:assert/strict';
-import { mkdirSync, mkdtempSync, rmSync, existsSync, readFileSync } from 'node:fs';
-import { tmpdir } from 'node:os';
-import { join, resolve, dirname } from 'node:path';
-import { fileURLToPath, pathToFileURL } from 'node:url';
-import { chromium } from 'playwright-core';
+import { readFileSync } from 'node:fs';
+import { join, dirname } from 'node:path';
+import { fileURLToPath } from 'node:url';
+
+import { launch, pageUrl, shotDir, isLocal } from './harness.mjs';
 
 const here = dirname(fileURLToPath(import.meta.url));
-const htmlPath = resolve(process.env.TURNOVER_HTML ?? join(here, '..', '..', 'dist', 'turnover.html'));
-const pageUrl = pathToFileURL(htmlPath).href;
-const shotDir = resolve(process.env.TURNOVER_SCREENSHOTS ?? join(here, '..', '..', 'target', 'screenshots'));
-const chromiumPath = process.env.TURNOVER_CHROMIUM ?? '/usr/bin/chromium';
-const isLocal = (url) => /^(file|data|blob|about):/i.test(url);
 
 let context;
-let userDataDir;
-const external = [];
+let browser;
+let external = [];
 
 before(async () => {
-  assert.ok(existsSync(htmlPath), `page not built: ${htmlPath} does not exist (run build.sh)`);
-  mkdirSync(shotDir, { recursive: true });
-  userDataDir = mkdtempSync(join(tmpdir(), 'turnover-dose-'));
-  context = await chromium.launchPersistentContext(userDataDir, {
-    executablePath: chromiumPath,
-    headless: true,
-    acceptDownloads: true,
-    viewport: { width: 1280, height: 900 },
-    args: ['--headless', '--no-sandbox', '--disable-gpu', '--disable-background-networking',
-      '--disable-component-update', '--disable-sync', '--no-first-run', '--disable-quic'],
-  });
-  await context.route('**/*', (route) => {
-    const url = route.request().url();
-    if (isLocal(url)) return route.continue();
-    external.push(url);
-    return route.abort('blockedbyclient');
-  });
-  for (const p of context.pages()) await p.close();
+  browser = await launch('dose', { acceptDownloads: true });
+  context = browser.context;
+  external = browser.external;
 });
 
 after(async () => {
-  if (context) await context.close();
-  if (userDataDir) rmSync(userDataDir, { recursive: true, force: true });
+  if (browser) await browser.close();
 });
 
 async function openPage() {

@@ -7,18 +7,9 @@
 
 import { test, before, after } from 'node:test';
 import assert from 'node:assert/strict';
-import { mkdirSync, mkdtempSync, rmSync, existsSync } from 'node:fs';
-import { tmpdir } from 'node:os';
-import { join, resolve, dirname } from 'node:path';
-import { fileURLToPath, pathToFileURL } from 'node:url';
-import { chromium } from 'playwright-core';
+import { join } from 'node:path';
 
-const here = dirname(fileURLToPath(import.meta.url));
-const htmlPath = resolve(process.env.TURNOVER_HTML ?? join(here, '..', '..', 'dist', 'turnover.html'));
-const pageUrl = pathToFileURL(htmlPath).href;
-const shotDir = resolve(process.env.TURNOVER_SCREENSHOTS ?? join(here, '..', '..', 'target', 'screenshots'));
-const chromiumPath = process.env.TURNOVER_CHROMIUM ?? '/usr/bin/chromium';
-const isLocal = (url) => /^(file|data|blob|about):/i.test(url);
+import { launch, pageUrl, shotDir, isLocal } from './harness.mjs';
 
 const PLOTS = [
   'inhibition-direct', 'inhibition-lineweaver-burk', 'inhibition-eadie-hofstee', 'inhibition-hanes-woolf',
@@ -26,32 +17,17 @@ const PLOTS = [
 ];
 
 let context;
-let userDataDir;
-const external = [];
+let browser;
+let external = [];
 
 before(async () => {
-  assert.ok(existsSync(htmlPath), `page not built: ${htmlPath} does not exist (run build.sh)`);
-  mkdirSync(shotDir, { recursive: true });
-  userDataDir = mkdtempSync(join(tmpdir(), 'turnover-inhibition-'));
-  context = await chromium.launchPersistentContext(userDataDir, {
-    executablePath: chromiumPath,
-    headless: true,
-    viewport: { width: 1280, height: 900 },
-    args: ['--headless', '--no-sandbox', '--disable-gpu', '--disable-background-networking',
-      '--disable-component-update', '--disable-sync', '--no-first-run', '--disable-quic'],
-  });
-  await context.route('**/*', (route) => {
-    const url = route.request().url();
-    if (isLocal(url)) return route.continue();
-    external.push(url);
-    return route.abort('blockedbyclient');
-  });
-  for (const p of context.pages()) await p.close();
+  browser = await launch('inhibition');
+  context = browser.context;
+  external = browser.external;
 });
 
 after(async () => {
-  if (context) await context.close();
-  if (userDataDir) rmSync(userDataDir, { recursive: true, force: true });
+  if (browser) await browser.close();
 });
 
 async function openPage() {

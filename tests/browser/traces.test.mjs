@@ -7,40 +7,23 @@
 
 import { test, before, after } from 'node:test';
 import assert from 'node:assert/strict';
-import { mkdirSync, mkdtempSync, rmSync, existsSync } from 'node:fs';
-import { tmpdir } from 'node:os';
 import { join, resolve, dirname } from 'node:path';
-import { fileURLToPath, pathToFileURL } from 'node:url';
-import { chromium } from 'playwright-core';
+import { fileURLToPath } from 'node:url';
+
+import { launch, pageUrl, shotDir, isLocal } from './harness.mjs';
 
 const here = dirname(fileURLToPath(import.meta.url));
-const htmlPath = resolve(process.env.TURNOVER_HTML ?? join(here, '..', '..', 'dist', 'turnover.html'));
-const pageUrl = pathToFileURL(htmlPath).href;
-const shotDir = resolve(process.env.TURNOVER_SCREENSHOTS ?? join(here, '..', '..', 'target', 'screenshots'));
-const chromiumPath = process.env.TURNOVER_CHROMIUM ?? '/usr/bin/chromium';
-const isLocal = (url) => /^(file|data|blob|about):/i.test(url);
 
 let context;
-let userDataDir;
+let browser;
 
 before(async () => {
-  assert.ok(existsSync(htmlPath), `page not built: ${htmlPath} does not exist (run build.sh)`);
-  mkdirSync(shotDir, { recursive: true });
-  userDataDir = mkdtempSync(join(tmpdir(), 'turnover-traces-'));
-  context = await chromium.launchPersistentContext(userDataDir, {
-    executablePath: chromiumPath,
-    headless: true,
-    viewport: { width: 1280, height: 900 },
-    args: ['--headless', '--no-sandbox', '--disable-gpu', '--disable-background-networking',
-      '--disable-component-update', '--disable-sync', '--no-first-run', '--disable-quic'],
-  });
-  await context.route('**/*', (route) => (isLocal(route.request().url()) ? route.continue() : route.abort('blockedbyclient')));
-  for (const p of context.pages()) await p.close();
+  browser = await launch('traces');
+  context = browser.context;
 });
 
 after(async () => {
-  if (context) await context.close();
-  if (userDataDir) rmSync(userDataDir, { recursive: true, force: true });
+  if (browser) await browser.close();
 });
 
 async function openPage() {

@@ -1,0 +1,55 @@
+// Shared set-up of the browser tests: where the built page is, and one
+// headless Debian Chromium per test file, launched through playwright-core
+// (never a downloaded browser) with a fresh profile, every request that is
+// not local refused and counted.
+
+import assert from 'node:assert/strict';
+import { mkdirSync, mkdtempSync, rmSync, existsSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join, resolve, dirname } from 'node:path';
+import { fileURLToPath, pathToFileURL } from 'node:url';
+import { chromium } from 'playwright-core';
+
+const here = dirname(fileURLToPath(import.meta.url));
+
+/** The built page; `TURNOVER_HTML` overrides. */
+export const htmlPath = resolve(process.env.TURNOVER_HTML ?? join(here, '..', '..', 'dist', 'turnover.html'));
+/** Its file:// address. */
+export const pageUrl = pathToFileURL(htmlPath).href;
+/** Where screenshots go; `TURNOVER_SCREENSHOTS` overrides. */
+export const shotDir = resolve(process.env.TURNOVER_SCREENSHOTS ?? join(here, '..', '..', 'target', 'screenshots'));
+const chromiumPath = process.env.TURNOVER_CHROMIUM ?? '/usr/bin/chromium';
+
+/** Requests the page may make: its own file and in-memory URLs. */
+export const isLocal = (url) => /^(file|data|blob|about):/i.test(url);
+
+/** Launches Chromium; `external` collects every refused request. */
+export async function launch(name, { acceptDownloads = false } = {}) {
+  assert.ok(existsSync(htmlPath), `page not built: ${htmlPath} does not exist (run build.sh)`);
+  mkdirSync(shotDir, { recursive: true });
+  const userDataDir = mkdtempSync(join(tmpdir(), `turnover-${name}-`));
+  const context = await chromium.launchPersistentContext(userDataDir, {
+    executablePath: chromiumPath,
+    headless: true,
+    acceptDownloads,
+    viewport: { width: 1280, height: 900 },
+    args: ['--headless', '--no-sandbox', '--disable-gpu', '--disable-background-networking',
+      '--disable-component-update', '--disable-sync', '--no-first-run', '--disable-quic'],
+  });
+  const external = [];
+  await context.route('**/*', (route) => {
+    const url = route.request().url();
+    if (isLocal(url)) return route.continue();
+    external.push(url);
+    return route.abort('blockedbyclient');
+  });
+  for (const p of context.pages()) await p.close();
+  return {
+    context,
+    external,
+    async close() {
+      await context.close();
+      rmSync(userDataDir, { recursive: true, force: true });
+    },
+  };
+}
