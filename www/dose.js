@@ -222,8 +222,9 @@ function analyseDose(sent) {
       text: sent.text,
       ...chosen.request,
       excluded_lines: [...excluded],
-      // The interval choice of the rate panel applies here too; weighting
-      // is not yet available for dose-response fits (equal weights).
+      // The rate panel's weighting and interval choices apply here too
+      // (weighting by an sd column is refused: these tables have none).
+      weighting: sent.weighting,
       interval_method: sent.interval_method,
       bootstrap: sent.bootstrap,
     });

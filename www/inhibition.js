@@ -157,8 +157,9 @@ function analyseInhibition(sent) {
       substrate_unit: sent.substrate_unit,
       inhibitor_unit: null,
       rate_unit: sent.rate_unit,
-      // The interval choice of the rate panel applies here too; weighting
-      // is not yet available for inhibition fits, which use equal weights.
+      // The rate panel's weighting and interval choices apply here too
+      // (weighting by an sd column is refused: these tables have none).
+      weighting: sent.weighting,
       interval_method: sent.interval_method,
       bootstrap: sent.bootstrap,
     });

@@ -141,7 +141,12 @@ def main():
     passed = failed = 0
     print(f"Reference: scipy.optimize.curve_fit(method='lm'), numpy {np.__version__}")
     with tempfile.TemporaryDirectory() as tmp:
-        for ds in datasets():
+        # Each data set unweighted; the mixed, hill and ic50 sets also with
+        # relative weights (Turnover --weighting relative, weights 1/y²;
+        # curve_fit sigma = |y|, the same fixed weights).
+        runs = [(ds, None) for ds in datasets()]
+        runs += [(ds, "relative") for ds in datasets() if ds["model"] in ("mixed", "hill", "ic50")]
+        for ds, weighting in runs:
             path = Path(tmp) / (ds["model"] + ".tsv")
             lines = [ds["header"]] + ["\t".join("%.17g" % c for c in row) for row in zip(*ds["columns"])]
             path.write_text("\n".join(lines) + "\n", encoding="utf-8")
@@ -149,14 +154,18 @@ def main():
             x = (cols[0], cols[1]) if ds["two"] else cols[0]
             y = cols[-1]
             f = ds["f"]
-            popt, pcov = optimize.curve_fit(f, x, y, p0=ds["truth"], jac=numeric_jacobian(f), method="lm",
+            sigma = np.abs(y) if weighting == "relative" else None
+            popt, pcov = optimize.curve_fit(f, x, y, p0=ds["truth"], jac=numeric_jacobian(f), method="lm", sigma=sigma,
                                             ftol=1e-15, xtol=1e-15, gtol=1e-15, maxfev=100000)
             se = np.sqrt(np.diag(pcov))
-            rss = float(np.sum((y - f(x, *popt)) ** 2))
-            proc = subprocess.run([str(BIN), "fit", str(path), "--model", ds["model"], "--json", *ds["extra"]],
+            scale = sigma if sigma is not None else 1.0
+            rss = float(np.sum(((y - f(x, *popt)) / scale) ** 2))
+            weighting_args = ["--weighting", weighting] if weighting else []
+            name = ds["name"] + (f", {weighting}" if weighting else "")
+            proc = subprocess.run([str(BIN), "fit", str(path), "--model", ds["model"], "--json", *ds["extra"], *weighting_args],
                                   capture_output=True, text=True, timeout=120)
             if proc.returncode != 0:
-                print(f"FAIL {ds['name']}: turnover exited {proc.returncode}: {proc.stderr.strip()}")
+                print(f"FAIL {name}: turnover exited {proc.returncode}: {proc.stderr.strip()}")
                 failed += len(popt) * 2 + 1
                 continue
             out = json.loads(proc.stdout)
@@ -170,7 +179,7 @@ def main():
                 ok = rel <= tol
                 passed += ok
                 failed += not ok
-                print(f"{'ok  ' if ok else 'FAIL'} {ds['name']:<34} {label:<12} turnover {a:.10g}  scipy {b:.10g}  rel {rel:.1e}")
+                print(f"{'ok  ' if ok else 'FAIL'} {name:<34} {label:<12} turnover {a:.10g}  scipy {b:.10g}  rel {rel:.1e}")
     print(f"{passed} passed, {failed} failed")
     return 1 if failed else 0
 

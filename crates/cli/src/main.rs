@@ -300,11 +300,6 @@ pub(crate) fn read_input(path: &str) -> Result<String, Failure> {
 fn fit(mut args: FitArgs) -> Result<ExitCode, Failure> {
     args.request.text = read_input(&args.file)?;
     let name = if args.request.model.trim().is_empty() { "mm".to_string() } else { args.request.model.trim().to_string() };
-    if args.request.weighting != Weighting::Uniform && model_input(&name).is_some_and(|i| i != ModelInput::Substrate) {
-        return Err(Failure::Usage(format!(
-            "--weighting is available so far only for models fitted to [S] and v (mm, substrate-inhibition, hill), not for {name}"
-        )));
-    }
     match model_input(&name) {
         Some(ModelInput::SubstrateAndInhibitor) => {
             let request = inhibition_request(&args, vec![name]);
@@ -327,6 +322,7 @@ fn fit(mut args: FitArgs) -> Result<ExitCode, Failure> {
                 excluded_lines: args.request.excluded_lines.clone(),
                 interval_method: args.request.interval_method,
                 bootstrap: args.request.bootstrap,
+                weighting: args.request.weighting,
                 cheng_prusoff: args.cheng_prusoff.clone(),
             };
             let analysis = analyse_dose(&request).map_err(|e| Failure::Input(e.message))?;
@@ -367,6 +363,7 @@ fn inhibition_request(args: &FitArgs, models: Vec<String>) -> InhibitionRequest 
         rate_unit: args.request.rate_unit.clone(),
         interval_method: args.request.interval_method,
         bootstrap: args.request.bootstrap,
+        weighting: args.request.weighting,
     }
 }
 

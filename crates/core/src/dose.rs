@@ -38,6 +38,9 @@ pub struct DoseRequest {
     pub excluded_lines: Vec<usize>,
     /// How intervals are computed. Default asymptotic.
     pub interval_method: crate::intervals::IntervalMethod,
+    /// How the responses are weighted: uniform, relative or poisson.
+    /// Default uniform.
+    pub weighting: crate::weighting::Weighting,
     /// Bootstrap settings, used when `interval_method` is bootstrap.
     pub bootstrap: crate::intervals::BootstrapSettings,
     /// Convert the fitted IC50 into Ki (`ic50` only); `None` for no
@@ -246,13 +249,19 @@ pub fn analyse_dose(request: &DoseRequest) -> Result<DoseAnalysis, Error> {
             n_params
         )));
     }
-    let data = Observations::single(&used.iter().map(|p| p.i).collect::<Vec<_>>(), &used.iter().map(|p| p.y).collect::<Vec<_>>())?;
+    let responses: Vec<f64> = used.iter().map(|p| p.y).collect();
+    let weights = request.weighting.weights_without_sd(&responses).map_err(|(index, message)| match index {
+        Some(i) => Error::invalid_data(format!("line {}: {message}", used[i].line)),
+        None => Error::invalid_option(message),
+    })?;
+    let data = Observations::new(1, used.iter().map(|p| p.i).collect(), responses, weights)?;
     let fit = fit_model(model.as_ref(), &data, None, &FitSettings::default())?;
     let values = fit.values().to_vec();
     for p in &mut points {
         p.fitted = model.value(&[p.i], &values);
     }
     let mut summary = fit.summary.clone();
+    summary.weighting = request.weighting.name().to_string();
     crate::intervals::apply_interval_method(&mut summary, model.as_ref(), &data, &fit, request.interval_method, &request.bootstrap)?;
     let i_symbol = inhibitor_unit.map(|u| u.symbol().to_string());
     for (estimate, spec) in summary.parameters.iter_mut().zip(model.parameters()) {

@@ -50,6 +50,9 @@ pub struct InhibitionRequest {
     /// Unit of v; `None` or empty means "as the header says" (a matrix
     /// header has no place for it, so give it here).
     pub rate_unit: Option<String>,
+    /// How the rates are weighted: uniform, relative or poisson (an sd
+    /// column is not read from inhibition tables). Default uniform.
+    pub weighting: crate::weighting::Weighting,
     /// How intervals are computed for every mechanism. Default asymptotic.
     pub interval_method: crate::intervals::IntervalMethod,
     /// Bootstrap settings, used when `interval_method` is bootstrap.
@@ -402,12 +405,12 @@ pub fn analyse_inhibition(request: &InhibitionRequest) -> Result<InhibitionAnaly
             most
         )));
     }
-    let data = Observations::new(
-        2,
-        used.iter().flat_map(|p| [p.s, p.i]).collect(),
-        used.iter().map(|p| p.v).collect(),
-        None,
-    )?;
+    let rates: Vec<f64> = used.iter().map(|p| p.v).collect();
+    let weights = request.weighting.weights_without_sd(&rates).map_err(|(index, message)| match index {
+        Some(i) => Error::invalid_data(format!("line {}: {message}", used[i].line)),
+        None => Error::invalid_option(message),
+    })?;
+    let data = Observations::new(2, used.iter().flat_map(|p| [p.s, p.i]).collect(), rates, weights)?;
     let mut inhibitor_levels: Vec<f64> = points.iter().map(|p| p.i).collect();
     inhibitor_levels.sort_by(f64::total_cmp);
     inhibitor_levels.dedup();
@@ -436,6 +439,7 @@ pub fn analyse_inhibition(request: &InhibitionRequest) -> Result<InhibitionAnaly
     for (mechanism, fit) in &fitted {
         let model = Inhibition::new(*mechanism);
         let mut summary = fit.summary.clone();
+        summary.weighting = request.weighting.name().to_string();
         crate::intervals::apply_interval_method(&mut summary, &model, &data, fit, request.interval_method, &request.bootstrap)?;
         for (estimate, spec) in summary.parameters.iter_mut().zip(model.parameters()) {
             estimate.unit = unit_of(spec.dimension);

@@ -61,6 +61,23 @@ impl Weighting {
         }
     }
 
+    /// Weights for measured responses `y` when no sd column is read (the
+    /// inhibition and dose-response tables): uniform, relative or Poisson.
+    /// `Err` names the first response that cannot be weighted, by its index,
+    /// or says that sd weighting needs an sd column.
+    pub fn weights_without_sd(self, y: &[f64]) -> Result<Option<Vec<f64>>, (Option<usize>, String)> {
+        match self {
+            Weighting::Uniform => Ok(None),
+            Weighting::Sd => Err((None, "weighting by sd needs an sd column, which only the [S]–v table reads so far".to_string())),
+            _ => y
+                .iter()
+                .enumerate()
+                .map(|(i, v)| self.weight(*v, None).map_err(|m| (Some(i), m)))
+                .collect::<Result<Vec<f64>, _>>()
+                .map(Some),
+        }
+    }
+
     /// The weight of one observation with measured rate `v` and, when
     /// given, standard deviation `sd`; `Err` says why it cannot be weighted.
     pub fn weight(self, v: f64, sd: Option<f64>) -> Result<f64, String> {
