@@ -184,7 +184,20 @@ function pointToThisSection() {
   }
 }
 
+// A saved page brings back the points that were clicked out, once, for
+// the table it was saved with.
+let savedRestored = false;
+window.turnover.keepState('dose', { save: () => ({ text: excludedFor, lines: [...excluded] }) });
+
 function analyseDose(sent) {
+  if (!savedRestored) {
+    savedRestored = true;
+    const saved = window.turnover.saved('dose');
+    if (saved && saved.text === sent.text) {
+      excludedFor = saved.text;
+      for (const line of saved.lines ?? []) excluded.add(line);
+    }
+  }
   lastSent = sent;
   const results = $('dose-results');
   if (!wasm_bindgen.isDoseTable(sent.text)) {

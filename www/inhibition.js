@@ -128,7 +128,23 @@ function pointToThisSection() {
   }
 }
 
+// A saved page brings back the rates that were clicked out, once, for the
+// table it was saved with.
+let savedRestored = false;
+window.turnover.keepState('inhibition', {
+  save: () => ({ text: excludedFor, lines: [...excludedLines], cells: [...excludedCells] }),
+});
+
 function analyseInhibition(sent) {
+  if (!savedRestored) {
+    savedRestored = true;
+    const saved = window.turnover.saved('inhibition');
+    if (saved && saved.text === sent.text) {
+      excludedFor = saved.text;
+      for (const line of saved.lines ?? []) excludedLines.add(line);
+      for (const cellKey of saved.cells ?? []) excludedCells.add(cellKey);
+    }
+  }
   lastSent = sent;
   const results = $('inhibition-results');
   if (!wasm_bindgen.isInhibitionTable(sent.text)) {

@@ -10,7 +10,7 @@ import { test, before, after } from 'node:test';
 import assert from 'node:assert/strict';
 import { readFileSync } from 'node:fs';
 import { join, dirname } from 'node:path';
-import { fileURLToPath } from 'node:url';
+import { fileURLToPath, pathToFileURL } from 'node:url';
 
 import { launch, pageUrl, shotDir, isLocal } from './harness.mjs';
 
@@ -210,6 +210,29 @@ test('a click on a dose-response point leaves it out and refits', { timeout: 60_
   const after = await nextDoseResult(page, JSON.stringify(before.fit.parameters));
   assert.equal(after.fit.n, before.fit.n - 1);
   assert.deepEqual(after.points.filter((p) => p.excluded).map((p) => p.row), [target.row]);
+  assert.deepEqual(errors, []);
+  await page.close();
+});
+
+test('a saved page keeps the dose-response points that were clicked out', { timeout: 60_000 }, async () => {
+  const { page, errors } = await openPage();
+  await loadDoseDemo(page);
+  const before = await page.evaluate(() => window.turnover.dose.lastResult());
+  await page.locator('#plot-dose').scrollIntoViewIfNeeded();
+  const target = (await page.evaluate(() => window.turnover.dose.pointPositions()))[6];
+  const box = await (await page.$('#plot-dose')).boundingBox();
+  await page.mouse.click(box.x + target.x, box.y + target.y);
+  const after = await nextDoseResult(page, JSON.stringify(before.fit.parameters));
+  const [download] = await Promise.all([page.waitForEvent('download'), page.locator('button#save-page').click()]);
+  const savedPath = join(shotDir, 'saved-dose-page.html');
+  await download.saveAs(savedPath);
+  const reopened = await context.newPage();
+  await reopened.goto(pathToFileURL(savedPath).href, { waitUntil: 'load' });
+  await reopened.waitForFunction(() => window.turnover?.dose?.lastResult(), null, { timeout: 20_000 });
+  const restored = await reopened.evaluate(() => window.turnover.dose.lastResult());
+  assert.deepEqual(restored.points.filter((p) => p.excluded).map((p) => p.row), [target.row], 'the left-out point stays out');
+  assert.deepEqual(restored.fit.parameters, after.fit.parameters, 'and the fit is the same');
+  await reopened.close();
   assert.deepEqual(errors, []);
   await page.close();
 });
