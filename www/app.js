@@ -47,6 +47,8 @@ const state = {
 };
 
 let workbench = null;
+// The standing caution, as the core words it (the rate result carries it).
+const CAUTION_TEXT = () => state.result?.caution ?? $('caution').textContent;
 // The saved state this page was opened with, if any.
 let openedState = null;
 // The WebAssembly bytes as unpacked, kept for www/traces.js, which hands
@@ -420,11 +422,11 @@ function toggleAt(canvas, event) {
   analyse();
 }
 
-function resultsAsText() {
-  if (!state.result) return '';
-  const fit = state.result.fit;
+/** One fit record as tab-separated lines: a header, one row per constant,
+ *  the fit statistics and warnings. Shared by every section's copy. */
+function fitAsText(title, fit) {
   const lines = [
-    `# Turnover ${wasm_bindgen.version()} · ${fit.equation} · ${new Date().toISOString()}`,
+    `# ${title}: ${fit.equation}`,
     `# weighting: ${fit.weighting}; ${Math.round(fit.confidence_level * 100)}% intervals`,
     ['constant', 'estimate', 'std_error', 'ci_low', 'ci_high', 'ci_method', 'unit'].join('\t'),
   ];
@@ -432,10 +434,23 @@ function resultsAsText() {
     lines.push([p.name, p.value, p.std_error ?? '', p.ci_low ?? '', p.ci_high ?? '', p.ci_method, p.unit ?? ''].join('\t'));
   }
   lines.push(`# n = ${fit.n}, dof = ${fit.dof}, residual SD = ${fit.sigma}, RSS = ${fit.rss}, R² = ${fit.r_squared}, AICc = ${fit.aicc}, converged = ${fit.converged}`);
-  const excluded = state.result.points.filter((p) => p.excluded).map((p) => p.line);
-  if (excluded.length) lines.push(`# left out: input line(s) ${excluded.join(', ')}`);
   for (const w of fit.warnings) lines.push(`# warning: ${w}`);
-  lines.push(`# ${state.result.caution}`);
+  return lines;
+}
+
+function resultsAsText() {
+  const lines = [`# Turnover ${wasm_bindgen.version()} · ${new Date().toISOString()}`];
+  if (state.result) {
+    lines.push(...fitAsText('Rate fit', state.result.fit));
+    const excluded = state.result.points.filter((p) => p.excluded).map((p) => p.line);
+    if (excluded.length) lines.push(`# left out: input line(s) ${excluded.join(', ')}`);
+  }
+  // Other sections add their own results (inhibitor series, dose-response).
+  for (const [name, keeper] of stateKeepers) {
+    const extra = keeper.text?.();
+    if (extra && extra.length) lines.push('', `# ${name}`, ...extra);
+  }
+  lines.push('', `# ${CAUTION_TEXT()}`);
   return lines.join('\n') + '\n';
 }
 
@@ -628,6 +643,7 @@ function wire() {
 // For tests and for scripting from the browser console.
 window.turnover = {
   lastResult: () => state.result,
+  resultsText: () => resultsAsText(),
   lastError: () => state.error,
   pointPositions(kind) {
     const canvas = $(`plot-${kind}`);
@@ -644,6 +660,7 @@ window.turnover = {
   // formats numbers and downloads files the same way.
   ui: {
     format: formatNumber,
+    fitAsText,
     cell(tag, text, attributes = {}) {
       const node = document.createElement(tag);
       for (const [key, value] of Object.entries(attributes)) node.setAttribute(key, value);

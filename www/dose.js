@@ -187,7 +187,10 @@ function pointToThisSection() {
 // A saved page brings back the points that were clicked out, once, for
 // the table it was saved with.
 let savedRestored = false;
-window.turnover.keepState('dose', { save: () => ({ text: excludedFor, lines: [...excluded] }) });
+window.turnover.keepState('dose', {
+  save: () => ({ text: excludedFor, lines: [...excluded] }),
+  text: () => (lastResult ? window.turnover.ui.fitAsText(`Dose-response fit, ${lastResult.fit.model}`, lastResult.fit) : []),
+});
 
 function analyseDose(sent) {
   if (!savedRestored) {

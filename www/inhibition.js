@@ -133,6 +133,12 @@ function pointToThisSection() {
 let savedRestored = false;
 window.turnover.keepState('inhibition', {
   save: () => ({ text: excludedFor, lines: [...excludedLines], cells: [...excludedCells] }),
+  text: () => {
+    if (!lastResult) return [];
+    const fit = lastResult.fits.find((f) => f.model === lastResult.shown) ?? lastResult.fits[0];
+    const ranking = lastResult.comparison.models.map((m) => `# ${m.model}: AICc ${m.aicc}, Akaike weight ${m.akaike_weight}`);
+    return [`# verdict: ${lastResult.comparison.verdict}`, ...ranking, ...window.turnover.ui.fitAsText(`Global fit, ${fit.model}`, fit)];
+  },
 });
 
 function analyseInhibition(sent) {

@@ -237,6 +237,24 @@ test('a saved page keeps the dose-response points that were clicked out', { time
   await page.close();
 });
 
+test('copied results include the inhibitor-series and dose-response sections', { timeout: 60_000 }, async () => {
+  const { page, errors } = await openPage();
+  await page.click('#load-inhibition-demo');
+  await page.waitForFunction(() => ['ok', 'warn'].includes(document.querySelector('#inhibition-status')?.dataset.state), null, { timeout: 20_000 });
+  const text = await page.evaluate(() => window.turnover.resultsText());
+  const verdict = await page.evaluate(() => window.turnover.inhibition.lastResult().comparison.verdict);
+  assert.ok(text.includes(`# verdict: ${verdict}`), text);
+  const kic = await page.evaluate(() => {
+    const r = window.turnover.inhibition.lastResult();
+    const fit = r.fits.find((f) => f.model === r.shown) ?? r.fits[0];
+    return fit.parameters[0];
+  });
+  assert.ok(text.split('\n').some((line) => line.startsWith(`${kic.name}\t${kic.value}\t`)), 'the constants are copied at full precision');
+  assert.match(text, /These constants are statistical estimates/);
+  assert.deepEqual(errors, []);
+  await page.close();
+});
+
 test('inhibitor-series plots: a point click leaves that one rate out, changes the constants, and a second click restores them; SVG download', { timeout: 90_000 }, async () => {
   const { page, errors } = await openPage();
   await page.click('#load-inhibition-demo');
