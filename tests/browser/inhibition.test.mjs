@@ -82,7 +82,7 @@ test('inhibitor demo: verdict, ranking, constants and every plot drawn', { timeo
 
   // The constants shown are the core's numbers for the preferred model.
   const shown = await page.$$eval('#inhibition-parameters tbody tr', (rows) => rows.map((r) => [r.dataset.param, Number(r.dataset.value), Number(r.dataset.se)]));
-  assert.deepEqual(shown.map((r) => r[0]), ['Vmax', 'Km', 'Kic', 'Kiu']);
+  assert.deepEqual(shown.map((r) => r[0]), ['Vmax', 'Km', 'Kic', 'Kiu', 'Kiu/Kic']);
   const core = await page.evaluate(() => window.turnover.inhibition.lastResult().fits.find((f) => f.model === 'mixed').parameters);
   for (const [k, [, value, se]] of shown.entries()) {
     assert.equal(value, core[k].value);

@@ -174,6 +174,15 @@ def main():
             for k, p in enumerate(got):
                 checks.append((p["name"], p["value"], popt[k], VALUE_TOL))
                 checks.append((p["name"] + " se", p["std_error"], se[k], SE_TOL))
+            if ds["model"] == "mixed":
+                # The derived Kiu/Kic: delta method on SciPy's covariance,
+                # var(r) = r^2 (var(Kiu)/Kiu^2 + var(Kic)/Kic^2 - 2 cov/(Kic Kiu)).
+                kic, kiu = popt[2], popt[3]
+                r = kiu / kic
+                var = r * r * (pcov[3, 3] / kiu ** 2 + pcov[2, 2] / kic ** 2 - 2 * pcov[2, 3] / (kic * kiu))
+                ratio = next(p for p in out["parameters"] if p["name"] == "Kiu/Kic")
+                checks.append(("Kiu/Kic", ratio["value"], r, VALUE_TOL))
+                checks.append(("Kiu/Kic se", ratio["std_error"], float(np.sqrt(var)), SE_TOL))
             for label, a, b, tol in checks:
                 rel = abs(a - b) / abs(b) if b != 0 else abs(a - b)
                 ok = rel <= tol

@@ -363,6 +363,24 @@ pub fn fit_mechanism(mechanism: Mechanism, data: &Observations, seeds: &[(Mechan
     Ok(best)
 }
 
+/// The ratio of fitted parameters `top`/`bottom` (such as Kiu/Kic, which
+/// says how far the mixed mechanism leans towards competitive (ratio > 1)
+/// or uncompetitive (< 1)), with its standard error by the delta method
+/// from the full covariance, var(r) = r²·(var(a)/a² + var(b)/b² −
+/// 2·cov(a, b)/(a·b)), and a t interval.
+fn ratio_estimate(fit: &Fit, top: usize, bottom: usize, name: &str) -> crate::fit::ParameterEstimate {
+    let (a, b) = (fit.values()[top], fit.values()[bottom]);
+    let ratio = a / b;
+    let se = fit.covariance.as_ref().map(|c| {
+        (ratio * ratio * (c[(top, top)] / (a * a) + c[(bottom, bottom)] / (b * b) - 2.0 * c[(top, bottom)] / (a * b))).sqrt()
+    });
+    let mut estimate = crate::fit::estimate(name, ratio, se.filter(|v| v.is_finite()), fit.t_quantile);
+    estimate.unit = Some(String::new());
+    estimate.derived = true;
+    estimate.ci_method = "delta".to_string();
+    estimate
+}
+
 fn mechanism_named(name: &str) -> Result<Mechanism, Error> {
     Mechanism::ALL.into_iter().find(|m| m.name() == name.trim()).ok_or_else(|| {
         Error::invalid_option(format!(
@@ -456,6 +474,9 @@ pub fn analyse_inhibition(request: &InhibitionRequest) -> Result<InhibitionAnaly
                     ));
                 }
             }
+        }
+        if *mechanism == Mechanism::Mixed {
+            summary.parameters.push(ratio_estimate(fit, 3, 2, "Kiu/Kic"));
         }
         fits.push(summary);
     }
