@@ -7,6 +7,7 @@
 //! (splitmix64, Steele, Lea & Flood 2014, with the Box-Muller transform,
 //! Box & Muller 1958; both from memory). They are not measurements.
 
+use turnover_core::random::SplitMix64;
 use turnover_core::compare::compare_fits;
 use turnover_core::dose::{analyse_dose, DoseRequest};
 use turnover_core::fit::{fit_model, FitSettings};
@@ -16,18 +17,13 @@ use turnover_core::models::{model_with_options, ModelOptions};
 use turnover_core::rates::{analyse_rates, RateRequest};
 
 /// splitmix64 with Box-Muller normal deviates.
-struct Noise(u64);
+/// Open-interval uniforms (never 0, so ln is finite) and Box-Muller
+/// normals on top of the core's seeded SplitMix64 bits.
+struct Noise(SplitMix64);
 
 impl Noise {
-    fn next_u64(&mut self) -> u64 {
-        self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
-        let mut z = self.0;
-        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
-        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
-        z ^ (z >> 31)
-    }
     fn uniform(&mut self) -> f64 {
-        ((self.next_u64() >> 11) as f64 + 0.5) / (1u64 << 53) as f64
+        ((self.0.next_u64() >> 11) as f64 + 0.5) / (1u64 << 53) as f64
     }
     fn normal(&mut self) -> f64 {
         let (u1, u2) = (self.uniform(), self.uniform());
@@ -67,7 +63,7 @@ fn every_model_recovers_its_parameters() {
         ("morrison", &[20.0, 3.0], &[0.0, 1.0, 2.0, 4.0, 6.0, 8.0, 12.0, 20.0, 40.0]),
     ];
     let options = ModelOptions { enzyme: Some(5.0), ..ModelOptions::default() };
-    let mut noise = Noise(7);
+    let mut noise = Noise(SplitMix64::new(7));
     for (name, truth, xs) in one {
         let model = model_with_options(name, &options).unwrap();
         for cv in [0.0, 0.01] {
@@ -121,7 +117,7 @@ fn mechanism_choice_finds_the_generating_mechanism() {
         let mut right = 0;
         let mut chosen = std::collections::BTreeMap::<String, usize>::new();
         for trial in 0..200u64 {
-            let mut noise = Noise(1000 * k as u64 + trial);
+            let mut noise = Noise(SplitMix64::new(1000 * k as u64 + trial));
             let text = inhibition_table(model.as_ref(), p, 0.05, &mut noise);
             let a = analyse_inhibition(&InhibitionRequest { text, ..Default::default() }).unwrap();
             let pick = a.comparison.preferred.clone().unwrap_or_else(|| "undecided".into());
@@ -144,7 +140,7 @@ fn mechanism_choice_finds_the_generating_mechanism() {
 fn long_and_matrix_layouts_give_the_same_fit() {
     let model = model_with_options("mixed", &ModelOptions::default()).unwrap();
     let truth = [10.0, 0.5, 2.0, 6.0];
-    let mut noise = Noise(99);
+    let mut noise = Noise(SplitMix64::new(99));
     let mut matrix = String::from("[S] (mM)\t0\t1 µM\t2.5 µM\t5 µM\t10 µM\n");
     let mut long_same = String::from("[S] (mM)\t[I] (µM)\tv (µM/min)\n");
     let mut rows = Vec::new();
@@ -200,7 +196,7 @@ fn hill_and_substrate_inhibition_are_chosen_only_when_needed() {
             .collect();
         compare_fits(&fits).preferred
     };
-    let mut noise = Noise(5);
+    let mut noise = Noise(SplitMix64::new(5));
     assert_eq!(choose(&table(&|x| 10.0 * x / (0.8 + x), &mut noise)).as_deref(), Some("mm"));
     assert_eq!(choose(&table(&|x: f64| 10.0 * x.powf(2.5) / (1.5f64.powf(2.5) + x.powf(2.5)), &mut noise)).as_deref(), Some("hill"));
     assert_eq!(choose(&table(&|x| 10.0 * x / (0.5 + x + x * x / 4.0), &mut noise)).as_deref(), Some("substrate-inhibition"));

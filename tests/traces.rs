@@ -9,22 +9,17 @@
 //! Gaussian from a seeded generator (SplitMix64 with Box-Muller), so every
 //! run sees the same numbers. The data are simulated, not measurements.
 
+use turnover_core::random::SplitMix64;
 use turnover_core::progress::fit_progress;
 use turnover_core::traces::{analyse_traces, TraceRequest, WindowOverride};
 
-struct Rng(u64);
+/// Open-interval uniforms (never 0, so ln is finite) and Box-Muller
+/// normals on top of the core's seeded SplitMix64 bits.
+struct Rng(SplitMix64);
 
 impl Rng {
-    /// SplitMix64 (Steele, Lea & Flood 2014).
-    fn next_u64(&mut self) -> u64 {
-        self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
-        let mut z = self.0;
-        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
-        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
-        z ^ (z >> 31)
-    }
     fn uniform(&mut self) -> f64 {
-        ((self.next_u64() >> 11) as f64 + 0.5) / (1u64 << 53) as f64
+        ((self.0.next_u64() >> 11) as f64 + 0.5) / (1u64 << 53) as f64
     }
     fn normal(&mut self) -> f64 {
         let (u, v) = (self.uniform(), self.uniform());
@@ -63,7 +58,7 @@ struct Plate {
 /// A plate of `wells` traces at the [S]0 values cycling through
 /// `concentrations`, `points` readings every `step` minutes.
 fn plate(seed: u64, wells: usize, points: usize, step: f64, km: f64, vmax: f64, noise: f64, concentrations: &[f64]) -> Plate {
-    let mut rng = Rng(seed);
+    let mut rng = Rng(SplitMix64::new(seed));
     let names: Vec<String> = (0..wells).map(|i| format!("{}{}", (b'A' + (i / 24) as u8) as char, i % 24 + 1)).collect();
     let mut traces = format!("# simulated plate, seed {seed}\ntime (min)\t{}\n", names.join("\t"));
     let s0: Vec<f64> = (0..wells).map(|i| concentrations[i % concentrations.len()]).collect();
@@ -256,7 +251,7 @@ fn benchmark_384_wells() {
 /// A plate built from product curves given as functions of time (µM
 /// against minutes), with an optional [E] per trace, read every 0.5 min.
 fn custom_plate(seed: u64, points: usize, noise: f64, wells: &[(&str, f64, Option<f64>, &dyn Fn(f64) -> f64)]) -> TraceRequest {
-    let mut rng = Rng(seed);
+    let mut rng = Rng(SplitMix64::new(seed));
     let names: Vec<&str> = wells.iter().map(|w| w.0).collect();
     let mut traces = format!("time (min)\t{}\n", names.join("\t"));
     for j in 0..points {

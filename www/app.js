@@ -653,8 +653,10 @@ window.turnover = {
   },
   analyse,
   onAnalysed: (hook) => analysedHooks.push(hook),
-  // keepState(name, {save() -> JSON value, restore(value)}); `saved(name)`
-  // is what a saved page brought for that section, or undefined.
+  // keepState(name, {save() -> JSON value, restore(value), text() -> lines}):
+  // `restore` is called on opening a saved page, before the first analysis,
+  // for modules registered by then; `saved(name)` serves those that start
+  // later (the time-course section).
   keepState: (name, keeper) => stateKeepers.set(name, keeper),
   // Small helpers the other page modules share, so that every section
   // formats numbers and downloads files the same way.
@@ -690,6 +692,11 @@ window.turnover.ready = startWasm()
       openedState = saved;
       restore(saved);
       restoreFields(saved.fields);
+      // Sections registered so far get their part back before the first
+      // analysis reaches them.
+      for (const [name, keeper] of stateKeepers) {
+        if (saved.sections?.[name] !== undefined) keeper.restore?.(saved.sections[name]);
+      }
     } else loadDemo();
     analyse();
     return wasm_bindgen;

@@ -184,23 +184,18 @@ function pointToThisSection() {
   }
 }
 
-// A saved page brings back the points that were clicked out, once, for
-// the table it was saved with.
-let savedRestored = false;
+// A saved page brings back the points that were clicked out; they are kept
+// as long as the table is the one they were saved with.
 window.turnover.keepState('dose', {
   save: () => ({ text: excludedFor, lines: [...excluded] }),
+  restore: (saved) => {
+    excludedFor = saved.text;
+    for (const line of saved.lines ?? []) excluded.add(line);
+  },
   text: () => (lastResult ? window.turnover.ui.fitAsText(`Dose-response fit, ${lastResult.fit.model}`, lastResult.fit) : []),
 });
 
 function analyseDose(sent) {
-  if (!savedRestored) {
-    savedRestored = true;
-    const saved = window.turnover.saved('dose');
-    if (saved && saved.text === sent.text) {
-      excludedFor = saved.text;
-      for (const line of saved.lines ?? []) excluded.add(line);
-    }
-  }
   lastSent = sent;
   const results = $('dose-results');
   if (!wasm_bindgen.isDoseTable(sent.text)) {

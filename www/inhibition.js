@@ -128,11 +128,15 @@ function pointToThisSection() {
   }
 }
 
-// A saved page brings back the rates that were clicked out, once, for the
-// table it was saved with.
-let savedRestored = false;
+// A saved page brings back the rates that were clicked out; they are kept
+// as long as the table is the one they were saved with.
 window.turnover.keepState('inhibition', {
   save: () => ({ text: excludedFor, lines: [...excludedLines], cells: [...excludedCells] }),
+  restore: (saved) => {
+    excludedFor = saved.text;
+    for (const line of saved.lines ?? []) excludedLines.add(line);
+    for (const cellKey of saved.cells ?? []) excludedCells.add(cellKey);
+  },
   text: () => {
     if (!lastResult) return [];
     const fit = lastResult.fits.find((f) => f.model === lastResult.shown) ?? lastResult.fits[0];
@@ -142,15 +146,6 @@ window.turnover.keepState('inhibition', {
 });
 
 function analyseInhibition(sent) {
-  if (!savedRestored) {
-    savedRestored = true;
-    const saved = window.turnover.saved('inhibition');
-    if (saved && saved.text === sent.text) {
-      excludedFor = saved.text;
-      for (const line of saved.lines ?? []) excludedLines.add(line);
-      for (const cellKey of saved.cells ?? []) excludedCells.add(cellKey);
-    }
-  }
   lastSent = sent;
   const results = $('inhibition-results');
   if (!wasm_bindgen.isInhibitionTable(sent.text)) {

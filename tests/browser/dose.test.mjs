@@ -65,6 +65,15 @@ async function loadDoseDemo(page) {
     null, { timeout: 20_000 });
 }
 
+// Clicks the `index`-th point of the dose-response plot; returns its position record.
+async function clickDosePoint(page, index) {
+  await page.locator('#plot-dose').scrollIntoViewIfNeeded();
+  const target = (await page.evaluate(() => window.turnover.dose.pointPositions()))[index];
+  const box = await (await page.$('#plot-dose')).boundingBox();
+  await page.mouse.click(box.x + target.x, box.y + target.y);
+  return target;
+}
+
 const paramRows = (page) => page.$$eval('#dose-parameters tbody tr',
   (rows) => Object.fromEntries(rows.map((r) => [r.dataset.param, { value: Number(r.dataset.value), se: Number(r.dataset.se), derived: r.classList.contains('derived') }])));
 
@@ -203,10 +212,7 @@ test('a click on a dose-response point leaves it out and refits', { timeout: 60_
   const { page, errors } = await openPage();
   await loadDoseDemo(page);
   const before = await page.evaluate(() => window.turnover.dose.lastResult());
-  await page.locator('#plot-dose').scrollIntoViewIfNeeded();
-  const target = (await page.evaluate(() => window.turnover.dose.pointPositions()))[6];
-  const box = await (await page.$('#plot-dose')).boundingBox();
-  await page.mouse.click(box.x + target.x, box.y + target.y);
+  const target = await clickDosePoint(page, 6);
   const after = await nextDoseResult(page, JSON.stringify(before.fit.parameters));
   assert.equal(after.fit.n, before.fit.n - 1);
   assert.deepEqual(after.points.filter((p) => p.excluded).map((p) => p.row), [target.row]);
@@ -218,10 +224,7 @@ test('a saved page keeps the dose-response points that were clicked out', { time
   const { page, errors } = await openPage();
   await loadDoseDemo(page);
   const before = await page.evaluate(() => window.turnover.dose.lastResult());
-  await page.locator('#plot-dose').scrollIntoViewIfNeeded();
-  const target = (await page.evaluate(() => window.turnover.dose.pointPositions()))[6];
-  const box = await (await page.$('#plot-dose')).boundingBox();
-  await page.mouse.click(box.x + target.x, box.y + target.y);
+  const target = await clickDosePoint(page, 6);
   const after = await nextDoseResult(page, JSON.stringify(before.fit.parameters));
   const [download] = await Promise.all([page.waitForEvent('download'), page.locator('button#save-page').click()]);
   const savedPath = join(shotDir, 'saved-dose-page.html');

@@ -467,13 +467,12 @@ test('f. profile-likelihood intervals and weighting are chosen in the page', { t
     assert.equal(sig(num(km.high, 'Km ci high')), sig(0.08616), 'Km profile high');
     const method = await page.locator('#method').textContent();
     assert.match(method, /profile-likelihood/, 'the method line names the interval method');
-    const kmBefore = num(km.low, 'Km');
-    const beforeWeights = JSON.stringify(await readFit(page));
+    const unweighted = await readFit(page);
+    const beforeWeights = JSON.stringify(unweighted);
     await page.locator('select#weighting').selectOption('relative');
     await settleAfter(page, beforeWeights);
     const weighted = await readFit(page);
-    assert.notEqual(num(weighted.params.Km.value, 'Km'), 0.06412128191519667, 'relative weighting changes Km');
-    assert.ok(Number.isFinite(kmBefore));
+    assert.notEqual(num(weighted.params.Km.value, 'Km'), num(unweighted.params.Km.value, 'Km'), 'relative weighting changes Km');
     assert.match(await page.locator('#method').textContent(), /1\/v²/, 'the method line names the weighting');
     await screenshot(page, 'profile-relative.png');
     assertClean(watch);

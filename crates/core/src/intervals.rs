@@ -296,7 +296,9 @@ pub fn bootstrap(model: &dyn Model, data: &Observations, fit: &Fit, settings: &B
 
 /// Replaces the intervals of the fitted parameters in `summary` (the first
 /// `p` entries) by profile or bootstrap intervals; asymptotic leaves them.
-/// Returns `(resamples, failures)` when a bootstrap ran. Warnings about
+/// Returns the bootstrap sample when the method is bootstrap (empty when
+/// the fit itself did not converge), so that callers can derive further
+/// constants from the same resamples. Warnings about
 /// open profile ends or failed refits go into `summary.warnings`. The
 /// interval step every analysis shares, so that a `--ci` choice is never
 /// silently ignored.
@@ -307,7 +309,7 @@ pub fn apply_interval_method(
     fit: &Fit,
     method: IntervalMethod,
     settings: &BootstrapSettings,
-) -> Result<Option<(usize, usize)>, crate::Error> {
+) -> Result<Option<BootstrapSample>, crate::Error> {
     let p = fit.values().len();
     match method {
         IntervalMethod::Asymptotic => Ok(None),
@@ -337,7 +339,7 @@ pub fn apply_interval_method(
             }
             if !fit.summary.converged {
                 summary.warnings.push("No bootstrap was run because the fit itself did not converge.".to_string());
-                return Ok(Some((0, 0)));
+                return Ok(Some(BootstrapSample { estimates: Vec::new(), failures: 0 }));
             }
             let sample = bootstrap(model, data, fit, settings);
             for j in 0..p {
@@ -354,7 +356,7 @@ pub fn apply_interval_method(
                     sample.failures, settings.resamples
                 ));
             }
-            Ok(Some((settings.resamples, sample.failures)))
+            Ok(Some(sample))
         }
     }
 }

@@ -7,7 +7,7 @@
 use crate::diagnostics::{residual_diagnostics, ResidualDiagnostics};
 use crate::error::Error;
 use crate::fit::{estimate, fit_model, Fit, FitSettings, FitSummary, ParameterEstimate};
-use crate::intervals::{apply_interval_method, bootstrap, percentile_interval, profile_interval, BootstrapScheme, BootstrapSettings, IntervalMethod};
+use crate::intervals::{apply_interval_method, percentile_interval, profile_interval, BootstrapScheme, BootstrapSettings, IntervalMethod};
 use crate::model::{Dimension, Model, Observations};
 use crate::models::{model_by_name, MichaelisMentenSpecificity};
 use crate::plots::{diagnostic_plots, rate_plots, AxisUnits, PlotData, RatePoint};
@@ -629,37 +629,27 @@ fn bootstrap_intervals(
     kcat_factor: Option<f64>,
     specificity_factor: Option<f64>,
 ) -> Result<BootstrapReport, Error> {
-    if settings.resamples < 100 || settings.resamples > 100_000 {
-        return Err(Error::invalid_option("the number of bootstrap resamples must be between 100 and 100,000"));
-    }
-    if !fit.summary.converged {
-        summary.warnings.push("No bootstrap was run because the fit itself did not converge.".to_string());
-        return Ok(BootstrapReport { resamples: 0, failures: 0, seed: settings.seed, scheme: settings.scheme });
-    }
-    let sample = bootstrap(model, data, fit, settings);
-    let level = summary.confidence_level;
-    let n_fitted = fit.values().len();
+    // The fitted constants go through the step every analysis shares; the
+    // derived ones are computed from the same resamples.
+    let sample = apply_interval_method(summary, model, data, fit, IntervalMethod::Bootstrap, settings)?
+        .expect("the bootstrap method returns its sample");
     let column = |f: &dyn Fn(&[f64]) -> f64| -> Vec<f64> { sample.estimates.iter().map(|p| f(p)).collect() };
-    let mut quantities: Vec<Vec<f64>> = (0..n_fitted).map(|j| column(&|p| p[j])).collect();
+    let mut derived: Vec<Vec<f64>> = Vec::new();
     if let Some(factor) = kcat_factor {
-        quantities.push(column(&|p| p[0] * factor));
+        derived.push(column(&|p| p[0] * factor));
     }
     if let Some(scale) = specificity_factor {
-        quantities.push(column(&|p| scale * p[0] / p[1]));
+        derived.push(column(&|p| scale * p[0] / p[1]));
     }
-    for (estimate, values) in summary.parameters.iter_mut().zip(&quantities) {
-        let (low, high) = percentile_interval(values, level);
+    let n_fitted = fit.values().len();
+    for (estimate, values) in summary.parameters[n_fitted..].iter_mut().zip(&derived) {
+        let (low, high) = percentile_interval(values, summary.confidence_level);
         estimate.ci_low = low;
         estimate.ci_high = high;
-        estimate.ci_method = "bootstrap".to_string();
+        estimate.ci_method = IntervalMethod::Bootstrap.name().to_string();
     }
-    if sample.failures * 20 > settings.resamples {
-        summary.warnings.push(format!(
-            "{} of {} bootstrap refits did not converge and were left out; the intervals may be too narrow.",
-            sample.failures, settings.resamples
-        ));
-    }
-    Ok(BootstrapReport { resamples: settings.resamples, failures: sample.failures, seed: settings.seed, scheme: settings.scheme })
+    let resamples = if fit.summary.converged { settings.resamples } else { 0 };
+    Ok(BootstrapReport { resamples, failures: sample.failures, seed: settings.seed, scheme: settings.scheme })
 }
 
 #[cfg(test)]
