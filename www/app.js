@@ -37,20 +37,16 @@ const DEMO_TABLE = `# Demo (invented data): hydrolase Hyd-3, 30 °C, pH 7.5, [E]
 const $ = (id) => document.getElementById(id);
 
 const state = {
-  excluded: new Set(),
-  // True while the [E]t field holds the demo's value, so that pasting
-  // one's own data does not silently reuse the demo enzyme concentration.
-  enzymeFromDemo: false,
   result: null,
   positions: {},
   error: null,
 };
 
+const store = window.turnoverStore;
+let workspace = null;
 let workbench = null;
 // The standing caution, as the core words it (the rate result carries it).
 const CAUTION_TEXT = () => state.result?.caution ?? $('caution').textContent;
-// The saved state this page was opened with, if any.
-let openedState = null;
 // The WebAssembly bytes as unpacked, kept for www/traces.js, which hands
 // them to its Web Worker. Null when the core was loaded from a file.
 let wasmBinary = null;
@@ -58,7 +54,10 @@ let wasmBinary = null;
 async function startWasm() {
   const holder = $('turnover-wasm');
   if (holder) {
-    let binary = Uint8Array.from(atob(holder.textContent.trim()), (c) => c.charCodeAt(0));
+    // A plain loop: Uint8Array.from(atob(...), fn) calls a function per byte.
+    const text = atob(holder.textContent.trim());
+    let binary = new Uint8Array(text.length);
+    for (let i = 0; i < text.length; i++) binary[i] = text.charCodeAt(i);
     if (holder.dataset.encoding === 'gzip') {
       if (typeof DecompressionStream === 'undefined') {
         throw new Error('this browser is too old to unpack the page (it lacks DecompressionStream); use a current Chrome, Edge, Firefox or Safari');
@@ -74,30 +73,55 @@ async function startWasm() {
   return wasm_bindgen({ module_or_path: '../target/pkg/turnover_wasm_bg.wasm' });
 }
 
-function request() {
-  const enzymeText = $('enzyme').value.trim().replace(',', '.');
-  const enzyme = enzymeText === '' ? null : Number(enzymeText);
-  return {
-    text: $('data-input').value,
-    model: 'mm',
-    substrate_unit: $('substrate-unit').value || null,
-    rate_unit: $('rate-unit').value || null,
-    enzyme: enzyme === null || Number.isNaN(enzyme) ? (enzymeText === '' ? null : -1) : enzyme,
-    enzyme_unit: $('enzyme-unit').value,
-    excluded_lines: [...state.excluded],
-    weighting: $('weighting').value,
-    interval_method: $('interval-method').value,
-    bootstrap: {
-      resamples: wholeNumber($('resamples').value, 2000),
-      seed: wholeNumber($('seed').value, 1),
-      scheme: $('resample-by').value,
-    },
-  };
+/** A number typed into a field, as the page reads it: null when empty,
+ *  NaN when it is not a plain number. A decimal comma is accepted. */
+function typedNumber(text) {
+  const trimmed = String(text).trim();
+  if (trimmed === '') return null;
+  if (!/^[-+]?(\d+([.,]\d*)?|[.,]\d+)([eE][-+]?\d+)?$/.test(trimmed)) return NaN;
+  return Number(trimmed.replace(',', '.'));
 }
 
-function wholeNumber(text, fallback) {
-  const value = Number(String(text).trim());
-  return Number.isInteger(value) && value >= 0 ? value : fallback;
+/** The rate section's settings as the core's request, from the document
+ *  alone; `problems` lists every field that could not be read as typed. */
+function rateRequest(doc) {
+  const r = doc.rates;
+  const problems = [];
+  const enzyme = typedNumber(r.enzyme);
+  if (Number.isNaN(enzyme) || (enzyme !== null && enzyme <= 0)) {
+    problems.push(`[E]t: '${r.enzyme}' is not a positive number, so kcat and kcat/Km are not computed. Type the total enzyme concentration (for example 25) and choose its unit, or leave the field empty.`);
+  }
+  const whole = (text, label) => {
+    const value = typedNumber(text);
+    if (value === null || !Number.isInteger(value) || value < 0) {
+      problems.push(`${label}: '${text}' is not a whole number.`);
+      return null;
+    }
+    return value;
+  };
+  const bootstrap = r.interval_method === 'bootstrap';
+  const resamples = bootstrap ? whole(r.resamples, 'Bootstrap resamples') : typedNumber(r.resamples);
+  const seed = bootstrap ? whole(r.seed, 'Bootstrap seed') : typedNumber(r.seed);
+  const request = {
+    text: r.text,
+    model: 'mm',
+    substrate_unit: r.substrate_unit || null,
+    rate_unit: r.rate_unit || null,
+    enzyme: enzyme !== null && Number.isFinite(enzyme) && enzyme > 0 ? enzyme : null,
+    enzyme_unit: r.enzyme_unit,
+    excluded_lines: [...r.excluded_lines],
+    weighting: r.weighting,
+    interval_method: r.interval_method,
+    bootstrap: {
+      resamples: Number.isInteger(resamples) && resamples >= 0 ? resamples : 2000,
+      seed: Number.isInteger(seed) && seed >= 0 ? seed : 1,
+      scheme: r.resample_by,
+    },
+  };
+  // A bootstrap setting that cannot be read stops the fit rather than
+  // being replaced quietly by a default.
+  const blocking = bootstrap && problems.some((p) => p.startsWith('Bootstrap'));
+  return { request, problems, blocking };
 }
 
 const METHOD_TEXT = {
@@ -153,9 +177,10 @@ function element(tag, attributes = {}, text) {
   return node;
 }
 
-function showProblems(problems, fatal) {
+function showProblems(problems, fatal, fieldProblems = []) {
   const box = $('input-problems');
   box.replaceChildren();
+  for (const text of fieldProblems) box.append(element('p', { class: 'field-problem' }, text));
   if (!problems.length && !fatal) return;
   if (fatal) {
     box.append(element('h4', {}, 'No fit could be made'), element('p', {}, fatal));
@@ -294,7 +319,7 @@ function showRateLaws() {
   if (!$('rate-laws').open || !state.result) return;
   let view;
   try {
-    view = workbench.compare_rate_laws(request());
+    view = workbench.compare_rate_laws(rateRequest(workspace.doc).request);
   } catch (error) {
     verdict.textContent = `No comparison: ${error?.message ?? error}`;
     return;
@@ -349,57 +374,142 @@ function drawPlots() {
   }
 }
 
-// Other page modules (inhibition.js) ask to hear of every analysis; each
-// hook receives the request that was analysed.
-const analysedHooks = [];
-function notifyAnalysed() {
-  const sent = request();
-  for (const hook of analysedHooks) {
-    try {
-      hook(sent);
-    } catch (error) {
-      console.warn(`analysis hook: ${error?.message ?? error}`);
+// ------------------------------------------------------------ derived results
+
+// Every result on the page is a function of the document. `derived`
+// recomputes one when the parts of the document it reads change (compared
+// by a key made from them), at once after a discrete edit, or shortly
+// after typing stops; meanwhile the shown result is marked out of date
+// (`stale(true)`), and `fresh()` says whether it matches the document.
+const derivations = [];
+let typing = false;
+
+function derived({ key, compute, stale }) {
+  let shownKey;
+  let timer = null;
+  const run = () => {
+    clearTimeout(timer);
+    timer = null;
+    const k = key(workspace.doc);
+    if (k === shownKey) return;
+    shownKey = k;
+    stale?.(false);
+    compute(workspace.doc);
+  };
+  const entry = {
+    flush: run,
+    fresh: () => timer === null && shownKey === key(workspace.doc),
+    forget: () => { shownKey = undefined; },
+  };
+  derivations.push(entry);
+  workspace.view((doc) => {
+    if (key(doc) === shownKey) {
+      if (timer !== null) {
+        clearTimeout(timer);
+        timer = null;
+        stale?.(false);
+      }
+      return;
     }
-  }
+    if (typing) {
+      stale?.(true);
+      clearTimeout(timer);
+      timer = setTimeout(run, 350);
+    } else run();
+  });
+  return entry;
 }
 
-function analyse() {
+/** Brings every result up to date with the document now. */
+function flushAll() {
+  for (const d of derivations) d.flush();
+}
+
+/** Dispatches an edit made by typing: one undo step per burst of typing,
+ *  results recomputed when the typing pauses. */
+function typed(edit, coalesce) {
+  typing = true;
   try {
-    analyseRates();
+    workspace.dispatch(edit, { coalesce });
   } finally {
-    notifyAnalysed();
+    typing = false;
   }
 }
 
-function analyseRates() {
+function markStale(on) {
+  for (const id of ['fit-panel', 'plots-panel']) $(id).classList.toggle('stale', on);
+  if (on) {
+    $('status').dataset.state = 'stale';
+    $('status').textContent = 'Out of date: the inputs changed; refitting when you pause…';
+  }
+}
+
+function computeRates(doc) {
+  const { request, problems, blocking } = rateRequest(doc);
+  if (!request.text.trim()) {
+    state.result = null;
+    state.error = null;
+    showProblems([], null, problems);
+    $('notes').replaceChildren();
+    clearResult('No table yet: paste [S] and v above, open a file, or load the demo.');
+    $('status').dataset.state = 'idle';
+    return;
+  }
+  if (blocking) {
+    state.result = null;
+    state.error = problems.join(' ');
+    showProblems([], null, problems);
+    $('notes').replaceChildren();
+    clearResult(`No fit: ${problems.join(' ')}`);
+    return;
+  }
   let result;
   try {
-    result = workbench.analyse(request());
+    result = workbench.analyse(request);
   } catch (error) {
     const message = error?.message ?? String(error);
     state.result = null;
     state.error = message;
-    showProblems([], message);
+    showProblems([], message, problems);
     $('notes').replaceChildren();
     clearResult(`No fit: ${message}`);
     return;
   }
   state.result = result;
   state.error = null;
-  showProblems(result.problems, null);
+  showProblems(result.problems, null, problems);
   showResult(result);
+  if (problems.length && $('status').dataset.state === 'ok') $('status').dataset.state = 'warn';
   drawPlots();
   showRateLaws();
 }
 
-let pending = null;
-function analyseSoon() {
-  clearTimeout(pending);
-  pending = setTimeout(analyse, 350);
+/** The rate section fits [S] and v. An inhibitor series or a dose-response
+ *  table has its own section; say so here instead of leaving a "no fit"
+ *  or a meaningless Michaelis-Menten fit unexplained. */
+function pointToOtherSection(text) {
+  const status = $('status');
+  let pointer = null;
+  let meaningless = '';
+  if (wasm_bindgen.isInhibitionTable(text)) {
+    pointer = 'This table is an inhibitor series: the global fits of every mechanism are in the inhibitor-series section below.';
+    meaningless = 'Note: this fit pools every [I] and ignores the inhibitor.';
+  } else if (wasm_bindgen.isDoseTable(text)) {
+    pointer = 'This table is an inhibitor series ([I] and a response, no [S]): its IC50 fit is in the dose-response section below.';
+    meaningless = 'Note: the Michaelis-Menten fit here reads [I] as [S] and means nothing.';
+  }
+  if (!pointer) return;
+  status.dataset.state = 'warn';
+  if (state.error) {
+    status.textContent = pointer;
+    $('input-problems').replaceChildren();
+  } else {
+    status.textContent = `${status.textContent} ${meaningless} ${pointer}`;
+  }
 }
 
 function toggleAt(canvas, event) {
-  if (!state.result) return;
+  if (!state.result || !rates.fresh()) return;
   const kind = canvas.dataset.kind;
   const scaleX = canvas.width / canvas.clientWidth;
   const scaleY = canvas.height / canvas.clientHeight;
@@ -416,10 +526,7 @@ function toggleAt(canvas, event) {
     }
   }
   if (!best) return;
-  const line = state.result.points[best.row].line;
-  if (state.excluded.has(line)) state.excluded.delete(line);
-  else state.excluded.add(line);
-  analyse();
+  workspace.dispatch({ type: 'toggle point', section: 'rates', line: state.result.points[best.row].line });
 }
 
 /** One fit record as tab-separated lines: a header, one row per constant,
@@ -439,15 +546,18 @@ function fitAsText(title, fit) {
 }
 
 function resultsAsText() {
-  const lines = [`# Turnover ${wasm_bindgen.version()} · ${new Date().toISOString()}`];
+  flushAll();
+  const doc = workspace.doc;
+  const lines = [`# Turnover ${wasm_bindgen.version()} · ${new Date().toISOString()} · analysis: ${doc.name}`];
+  if (doc.demo.length) lines.push('# this analysis holds demo data (invented, not measured)');
   if (state.result) {
     lines.push(...fitAsText('Rate fit', state.result.fit));
     const excluded = state.result.points.filter((p) => p.excluded).map((p) => p.line);
     if (excluded.length) lines.push(`# left out: input line(s) ${excluded.join(', ')}`);
   }
   // Other sections add their own results (inhibitor series, dose-response).
-  for (const [name, keeper] of stateKeepers) {
-    const extra = keeper.text?.();
+  for (const [name, text] of sectionTexts) {
+    const extra = text();
     if (extra && extra.length) lines.push('', `# ${name}`, ...extra);
   }
   lines.push('', `# ${CAUTION_TEXT()}`);
@@ -463,142 +573,316 @@ function download(name, type, content) {
   setTimeout(() => URL.revokeObjectURL(url), 1000);
 }
 
-// Form fields of every section (time courses, dose-response, ...) are kept
-// by id, so a saved page reopens with each section as it was. The rate
-// panel's own fields travel in `request`; file choosers are never saved.
-const SECTION_FIELDS = 'main input[id], main select[id], main textarea[id]';
-const RATE_PANEL = new Set(['data-input', 'substrate-unit', 'rate-unit', 'enzyme', 'enzyme-unit', 'weighting',
-  'interval-method', 'resamples', 'seed', 'resample-by', 'file-input']);
+// ------------------------------------------------------------ the document's controls
 
-function collectFields() {
-  const fields = {};
-  for (const el of document.querySelectorAll(SECTION_FIELDS)) {
-    if (RATE_PANEL.has(el.id) || el.type === 'file') continue;
-    fields[el.id] = el.type === 'checkbox' || el.type === 'radio' ? { checked: el.checked } : { value: el.value };
+/** Shows a document field in a control and turns the control's changes
+ *  into edits. Text fields dispatch as you type (one undo step per burst);
+ *  the others on change. */
+function bindField(id, path, { table = false } = {}) {
+  const el = $(id);
+  const isBox = el.type === 'checkbox';
+  const isText = el.tagName === 'TEXTAREA' || (el.tagName === 'INPUT' && !isBox);
+  const type = table ? 'set table' : 'set field';
+  if (isText) {
+    el.addEventListener('input', () => typed({ type, path, value: el.value }, path));
+  } else {
+    el.addEventListener('change', () => workspace.dispatch({ type, path, value: isBox ? el.checked : el.value }));
   }
-  return fields;
-}
-
-function restoreFields(fields) {
-  for (const [id, saved] of Object.entries(fields ?? {})) {
-    const el = document.getElementById(id);
-    if (!el || el.type === 'file') continue;
-    if ('checked' in saved) el.checked = Boolean(saved.checked);
-    else el.value = saved.value;
-  }
-}
-
-// Modules that keep choices beyond form fields (a trace's window, say)
-// register here to have them saved and restored.
-const stateKeepers = new Map();
-
-function savedState() {
-  const sections = {};
-  for (const [name, keeper] of stateKeepers) {
-    try {
-      sections[name] = keeper.save();
-    } catch (error) {
-      console.warn(`could not save the ${name} section: ${error?.message ?? error}`);
+  workspace.view((doc) => {
+    const value = store.getPath(doc, path);
+    if (isBox) {
+      if (el.checked !== value) el.checked = value;
+    } else if (el.value !== value) {
+      el.value = value;
+      // A select that does not offer the value shows it as unknown rather
+      // than quietly showing its first option.
+      if (el.tagName === 'SELECT' && el.value !== value) el.selectedIndex = -1;
     }
+  });
+}
+
+// Sections' texts for "Copy results", by name.
+const sectionTexts = new Map();
+
+// Demo documents, by kind: each module adds its own part.
+const demoParts = new Map();
+
+/** A demo as an analysis of its own, named as the demo. */
+function demoDocument(kind) {
+  const kinds = kind === 'start' ? ['rates', 'plate'] : [kind];
+  let doc = store.blankDocument();
+  const names = [];
+  for (const k of kinds) {
+    const part = demoParts.get(k);
+    if (!part) continue;
+    doc = part.build(doc);
+    names.push(part.name);
   }
-  return {
-    format: 'turnover-saved-state',
-    version: 1,
-    fields: collectFields(),
-    sections,
-    saved_at: new Date().toISOString(),
-    turnover_version: wasm_bindgen.version(),
-    request: request(),
-    // The results as they were when saved, for reading without refitting.
-    results: state.result ? { fit: state.result.fit, points: state.result.points, problems: state.result.problems } : null,
-  };
+  return { ...doc, name: `Demo: ${names.join(' and ')} (invented data)` };
+}
+
+function loadDemo(kind) {
+  workspace.dispatch({ type: 'load demo', document: demoDocument(kind) });
+}
+
+demoParts.set('rates', {
+  name: 'hydrolase Hyd-3 rates',
+  build: (doc) => ({
+    ...doc,
+    demo: [...new Set([...doc.demo, 'rates'])],
+    rates: { ...doc.rates, text: DEMO_TABLE, substrate_unit: '', rate_unit: '', enzyme: '25', enzyme_unit: 'nM', excluded_lines: [] },
+  }),
+});
+
+// ------------------------------------------------------------ analyses kept in this browser
+
+let refusedText = null;
+
+/** Says, once and plainly, that a document was refused, and keeps the
+ *  refused text for download; the current analysis is untouched. */
+function refuse(what, reason, text) {
+  refusedText = text;
+  const box = $('document-problem');
+  box.hidden = false;
+  $('document-problem-text').textContent = `${what} was not opened: ${reason}. Your current analysis is unchanged.`;
+}
+
+function info(text, withFreshButton = false) {
+  $('restore-info').textContent = text;
+  $('start-fresh').hidden = !withFreshButton;
+  $('restore-line').hidden = !text;
+}
+
+function formatWhen(iso) {
+  if (!iso) return 'an unknown date';
+  const d = new Date(iso);
+  if (Number.isNaN(d.getTime())) return 'an unknown date';
+  const pad = (n) => String(n).padStart(2, '0');
+  return `${d.getFullYear()}-${pad(d.getMonth() + 1)}-${pad(d.getDate())} ${pad(d.getHours())}:${pad(d.getMinutes())}`;
+}
+
+function renderBar() {
+  const doc = workspace.doc;
+  const name = $('analysis-name');
+  if (document.activeElement !== name && name.value !== doc.name) name.value = doc.name;
+  const list = $('analysis-list');
+  const entries = workspace.shelf.index();
+  if (!entries.some((e) => e.id === doc.id)) entries.unshift({ id: doc.id, name: doc.name, updated: null });
+  list.replaceChildren(...entries.map((e) => {
+    const option = element('option', { value: e.id }, `${e.name} · ${e.updated ? formatWhen(e.updated) : 'not kept'}`);
+    option.selected = e.id === doc.id;
+    return option;
+  }));
+  const undo = workspace.undoLabel();
+  const redo = workspace.redoLabel();
+  $('undo').disabled = !undo;
+  $('redo').disabled = !redo;
+  $('undo').title = undo ? `Undo: ${undo} (Ctrl+Z)` : 'Nothing to undo';
+  $('redo').title = redo ? `Redo: ${redo} (Ctrl+Shift+Z)` : 'Nothing to redo';
+  $('demo-banner').hidden = !doc.demo.length;
+  document.title = `${doc.name} · Turnover`;
+}
+
+function openStored(id) {
+  const stored = workspace.shelf.load(id);
+  if (!stored) return;
+  let value;
+  try {
+    value = JSON.parse(stored.text);
+  } catch (error) {
+    refuse('The stored analysis', `it is not valid JSON (${error.message})`, stored.text);
+    renderBar();
+    return;
+  }
+  const checked = store.validateDocument(value);
+  if (checked.error) {
+    refuse('The stored analysis', checked.error, stored.text);
+    renderBar();
+    return;
+  }
+  workspace.dispatch({ type: 'open analysis', document: checked.document });
+  info(`Opened “${checked.document.name}”, last changed ${formatWhen(stored.updated)}.`);
+}
+
+/** Opens a document read from a file or a link as a new analysis. */
+function openImported(text, what) {
+  const checked = store.readDocumentText(text);
+  if (checked.error) {
+    refuse(what, checked.error, text);
+    return false;
+  }
+  $('document-problem').hidden = true;
+  workspace.dispatch({ type: 'import document', document: { ...checked.document, id: store.newId() } });
+  info(`Opened ${what.toLowerCase()}${checked.migrated ? ', written by an earlier version of Turnover and brought up to date' : ''}.`);
+  return true;
+}
+
+function exportSession() {
+  const doc = workspace.doc;
+  const stamp = new Date().toISOString().slice(0, 16).replace(/[:T]/g, '-');
+  const safe = doc.name.replace(/[^\w.-]+/g, '-').replace(/^-+|-+$/g, '').slice(0, 40) || 'analysis';
+  download(`turnover-${safe}-${stamp}.json`, 'application/json', `${JSON.stringify(doc, null, 1)}\n`);
+}
+
+async function shareLink() {
+  const out = $('share-output');
+  const note = $('share-note');
+  const fragment = await store.linkFragment(workspace.doc);
+  const base = location.href.replace(/#.*$/, '');
+  const link = base + fragment;
+  if (link.length > store.LINK_LIMIT) {
+    out.hidden = true;
+    out.value = '';
+    note.dataset.state = 'warn';
+    note.textContent = `This analysis needs a link of ${link.length.toLocaleString('en')} characters, over the ${store.LINK_LIMIT.toLocaleString('en')} that links can carry safely (mail and chat programs cut longer ones). Use “Export session file” instead and send the file.`;
+    return null;
+  }
+  out.hidden = false;
+  out.value = link;
+  note.dataset.state = 'ok';
+  note.textContent = `Link of ${link.length.toLocaleString('en')} characters. The analysis travels after the “#”, which browsers never send to any server; whoever opens the link needs this same page file.`;
+  try {
+    await navigator.clipboard.writeText(link);
+    note.textContent += ' Copied.';
+  } catch { /* the link stays in the box to copy by hand */ }
+  return link;
 }
 
 function savePage() {
-  const json = JSON.stringify(savedState()).replace(/</g, '\\u003c');
+  const json = JSON.stringify(workspace.doc).replace(/</g, '\\u003c');
   const marker = /(<script type="application\/json" id="turnover-saved-state">)[\s\S]*?(<\/script>)/;
   const page = PRISTINE_PAGE.replace(marker, (_, open, close) => open + json + close);
   const stamp = new Date().toISOString().slice(0, 16).replace(/[:T]/g, '-');
   download(`turnover-${stamp}.html`, 'text/html', page);
 }
 
-function restore(saved) {
-  const r = saved.request ?? {};
-  $('data-input').value = r.text ?? '';
-  $('substrate-unit').value = r.substrate_unit ?? '';
-  $('rate-unit').value = r.rate_unit ?? '';
-  $('enzyme').value = r.enzyme ?? '';
-  if (r.enzyme_unit) $('enzyme-unit').value = r.enzyme_unit;
-  state.excluded = new Set(r.excluded_lines ?? []);
-  if (r.weighting) $('weighting').value = r.weighting;
-  if (r.interval_method) $('interval-method').value = r.interval_method;
-  if (r.bootstrap) {
-    $('resamples').value = r.bootstrap.resamples ?? 2000;
-    $('seed').value = r.bootstrap.seed ?? 1;
-    $('resample-by').value = r.bootstrap.scheme ?? 'residual';
-  }
-  $('bootstrap-options').hidden = $('interval-method').value !== 'bootstrap';
-  $('saved-info').textContent = `opened a saved analysis from ${saved.saved_at}`;
+function isTextField(target) {
+  if (!target) return false;
+  if (target.isContentEditable) return true;
+  if (target.tagName === 'TEXTAREA') return true;
+  return target.tagName === 'INPUT' && !['checkbox', 'radio', 'button', 'submit', 'file', 'range', 'color'].includes(target.type);
 }
 
-function loadDemo() {
-  $('data-input').value = DEMO_TABLE;
-  $('substrate-unit').value = '';
-  $('rate-unit').value = '';
-  $('enzyme').value = '25';
-  $('enzyme-unit').value = 'nM';
-  state.enzymeFromDemo = true;
-  state.excluded.clear();
+function wireBar() {
+  $('undo').addEventListener('click', () => workspace.undo());
+  $('redo').addEventListener('click', () => workspace.redo());
+  document.addEventListener('keydown', (event) => {
+    if (!(event.ctrlKey || event.metaKey) || event.altKey || isTextField(event.target)) return;
+    const key = event.key.toLowerCase();
+    if (key === 'z' && !event.shiftKey) {
+      event.preventDefault();
+      workspace.undo();
+    } else if ((key === 'z' && event.shiftKey) || key === 'y') {
+      event.preventDefault();
+      workspace.redo();
+    }
+  });
+  const name = $('analysis-name');
+  name.addEventListener('change', () => {
+    const value = name.value.trim() || store.UNTITLED;
+    workspace.dispatch({ type: 'rename', name: value });
+  });
+  $('analysis-list').addEventListener('change', (event) => {
+    const id = event.target.value;
+    if (id !== workspace.doc.id) openStored(id);
+  });
+  $('analysis-new').addEventListener('click', () => {
+    workspace.dispatch({ type: 'new analysis', document: store.blankDocument() });
+    info('');
+  });
+  $('start-fresh').addEventListener('click', () => {
+    workspace.dispatch({ type: 'new analysis', document: store.blankDocument() });
+    info('Started a new, empty analysis; the one restored before is still in the list (and Undo goes back to it).');
+  });
+  $('analysis-duplicate').addEventListener('click', () => {
+    const doc = workspace.doc;
+    workspace.dispatch({ type: 'duplicate analysis', document: { ...store.clone(doc), id: store.newId(), name: `${doc.name} (copy)`, created: new Date().toISOString() } });
+  });
+  $('analysis-delete').addEventListener('click', () => {
+    const doc = workspace.doc;
+    const other = workspace.shelf.index().find((e) => e.id !== doc.id);
+    let next = null;
+    if (other) {
+      try {
+        const checked = store.validateDocument(JSON.parse(workspace.shelf.load(other.id)?.text ?? 'null'));
+        next = checked.document ?? null;
+      } catch {
+        next = null;
+      }
+    }
+    workspace.dispatch({ type: 'delete analysis', document: next ?? store.blankDocument() });
+    info(`Deleted “${doc.name}”. Undo brings it back.`);
+  });
+  $('export-session').addEventListener('click', exportSession);
+  $('session-input').addEventListener('change', async (event) => {
+    const file = event.target.files?.[0];
+    event.target.value = '';
+    if (!file) return;
+    openImported(await file.text(), `The file ${file.name}`);
+  });
+  $('share-link').addEventListener('click', shareLink);
+  $('download-refused').addEventListener('click', () => {
+    if (refusedText !== null) download('turnover-refused-document.txt', 'text/plain', refusedText);
+  });
+  $('dismiss-problem').addEventListener('click', () => { $('document-problem').hidden = true; });
+  $('save-page').addEventListener('click', savePage);
+  $('copy-results').addEventListener('click', async () => {
+    const text = resultsAsText();
+    try {
+      await navigator.clipboard.writeText(text);
+      $('copy-results').textContent = 'Copied';
+    } catch {
+      download('turnover-results.tsv', 'text/tab-separated-values', text);
+    }
+    setTimeout(() => ($('copy-results').textContent = 'Copy results'), 1500);
+  });
 }
 
-// Called when the table is replaced by the user's own data.
-function forgetDemoEnzyme() {
-  if (state.enzymeFromDemo) {
-    $('enzyme').value = '';
-    state.enzymeFromDemo = false;
-  }
-}
+// ------------------------------------------------------------ the rate section
+
+let rates = null;
 
 function readFile(file) {
   const reader = new FileReader();
-  reader.onload = () => {
-    $('data-input').value = String(reader.result);
-    forgetDemoEnzyme();
-    state.excluded.clear();
-    analyse();
-  };
+  reader.onload = () => workspace.dispatch({ type: 'set table', path: 'rates.text', value: String(reader.result) });
   reader.onerror = () => showProblems([], `Could not read the file ${file.name}.`);
   reader.readAsText(file);
 }
 
-function wire() {
-  $('analyse').addEventListener('click', analyse);
-  $('data-input').addEventListener('input', () => {
-    if (!$('data-input').value.startsWith('# Demo (invented data)')) forgetDemoEnzyme();
-    state.excluded.clear();
-    analyseSoon();
+function wireRates() {
+  bindField('data-input', 'rates.text', { table: true });
+  bindField('substrate-unit', 'rates.substrate_unit');
+  bindField('rate-unit', 'rates.rate_unit');
+  bindField('enzyme', 'rates.enzyme');
+  bindField('enzyme-unit', 'rates.enzyme_unit');
+  bindField('weighting', 'rates.weighting');
+  bindField('interval-method', 'rates.interval_method');
+  bindField('resamples', 'rates.resamples');
+  bindField('seed', 'rates.seed');
+  bindField('resample-by', 'rates.resample_by');
+  bindField('assay-notes', 'notes');
+  workspace.view((doc) => {
+    $('bootstrap-options').hidden = doc.rates.interval_method !== 'bootstrap';
+    const details = $('rate-laws');
+    if (details.open !== doc.rates.compare_laws) details.open = doc.rates.compare_laws;
   });
-  $('data-input').addEventListener('paste', () => setTimeout(() => {
-    if (!$('data-input').value.startsWith('# Demo (invented data)')) forgetDemoEnzyme();
-  }, 0));
-  for (const id of ['substrate-unit', 'rate-unit', 'enzyme-unit', 'weighting', 'resample-by']) $(id).addEventListener('change', analyse);
-  $('interval-method').addEventListener('change', () => {
-    $('bootstrap-options').hidden = $('interval-method').value !== 'bootstrap';
-    analyse();
+  rates = derived({
+    key: (doc) => JSON.stringify(rateRequest(doc)),
+    compute: (doc) => {
+      computeRates(doc);
+      if (doc.rates.text.trim()) pointToOtherSection(doc.rates.text);
+    },
+    stale: markStale,
   });
-  for (const id of ['resamples', 'seed']) $(id).addEventListener('input', analyseSoon);
-  $('enzyme').addEventListener('input', () => {
-    state.enzymeFromDemo = false;
-    analyseSoon();
+  // The comparison is part of the rate view: opening the panel is an edit.
+  $('rate-laws').addEventListener('toggle', () => {
+    const open = $('rate-laws').open;
+    if (open !== workspace.doc.rates.compare_laws) workspace.dispatch({ type: 'set field', path: 'rates.compare_laws', value: open });
+    showRateLaws();
   });
-  $('load-demo').addEventListener('click', () => {
-    loadDemo();
-    analyse();
-  });
-  $('include-all').addEventListener('click', () => {
-    state.excluded.clear();
-    analyse();
-  });
+  $('analyse').addEventListener('click', flushAll);
+  $('load-demo').addEventListener('click', () => loadDemo('rates'));
+  $('include-all').addEventListener('click', () => workspace.dispatch({ type: 'use all points', section: 'rates' }));
   $('file-input').addEventListener('change', (event) => {
     const file = event.target.files?.[0];
     if (file) readFile(file);
@@ -622,27 +906,70 @@ function wire() {
   }
   for (const button of document.querySelectorAll('button.svg')) {
     button.addEventListener('click', () => {
+      rates.flush();
       if (!state.result) return;
       download(`turnover-${button.dataset.kind}.svg`, 'image/svg+xml', workbench.svg(button.dataset.kind, 640, 460));
     });
   }
-  $('rate-laws').addEventListener('toggle', showRateLaws);
-  $('save-page').addEventListener('click', savePage);
-  $('copy-results').addEventListener('click', async () => {
-    const text = resultsAsText();
+}
+
+// ------------------------------------------------------------ start
+
+/** The document the page opens with: a shared link, else the analysis
+ *  saved inside this page file, else the last analysis kept in this
+ *  browser, else the demo. A document that fails validation is refused
+ *  with its reason and the next source is tried. */
+async function openingDocument(shelf) {
+  if (location.hash.startsWith('#doc=')) {
+    let text = null;
     try {
-      await navigator.clipboard.writeText(text);
-      $('copy-results').textContent = 'Copied';
-    } catch {
-      download('turnover-results.tsv', 'text/tab-separated-values', text);
+      text = await store.fragmentText(location.hash);
+    } catch (error) {
+      refuse('The analysis in the link', `the link is damaged (${error?.message ?? error})`, location.hash);
     }
-    setTimeout(() => ($('copy-results').textContent = 'Copy results'), 1500);
-  });
+    history.replaceState(null, '', location.href.replace(/#.*$/, ''));
+    if (text !== null) {
+      const checked = store.readDocumentText(text);
+      if (checked.error) refuse('The analysis in the link', checked.error, text);
+      else return { doc: { ...checked.document, id: store.newId() }, say: `Opened “${checked.document.name}” from a shared link; it is now kept in this browser too.` };
+    }
+  }
+  const embedded = $('turnover-saved-state').textContent.trim();
+  if (embedded && embedded !== 'null') {
+    const checked = store.readDocumentText(embedded);
+    if (checked.error) refuse('The analysis saved in this page', checked.error, embedded);
+    else {
+      const saved = checked.document;
+      const stored = shelf.load(saved.id);
+      if (stored) {
+        const later = store.validateDocument(JSON.parse(stored.text));
+        if (later.document && JSON.stringify(later.document) !== JSON.stringify(saved)) {
+          return { doc: later.document, say: `This page carries a saved analysis; your later changes to it, kept in this browser (${formatWhen(stored.updated)}), were restored.`, fresh: true };
+        }
+      }
+      return { doc: saved, say: `Opened the analysis saved in this page${checked.migrated ? ' by an earlier version of Turnover, brought up to date' : ''}.`, saved: true };
+    }
+  }
+  const currentId = shelf.currentId();
+  if (currentId) {
+    const stored = shelf.load(currentId);
+    if (stored) {
+      let checked;
+      try {
+        checked = store.validateDocument(JSON.parse(stored.text));
+      } catch (error) {
+        checked = { error: `it is not valid JSON (${error.message})` };
+      }
+      if (checked.error) refuse('The analysis kept in this browser', checked.error, stored.text);
+      else return { doc: checked.document, say: `Restored “${checked.document.name}” as you left it (kept in this browser, last change ${formatWhen(stored.updated)}).`, fresh: true };
+    }
+  }
+  return { doc: demoDocument('start'), say: '' };
 }
 
 // For tests and for scripting from the browser console.
-window.turnover = {
-  lastResult: () => state.result,
+Object.assign(window.turnover, {
+  lastResult: () => (rates?.fresh() ? state.result : (rates?.flush(), state.result)),
   resultsText: () => resultsAsText(),
   lastError: () => state.error,
   pointPositions(kind) {
@@ -651,17 +978,28 @@ window.turnover = {
     const sy = canvas.clientHeight / canvas.height;
     return (state.positions[kind] ?? []).map((p) => ({ row: p.row, x: p.x * sx, y: p.y * sy }));
   },
-  analyse,
-  onAnalysed: (hook) => analysedHooks.push(hook),
-  // keepState(name, {save() -> JSON value, restore(value), text() -> lines}):
-  // `restore` is called on opening a saved page, before the first analysis,
-  // for modules registered by then; `saved(name)` serves those that start
-  // later (the time-course section).
-  keepState: (name, keeper) => stateKeepers.set(name, keeper),
+  analyse: flushAll,
+  // Section modules: derive results from the document, add demo parts and
+  // copied text, bind fields. Each call takes effect at once.
+  derived: (spec) => derived(spec),
+  bindField: (...args) => bindField(...args),
+  typed: (edit, coalesce) => typed(edit, coalesce),
+  isTyping: () => typing,
+  dispatch: (edit) => workspace.dispatch(edit),
+  doc: () => workspace.doc,
+  view: (render) => workspace.view(render),
+  addDemo: (kind, part) => demoParts.set(kind, part),
+  loadDemo,
+  addText: (name, text) => sectionTexts.set(name, text),
+  rateRequest: (doc) => rateRequest(doc ?? workspace.doc),
+  undo: () => workspace.undo(),
+  redo: () => workspace.redo(),
+  history: () => ({ undo: workspace.past.length, redo: workspace.future.length }),
   // Small helpers the other page modules share, so that every section
   // formats numbers and downloads files the same way.
   ui: {
     format: formatNumber,
+    typedNumber,
     fitAsText,
     cell(tag, text, attributes = {}) {
       const node = document.createElement(tag);
@@ -671,37 +1009,37 @@ window.turnover = {
     },
     download,
   },
-  saved: (name) => openedState?.sections?.[name],
-  savedFields: () => openedState?.fields,
   wasmBinary: () => wasmBinary,
-};
+});
+
+// The workspace exists before the core starts, so that every module can
+// register its views while the page loads; the first render waits for the
+// core.
+{
+  const shelf = new store.Shelf((message) => {
+    $('storage-info').hidden = false;
+    $('storage-info').textContent = message;
+  });
+  workspace = new store.Workspace({ shelf, onChange: renderBar });
+}
 
 // Other page modules wait on this before calling into the core.
 window.turnover.ready = startWasm()
-  .then(() => {
+  .then(async () => {
     workbench = new wasm_bindgen.Workbench();
     $('version').textContent = wasm_bindgen.version();
-    wire();
-    let saved = null;
-    try {
-      saved = JSON.parse($('turnover-saved-state').textContent);
-    } catch {
-      saved = null;
-    }
-    if (saved && saved.format === 'turnover-saved-state') {
-      openedState = saved;
-      restore(saved);
-      restoreFields(saved.fields);
-      // Sections registered so far get their part back before the first
-      // analysis reaches them.
-      for (const [name, keeper] of stateKeepers) {
-        if (saved.sections?.[name] !== undefined) keeper.restore?.(saved.sections[name]);
-      }
-    } else loadDemo();
-    analyse();
+    wireBar();
+    wireRates();
+    // Let the other modules (already loaded) register before the first render.
+    await Promise.resolve();
+    const opening = await openingDocument(workspace.shelf);
+    workspace.start(opening.doc);
+    info(opening.say, Boolean(opening.fresh));
+    if (opening.saved) $('saved-info').textContent = 'opened a saved analysis';
     return wasm_bindgen;
   })
   .catch((error) => {
     $('status').dataset.state = 'error';
     $('status').textContent = `Turnover could not start its computing core: ${error?.message ?? error}`;
+    console.error(error);
   });

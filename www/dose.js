@@ -41,26 +41,22 @@ const $ = (id) => document.getElementById(id);
 let bench = null;
 let lastResult = null;
 let lastError = null;
-let lastSent = null;
 let positions = [];
-const excluded = new Set();
-let excludedFor = null;
 
 // Shared with the rest of the page (app.js).
-const { format, cell, download } = window.turnover.ui;
-
-// A number typed into a field: null when empty, NaN when unreadable.
-function fieldNumber(id) {
-  const text = $(id).value.trim().replace(',', '.');
-  if (text === '') return null;
-  const value = Number(text);
-  return Number.isFinite(value) ? value : NaN;
-}
+const page = window.turnover;
+const { format, cell, download } = page.ui;
 
 // The options of this section as a request, or a message saying which
 // field is wrong. Nothing unreadable is sent or silently dropped.
-function options() {
-  const morrison = $('dose-model').value === 'morrison';
+function options(d) {
+  const fields = {
+    'dose-enzyme': d.enzyme, 'dose-top': d.top, 'dose-bottom': d.bottom,
+    'dose-cp-substrate': d.cp_substrate, 'dose-cp-km': d.cp_km, 'dose-cp-km-se': d.cp_km_se,
+  };
+  const fieldNumber = (id) => page.ui.typedNumber(fields[id]);
+  const $ = (id) => ({ value: fields[id] });
+  const morrison = d.model === 'morrison';
   const out = { model: morrison ? 'morrison' : 'ic50', enzyme: null, fixed_top: null, fixed_bottom: null, cheng_prusoff: null };
   if (morrison) {
     const enzyme = fieldNumber('dose-enzyme');
@@ -69,13 +65,13 @@ function options() {
     out.enzyme = enzyme;
     return { request: out };
   }
-  for (const [box, field, key, what] of [['dose-fix-top', 'dose-top', 'fixed_top', 'top'], ['dose-fix-bottom', 'dose-bottom', 'fixed_bottom', 'bottom']]) {
-    if (!$(box).checked) continue;
+  for (const [fixed, field, key, what] of [[d.fix_top, 'dose-top', 'fixed_top', 'top'], [d.fix_bottom, 'dose-bottom', 'fixed_bottom', 'bottom']]) {
+    if (!fixed) continue;
     const value = fieldNumber(field);
     if (value === null || Number.isNaN(value)) return { problem: `Fixed ${what}: '${$(field).value}' is not a number.` };
     out[key] = value;
   }
-  const mechanism = $('dose-cp-mechanism').value;
+  const mechanism = d.cp_mechanism;
   if (mechanism) {
     const s = fieldNumber('dose-cp-substrate');
     const km = fieldNumber('dose-cp-km');
@@ -120,7 +116,7 @@ function showParameters(fit) {
   }
 }
 
-function showKi(result, cpProblem) {
+function showKi(result, cpProblem, mechanism) {
   const box = $('dose-ki');
   delete box.dataset.value;
   delete box.dataset.se;
@@ -130,7 +126,7 @@ function showKi(result, cpProblem) {
     return;
   }
   if (cpProblem) {
-    box.dataset.state = $('dose-cp-mechanism').value ? 'warn' : 'idle';
+    box.dataset.state = mechanism ? 'warn' : 'idle';
     box.textContent = cpProblem;
     return;
   }
@@ -170,33 +166,23 @@ function clearPlot() {
   positions = [];
 }
 
-// The rate panel fits [S] and v; an inhibitor series has no [S]. Say where
-// its fit is instead of leaving a meaningless Michaelis-Menten fit unexplained.
-function pointToThisSection() {
-  const status = $('status');
-  const text = 'This table is an inhibitor series ([I] and a response, no [S]): its IC50 fit is in the dose-response section below.';
-  status.dataset.state = 'warn';
-  if (window.turnover.lastError()) {
-    status.textContent = text;
-    $('input-problems').replaceChildren();
-  } else {
-    status.textContent = `Note: the Michaelis-Menten fit here reads [I] as [S] and means nothing. ${text}`;
-  }
+page.addText('Dose-response', () => (lastResult && section.fresh() ? page.ui.fitAsText(`Dose-response fit, ${lastResult.fit.model}`, lastResult.fit) : []));
+
+// What this section reads of the document: the rate table and its
+// settings, and its own options and left-out points.
+function doseInputs(doc) {
+  const { request } = page.rateRequest(doc);
+  return {
+    text: request.text,
+    dose: doc.dose,
+    weighting: request.weighting,
+    interval_method: request.interval_method,
+    bootstrap: request.bootstrap,
+  };
 }
 
-// A saved page brings back the points that were clicked out; they are kept
-// as long as the table is the one they were saved with.
-window.turnover.keepState('dose', {
-  save: () => ({ text: excludedFor, lines: [...excluded] }),
-  restore: (saved) => {
-    excludedFor = saved.text;
-    for (const line of saved.lines ?? []) excluded.add(line);
-  },
-  text: () => (lastResult ? window.turnover.ui.fitAsText(`Dose-response fit, ${lastResult.fit.model}`, lastResult.fit) : []),
-});
-
-function analyseDose(sent) {
-  lastSent = sent;
+function analyseDose(doc) {
+  const sent = doseInputs(doc);
   const results = $('dose-results');
   if (!wasm_bindgen.isDoseTable(sent.text)) {
     results.hidden = true;
@@ -206,17 +192,12 @@ function analyseDose(sent) {
     return;
   }
   bench ??= new wasm_bindgen.DoseBench();
-  if (excludedFor !== sent.text) {
-    excluded.clear();
-    excludedFor = sent.text;
-  }
   $('dose-hint').hidden = true;
   results.hidden = false;
-  pointToThisSection();
-  $('dose-ic50-options').hidden = $('dose-model').value === 'morrison';
-  $('dose-morrison-options').hidden = $('dose-model').value !== 'morrison';
+  $('dose-ic50-options').hidden = sent.dose.model === 'morrison';
+  $('dose-morrison-options').hidden = sent.dose.model !== 'morrison';
   const status = $('dose-status');
-  const chosen = options();
+  const chosen = options(sent.dose);
   if (chosen.problem) {
     lastResult = null;
     lastError = chosen.problem;
@@ -232,7 +213,7 @@ function analyseDose(sent) {
     lastResult = bench.analyse({
       text: sent.text,
       ...chosen.request,
-      excluded_lines: [...excluded],
+      excluded_lines: [...sent.dose.excluded_lines],
       // The rate panel's weighting and interval choices apply here too
       // (weighting by an sd column is refused: these tables have none).
       weighting: sent.weighting,
@@ -264,17 +245,13 @@ function analyseDose(sent) {
   showParameters(fit);
   const problems = result.problems.map((p) => `${p.column ? `line ${p.line}, column ${p.column}` : `line ${p.line}`}: ${p.message} (not used)`);
   $('dose-warnings').replaceChildren(...[...fit.warnings, ...problems, ...result.notes].map((w) => cell('li', w)));
-  showKi(result, chosen.cpProblem);
+  showKi(result, chosen.cpProblem, sent.dose.cp_mechanism);
   $('dose-caution').textContent = result.caution;
   draw(result);
 }
 
-function reanalyse() {
-  if (lastSent) analyseDose(lastSent);
-}
-
 function toggleAt(canvas, event) {
-  if (!lastResult) return;
+  if (!lastResult || !section.fresh()) return;
   const box = canvas.getBoundingClientRect();
   const scaleX = canvas.width / canvas.clientWidth;
   const x = (event.clientX - box.left) * scaleX;
@@ -289,16 +266,17 @@ function toggleAt(canvas, event) {
     }
   }
   if (!best) return;
-  const line = lastResult.points[best.row].line;
-  if (excluded.has(line)) excluded.delete(line);
-  else excluded.add(line);
-  reanalyse();
+  page.dispatch({ type: 'toggle point', section: 'dose', line: lastResult.points[best.row].line });
 }
 
+const section = page.derived({
+  key: (doc) => JSON.stringify(doseInputs(doc)),
+  compute: analyseDose,
+  stale: (on) => $('dose-panel').classList.toggle('stale', on),
+});
 
-window.turnover.onAnalysed(analyseDose);
 window.turnover.dose = {
-  lastResult: () => lastResult,
+  lastResult: () => (section.fresh() ? lastResult : (section.flush(), lastResult)),
   lastError: () => lastError,
   pointPositions() {
     const canvas = $('plot-dose');
@@ -308,26 +286,25 @@ window.turnover.dose = {
   },
 };
 
-$('load-dose-demo').addEventListener('click', () => {
-  $('data-input').value = DOSE_DEMO;
-  $('dose-enzyme').value = '0.2';
-  window.turnover.analyse();
+page.addDemo('dose', {
+  name: 'Kin-9 with compound 12',
+  build: (doc) => ({
+    ...doc,
+    demo: [...new Set([...doc.demo, 'rates', 'dose'])],
+    rates: { ...doc.rates, text: DOSE_DEMO, substrate_unit: '', rate_unit: '', enzyme: '', excluded_lines: [] },
+    dose: { ...doc.dose, enzyme: '0.2', excluded_lines: [] },
+  }),
 });
-$('dose-model').addEventListener('change', reanalyse);
-for (const id of ['dose-fix-top', 'dose-fix-bottom', 'dose-cp-mechanism']) $(id).addEventListener('change', reanalyse);
-let pending = null;
-for (const id of ['dose-top', 'dose-bottom', 'dose-enzyme', 'dose-cp-substrate', 'dose-cp-km', 'dose-cp-km-se']) {
-  $(id).addEventListener('input', () => {
-    clearTimeout(pending);
-    pending = setTimeout(reanalyse, 300);
-  });
+$('load-dose-demo').addEventListener('click', () => page.loadDemo('dose'));
+for (const [id, key] of [['dose-model', 'model'], ['dose-fix-top', 'fix_top'], ['dose-top', 'top'], ['dose-fix-bottom', 'fix_bottom'],
+  ['dose-bottom', 'bottom'], ['dose-enzyme', 'enzyme'], ['dose-cp-mechanism', 'cp_mechanism'], ['dose-cp-substrate', 'cp_substrate'],
+  ['dose-cp-km', 'cp_km'], ['dose-cp-km-se', 'cp_km_se']]) {
+  page.bindField(id, `dose.${key}`);
 }
 $('plot-dose').addEventListener('click', (event) => toggleAt($('plot-dose'), event));
-$('dose-include-all').addEventListener('click', () => {
-  excluded.clear();
-  reanalyse();
-});
+$('dose-include-all').addEventListener('click', () => page.dispatch({ type: 'use all points', section: 'dose' }));
 $('dose-svg').addEventListener('click', () => {
+  section.flush();
   if (!lastResult) return;
   download(`turnover-${lastResult.plots[0]?.kind ?? 'dose'}.svg`, 'image/svg+xml', bench.svg(640, 460));
 });

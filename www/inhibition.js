@@ -36,18 +36,12 @@ const $ = (id) => document.getElementById(id);
 let bench = null;
 let lastResult = null;
 let lastError = null;
-let lastSent = null;
 // Where each point of each plot was drawn, for click-to-exclude.
 const positions = {};
-// Left-out points: whole input lines (long layout, one rate per line) and
-// single cells "line:column" (matrix layout, one rate per [I] on a line).
-const excludedLines = new Set();
-const excludedCells = new Set();
-let excludedFor = null;
 
 // Shared with the rest of the page (app.js).
-const { format, cell, download } = window.turnover.ui;
-
+const page = window.turnover;
+const { format, cell, download } = page.ui;
 function showRanking(result) {
   const body = $('mechanism-ranking').tBodies[0];
   body.replaceChildren();
@@ -112,43 +106,37 @@ function drawAll(result) {
   }
 }
 
-// The Michaelis-Menten panel fits [S] and v only: it cannot read a matrix
-// table at all, and it pools every [I] of a long one. Say so there, instead
-// of leaving a red "no fit" or a pooled fit unexplained.
-function pointToThisSection() {
-  const status = $('status');
-  const text = 'This table is an inhibitor series: the global fits of every mechanism are in the inhibitor-series section below.';
-  if (window.turnover.lastError()) {
-    status.dataset.state = 'warn';
-    status.textContent = text;
-    $('input-problems').replaceChildren();
-  } else {
-    status.dataset.state = 'warn';
-    status.textContent = `${status.textContent} Note: this fit pools every [I] and ignores the inhibitor. ${text}`;
-  }
-}
-
-// A saved page brings back the rates that were clicked out; they are kept
-// as long as the table is the one they were saved with.
-window.turnover.keepState('inhibition', {
-  save: () => ({ text: excludedFor, lines: [...excludedLines], cells: [...excludedCells] }),
-  restore: (saved) => {
-    excludedFor = saved.text;
-    for (const line of saved.lines ?? []) excludedLines.add(line);
-    for (const cellKey of saved.cells ?? []) excludedCells.add(cellKey);
-  },
-  text: () => {
-    if (!lastResult) return [];
-    const fit = lastResult.fits.find((f) => f.model === lastResult.shown) ?? lastResult.fits[0];
-    const ranking = lastResult.comparison.models.map((m) => `# ${m.model}: AICc ${m.aicc}, Akaike weight ${m.akaike_weight}`);
-    return [`# verdict: ${lastResult.comparison.verdict}`, ...ranking, ...window.turnover.ui.fitAsText(`Global fit, ${fit.model}`, fit)];
-  },
+page.addText('Inhibitor series', () => {
+  if (!lastResult || !section.fresh()) return [];
+  const fit = lastResult.fits.find((f) => f.model === lastResult.shown) ?? lastResult.fits[0];
+  const ranking = lastResult.comparison.models.map((m) => `# ${m.model}: AICc ${m.aicc}, Akaike weight ${m.akaike_weight}`);
+  return [`# verdict: ${lastResult.comparison.verdict}`, ...ranking, ...page.ui.fitAsText(`Global fit, ${fit.model}`, fit)];
 });
 
-function analyseInhibition(sent) {
-  lastSent = sent;
+// What this section reads of the document: the rate table and its
+// settings, and its own left-out points.
+function inhibitionRequest(doc) {
+  const { request } = page.rateRequest(doc);
+  return {
+    text: request.text,
+    models: [],
+    excluded_lines: [...doc.inhibition.excluded_lines],
+    excluded_cells: doc.inhibition.excluded_cells.map((key) => key.split(':').map(Number)),
+    substrate_unit: request.substrate_unit,
+    inhibitor_unit: null,
+    rate_unit: request.rate_unit,
+    // The rate panel's weighting and interval choices apply here too
+    // (weighting by an sd column is refused: these tables have none).
+    weighting: request.weighting,
+    interval_method: request.interval_method,
+    bootstrap: request.bootstrap,
+  };
+}
+
+function analyseInhibition(doc) {
+  const request = inhibitionRequest(doc);
   const results = $('inhibition-results');
-  if (!wasm_bindgen.isInhibitionTable(sent.text)) {
+  if (!wasm_bindgen.isInhibitionTable(request.text)) {
     results.hidden = true;
     $('inhibition-hint').hidden = false;
     lastResult = null;
@@ -156,30 +144,11 @@ function analyseInhibition(sent) {
     return;
   }
   bench ??= new wasm_bindgen.InhibitionBench();
-  if (excludedFor !== sent.text) {
-    excludedLines.clear();
-    excludedCells.clear();
-    excludedFor = sent.text;
-  }
   $('inhibition-hint').hidden = true;
-  pointToThisSection();
   results.hidden = false;
   const status = $('inhibition-status');
   try {
-    lastResult = bench.analyse({
-      text: sent.text,
-      models: [],
-      excluded_lines: [...excludedLines],
-      excluded_cells: [...excludedCells].map((key) => key.split(':').map(Number)),
-      substrate_unit: sent.substrate_unit,
-      inhibitor_unit: null,
-      rate_unit: sent.rate_unit,
-      // The rate panel's weighting and interval choices apply here too
-      // (weighting by an sd column is refused: these tables have none).
-      weighting: sent.weighting,
-      interval_method: sent.interval_method,
-      bootstrap: sent.bootstrap,
-    });
+    lastResult = bench.analyse(request);
     lastError = null;
   } catch (error) {
     lastResult = null;
@@ -206,7 +175,7 @@ function analyseInhibition(sent) {
 // refits every mechanism: in a long table by its input line, in a matrix by
 // its cell, since a matrix line holds one rate per [I].
 function toggleAt(kind, event) {
-  if (!lastResult || !lastSent) return;
+  if (!lastResult || !section.fresh()) return;
   const canvas = $(`plot-${kind}`);
   const box = canvas.getBoundingClientRect();
   const scaleX = canvas.width / canvas.clientWidth;
@@ -223,22 +192,18 @@ function toggleAt(kind, event) {
   }
   if (!best) return;
   const point = lastResult.points[best.row];
-  if (lastResult.layout === 'matrix') {
-    const key = `${point.line}:${point.column}`;
-    if (excludedCells.has(key)) excludedCells.delete(key);
-    else excludedCells.add(key);
-  } else if (excludedLines.has(point.line)) {
-    excludedLines.delete(point.line);
-  } else {
-    excludedLines.add(point.line);
-  }
-  analyseInhibition(lastSent);
+  if (lastResult.layout === 'matrix') page.dispatch({ type: 'toggle cell', cell: `${point.line}:${point.column}` });
+  else page.dispatch({ type: 'toggle point', section: 'inhibition', line: point.line });
 }
 
+const section = page.derived({
+  key: (doc) => JSON.stringify(inhibitionRequest(doc)),
+  compute: analyseInhibition,
+  stale: (on) => $('inhibition-panel').classList.toggle('stale', on),
+});
 
-window.turnover.onAnalysed(analyseInhibition);
 window.turnover.inhibition = {
-  lastResult: () => lastResult,
+  lastResult: () => (section.fresh() ? lastResult : (section.flush(), lastResult)),
   lastError: () => lastError,
   plots: INHIBITION_PLOTS,
   // Where the points of plot `kind` are, in CSS pixels of its canvas.
@@ -255,18 +220,19 @@ for (const kind of INHIBITION_PLOTS) {
 }
 for (const button of document.querySelectorAll('button.inhibition-svg')) {
   button.addEventListener('click', () => {
+    section.flush();
     if (!lastResult) return;
     download(`turnover-${button.dataset.kind}.svg`, 'image/svg+xml', bench.svg(button.dataset.kind, 640, 460));
   });
 }
-$('inhibition-include-all').addEventListener('click', () => {
-  excludedLines.clear();
-  excludedCells.clear();
-  if (lastSent) analyseInhibition(lastSent);
-});
+$('inhibition-include-all').addEventListener('click', () => page.dispatch({ type: 'use all points', section: 'inhibition' }));
 
-$('load-inhibition-demo').addEventListener('click', () => {
-  $('data-input').value = INHIBITION_DEMO;
-  $('rate-unit').value = 'µM/min';
-  window.turnover.analyse();
+page.addDemo('inhibition', {
+  name: 'Hyd-3 with compound 7',
+  build: (doc) => ({
+    ...doc,
+    demo: [...new Set([...doc.demo, 'rates'])],
+    rates: { ...doc.rates, text: INHIBITION_DEMO, substrate_unit: '', rate_unit: 'µM/min', enzyme: '', excluded_lines: [] },
+  }),
 });
+$('load-inhibition-demo').addEventListener('click', () => page.loadDemo('inhibition'));

@@ -17,13 +17,18 @@ const FLAG_MARKS = {
   lag: 'L', burst: 'B', excluded: 'X', 'no-blank': '∅',
 };
 
+const page = window.turnover;
+
+// What this section shows. The choices (windows, left-out traces, the
+// conversion) live in the document; this is only the derived result and
+// what is on screen.
 const traceState = {
   bench: null,
-  result: null,
-  progress: null,
-  selected: null,
-  windows: new Map(),   // trace name (or '*') → {start, end}
-  excluded: new Set(),
+  result: null,         // the analysis of the document's inputs `resultKey`
+  resultKey: null,
+  progress: null,       // the whole-curve fit of the inputs `progressKey`
+  progressKey: null,
+  selected: null,       // the trace shown large (a view choice, not saved)
   cellBoxes: [],        // plate grid hit boxes
   detailMap: null,      // detail plot coordinate map
   elapsed: null,
@@ -83,29 +88,29 @@ function demoPlate() {
 
 // ------------------------------------------------------------ requests
 
-function number(id) {
-  const text = $(id).value.trim().replace(',', '.');
-  if (text === '') return null;
-  const v = Number(text);
-  return Number.isFinite(v) ? v : NaN;
-}
-
-function traceRequest() {
-  const windows = [...traceState.windows].map(([trace, w]) => ({ trace, start: w.start, end: w.end }));
-  const mode = $('tr-conversion').value;
-  const standard = mode === 'standard' ? $('tr-standard').value : null;
-  return {
-    traces: $('traces-input').value,
-    layout: $('layout-input').value,
-    epsilon: mode === 'epsilon' ? number('tr-epsilon') : null,
-    path_cm: mode === 'epsilon' ? number('tr-path') : null,
-    standard,
-    direction: $('tr-direction').value,
-    linear_limit: number('tr-limit'),
-    max_conversion: (number('tr-max-conversion') ?? 10) / 100,
-    windows,
-    excluded: [...traceState.excluded],
+/** The time-course request, from the document alone. A field that is not
+ *  a number is named in `problem`; nothing unreadable is sent. */
+function traceRequest(doc) {
+  const t = doc.traces;
+  const number = (text) => page.ui.typedNumber(text);
+  const mode = t.conversion;
+  const request = {
+    traces: t.text,
+    layout: t.layout,
+    epsilon: mode === 'epsilon' ? number(t.epsilon) : null,
+    path_cm: mode === 'epsilon' ? number(t.path) : null,
+    standard: mode === 'standard' ? t.standard : null,
+    direction: t.direction,
+    linear_limit: number(t.limit),
+    max_conversion: number(t.max_conversion),
+    windows: Object.entries(t.windows).map(([trace, [start, end]]) => ({ trace, start, end })),
+    excluded: [...t.excluded],
   };
+  for (const [key, label, text] of [['epsilon', 'ε', t.epsilon], ['path_cm', 'path length', t.path], ['linear_limit', 'linear limit', t.limit], ['max_conversion', 'conversion limit', t.max_conversion]]) {
+    if (Number.isNaN(request[key])) return { request, problem: `The ${label} '${text}' is not a number.` };
+  }
+  request.max_conversion = (request.max_conversion ?? 10) / 100;
+  return { request, problem: null };
 }
 
 function setStatus(state, text) {
@@ -241,28 +246,47 @@ function hideBusy() {
 // Each analysis gets a number; a result that arrives after a newer request
 // was made is not shown (the worker cannot be interrupted mid-plate).
 let analysisCount = 0;
+// The analysis under way: its key and a promise of its result.
+let running = null;
 
-function checkedRequest() {
-  const request = traceRequest();
-  for (const [key, label] of [['epsilon', 'ε'], ['path_cm', 'path length'], ['linear_limit', 'linear limit'], ['max_conversion', 'conversion limit']]) {
-    if (Number.isNaN(request[key])) {
-      setStatus('error', `The ${label} is not a number.`);
-      return null;
-    }
-  }
-  return request;
+function clearResults() {
+  traceState.result = null;
+  traceState.progress = null;
+  traceState.progressKey = null;
+  $('traces-problems').textContent = '';
+  $('traces-notes').textContent = '';
+  drawAll();
 }
 
-// Analyses the pasted tables. Small tables are analysed before this
-// returns; large ones in the worker, and the returned promise settles with
-// the result (null on an error, which is shown in #traces-status).
-async function analyseTraces() {
-  const request = checkedRequest();
-  if (!request) return null;
+function markStale(on) {
+  $('traces-panel').classList.toggle('stale', on);
+  for (const id of ['traces-send', 'traces-progress']) $(id).disabled = on;
+  if (on) setStatus('stale', 'Out of date: the inputs changed; finding the initial rates again…');
+}
+
+/** Analyses the document's time courses (key `key`). Small tables are
+ *  analysed before this returns; large ones in the worker. Resolves with
+ *  the result, or null on an error (shown in #traces-status). */
+async function analyseTraces(doc, key) {
+  const { request, problem } = traceRequest(doc);
   const number = ++analysisCount;
+  if (!request.traces.trim()) {
+    traceState.resultKey = key;
+    clearResults();
+    markStale(false);
+    setStatus('idle', 'No time courses yet: paste a plate export and a layout, or load the demo plate.');
+    return null;
+  }
+  if (problem) {
+    traceState.resultKey = key;
+    clearResults();
+    markStale(false);
+    setStatus('error', problem);
+    return null;
+  }
+  markStale(true);
   const text = JSON.stringify(request);
   const started = performance.now();
-  traceState.progress = null;
   let json;
   let engine = 'page';
   try {
@@ -271,6 +295,7 @@ async function analyseTraces() {
       json = await inWorker('analyse', text, (m) => showBusy(`Finding initial rates: ${m.done} of ${m.total} traces`, m.done / m.total));
       engine = 'worker';
     }
+    if (number !== analysisCount) return null;
     if (json === undefined || json === null) {
       engine = 'page';
       json = traceState.bench.analyseJson(text);
@@ -278,17 +303,21 @@ async function analyseTraces() {
   } catch (error) {
     if (number !== analysisCount) return null;
     hideBusy();
-    traceState.result = null;
+    traceState.resultKey = key;
+    clearResults();
+    markStale(false);
     setStatus('error', error?.message ?? String(error));
-    $('traces-problems').textContent = '';
-    drawAll();
     return null;
   }
   if (number !== analysisCount) return null;
   hideBusy();
   traceState.result = JSON.parse(json);
+  traceState.resultKey = key;
   traceState.engine = engine;
   traceState.elapsed = performance.now() - started;
+  traceState.progress = null;
+  traceState.progressKey = null;
+  markStale(false);
   const r = traceState.result;
   if (!traceState.selected || !r.traces.some((t) => t.name === traceState.selected)) {
     traceState.selected = (r.traces.find((t) => t.role === 'sample') ?? r.traces[0])?.name ?? null;
@@ -537,7 +566,7 @@ function drawDetail() {
     }
     info.append(ul);
   }
-  $('tr-exclude').textContent = traceState.excluded.has(trace.name) ? 'Bring trace back' : 'Leave trace out';
+  $('tr-exclude').textContent = page.doc().traces.excluded.includes(trace.name) ? 'Bring trace back' : 'Leave trace out';
 }
 
 function drawEnzymeCheck() {
@@ -644,40 +673,126 @@ function drawAll() {
 
 // ------------------------------------------------------------ actions
 
+// The key of what the analysis reads of the document (everything in the
+// time-course section except the whole-curve switch).
+const analysisKey = (doc) => JSON.stringify(traceRequest(doc));
+
+/** The analysis of the document as it is now: the shown one when it is
+ *  current, else the one under way, else a new one. */
+function currentAnalysis() {
+  const key = analysisKey(page.doc());
+  if (traceState.resultKey === key && !running) return Promise.resolve(traceState.result);
+  if (running && running.key === key) return running.promise;
+  return runAnalysis();
+}
+
+function runAnalysis() {
+  clearTimeout(pendingTimer);
+  pendingTimer = null;
+  const doc = page.doc();
+  const key = analysisKey(doc);
+  const promise = analyseTraces(doc, key).then((r) => {
+    if (running?.key === key) running = null;
+    // The whole-curve fit follows the analysis when it is asked for.
+    if (r && traceState.resultKey === key && page.doc().traces.whole_curve) ensureFit();
+    return traceState.resultKey === key ? traceState.result : null;
+  });
+  running = { key, promise };
+  return promise;
+}
+
+let pendingTimer = null;
+
+/** Renders the section from the document: re-analyses when what the
+ *  analysis reads has changed, fits whole curves when asked. */
+function render(doc, typing) {
+  const key = analysisKey(doc);
+  if (key !== traceState.resultKey && key !== running?.key) {
+    if (typing) {
+      markStale(true);
+      clearTimeout(pendingTimer);
+      pendingTimer = setTimeout(runAnalysis, 350);
+    } else runAnalysis();
+  } else if (key === traceState.resultKey && !running && doc.traces.whole_curve && traceState.progressKey !== key) {
+    ensureFit();
+  } else if (!doc.traces.whole_curve && traceState.progress) {
+    traceState.progress = null;
+    traceState.progressKey = null;
+    drawProgress();
+  } else if (traceState.result) {
+    // A change of view only (the left-out button's words, say).
+    drawDetail();
+  }
+  $('traces-progress').textContent = doc.traces.whole_curve ? 'Stop fitting whole curves' : 'Fit whole curves';
+  const preset = wasm_bindgen.tracePresets().find((p) => p.key === doc.traces.preset);
+  $('tr-preset-source').textContent = preset ? `Source: ${preset.source}.` : '';
+}
+
+/** Sends the sample rates of the current analysis into the rate table:
+ *  never those of an older one. */
 async function sendRates() {
-  const r = traceState.result ?? await analyseTraces();
+  const r = await currentAnalysis();
   if (!r) return;
+  if (traceState.resultKey !== analysisKey(page.doc())) return;
   if (r.rate_links.length < 3) {
     setStatus('error', 'Fewer than three sample rates with [S] to send; check the layout.');
     return;
   }
-  $('data-input').value = r.rate_table;
-  window.turnover.analyse();
+  page.dispatch({ type: 'send rates', table: r.rate_table });
+  page.analyse();
   $('data-panel').scrollIntoView({ behavior: 'instant', block: 'start' });
   setStatus('ok', `${r.rate_links.length} rates sent to the rate fit (traces ${r.rate_links.map((l) => l.trace).join(', ')}).`);
 }
 
-// The whole-curve fit runs where the last analysis ran, since that bench
-// holds it.
-async function fitWhole() {
-  if (!traceState.result && !(await analyseTraces())) return;
+/** Asks for the whole-curve fit (an edit: it is part of the document) and
+ *  resolves when the fit of the current analysis is shown. */
+function fitWhole() {
+  if (!page.doc().traces.whole_curve) page.dispatch({ type: 'fit whole curves', on: true });
+  return ensureFit();
+}
+
+// The whole-curve fit under way: its key and promise.
+let fitting = null;
+
+/** Fits the integrated rate law to the whole curves of the current
+ *  analysis, once per analysis, where that analysis ran (its bench holds
+ *  it). */
+async function ensureFit() {
+  const r = await currentAnalysis();
+  if (!r) return;
+  const key = traceState.resultKey;
+  if (traceState.progressKey === key) return;
+  if (fitting && fitting.key === key) return fitting.promise;
+  const promise = fitCurves(key).finally(() => {
+    if (fitting?.key === key) fitting = null;
+  });
+  fitting = { key, promise };
+  return promise;
+}
+
+async function fitCurves(key) {
   const number = analysisCount;
   let json = null;
   try {
     if (traceState.engine === 'worker') {
       showBusy('Fitting whole curves…', null);
       json = await inWorker('fit', null, (m) => showBusy(`Fitting whole curves: iteration ${m.iteration}`, null));
+      if (json === null) {
+        // The worker stopped after analysing: analyse again on the page.
+        traceState.resultKey = null;
+        traceState.engine = 'page';
+        if (!(await analyseTraces(page.doc(), analysisKey(page.doc())))) return;
+      }
     }
-    if (json === null && traceState.engine === 'worker') {
-      // The worker stopped after analysing: analyse again on the page.
-      if (!(await analyseTraces())) return;
-    }
+    if (number !== analysisCount) return;
     if (json === null) json = traceState.bench.fitProgressJson();
-    if (number !== analysisCount && traceState.engine === 'worker') return;
+    if (number !== analysisCount) return;
     traceState.progress = JSON.parse(json);
+    traceState.progressKey = key;
   } catch (error) {
     if (number !== analysisCount) return;
     traceState.progress = null;
+    traceState.progressKey = key;
     setStatus('error', error?.message ?? String(error));
   }
   hideBusy();
@@ -685,24 +800,25 @@ async function fitWhole() {
 }
 
 function setWindow(name, start, end) {
-  traceState.windows.set(name, { start: Math.min(start, end), end: Math.max(start, end) });
-  return analyseTraces();
+  page.dispatch({ type: 'set window', trace: name, start, end });
+  return currentAnalysis();
 }
 
-function loadDemo() {
-  const demo = demoPlate();
-  $('traces-input').value = demo.traces;
-  $('layout-input').value = demo.layout;
-  $('tr-conversion').value = 'epsilon';
-  $('tr-epsilon').value = String(demo.epsilon);
-  $('tr-volume').value = String(demo.volume);
-  $('tr-diameter').value = String(demo.diameter);
-  $('tr-path').value = wasm_bindgen.pathFromWell(demo.volume, demo.diameter).toFixed(4);
-  traceState.windows.clear();
-  traceState.excluded.clear();
-  traceState.selected = null;
-  analyseTraces();
-}
+page.addDemo('plate', {
+  name: 'dehydrogenase plate',
+  build: (doc) => {
+    const demo = demoPlate();
+    return {
+      ...doc,
+      demo: [...new Set([...doc.demo, 'traces'])],
+      traces: {
+        ...doc.traces, text: demo.traces, layout: demo.layout, conversion: 'epsilon', preset: '', epsilon: String(demo.epsilon),
+        volume: String(demo.volume), diameter: String(demo.diameter), path: wasm_bindgen.pathFromWell(demo.volume, demo.diameter).toFixed(4),
+        windows: {}, excluded: [], whole_curve: false,
+      },
+    };
+  },
+});
 
 function wire() {
   const presets = wasm_bindgen.tracePresets();
@@ -716,41 +832,42 @@ function wire() {
   }
   select.addEventListener('change', () => {
     const p = presets.find((q) => q.key === select.value);
-    if (p) {
-      $('tr-epsilon').value = String(p.epsilon);
-      $('tr-conversion').value = 'epsilon';
-      $('tr-preset-source').textContent = `Source: ${p.source}.`;
-    }
+    page.dispatch({ type: 'choose preset', preset: select.value, epsilon: p ? String(p.epsilon) : undefined });
   });
+  for (const [id, key] of [['traces-input', 'text'], ['layout-input', 'layout'], ['tr-standard', 'standard']]) page.bindField(id, `traces.${key}`, { table: true });
+  for (const [id, key] of [['tr-conversion', 'conversion'], ['tr-epsilon', 'epsilon'], ['tr-path', 'path'], ['tr-volume', 'volume'],
+    ['tr-diameter', 'diameter'], ['tr-direction', 'direction'], ['tr-limit', 'limit'], ['tr-max-conversion', 'max_conversion']]) {
+    page.bindField(id, `traces.${key}`);
+  }
+  page.bindField('tr-preset', 'traces.preset');
   $('tr-well-path').addEventListener('click', () => {
+    const t = page.doc().traces;
+    const volume = page.ui.typedNumber(t.volume);
+    const diameter = page.ui.typedNumber(t.diameter);
     try {
-      $('tr-path').value = wasm_bindgen.pathFromWell(number('tr-volume'), number('tr-diameter')).toFixed(4);
+      page.dispatch({ type: 'set field', path: 'traces.path', value: wasm_bindgen.pathFromWell(volume ?? NaN, diameter ?? NaN).toFixed(4) });
     } catch (error) {
       setStatus('error', error?.message ?? String(error));
     }
   });
-  $('traces-analyse').addEventListener('click', analyseTraces);
-  $('traces-demo').addEventListener('click', loadDemo);
+  $('traces-analyse').addEventListener('click', () => currentAnalysis());
+  $('traces-demo').addEventListener('click', () => page.loadDemo('plate'));
   $('traces-send').addEventListener('click', sendRates);
-  $('traces-progress').addEventListener('click', fitWhole);
+  $('traces-progress').addEventListener('click', () => {
+    if (page.doc().traces.whole_curve) page.dispatch({ type: 'fit whole curves', on: false });
+    else fitWhole();
+  });
   $('tr-auto').addEventListener('click', () => {
-    if (!traceState.selected) return;
-    traceState.windows.delete(traceState.selected);
-    analyseTraces();
+    if (traceState.selected) page.dispatch({ type: 'automatic window', trace: traceState.selected });
   });
   $('tr-all').addEventListener('click', () => {
     const t = selectedTrace();
     if (!t || t.window_start === null) return;
-    traceState.windows.clear();
-    traceState.windows.set('*', { start: t.window_start, end: t.window_end });
-    analyseTraces();
+    page.dispatch({ type: 'window for all', start: t.window_start, end: t.window_end });
   });
-  $('tr-auto-all').addEventListener('click', () => { traceState.windows.clear(); analyseTraces(); });
+  $('tr-auto-all').addEventListener('click', () => page.dispatch({ type: 'all automatic' }));
   $('tr-exclude').addEventListener('click', () => {
-    const name = traceState.selected;
-    if (!name) return;
-    if (traceState.excluded.has(name)) traceState.excluded.delete(name); else traceState.excluded.add(name);
-    analyseTraces();
+    if (traceState.selected) page.dispatch({ type: 'toggle trace', trace: traceState.selected });
   });
   $('plate-grid').addEventListener('click', (event) => {
     const canvas = event.currentTarget;
@@ -824,32 +941,38 @@ document.head.append(style);
 function start() {
   traceState.bench = new wasm_bindgen.TraceBench();
   wire();
-  // A saved page brings its own plate, windows and left-out traces.
-  window.turnover.keepState('traces', {
-    save: () => ({ windows: [...traceState.windows], excluded: [...traceState.excluded] }),
-  });
-  const fields = window.turnover.savedFields();
-  if (fields && fields['traces-input']) {
-    const saved = window.turnover.saved('traces') ?? {};
-    traceState.windows = new Map(saved.windows ?? []);
-    traceState.excluded = new Set(saved.excluded ?? []);
-    analyseTraces();
-  } else {
-    loadDemo();
-  }
+  page.view((doc) => render(doc, page.isTyping()));
   // Start the worker while the page is idle, so that the first large plate
   // does not wait for it.
   setTimeout(startWorker, 200);
 }
 
+page.addText('Time courses', () => {
+  const r = traceState.result;
+  if (!r || traceState.resultKey !== analysisKey(page.doc())) return [];
+  const lines = [['trace', 'role', 'S0', 'rate', 'std_error', 'window_start', 'window_end', 'fraction_used', 'flags'].join('\t')];
+  for (const t of r.traces) lines.push([t.name, t.role, t.s ?? '', t.rate ?? '', t.rate_se ?? '', t.window_start ?? '', t.window_end ?? '', t.fraction_converted ?? '', t.flags.join(' ')].join('\t'));
+  lines.push(`# rates in ${r.rate_unit}, times in ${r.time_unit}`);
+  const fit = traceState.progress;
+  if (fit && traceState.progressKey === traceState.resultKey) lines.push(...page.ui.fitAsText('Whole curves, integrated Michaelis-Menten', fit.summary));
+  return lines;
+});
+
 // For tests and for scripting from the browser console.
 window.turnoverTraces = {
   lastResult: () => traceState.result,
   lastProgress: () => traceState.progress,
+  // True when the shown analysis is of the document's inputs as they are now.
+  current: () => !running && traceState.resultKey === analysisKey(page.doc()),
   elapsed: () => traceState.elapsed,
   // 'page' or 'worker': where the last analysis ran.
   engine: () => traceState.engine,
-  analyse: analyseTraces,
+  analyse: currentAnalysis,
+  // Analyses the same inputs again (for timing a warm run).
+  rerun: () => {
+    traceState.resultKey = null;
+    return runAnalysis();
+  },
   fitWhole,
   setWindow,
   select(name) { traceState.selected = name; drawPlate(); drawDetail(); },

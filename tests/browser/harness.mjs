@@ -23,8 +23,12 @@ const chromiumPath = process.env.TURNOVER_CHROMIUM ?? '/usr/bin/chromium';
 /** Requests the page may make: its own file and in-memory URLs. */
 export const isLocal = (url) => /^(file|data|blob|about):/i.test(url);
 
-/** Launches Chromium; `external` collects every refused request. */
-export async function launch(name, { acceptDownloads = false } = {}) {
+/** Launches Chromium; `external` collects every refused request.
+ *  `freshTabs` (default true): every new tab starts with no analysis kept
+ *  in the browser, as on a first visit, so that each test opens the demo;
+ *  a reload in the same tab keeps what the page stored. Tests of keeping
+ *  work across tabs and restarts pass false. */
+export async function launch(name, { acceptDownloads = false, freshTabs = true } = {}) {
   assert.ok(existsSync(htmlPath), `page not built: ${htmlPath} does not exist (run build.sh)`);
   mkdirSync(shotDir, { recursive: true });
   const userDataDir = mkdtempSync(join(tmpdir(), `turnover-${name}-`));
@@ -43,6 +47,7 @@ export async function launch(name, { acceptDownloads = false } = {}) {
     external.push(url);
     return route.abort('blockedbyclient');
   });
+  if (freshTabs) await context.addInitScript(freshTab);
   for (const p of context.pages()) await p.close();
   return {
     context,
@@ -52,4 +57,15 @@ export async function launch(name, { acceptDownloads = false } = {}) {
       rmSync(userDataDir, { recursive: true, force: true });
     },
   };
+}
+
+/** Runs before the page's own scripts in every document of a tab: the
+ *  first time in a tab it forgets the analyses kept by earlier tests. */
+export function freshTab() {
+  try {
+    if (!sessionStorage.getItem('turnover-test-tab')) {
+      localStorage.clear();
+      sessionStorage.setItem('turnover-test-tab', 'started');
+    }
+  } catch { /* storage refused: nothing kept to forget */ }
 }

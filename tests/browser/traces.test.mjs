@@ -167,15 +167,28 @@ test('a 384-well plate is analysed in the worker (timing reported as ratios, not
       reference = Math.min(reference, performance.now() - t0);
       cells = parsed.length * (parsed[0].length - 1);
     }
-    document.getElementById('traces-input').value = table;
-    document.getElementById('layout-input').value = layout;
-    document.getElementById('tr-conversion').value = 'epsilon';
+    // As a paste would: the text arrives with an input event.
+    const put = (id, value, event = 'input') => {
+      const el = document.getElementById(id);
+      el.value = value;
+      el.dispatchEvent(new Event(event, { bubbles: true }));
+    };
+    put('traces-input', table);
+    put('layout-input', layout);
+    // The pasted plate is the person's own: the demo plate's ε and path
+    // length leave with the demo, so they are typed here.
+    put('tr-conversion', 'epsilon', 'change');
+    put('tr-epsilon', '6220');
+    put('tr-path', '0.6');
     // The browser lays out a 400 kB textarea on its next frame, which by
     // itself holds the page for a few hundred ms (measured here at about
     // 270 ms). That is the browser's cost of showing the pasted text, not
     // the analysis; let it happen before the clock starts.
     await new Promise((resolve) => requestAnimationFrame(() => requestAnimationFrame(resolve)));
     await new Promise((resolve) => setTimeout(resolve, 300));
+    // The paste itself starts an analysis (after a pause for typing); let
+    // it finish, then time two analyses of the same inputs.
+    await window.turnoverTraces.analyse();
     const runs = [];
     for (let rep = 0; rep < 2; rep++) {
       let maxGap = 0;
@@ -188,7 +201,7 @@ test('a 384-well plate is analysed in the worker (timing reported as ratios, not
         if (!document.getElementById('traces-busy').hidden) busySeen = true;
       }, 5);
       const t0 = performance.now();
-      const result = await window.turnoverTraces.analyse();
+      const result = await window.turnoverTraces.rerun();
       const t1 = performance.now();
       await window.turnoverTraces.fitWhole();
       const t2 = performance.now();

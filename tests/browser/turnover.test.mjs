@@ -15,6 +15,7 @@ import { join, resolve, dirname } from 'node:path';
 import { fileURLToPath, pathToFileURL } from 'node:url';
 import { spawnSync } from 'node:child_process';
 import { chromium } from 'playwright-core';
+import { freshTab } from './harness.mjs';
 
 const here = dirname(fileURLToPath(import.meta.url));
 const htmlPath = resolve(process.env.TURNOVER_HTML ?? join(here, '..', '..', 'dist', 'turnover.html'));
@@ -75,6 +76,8 @@ before(async () => {
       '--disable-quic',
     ],
   });
+  // Each new tab starts as a first visit (see harness.mjs).
+  await context.addInitScript(freshTab);
   // Count (and refuse) anything that would leave the machine.
   await context.route('**/*', (route) => {
     const url = route.request().url();
@@ -487,9 +490,9 @@ test('g. the saved page carries its data and reopens with the same fit', { timeo
     await waitForOk(page, 'demo fit on load');
     await analyse(page, PUROMYCIN_TEXT);
     await waitForConverged(page, 'Puromycin fit', t);
-    // Other sections keep their fields too: change the time-course ε.
-    await page.waitForFunction(() => document.querySelector('#traces-input')?.value.length > 0, null, { timeout: FIT_TIMEOUT });
-    const plate = await page.locator('#traces-input').inputValue();
+    // The person's own table replaced the demo: the demo plate left with it.
+    assert.equal(await page.locator('#traces-input').inputValue(), '', 'the demo plate does not travel with a person\'s table');
+    // Other sections keep their fields too: type a time-course ε.
     await page.locator('#tr-epsilon').fill('6300');
     const [download] = await Promise.all([
       page.waitForEvent('download'),
@@ -505,10 +508,9 @@ test('g. the saved page carries its data and reopens with the same fit', { timeo
       assert.equal(sig(num(f.params.Km.value, 'Km')), sig(0.06412), 'the saved page refits the saved data');
       const text = await reopened.page.locator('textarea#data-input').inputValue();
       assert.equal(text, PUROMYCIN_TEXT, 'the saved page holds the pasted table');
-      assert.match(await reopened.page.locator('#saved-info').textContent(), /saved analysis/);
-      await reopened.page.waitForFunction(() => document.querySelector('#traces-input')?.value.length > 0, null, { timeout: FIT_TIMEOUT });
+      assert.match(await reopened.page.locator('#restore-info').textContent(), /saved in this page/);
       assert.equal(await reopened.page.locator('#tr-epsilon').inputValue(), '6300', 'the time-course ε is kept');
-      assert.equal(await reopened.page.locator('#traces-input').inputValue(), plate, 'the plate is kept');
+      assert.equal(await reopened.page.locator('#traces-input').inputValue(), '', 'no demo plate inside the saved analysis');
       assertClean(reopened.watch);
     } finally {
       await reopened.page.close();
