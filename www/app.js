@@ -479,7 +479,10 @@ function computeRates(doc) {
   state.error = null;
   showProblems(result.problems, null, problems);
   showResult(result);
-  if (problems.length && $('status').dataset.state === 'ok') $('status').dataset.state = 'warn';
+  if (problems.length) {
+    if ($('status').dataset.state === 'ok') $('status').dataset.state = 'warn';
+    $('status').textContent += ' A field could not be read: see the note under the table.';
+  }
   drawPlots();
   showRateLaws();
 }

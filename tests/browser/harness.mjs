@@ -28,10 +28,12 @@ export const isLocal = (url) => /^(file|data|blob|about):/i.test(url);
  *  in the browser, as on a first visit, so that each test opens the demo;
  *  a reload in the same tab keeps what the page stored. Tests of keeping
  *  work across tabs and restarts pass false. */
-export async function launch(name, { acceptDownloads = false, freshTabs = true } = {}) {
+export async function launch(name, { acceptDownloads = false, freshTabs = true, profile = null } = {}) {
   assert.ok(existsSync(htmlPath), `page not built: ${htmlPath} does not exist (run build.sh)`);
   mkdirSync(shotDir, { recursive: true });
-  const userDataDir = mkdtempSync(join(tmpdir(), `turnover-${name}-`));
+  // `profile`: a browser profile folder to reuse (a restart of the same
+  // browser); it is left in place on close. Otherwise a fresh one.
+  const userDataDir = profile ?? mkdtempSync(join(tmpdir(), `turnover-${name}-`));
   const context = await chromium.launchPersistentContext(userDataDir, {
     executablePath: chromiumPath,
     headless: true,
@@ -54,7 +56,7 @@ export async function launch(name, { acceptDownloads = false, freshTabs = true }
     external,
     async close() {
       await context.close();
-      rmSync(userDataDir, { recursive: true, force: true });
+      if (!profile) rmSync(userDataDir, { recursive: true, force: true });
     },
   };
 }
