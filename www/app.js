@@ -487,27 +487,54 @@ function computeRates(doc) {
   showRateLaws();
 }
 
-/** The rate section fits [S] and v. An inhibitor series or a dose-response
- *  table has its own section; say so here instead of leaving a "no fit"
- *  or a meaningless Michaelis-Menten fit unexplained. */
-function pointToOtherSection(text) {
-  const status = $('status');
-  let pointer = null;
-  let meaningless = '';
-  if (wasm_bindgen.isInhibitionTable(text)) {
-    pointer = 'This table is an inhibitor series: the global fits of every mechanism are in the inhibitor-series section below.';
-    meaningless = 'Note: this fit pools every [I] and ignores the inhibitor.';
-  } else if (wasm_bindgen.isDoseTable(text)) {
-    pointer = 'This table is an inhibitor series ([I] and a response, no [S]): its IC50 fit is in the dose-response section below.';
-    meaningless = 'Note: the Michaelis-Menten fit here reads [I] as [S] and means nothing.';
+/** Which section a pasted table belongs to, by its columns: an inhibitor
+ *  series ([S], [I] and rates, long or matrix), a dose-response series
+ *  ([I] and a response, no [S]), or a rate table. */
+function tableHome(text) {
+  if (wasm_bindgen.isInhibitionTable(text)) return 'inhibition';
+  if (wasm_bindgen.isDoseTable(text)) return 'dose';
+  return 'rates';
+}
+
+const SECTION_WORDS = {
+  rates: ['a rate table ([S] and v)', 'the rate section'],
+  inhibition: ['an inhibitor series ([S], [I] and rates)', 'the inhibitor-series section'],
+  dose: ['a dose-response series ([I] and a response, no [S])', 'the dose-response section'],
+};
+
+/** A table pasted or typed into a section's input: kept there, or moved
+ *  to the section it belongs to with a note (one undo step). */
+function tableEntered(section, value, noteId) {
+  let home = value.trim() ? tableHome(value) : section;
+  // Anything not recognised as an inhibitor or dose series counts as a
+  // rate table only when the rate fit can read it.
+  if (home === 'rates' && section !== 'rates' && !looksLikeRates(value)) home = section;
+  const note = $(noteId);
+  if (home === section) {
+    note.hidden = true;
+    typed({ type: 'set table', path: `${section}.text`, value }, `${section}.text`);
+    return;
   }
-  if (!pointer) return;
-  status.dataset.state = 'warn';
-  if (state.error) {
-    status.textContent = pointer;
-    $('input-problems').replaceChildren();
-  } else {
-    status.textContent = `${status.textContent} ${meaningless} ${pointer}`;
+  const wasDemo = workspace.doc.demo.length > 0;
+  workspace.dispatch({ type: 'move table', to: home, value });
+  note.hidden = false;
+  note.textContent = `That table is ${SECTION_WORDS[home][0]}: it is now in ${SECTION_WORDS[home][1]}'s input, and is fitted there. ${wasDemo ? 'The demo data left with it.' : 'This box keeps what it had.'} Undo takes it back.`;
+  $(`${home === 'rates' ? 'data' : home}-input`).scrollIntoView({ behavior: 'instant', block: 'center' });
+}
+
+// A second workbench for asking whether a table reads as rates, so that
+// the one holding the shown analysis (and its plots) is not disturbed.
+let probe = null;
+
+/** A table that the rate fit reads (so one pasted into another section's
+ *  input can be moved to the rate section). */
+function looksLikeRates(text) {
+  probe ??= new wasm_bindgen.Workbench();
+  try {
+    probe.analyse({ ...rateRequest(workspace.doc).request, text, excluded_lines: [], interval_method: 'asymptotic' });
+    return true;
+  } catch {
+    return false;
   }
 }
 
@@ -709,7 +736,7 @@ function openStored(id) {
 
 /** Opens a document read from a file or a link as a new analysis. */
 function openImported(text, what) {
-  const checked = store.readDocumentText(text);
+  const checked = store.readDocumentText(text, { classify: tableHome });
   if (checked.error) {
     refuse(what, checked.error, text);
     return false;
@@ -847,13 +874,16 @@ let rates = null;
 
 function readFile(file) {
   const reader = new FileReader();
-  reader.onload = () => workspace.dispatch({ type: 'set table', path: 'rates.text', value: String(reader.result) });
+  reader.onload = () => tableEntered('rates', String(reader.result), 'rates-move-note');
   reader.onerror = () => showProblems([], `Could not read the file ${file.name}.`);
   reader.readAsText(file);
 }
 
 function wireRates() {
-  bindField('data-input', 'rates.text', { table: true });
+  $('data-input').addEventListener('input', () => tableEntered('rates', $('data-input').value, 'rates-move-note'));
+  workspace.view((doc) => {
+    if ($('data-input').value !== doc.rates.text) $('data-input').value = doc.rates.text;
+  });
   bindField('substrate-unit', 'rates.substrate_unit');
   bindField('rate-unit', 'rates.rate_unit');
   bindField('enzyme', 'rates.enzyme');
@@ -871,10 +901,7 @@ function wireRates() {
   });
   rates = derived({
     key: (doc) => JSON.stringify(rateRequest(doc)),
-    compute: (doc) => {
-      computeRates(doc);
-      if (doc.rates.text.trim()) pointToOtherSection(doc.rates.text);
-    },
+    compute: computeRates,
     stale: markStale,
   });
   // The comparison is part of the rate view: opening the panel is an edit.
@@ -932,14 +959,14 @@ async function openingDocument(shelf) {
     }
     history.replaceState(null, '', location.href.replace(/#.*$/, ''));
     if (text !== null) {
-      const checked = store.readDocumentText(text);
+      const checked = store.readDocumentText(text, { classify: tableHome });
       if (checked.error) refuse('The analysis in the link', checked.error, text);
       else return { doc: { ...checked.document, id: store.newId() }, say: `Opened “${checked.document.name}” from a shared link; it is now kept in this browser too.` };
     }
   }
   const embedded = $('turnover-saved-state').textContent.trim();
   if (embedded && embedded !== 'null') {
-    const checked = store.readDocumentText(embedded);
+    const checked = store.readDocumentText(embedded, { classify: tableHome });
     if (checked.error) refuse('The analysis saved in this page', checked.error, embedded);
     else {
       const saved = checked.document;
@@ -982,6 +1009,7 @@ Object.assign(window.turnover, {
     return (state.positions[kind] ?? []).map((p) => ({ row: p.row, x: p.x * sx, y: p.y * sy }));
   },
   analyse: flushAll,
+  tableEntered: (...args) => tableEntered(...args),
   // Section modules: derive results from the document, add demo parts and
   // copied text, bind fields. Each call takes effect at once.
   derived: (spec) => derived(spec),

@@ -168,12 +168,12 @@ function clearPlot() {
 
 page.addText('Dose-response', () => (lastResult && section.fresh() ? page.ui.fitAsText(`Dose-response fit, ${lastResult.fit.model}`, lastResult.fit) : []));
 
-// What this section reads of the document: the rate table and its
-// settings, and its own options and left-out points.
+// What this section reads of the document: its own table, options and
+// left-out points, and the rate section's fitting choices.
 function doseInputs(doc) {
   const { request } = page.rateRequest(doc);
   return {
-    text: request.text,
+    text: doc.dose.text,
     dose: doc.dose,
     weighting: request.weighting,
     interval_method: request.interval_method,
@@ -184,15 +184,13 @@ function doseInputs(doc) {
 function analyseDose(doc) {
   const sent = doseInputs(doc);
   const results = $('dose-results');
-  if (!wasm_bindgen.isDoseTable(sent.text)) {
+  if (!sent.text.trim()) {
     results.hidden = true;
-    $('dose-hint').hidden = false;
     lastResult = null;
     lastError = null;
     return;
   }
   bench ??= new wasm_bindgen.DoseBench();
-  $('dose-hint').hidden = true;
   results.hidden = false;
   $('dose-ic50-options').hidden = sent.dose.model === 'morrison';
   $('dose-morrison-options').hidden = sent.dose.model !== 'morrison';
@@ -290,12 +288,15 @@ page.addDemo('dose', {
   name: 'Kin-9 with compound 12',
   build: (doc) => ({
     ...doc,
-    demo: [...new Set([...doc.demo, 'rates', 'dose'])],
-    rates: { ...doc.rates, text: DOSE_DEMO, substrate_unit: '', rate_unit: '', enzyme: '', excluded_lines: [] },
-    dose: { ...doc.dose, enzyme: '0.2', excluded_lines: [] },
+    demo: [...new Set([...doc.demo, 'dose'])],
+    dose: { ...doc.dose, text: DOSE_DEMO, enzyme: '0.2', excluded_lines: [] },
   }),
 });
 $('load-dose-demo').addEventListener('click', () => page.loadDemo('dose'));
+$('dose-input').addEventListener('input', () => page.tableEntered('dose', $('dose-input').value, 'dose-move-note'));
+page.view((doc) => {
+  if ($('dose-input').value !== doc.dose.text) $('dose-input').value = doc.dose.text;
+});
 for (const [id, key] of [['dose-model', 'model'], ['dose-fix-top', 'fix_top'], ['dose-top', 'top'], ['dose-fix-bottom', 'fix_bottom'],
   ['dose-bottom', 'bottom'], ['dose-enzyme', 'enzyme'], ['dose-cp-mechanism', 'cp_mechanism'], ['dose-cp-substrate', 'cp_substrate'],
   ['dose-cp-km', 'cp_km'], ['dose-cp-km-se', 'cp_km_se']]) {

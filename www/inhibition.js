@@ -113,18 +113,18 @@ page.addText('Inhibitor series', () => {
   return [`# verdict: ${lastResult.comparison.verdict}`, ...ranking, ...page.ui.fitAsText(`Global fit, ${fit.model}`, fit)];
 });
 
-// What this section reads of the document: the rate table and its
-// settings, and its own left-out points.
+// What this section reads of the document: its own table, unit and
+// left-out points, and the rate section's fitting choices.
 function inhibitionRequest(doc) {
   const { request } = page.rateRequest(doc);
   return {
-    text: request.text,
+    text: doc.inhibition.text,
     models: [],
     excluded_lines: [...doc.inhibition.excluded_lines],
     excluded_cells: doc.inhibition.excluded_cells.map((key) => key.split(':').map(Number)),
-    substrate_unit: request.substrate_unit,
+    substrate_unit: null,
     inhibitor_unit: null,
-    rate_unit: request.rate_unit,
+    rate_unit: doc.inhibition.rate_unit || null,
     // The rate panel's weighting and interval choices apply here too
     // (weighting by an sd column is refused: these tables have none).
     weighting: request.weighting,
@@ -136,15 +136,13 @@ function inhibitionRequest(doc) {
 function analyseInhibition(doc) {
   const request = inhibitionRequest(doc);
   const results = $('inhibition-results');
-  if (!wasm_bindgen.isInhibitionTable(request.text)) {
+  if (!request.text.trim()) {
     results.hidden = true;
-    $('inhibition-hint').hidden = false;
     lastResult = null;
     lastError = null;
     return;
   }
   bench ??= new wasm_bindgen.InhibitionBench();
-  $('inhibition-hint').hidden = true;
   results.hidden = false;
   const status = $('inhibition-status');
   try {
@@ -231,8 +229,13 @@ page.addDemo('inhibition', {
   name: 'Hyd-3 with compound 7',
   build: (doc) => ({
     ...doc,
-    demo: [...new Set([...doc.demo, 'rates'])],
-    rates: { ...doc.rates, text: INHIBITION_DEMO, substrate_unit: '', rate_unit: 'µM/min', enzyme: '', excluded_lines: [] },
+    demo: [...new Set([...doc.demo, 'inhibition'])],
+    inhibition: { ...doc.inhibition, text: INHIBITION_DEMO, rate_unit: 'µM/min', excluded_lines: [], excluded_cells: [] },
   }),
 });
+$('inhibition-input').addEventListener('input', () => page.tableEntered('inhibition', $('inhibition-input').value, 'inhibition-move-note'));
+page.view((doc) => {
+  if ($('inhibition-input').value !== doc.inhibition.text) $('inhibition-input').value = doc.inhibition.text;
+});
+page.bindField('inhibition-rate-unit', 'inhibition.rate_unit');
 $('load-inhibition-demo').addEventListener('click', () => page.loadDemo('inhibition'));

@@ -26,9 +26,9 @@ const DEFAULTS = {
     weighting: 'uniform', interval_method: 'asymptotic', resamples: '2000', seed: '1', resample_by: 'residual',
     compare_laws: false, excluded_lines: [],
   },
-  inhibition: { excluded_lines: [], excluded_cells: [] },
+  inhibition: { text: '', rate_unit: '', excluded_lines: [], excluded_cells: [] },
   dose: {
-    model: 'ic50', fix_top: false, top: '100', fix_bottom: false, bottom: '0', enzyme: '',
+    text: '', model: 'ic50', fix_top: false, top: '100', fix_bottom: false, bottom: '0', enzyme: '',
     cp_mechanism: '', cp_substrate: '', cp_km: '', cp_km_se: '', excluded_lines: [],
   },
   traces: {
@@ -42,13 +42,16 @@ const DEFAULTS = {
  *  results). Settings such as weighting are the person's choice and stay. */
 const DEMO_FIELDS = {
   rates: ['text', 'substrate_unit', 'rate_unit', 'enzyme', 'enzyme_unit', 'excluded_lines'],
-  inhibition: ['excluded_lines', 'excluded_cells'],
-  dose: ['enzyme', 'cp_mechanism', 'cp_substrate', 'cp_km', 'cp_km_se', 'excluded_lines'],
+  inhibition: ['text', 'rate_unit', 'excluded_lines', 'excluded_cells'],
+  dose: ['text', 'enzyme', 'cp_mechanism', 'cp_substrate', 'cp_km', 'cp_km_se', 'excluded_lines'],
   traces: Object.keys(DEFAULTS.traces),
 };
 
 /** Tables: editing one of these in a demo document makes it the person's own. */
-const TABLE_PATHS = new Set(['rates.text', 'traces.text', 'traces.layout', 'traces.standard']);
+const TABLE_PATHS = new Set(['rates.text', 'inhibition.text', 'dose.text', 'traces.text', 'traces.layout', 'traces.standard']);
+
+/** The sections whose tables are pasted whole (each has its own input). */
+export const TABLE_SECTIONS = ['rates', 'inhibition', 'dose'];
 
 const UNTITLED = 'Untitled analysis';
 
@@ -82,6 +85,7 @@ export const EDIT_NAMES = {
   'all automatic': 'use automatic windows for all traces',
   'toggle trace': 'leave a trace out or bring it back',
   'choose preset': 'choose a chromophore',
+  'move table': 'put a table into the section it belongs to',
   'fit whole curves': 'fit whole curves',
   'send rates': 'send rates to the fit',
   'load demo': 'load a demo',
@@ -109,16 +113,13 @@ function withoutDemo(doc) {
   for (const section of doc.demo) {
     for (const field of DEMO_FIELDS[section]) out = setPath(out, `${section}.${field}`, clone(DEFAULTS[section][field]));
   }
-  // Exclusions in the inhibitor and dose sections name lines of the rate table.
-  return doc.demo.includes('rates') ? clearRateExclusions(out) : out;
+  return out;
 }
 
-/** Exclusions name lines of the rate table; a new table clears them. */
-function clearRateExclusions(doc) {
-  let out = setPath(doc, 'rates.excluded_lines', []);
-  out = setPath(out, 'inhibition.excluded_lines', []);
-  out = setPath(out, 'inhibition.excluded_cells', []);
-  return setPath(out, 'dose.excluded_lines', []);
+/** Exclusions name lines of a section's table; a new table clears them. */
+function clearExclusions(doc, section) {
+  if (section === 'inhibition') return setPath(setPath(doc, 'inhibition.excluded_lines', []), 'inhibition.excluded_cells', []);
+  return setPath(doc, `${section}.excluded_lines`, []);
 }
 
 const toggled = (list, item) => (list.includes(item) ? list.filter((x) => x !== item) : [...list, item].sort((a, b) => (a < b ? -1 : a > b ? 1 : 0)));
@@ -133,8 +134,17 @@ export function applyEdit(doc, edit) {
       let out = doc;
       if (TABLE_PATHS.has(edit.path) && doc.demo.length) out = withoutDemo(out);
       out = setPath(out, edit.path, edit.value);
-      if (edit.path === 'rates.text') out = clearRateExclusions(out);
+      const [section, field] = edit.path.split('.');
+      if (field === 'text' && TABLE_SECTIONS.includes(section)) out = clearExclusions(out, section);
       return out;
+    }
+    case 'move table': {
+      // A table pasted into another section's input goes to its own
+      // section; the input it was pasted into keeps what it had.
+      if (!TABLE_SECTIONS.includes(edit.to)) throw new Error(`no section ${edit.to}`);
+      let out = doc.demo.length ? withoutDemo(doc) : doc;
+      out = setPath(out, `${edit.to}.text`, edit.value);
+      return clearExclusions(out, edit.to);
     }
     case 'toggle point':
       return setPath(doc, `${edit.section}.excluded_lines`, toggled(get(doc, `${edit.section}.excluded_lines`), edit.line));
@@ -175,7 +185,7 @@ export function applyEdit(doc, edit) {
       out = setPath(out, 'rates.text', edit.table);
       out = setPath(out, 'rates.substrate_unit', '');
       out = setPath(out, 'rates.rate_unit', '');
-      return clearRateExclusions(out);
+      return clearExclusions(out, 'rates');
     }
     case 'rename':
       return edit.name === doc.name ? doc : { ...doc, name: edit.name };
@@ -196,9 +206,9 @@ export function applyEdit(doc, edit) {
 /** Checks a parsed value against the document shape. Returns
  *  `{document}` (migrated to the current schema) or `{error}`, a sentence
  *  saying what is wrong. Unknown fields are refused, not dropped. */
-export function validateDocument(value) {
+export function validateDocument(value, { classify = null } = {}) {
   if (value === null || typeof value !== 'object' || Array.isArray(value)) return { error: 'it is not a JSON object' };
-  if (value.format === 'turnover-saved-state') return migrateSavedState(value);
+  if (value.format === 'turnover-saved-state') return migrateSavedState(value, classify);
   if (value.format !== FORMAT) return { error: `its "format" is ${JSON.stringify(value.format ?? null)}, not "${FORMAT}"` };
   if (!Number.isInteger(value.schema)) return { error: 'it has no whole-number "schema" version' };
   if (value.schema > SCHEMA) return { error: `it was written by a newer Turnover (schema ${value.schema}); this page reads schema ${SCHEMA} and earlier` };
@@ -268,7 +278,7 @@ const V1_FIELD_PATHS = {
   'tr-direction': 'traces.direction', 'tr-limit': 'traces.limit', 'tr-max-conversion': 'traces.max_conversion', 'tr-standard': 'traces.standard',
 };
 
-export function migrateSavedState(saved) {
+export function migrateSavedState(saved, classify = null) {
   if (saved.version !== 1) return { error: `it is a saved page of an unknown version (${JSON.stringify(saved.version ?? null)})` };
   const r = saved.request;
   if (!r || typeof r !== 'object' || typeof r.text !== 'string') return { error: 'the saved page holds no rate table' };
@@ -294,12 +304,21 @@ export function migrateSavedState(saved) {
     if (!path || field === null || typeof field !== 'object') continue;
     doc = setPath(doc, path, 'checked' in field ? Boolean(field.checked) : text(field.value));
   }
+  // That version had one input for rate, inhibitor-series and
+  // dose-response tables; each now has its own. `classify` (the page's
+  // reading of the table) says which section the saved table belongs to.
   const sections = saved.sections ?? {};
-  if (sections.inhibition && sections.inhibition.text === r.text) {
+  const home = classify ? classify(r.text) : 'rates';
+  if (home === 'inhibition' || home === 'dose') {
+    doc = setPath(setPath(doc, `${home}.text`, r.text), 'rates.text', '');
+    doc = setPath(doc, 'rates.excluded_lines', []);
+    if (home === 'inhibition') doc = setPath(doc, 'inhibition.rate_unit', text(r.rate_unit));
+  }
+  if (home === 'inhibition' && sections.inhibition && sections.inhibition.text === r.text) {
     doc = setPath(doc, 'inhibition.excluded_lines', (sections.inhibition.lines ?? []).filter(Number.isInteger));
     doc = setPath(doc, 'inhibition.excluded_cells', (sections.inhibition.cells ?? []).map(String));
   }
-  if (sections.dose && sections.dose.text === r.text) doc = setPath(doc, 'dose.excluded_lines', (sections.dose.lines ?? []).filter(Number.isInteger));
+  if (home === 'dose' && sections.dose && sections.dose.text === r.text) doc = setPath(doc, 'dose.excluded_lines', (sections.dose.lines ?? []).filter(Number.isInteger));
   if (sections.traces) {
     const windows = {};
     for (const [name, w] of sections.traces.windows ?? []) {
@@ -311,7 +330,7 @@ export function migrateSavedState(saved) {
   // Demo content the old page carried along is marked as such, so that it
   // leaves when the person's next table arrives.
   const demo = [];
-  if (doc.rates.text.startsWith('# Demo (invented data)')) demo.push('rates');
+  for (const section of TABLE_SECTIONS) if (doc[section].text.startsWith('# Demo (invented data)')) demo.push(section);
   if (doc.traces.text.startsWith('Demo plate (simulated)')) demo.push('traces');
   doc = { ...doc, demo, notes: notes.length ? `Opened from an earlier saved page: ${notes.join('; ')}.` : '' };
   // Check the result against the current shape, as for any document.
@@ -321,7 +340,7 @@ export function migrateSavedState(saved) {
 
 /** Reads a document out of text: JSON, or a page saved by Turnover (the
  *  JSON block inside it). */
-export function readDocumentText(text) {
+export function readDocumentText(text, options = {}) {
   let json = text;
   const embedded = /<script type="application\/json" id="turnover-saved-state">([\s\S]*?)<\/script>/.exec(text);
   if (embedded) json = embedded[1];
@@ -332,7 +351,7 @@ export function readDocumentText(text) {
     return { error: `it is not valid JSON (${error.message})` };
   }
   if (value === null && embedded) return { error: 'the page holds no saved analysis' };
-  return validateDocument(value);
+  return validateDocument(value, options);
 }
 
 // ------------------------------------------------------------ storage
@@ -565,7 +584,7 @@ export { get as getPath, DEFAULTS, UNTITLED, clone };
 if (typeof window !== 'undefined') {
   window.turnover = window.turnover ?? {};
   window.turnoverStore = {
-    SCHEMA, FORMAT, LINK_LIMIT, blankDocument, applyEdit, validateDocument, readDocumentText, migrateSavedState,
+    SCHEMA, FORMAT, LINK_LIMIT, TABLE_SECTIONS, blankDocument, applyEdit, validateDocument, readDocumentText, migrateSavedState,
     Shelf, Workspace, linkFragment, fragmentText, changed, newId, getPath: get, clone, UNTITLED,
   };
 }

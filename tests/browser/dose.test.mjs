@@ -79,11 +79,9 @@ const paramRows = (page) => page.$$eval('#dose-parameters tbody tr',
 
 test('dose-response demo: IC50 with intervals and a drawn log-axis plot with the IC50 marked', { timeout: 60_000 }, async () => {
   const { page, errors } = await openPage();
-  assert.equal(await page.isHidden('#dose-results'), true, 'the section stays quiet for a rate table');
+  assert.equal(await page.isHidden('#dose-results'), true, 'the section stays quiet with no table of its own');
   await loadDoseDemo(page);
   assert.equal(await page.isVisible('#dose-results'), true);
-  // The rate panel says where this table's fit is.
-  assert.match(await page.textContent('#status'), /dose-response section/);
 
   const rows = await paramRows(page);
   assert.deepEqual(Object.keys(rows), ['bottom', 'top', 'IC50', 'hill_slope']);
@@ -134,6 +132,31 @@ test('dose-response demo: IC50 with intervals and a drawn log-axis plot with the
   await panel.screenshot({ path: join(shotDir, 'dose-panel.png') });
   assert.deepEqual(errors, []);
   assert.deepEqual(external, []);
+  await page.close();
+});
+
+test('a dose table pasted into the rate input moves to the dose-response section; no Michaelis-Menten fit of it is shown', { timeout: 60_000 }, async () => {
+  const { page, errors } = await openPage();
+  const own = '[I] (nM)\t% activity\n0\t99\n1\t92\n3\t77\n10\t49\n30\t23\n100\t9\n300\t3\n';
+  // A person's own rate table first, so the demo has left.
+  const mine = '[S] (µM)\tv (nM/s)\n5\t2.0\n10\t3.5\n20\t5.4\n50\t8.1\n100\t9.5\n';
+  await page.fill('#data-input', mine);
+  await page.fill('#data-input', own);
+  assert.equal(await page.inputValue('#dose-input'), own);
+  assert.equal(await page.inputValue('#data-input'), mine, 'the rate input keeps what it had');
+  assert.match(await page.textContent('#rates-move-note'), /dose-response series .* now in the dose-response section/);
+  await page.waitForFunction(() => ['ok', 'warn'].includes(document.querySelector('#dose-status')?.dataset.state), null, { timeout: 20_000 });
+  const fit = await page.evaluate(() => window.turnover.dose.lastResult().fit);
+  assert.equal(fit.n, 7);
+  // The rate section never fitted the dose table.
+  const rateFit = await page.evaluate(() => window.turnover.lastResult());
+  assert.deepEqual(rateFit.points.map((p) => p.s), [5, 10, 20, 50, 100], 'the rate fit is of the rate table, never of the dose table');
+  // Undo takes the move back in one step.
+  await page.click('#plots-heading');
+  await page.keyboard.press('Control+z');
+  assert.equal(await page.inputValue('#dose-input'), '');
+  assert.equal(await page.inputValue('#data-input'), mine);
+  assert.deepEqual(errors, []);
   await page.close();
 });
 

@@ -116,7 +116,7 @@ test('the long layout of the demo gives the same constants as the matrix', { tim
   const { page, errors } = await openPage();
   await loadDemo(page);
   const matrix = await page.evaluate(() => window.turnover.inhibition.lastResult().fits);
-  const text = await page.inputValue('#data-input');
+  const text = await page.inputValue('#inhibition-input');
   const lines = text.split('\n').filter((l) => l.trim() && !l.startsWith('#'));
   const levels = lines[0].split('\t').slice(1).map((h) => parseFloat(h));
   const long = ['[S] (mM)\t[I] (µM)\tv (µM/min)'];
@@ -124,7 +124,7 @@ test('the long layout of the demo gives the same constants as the matrix', { tim
     const cells = line.split('\t');
     cells.slice(1).forEach((v, k) => long.push(`${cells[0]}\t${levels[k]}\t${v}`));
   }
-  await page.fill('#data-input', long.join('\n') + '\n');
+  await page.fill('#inhibition-input', long.join('\n') + '\n');
   await page.click('#analyse');
   await page.waitForFunction(() => window.turnover.inhibition.lastResult()?.layout === 'long', null, { timeout: 20_000 });
   const longFits = await page.evaluate(() => window.turnover.inhibition.lastResult().fits);
@@ -137,13 +137,23 @@ test('the long layout of the demo gives the same constants as the matrix', { tim
   await page.close();
 });
 
-test('a table that is not an inhibitor series leaves the section quiet; a bad one says why', { timeout: 60_000 }, async () => {
+test('tables go to the section they belong to; an empty section stays quiet; a bad series says why', { timeout: 60_000 }, async () => {
   const { page, errors } = await openPage();
   await loadDemo(page);
-  await page.fill('#data-input', '[S] (mM)\tv (µM/min)\n0.1\t1\n0.5\t3\n1\t4\n');
+  // A rate table pasted into the inhibitor-series input is moved to the rate section.
+  const rates = '[S] (mM)\tv (µM/min)\n0.1\t1\n0.5\t3\n1\t4\n';
+  await page.fill('#inhibition-input', rates);
+  assert.equal(await page.inputValue('#data-input'), rates);
+  assert.equal(await page.inputValue('#inhibition-input'), '', 'the demo left with the person’s table');
+  assert.match(await page.textContent('#inhibition-move-note'), /rate table .* now in the rate section.*demo data left/);
+  // Emptied, the section stays quiet.
+  await page.fill('#inhibition-input', '');
   await page.click('#analyse');
   await page.waitForFunction(() => document.querySelector('#inhibition-results').hidden, null, { timeout: 10_000 });
+  // An inhibitor series pasted into the rate input goes to this section.
   await page.fill('#data-input', '[S]\t[I]\tv\n0.1\t0\t1\n');
+  assert.equal(await page.inputValue('#inhibition-input'), '[S]\t[I]\tv\n0.1\t0\t1\n');
+  assert.equal(await page.inputValue('#data-input'), rates);
   await page.click('#analyse');
   await page.waitForFunction(() => document.querySelector('#inhibition-status').dataset.state === 'error', null, { timeout: 10_000 });
   assert.match(await page.textContent('#inhibition-status'), /No inhibition analysis: .*usable point/);

@@ -79,6 +79,10 @@ test('a new rate table clears the exclusions that named lines of the old one', (
   doc = applyEdit(doc, { type: 'toggle point', section: 'dose', line: 3 });
   doc = applyEdit(doc, { type: 'set table', path: 'rates.text', value: 'S\tv\n1\t2\n' });
   assert.deepEqual(doc.rates.excluded_lines, []);
+  assert.deepEqual(doc.dose.excluded_lines, [3], 'the dose table has its own input and its own exclusions');
+  doc = applyEdit(doc, { type: 'move table', to: 'dose', value: '[I]\tresponse\n0\t100\n' });
+  assert.equal(doc.dose.text, '[I]\tresponse\n0\t100\n');
+  assert.equal(doc.rates.text, 'S\tv\n1\t2\n', 'a moved table leaves the input it was pasted into as it was');
   assert.deepEqual(doc.dose.excluded_lines, []);
 });
 
