@@ -65,6 +65,18 @@ build_page() {
   fi
 }
 
+# The page again with the test-only export `panicForTest` (feature
+# test-hooks), for the browser test of recovery from an internal error.
+# Written to target/, never to dist/.
+build_test_hooks_page() {
+  say "building the page with its test hooks (target/turnover-test-hooks.html)"
+  cargo build --release --target wasm32-unknown-unknown -p turnover-wasm --features test-hooks
+  rm -rf target/pkg-test
+  wasm-bindgen --target no-modules --no-typescript --out-dir target/pkg-test \
+    target/wasm32-unknown-unknown/release/turnover_wasm.wasm
+  node www/assemble.mjs target/pkg-test target/turnover-test-hooks.html
+}
+
 ensure_chromium() {
   if [ ! -x /usr/bin/chromium ]; then
     say "installing Debian's chromium"
@@ -88,6 +100,7 @@ ensure_node_packages() {
 }
 
 run_tests() {
+  build_test_hooks_page
   build_page
   say "cargo tests: unit, reference checks (NIST StRD, Puromycin), gradients"
   cargo test --workspace --release
@@ -101,7 +114,7 @@ run_tests() {
   say "browser tests (headless Debian chromium, page opened from file://)"
   ensure_chromium
   ensure_node_packages
-  (cd tests/browser && TURNOVER_HTML="$OUT" node --test)
+  (cd tests/browser && TURNOVER_HTML="$OUT" TURNOVER_TEST_HOOKS_HTML="$ROOT/target/turnover-test-hooks.html" node --test)
   say "all tests passed"
 }
 

@@ -321,6 +321,7 @@ function showRateLaws() {
   try {
     view = workbench.compare_rate_laws(rateRequest(workspace.doc).request);
   } catch (error) {
+    if (coreFailed(error)) return;
     verdict.textContent = `No comparison: ${error?.message ?? error}`;
     return;
   }
@@ -369,6 +370,7 @@ function drawPlots() {
       state.positions[kind] = workbench.draw(`plot-${kind}`, kind);
     } catch (error) {
       state.positions[kind] = [];
+      if (coreFailed(error)) return;
       console.warn(`plot ${kind}: ${error.message ?? error}`);
     }
   }
@@ -467,6 +469,7 @@ function computeRates(doc) {
   try {
     result = workbench.analyse(request);
   } catch (error) {
+    if (coreFailed(error)) return;
     const message = error?.message ?? String(error);
     state.result = null;
     state.error = message;
@@ -601,6 +604,61 @@ function download(name, type, content) {
   link.click();
   link.remove();
   setTimeout(() => URL.revokeObjectURL(url), 1000);
+}
+
+// ------------------------------------------------------------ an internal error of the core
+
+// A panic in the WebAssembly aborts that module: every later call into it
+// would fail. The core reports the panic (its start hook calls
+// `turnoverCorePanicked`); the page keeps the document, starts a fresh
+// module from the same bytes, and derives every result again.
+let restarting = false;
+let panicMessage = null;
+const restartHooks = [];
+
+window.turnoverCorePanicked = (message) => {
+  panicMessage = message;
+  scheduleRestart();
+};
+
+/** True when `error` is the core's abort; a restart is then under way. */
+function coreFailed(error) {
+  if (!(error instanceof WebAssembly.RuntimeError)) return false;
+  scheduleRestart();
+  return true;
+}
+
+function scheduleRestart() {
+  if (restarting) return;
+  restarting = true;
+  setTimeout(restartCore, 0);
+}
+
+function restartCore() {
+  const box = $('core-problem');
+  box.hidden = false;
+  const what = panicMessage ? ` (${panicMessage})` : '';
+  try {
+    if (!wasmBinary) throw new Error('this page was not built with its core inside');
+    // The glue script again: a fresh `wasm_bindgen` whose module is not yet
+    // started (assemble.mjs declares it with `var` for this).
+    const glue = document.createElement('script');
+    glue.textContent = $('turnover-bindings').textContent;
+    document.head.append(glue);
+    glue.remove();
+    wasm_bindgen.initSync({ module: wasmBinary });
+    workbench = new wasm_bindgen.Workbench();
+    probe = null;
+    for (const hook of restartHooks) hook();
+    for (const d of derivations) d.forget();
+    box.textContent = `The computing core stopped on an internal error${what}. Your analysis is kept; the core was started again and every result recomputed. If this happens again with the same data, export a session file and keep it with a note of what you did.`;
+    workspace.render(null);
+  } catch (error) {
+    box.textContent = `The computing core stopped on an internal error${what} and could not be started again (${error?.message ?? error}). Your analysis is kept in this browser: reload the page to go on.`;
+  } finally {
+    restarting = false;
+    panicMessage = null;
+  }
 }
 
 // ------------------------------------------------------------ the document's controls
@@ -1010,6 +1068,9 @@ Object.assign(window.turnover, {
   },
   analyse: flushAll,
   tableEntered: (...args) => tableEntered(...args),
+  // A module's catch: true (and a restart under way) when the core aborted.
+  coreFailed,
+  onCoreRestart: (hook) => restartHooks.push(hook),
   // Section modules: derive results from the document, add demo parts and
   // copied text, bind fields. Each call takes effect at once.
   derived: (spec) => derived(spec),

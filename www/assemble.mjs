@@ -32,7 +32,9 @@ const blocks = {
   ).toString('base64')}</script>`,
   // The id lets www/traces.js reuse this text as the start of its Web
   // Worker's source (a Blob URL), so the glue is in the page only once.
-  bindings: `<script id="turnover-bindings">\n${scriptSafe(read(join(pkgDir, 'turnover_wasm.js')))}\n</script>`,
+  // `var`, not `let`: the page starts a fresh core after an internal error
+  // by running this same script again, which a `let` would refuse.
+  bindings: `<script id="turnover-bindings">\n${scriptSafe(read(join(pkgDir, 'turnover_wasm.js')).replace(/^let wasm_bindgen = /m, 'var wasm_bindgen = '))}\n</script>`,
 };
 // The app block holds one or more <script type="module" src="NAME.js">
 // tags; each becomes an inline module with that file's text, in order.

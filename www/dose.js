@@ -221,6 +221,7 @@ function analyseDose(doc) {
     lastError = null;
   } catch (error) {
     lastResult = null;
+    if (page.coreFailed(error)) return;
     lastError = error?.message ?? String(error);
     status.dataset.state = 'error';
     status.textContent = `No dose-response fit: ${lastError}`;
@@ -293,6 +294,7 @@ page.addDemo('dose', {
   }),
 });
 $('load-dose-demo').addEventListener('click', () => page.loadDemo('dose'));
+page.onCoreRestart(() => { bench = null; });
 $('dose-input').addEventListener('input', () => page.tableEntered('dose', $('dose-input').value, 'dose-move-note'));
 page.view((doc) => {
   if ($('dose-input').value !== doc.dose.text) $('dose-input').value = doc.dose.text;

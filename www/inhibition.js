@@ -86,7 +86,10 @@ function showConstants(result) {
   $('inhibition-ci-heading').textContent = `95% interval (${method})`;
   const warnings = $('inhibition-warnings');
   warnings.replaceChildren();
-  for (const w of [...fit.warnings, ...result.notes]) warnings.append(cell('li', w));
+  // Every problem the core reports is shown: an unreadable cell of a
+  // matrix is one rate left out, and the person must see which.
+  const problems = result.problems.map((p) => `${p.column ? `line ${p.line}, column ${p.column}` : `line ${p.line}`}: ${p.message} (not used)`);
+  for (const w of [...problems, ...fit.warnings, ...result.notes]) warnings.append(cell('li', w));
 }
 
 function drawAll(result) {
@@ -150,6 +153,7 @@ function analyseInhibition(doc) {
     lastError = null;
   } catch (error) {
     lastResult = null;
+    if (page.coreFailed(error)) return;
     lastError = error?.message ?? String(error);
     status.dataset.state = 'error';
     status.textContent = `No inhibition analysis: ${lastError}`;
@@ -160,7 +164,7 @@ function analyseInhibition(doc) {
   const result = lastResult;
   const anyWarning = result.fits.some((f) => f.warnings.length > 0) || result.problems.length > 0;
   status.dataset.state = anyWarning ? 'warn' : 'ok';
-  status.textContent = `${result.fits.length} mechanisms fitted globally to ${result.fits[0].n} rates at ${result.inhibitor_levels.length} inhibitor concentrations (${result.layout} table).`;
+  status.textContent = `${result.fits.length} mechanisms fitted globally to ${result.fits[0].n} rates at ${result.inhibitor_levels.length} inhibitor concentrations (${result.layout} table)${result.problems.length ? `; ${result.problems.length} cell(s) or line(s) not used, listed below` : ''}.`;
   const verdict = $('inhibition-verdict');
   verdict.dataset.preferred = result.comparison.preferred ?? '';
   verdict.textContent = `Verdict: ${result.comparison.verdict}.`;
@@ -233,6 +237,7 @@ page.addDemo('inhibition', {
     inhibition: { ...doc.inhibition, text: INHIBITION_DEMO, rate_unit: 'µM/min', excluded_lines: [], excluded_cells: [] },
   }),
 });
+page.onCoreRestart(() => { bench = null; });
 $('inhibition-input').addEventListener('input', () => page.tableEntered('inhibition', $('inhibition-input').value, 'inhibition-move-note'));
 page.view((doc) => {
   if ($('inhibition-input').value !== doc.inhibition.text) $('inhibition-input').value = doc.inhibition.text;

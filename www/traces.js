@@ -158,7 +158,11 @@ function workerMain() {
         self.postMessage({ id: job.id, kind: 'done', text });
       }
     } catch (error) {
-      self.postMessage({ id: job.id, kind: 'error', message: error?.message ?? String(error) });
+      // An abort of the core leaves this worker's module unusable: say so
+      // and close; the page starts a fresh worker for the next job.
+      const trapped = error instanceof WebAssembly.RuntimeError;
+      self.postMessage({ id: job.id, kind: 'error', message: trapped ? `the computing core stopped on an internal error (${error.message}); try again` : error?.message ?? String(error), trapped });
+      if (trapped) self.close();
     }
   };
 }
@@ -204,6 +208,12 @@ function startWorker() {
         worker.handle = handle;
         resolve(handle);
         return;
+      }
+      if (m.trapped) {
+        // The next job gets a fresh worker.
+        worker.handle = null;
+        worker.starting = null;
+        handle.terminate();
       }
       const job = worker.pending.get(m.id);
       if (!job) return;
@@ -303,6 +313,7 @@ async function analyseTraces(doc, key) {
   } catch (error) {
     if (number !== analysisCount) return null;
     hideBusy();
+    if (page.coreFailed(error)) return null;
     traceState.resultKey = key;
     clearResults();
     markStale(false);
@@ -940,6 +951,13 @@ document.head.append(style);
 
 function start() {
   traceState.bench = new wasm_bindgen.TraceBench();
+  page.onCoreRestart(() => {
+    traceState.bench = new wasm_bindgen.TraceBench();
+    traceState.resultKey = null;
+    traceState.progressKey = null;
+    running = null;
+    fitting = null;
+  });
   wire();
   page.view((doc) => render(doc, page.isTyping()));
   // Start the worker while the page is idle, so that the first large plate

@@ -141,6 +141,31 @@ fn serde_json_like(result: &RateComparison) -> ComparisonView<'_> {
     ComparisonView { comparison: &result.comparison, fits: &result.fits }
 }
 
+/// Installed when the module starts (on the page and in its worker): a
+/// panic is reported to the global function `turnoverCorePanicked(message)`
+/// when the page has defined one, before the module aborts. The page then
+/// keeps the person's document and starts a fresh module.
+#[wasm_bindgen(start)]
+fn start() {
+    std::panic::set_hook(Box::new(|info| {
+        let message = info.to_string();
+        let global = js_sys::global();
+        if let Ok(report) = js_sys::Reflect::get(&global, &JsValue::from_str("turnoverCorePanicked")) {
+            if let Some(report) = report.dyn_ref::<js_sys::Function>() {
+                let _ = report.call1(&JsValue::NULL, &JsValue::from_str(&message));
+            }
+        }
+    }));
+}
+
+/// Panics on purpose: for the browser test of the page's recovery only,
+/// compiled with the `test-hooks` feature.
+#[cfg(feature = "test-hooks")]
+#[wasm_bindgen(js_name = panicForTest)]
+pub fn panic_for_test() {
+    panic!("a deliberate panic for the page's recovery test");
+}
+
 /// The version of Turnover, for the page footer and saved files.
 #[wasm_bindgen]
 pub fn version() -> String {

@@ -1,0 +1,15 @@
+import { pageUrl, launch, shotDir } from './harness.mjs';
+const browser = await launch('dbg');
+const page = await browser.context.newPage();
+page.on('console', (m) => console.log('console', m.type(), m.text()));
+page.on('pageerror', (e) => console.log('pageerror', e.stack ?? e));
+await page.goto(pageUrl);
+await page.waitForTimeout(2500);
+await page.click('#load-inhibition-demo');
+await page.waitForTimeout(1500);
+await page.locator('#inhibition-panel').screenshot({ path: `${shotDir}/dbg-inh.png` });
+await page.click('#load-dose-demo');
+await page.waitForTimeout(1500);
+await page.locator('#dose-panel').screenshot({ path: `${shotDir}/dbg-dose.png` });
+await page.screenshot({ path: `${shotDir}/dbg-full.png`, fullPage: true });
+await browser.close();
