@@ -124,19 +124,6 @@ function rateRequest(doc) {
   return { request, problems, blocking };
 }
 
-const METHOD_TEXT = {
-  asymptotic: 'intervals estimate ± t(0.975, n − p)·SE',
-  profile: 'profile-likelihood intervals (each constant held fixed in turn, the others refitted; F-based cut-off), which follow the curvature of the model and may be asymmetric',
-  bootstrap: 'bootstrap percentile intervals',
-};
-const WEIGHT_TEXT = {
-  uniform: 'equal weights',
-  relative: 'weights 1/v² (constant relative error)',
-  poisson: 'weights 1/v',
-  sd: 'weights 1/sd² from the sd column',
-  weighted: 'weights',
-};
-
 function formatNumber(value, digits = 4) {
   if (value === null || value === undefined || !Number.isFinite(value)) return '—';
   if (value === 0) return '0';
@@ -190,10 +177,24 @@ function showProblems(problems, fatal, fieldProblems = []) {
     const list = element('ul');
     for (const p of problems) {
       const where = p.column ? `line ${p.line}, column ${p.column}` : `line ${p.line}`;
-      list.append(element('li', { 'data-line': p.line }, `${where}: ${p.message}`));
+      const item = element('li', { 'data-line': p.line, title: 'Show this line in the table' }, `${where}: ${p.message}`);
+      item.addEventListener('click', () => selectLine($('data-input'), p.line));
+      list.append(item);
     }
     box.append(list);
   }
+}
+
+/** Selects line `line` (from 1) of a text box and scrolls it into view,
+ *  so that "line 23" in a message can be found without counting. */
+function selectLine(box, line) {
+  const lines = box.value.split('\n');
+  const start = lines.slice(0, line - 1).reduce((sum, l) => sum + l.length + 1, 0);
+  const end = start + (lines[line - 1]?.length ?? 0);
+  box.focus();
+  box.setSelectionRange(start, end);
+  const height = box.scrollHeight / Math.max(1, lines.length);
+  box.scrollTop = Math.max(0, (line - 3) * height);
 }
 
 function showResult(result) {
@@ -250,13 +251,7 @@ function showResult(result) {
     stats.append(item);
   }
 
-  const method = fit.parameters[0]?.ci_method ?? 'asymptotic';
-  let methodText = `Nonlinear least squares (Levenberg-Marquardt) fitted directly to v with ${WEIGHT_TEXT[fit.weighting] ?? fit.weighting}; standard errors from the asymptotic covariance; ${METHOD_TEXT[method] ?? method}.`;
-  if (result.bootstrap) {
-    const b = result.bootstrap;
-    methodText += ` Bootstrap: ${b.resamples} resamples of the ${b.scheme === 'case' ? 'rows' : 'residuals'}, seed ${b.seed}${b.failures ? `, ${b.failures} refits left out` : ''}.`;
-  }
-  $('method').textContent = methodText;
+  $('method').textContent = rateMethods(result, workspace.doc);
   showChecks(result);
 
   const warnings = $('warnings');
@@ -347,6 +342,8 @@ function showRateLaws() {
 function clearResult(message) {
   $('status').dataset.state = 'error';
   $('status').textContent = message;
+  $('points-table').tBodies[0].replaceChildren();
+  $('method').textContent = '';
   $('parameters').tBodies[0].replaceChildren();
   $('fit-stats').replaceChildren();
   $('warnings').replaceChildren();
@@ -374,6 +371,158 @@ function drawPlots() {
       console.warn(`plot ${kind}: ${error.message ?? error}`);
     }
   }
+}
+
+// ------------------------------------------------------------ points, methods, exports
+
+/** The table of points: every line read, with its fitted value and
+ *  residual, and whether it was used. A click leaves a point out. */
+function showPoints(result) {
+  const body = $('points-table').tBodies[0];
+  const u = result.units;
+  const head = $('points-table').tHead.rows[0].cells;
+  head[1].textContent = u.substrate ? `[S] (${u.substrate})` : '[S]';
+  head[2].textContent = u.rate ? `v (${u.rate})` : 'v';
+  body.replaceChildren(...result.points.map((p) => {
+    const row = element('tr', { 'data-line': String(p.line) });
+    if (p.excluded) row.classList.add('left-out');
+    if (p.flagged) row.classList.add('flagged');
+    const num = (x, digits = 4) => element('td', { class: 'num' }, x === null || x === undefined ? '—' : formatNumber(x, digits));
+    row.append(element('td', {}, `${p.line}${p.flagged ? ' ⚑' : ''}`), num(p.s), num(p.v), num(p.fitted), num(p.residual, 3),
+      num(p.studentised, 3), num(p.leverage, 3), num(p.weight, 3), element('td', {}, p.excluded ? 'left out' : 'used'));
+    row.addEventListener('click', () => workspace.dispatch({ type: 'toggle point', section: 'rates', line: p.line }));
+    return row;
+  }));
+}
+
+const WEIGHT_WORDS = {
+  uniform: 'equal weights (constant absolute error)',
+  relative: 'weights 1/v² (constant relative error)',
+  poisson: 'weights 1/v (variance proportional to v)',
+  sd: 'weights 1/sd² from the sd column',
+};
+const INTERVAL_WORDS = {
+  asymptotic: 'estimate ± t(0.975, n − p)·SE',
+  profile: 'profile-likelihood intervals (each constant held fixed in turn and the others refitted)',
+  bootstrap: 'bootstrap percentile intervals',
+  delta: 'delta-method intervals',
+};
+
+/** One fit, said as a methods sentence: the model, the fitting, the
+ *  weighting, the interval method, n and the version that computed it. */
+function fitMethods(fit, what, bootstrap) {
+  const method = fit.parameters.find((p) => !p.derived)?.ci_method ?? 'asymptotic';
+  const level = Math.round(fit.confidence_level * 100);
+  let text = `${what} were fitted to ${fit.equation} by nonlinear least squares (Levenberg-Marquardt) with ${WEIGHT_WORDS[fit.weighting] ?? `${fit.weighting} weights`}, n = ${fit.n} (${fit.dof} degrees of freedom). Standard errors are from the asymptotic covariance matrix; ${level}% intervals are ${INTERVAL_WORDS[method] ?? method}`;
+  if (bootstrap) text += ` (${bootstrap.resamples} resamples of the ${bootstrap.scheme === 'case' ? 'rows' : 'residuals'}, seed ${bootstrap.seed})`;
+  return `${text}.`;
+}
+
+function versionText() {
+  return `Computed with Turnover ${wasm_bindgen.version()} (one HTML file, offline).`;
+}
+
+function rateMethods(result, doc) {
+  const u = result.units;
+  const used = result.points.filter((p) => !p.excluded);
+  const s = used.map((p) => p.s);
+  const levels = new Set(s).size;
+  const range = s.length ? `${formatNumber(Math.min(...s), 3)}–${formatNumber(Math.max(...s), 3)}${u.substrate ? ` ${u.substrate}` : ''}` : '';
+  const parts = [fitMethods(result.fit, `Initial rates at ${levels} substrate concentrations (${range})`, result.bootstrap)];
+  const kcat = result.fit.parameters.find((p) => p.name === 'kcat');
+  if (kcat) parts.push(`kcat = Vmax/[E]t with [E]t = ${doc.rates.enzyme} ${doc.rates.enzyme_unit} taken as exact; kcat/Km with its error from the full covariance.`);
+  const left = result.points.filter((p) => p.excluded).map((p) => p.line);
+  if (left.length) parts.push(`${left.length} point${left.length === 1 ? ' was' : 's were'} left out of the fit (input line${left.length === 1 ? '' : 's'} ${left.join(', ')}).`);
+  parts.push(versionText());
+  return parts.join(' ');
+}
+
+function csvCell(value) {
+  if (value === null || value === undefined) return '';
+  if (typeof value === 'number') return Number.isFinite(value) ? String(value) : '';
+  if (typeof value === 'boolean') return value ? 'yes' : 'no';
+  const text = String(value);
+  return /[",\r\n]/.test(text) ? `"${text.replace(/"/g, '""')}"` : text;
+}
+
+/** Rows as CSV text (RFC 4180), numbers at full precision: the shortest
+ *  decimal that reads back as the same double. */
+function csvText(rows) {
+  return rows.map((row) => row.map(csvCell).join(',')).join('\r\n') + '\r\n';
+}
+
+/** One row per constant, with the fit's statistics on every row, so the
+ *  file reads as one tidy table. */
+function constantsRows(fits) {
+  const rows = [['model', 'constant', 'estimate', 'std_error', 'ci_low', 'ci_high', 'ci_method', 'unit', 'derived',
+    'n', 'dof', 'rss', 'residual_sd', 'r_squared', 'aicc', 'converged', 'weighting', 'confidence_level']];
+  for (const fit of fits) {
+    for (const p of fit.parameters) {
+      rows.push([fit.model, p.name, p.value, p.std_error, p.ci_low, p.ci_high, p.ci_method, p.unit ?? '', p.derived,
+        fit.n, fit.dof, fit.rss, fit.sigma, fit.r_squared, fit.aicc, fit.converged, fit.weighting, fit.confidence_level]);
+    }
+  }
+  return rows;
+}
+
+function withUnit(name, unit) {
+  return unit ? `${name} (${unit})` : name;
+}
+
+function ratePointRows(result) {
+  const u = result.units;
+  const rows = [['line', withUnit('s', u.substrate), withUnit('v', u.rate), 'fitted', 'residual', 'studentised', 'leverage', 'weight', 'sd', 'used', 'flagged']];
+  for (const p of result.points) rows.push([p.line, p.s, p.v, p.fitted, p.residual, p.studentised, p.leverage, p.weight, p.sd, !p.excluded, p.flagged]);
+  return rows;
+}
+
+function fileStem() {
+  return workspace.doc.name.replace(/[^\w.-]+/g, '-').replace(/^-+|-+$/g, '').slice(0, 40) || 'analysis';
+}
+
+function downloadCsv(suffix, rows) {
+  download(`turnover-${fileStem()}-${suffix}.csv`, 'text/csv', csvText(rows));
+}
+
+// ------------------------------------------------------------ the reporting checklist
+
+/** The items a report of these constants needs (after the STRENDA
+ *  guidelines, from memory: check the current published list), each with
+ *  what this analysis holds, or null when it is for the person to give. */
+function checklist(doc) {
+  const a = doc.assay;
+  const r = state.result;
+  const given = (text) => (text && text.trim() ? text.trim() : null);
+  const points = r ? r.points.filter((p) => !p.excluded) : [];
+  const s = points.map((p) => p.s);
+  const counts = new Map();
+  for (const x of s) counts.set(x, (counts.get(x) ?? 0) + 1);
+  const fromTraces = doc.traces.text.trim() ? 'from time courses in this analysis: straight-line windows using at most the stated share of [S]₀, flags for depletion and curvature' : null;
+  return [
+    ['Enzyme identity (name, EC number)', given(a.enzyme)],
+    ['Source and preparation (organism, host, purity)', given(a.source)],
+    ['Assay temperature', given(a.temperature)],
+    ['Assay pH', given(a.ph)],
+    ['Buffer and other components (salts, cofactors, additives)', given(a.buffer)],
+    ['Assay method (what was measured, continuous or not)', given(a.method)],
+    ['Enzyme concentration in the assay', given(doc.rates.enzyme) ? `${doc.rates.enzyme} ${doc.rates.enzyme_unit}` : null],
+    ['Substrate concentrations', s.length ? `${counts.size} concentrations, ${formatNumber(Math.min(...s), 3)}–${formatNumber(Math.max(...s), 3)} ${r.units.substrate ?? ''}` : null],
+    ['Replicates', s.length ? `${points.length} rates; ${[...counts.values()].every((c) => c > 1) ? `${Math.min(...counts.values())}–${Math.max(...counts.values())} per concentration` : 'not every concentration replicated'}` : null],
+    ['How initial rates were obtained (linearity, substrate used)', fromTraces],
+    ['Model and fitting method', r ? `${r.fit.equation}; nonlinear least squares, ${WEIGHT_WORDS[r.fit.weighting] ?? r.fit.weighting}` : null],
+    ['Constants with units and uncertainties', r ? r.fit.parameters.map((p) => `${p.name} ${formatNumber(p.value, 4)} ± ${formatNumber(p.std_error, 2)} ${p.unit ?? ''}`).join('; ') : null],
+    ['Software and version', `Turnover ${wasm_bindgen.version()}`],
+    ['Notes', given(doc.notes)],
+  ];
+}
+
+function showChecklist(doc) {
+  const body = $('checklist').tBodies[0];
+  body.replaceChildren(...checklist(doc).map(([item, value]) => {
+    const row = element('tr', { 'data-given': value ? 'yes' : 'no' });
+    row.append(element('td', {}, item), element('td', {}, value ?? 'not given: add it in Assay details or your notes'));
+    return row;
+  }));
 }
 
 // ------------------------------------------------------------ derived results
@@ -447,6 +596,12 @@ function markStale(on) {
 }
 
 function computeRates(doc) {
+  computeRateResult(doc);
+  // The printed report leaves out sections with nothing to show.
+  for (const id of ['data-panel', 'fit-panel', 'plots-panel']) $(id).classList.toggle('no-data', !state.result);
+}
+
+function computeRateResult(doc) {
   const { request, problems, blocking } = rateRequest(doc);
   if (!request.text.trim()) {
     state.result = null;
@@ -482,6 +637,7 @@ function computeRates(doc) {
   state.error = null;
   showProblems(result.problems, null, problems);
   showResult(result);
+  showPoints(result);
   if (problems.length) {
     if ($('status').dataset.state === 'ok') $('status').dataset.state = 'warn';
     $('status').textContent += ' A field could not be read: see the note under the table.';
@@ -585,8 +741,8 @@ function resultsAsText() {
   if (doc.demo.length) lines.push('# this analysis holds demo data (invented, not measured)');
   if (state.result) {
     lines.push(...fitAsText('Rate fit', state.result.fit));
-    const excluded = state.result.points.filter((p) => p.excluded).map((p) => p.line);
-    if (excluded.length) lines.push(`# left out: input line(s) ${excluded.join(', ')}`);
+    lines.push(`# methods: ${rateMethods(state.result, doc)}`);
+    lines.push('', '# points', ...ratePointRows(state.result).map((row) => row.map((x) => (typeof x === 'boolean' ? (x ? 'yes' : 'no') : x ?? '')).join('\t')));
   }
   // Other sections add their own results (inhibitor series, dose-response).
   for (const [name, text] of sectionTexts) {
@@ -717,7 +873,8 @@ demoParts.set('rates', {
   name: 'hydrolase Hyd-3 rates',
   build: (doc) => ({
     ...doc,
-    demo: [...new Set([...doc.demo, 'rates'])],
+    demo: [...new Set([...doc.demo, 'rates', 'assay'])],
+    assay: { ...doc.assay, enzyme: 'Hyd-3, a fictional hydrolase (demo)', source: 'an imaginary pond isolate (demo)', temperature: '30 °C', ph: '7.5' },
     rates: { ...doc.rates, text: DEMO_TABLE, substrate_unit: '', rate_unit: '', enzyme: '25', enzyme_unit: 'nM', excluded_lines: [] },
   }),
 });
@@ -768,6 +925,7 @@ function renderBar() {
   $('undo').title = undo ? `Undo: ${undo} (Ctrl+Z)` : 'Nothing to undo';
   $('redo').title = redo ? `Redo: ${redo} (Ctrl+Shift+Z)` : 'Nothing to redo';
   $('demo-banner').hidden = !doc.demo.length;
+  $('print-heading').textContent = `${doc.name} · printed ${formatWhen(new Date().toISOString())}${doc.demo.length ? ' · DEMO DATA: invented numbers, not measurements' : ''}`;
   document.title = `${doc.name} · Turnover`;
 }
 
@@ -844,6 +1002,28 @@ function savePage() {
   download(`turnover-${stamp}.html`, 'text/html', page);
 }
 
+/** Prints the analysis as a report: every result brought up to date, the
+ *  folded parts unfolded, controls hidden by the print style. */
+function printReport() {
+  flushAll();
+  window.print();
+}
+
+// The print dialog (the button, or the browser's own menu) shows the
+// folded parts; they fold back afterwards.
+let unfoldedForPrint = [];
+window.addEventListener('beforeprint', () => {
+  flushAll();
+  unfoldedForPrint = [...document.querySelectorAll('main details:not([open]), #report-panel details:not([open])')].filter((d) => !d.classList.contains('screen-only'));
+  for (const d of unfoldedForPrint) d.open = true;
+  document.body.classList.add('printing');
+});
+window.addEventListener('afterprint', () => {
+  for (const d of unfoldedForPrint) d.open = false;
+  unfoldedForPrint = [];
+  document.body.classList.remove('printing');
+});
+
 function isTextField(target) {
   if (!target) return false;
   if (target.isContentEditable) return true;
@@ -914,6 +1094,7 @@ function wireBar() {
   });
   $('dismiss-problem').addEventListener('click', () => { $('document-problem').hidden = true; });
   $('save-page').addEventListener('click', savePage);
+  $('print-report').addEventListener('click', printReport);
   $('copy-results').addEventListener('click', async () => {
     const text = resultsAsText();
     try {
@@ -969,6 +1150,16 @@ function wireRates() {
     showRateLaws();
   });
   $('analyse').addEventListener('click', flushAll);
+  $('rates-csv-constants').addEventListener('click', () => {
+    rates.flush();
+    if (state.result) downloadCsv('rate-constants', constantsRows([state.result.fit]));
+  });
+  $('rates-csv-points').addEventListener('click', () => {
+    rates.flush();
+    if (state.result) downloadCsv('rate-points', ratePointRows(state.result));
+  });
+  for (const field of ['enzyme', 'source', 'temperature', 'ph', 'buffer', 'method']) bindField(`assay-${field}`, `assay.${field}`);
+  workspace.view((doc) => showChecklist(doc));
   $('load-demo').addEventListener('click', () => loadDemo('rates'));
   $('include-all').addEventListener('click', () => workspace.dispatch({ type: 'use all points', section: 'rates' }));
   $('file-input').addEventListener('change', (event) => {
@@ -1091,6 +1282,12 @@ Object.assign(window.turnover, {
   // formats numbers and downloads files the same way.
   ui: {
     format: formatNumber,
+    csvText,
+    constantsRows,
+    downloadCsv,
+    fitMethods,
+    versionText,
+    withUnit,
     typedNumber,
     fitAsText,
     cell(tag, text, attributes = {}) {

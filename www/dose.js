@@ -166,7 +166,14 @@ function clearPlot() {
   positions = [];
 }
 
-page.addText('Dose-response', () => (lastResult && section.fresh() ? page.ui.fitAsText(`Dose-response fit, ${lastResult.fit.model}`, lastResult.fit) : []));
+page.addText('Dose-response', () => {
+  if (!lastResult || !section.fresh()) return [];
+  const d = page.doc().dose;
+  const lines = page.ui.fitAsText(`Dose-response fit, ${lastResult.fit.model}`, lastResult.fit);
+  if (d.cp_mechanism) lines.push(`# Cheng-Prusoff inputs: mechanism ${d.cp_mechanism}, [S] ${d.cp_substrate}, Km ${d.cp_km}${d.cp_km_se ? ` ± ${d.cp_km_se}` : ''}`);
+  lines.push(`# methods: ${$('dose-methods').textContent}`, '', '# points', ...pointRows(lastResult).map((row) => row.map((x) => (typeof x === 'boolean' ? (x ? 'yes' : 'no') : x)).join('\t')));
+  return lines;
+});
 
 // What this section reads of the document: its own table, options and
 // left-out points, and the rate section's fitting choices.
@@ -245,6 +252,13 @@ function analyseDose(doc) {
   const problems = result.problems.map((p) => `${p.column ? `line ${p.line}, column ${p.column}` : `line ${p.line}`}: ${p.message} (not used)`);
   $('dose-warnings').replaceChildren(...[...fit.warnings, ...problems, ...result.notes].map((w) => cell('li', w)));
   showKi(result, chosen.cpProblem, sent.dose.cp_mechanism);
+  const levels = new Set(result.points.filter((p) => !p.excluded).map((p) => p.i)).size;
+  let methods = page.ui.fitMethods(fit, `Responses at ${levels} inhibitor concentrations`, null);
+  const cp = chosen.request?.cheng_prusoff;
+  if (cp && fit.parameters.some((p) => p.name === 'Ki')) {
+    methods += ` Ki from the IC50 by Cheng & Prusoff (1973) for a ${cp.mechanism} inhibitor with [S] = ${cp.substrate} and Km = ${cp.km}${cp.km_se !== null ? ` ± ${cp.km_se}` : ' (taken as exact)'}, in one unit.`;
+  }
+  $('dose-methods').textContent = `${methods} ${page.ui.versionText()}`;
   $('dose-caution').textContent = result.caution;
   draw(result);
 }
@@ -270,7 +284,10 @@ function toggleAt(canvas, event) {
 
 const section = page.derived({
   key: (doc) => JSON.stringify(doseInputs(doc)),
-  compute: analyseDose,
+  compute: (doc) => {
+    analyseDose(doc);
+    $('dose-panel').classList.toggle('no-data', !doc.dose.text.trim());
+  },
   stale: (on) => $('dose-panel').classList.toggle('stale', on),
 });
 
@@ -295,6 +312,31 @@ page.addDemo('dose', {
 });
 $('load-dose-demo').addEventListener('click', () => page.loadDemo('dose'));
 page.onCoreRestart(() => { bench = null; });
+function pointRows(result) {
+  const rows = [['line', page.ui.withUnit('i', result.inhibitor_unit), 'response', 'fitted', 'used']];
+  for (const p of result.points) rows.push([p.line, p.i, p.y, p.fitted, !p.excluded]);
+  return rows;
+}
+// The Cheng-Prusoff inputs travel with the constants they produced.
+function constantsWithInputs(result, doc) {
+  const rows = page.ui.constantsRows([result.fit]);
+  const d = doc.dose;
+  if (d.cp_mechanism && result.fit.parameters.some((p) => p.name === 'Ki')) {
+    const blank = Array(rows[0].length - 3).fill(null);
+    rows.push(['cheng-prusoff input', 'mechanism', d.cp_mechanism, ...blank]);
+    rows.push(['cheng-prusoff input', '[S]', page.ui.typedNumber(d.cp_substrate), ...blank]);
+    rows.push(['cheng-prusoff input', 'Km', page.ui.typedNumber(d.cp_km), page.ui.typedNumber(d.cp_km_se), ...blank.slice(1)]);
+  }
+  return rows;
+}
+$('dose-csv-constants').addEventListener('click', () => {
+  section.flush();
+  if (lastResult) page.ui.downloadCsv('dose-constants', constantsWithInputs(lastResult, page.doc()));
+});
+$('dose-csv-points').addEventListener('click', () => {
+  section.flush();
+  if (lastResult) page.ui.downloadCsv('dose-points', pointRows(lastResult));
+});
 $('dose-input').addEventListener('input', () => page.tableEntered('dose', $('dose-input').value, 'dose-move-note'));
 page.view((doc) => {
   if ($('dose-input').value !== doc.dose.text) $('dose-input').value = doc.dose.text;

@@ -113,7 +113,8 @@ page.addText('Inhibitor series', () => {
   if (!lastResult || !section.fresh()) return [];
   const fit = lastResult.fits.find((f) => f.model === lastResult.shown) ?? lastResult.fits[0];
   const ranking = lastResult.comparison.models.map((m) => `# ${m.model}: AICc ${m.aicc}, Akaike weight ${m.akaike_weight}`);
-  return [`# verdict: ${lastResult.comparison.verdict}`, ...ranking, ...page.ui.fitAsText(`Global fit, ${fit.model}`, fit)];
+  return [`# verdict: ${lastResult.comparison.verdict}`, ...ranking, ...page.ui.fitAsText(`Global fit, ${fit.model}`, fit),
+    `# methods: ${$('inhibition-methods').textContent}`, '', '# points', ...pointRows(lastResult).map((row) => row.map((x) => (typeof x === 'boolean' ? (x ? 'yes' : 'no') : x)).join('\t'))];
 });
 
 // What this section reads of the document: its own table, unit and
@@ -170,6 +171,8 @@ function analyseInhibition(doc) {
   verdict.textContent = `Verdict: ${result.comparison.verdict}.`;
   showRanking(result);
   showConstants(result);
+  const shownFit = result.fits.find((f) => f.model === result.shown) ?? result.fits[0];
+  $('inhibition-methods').textContent = `${page.ui.fitMethods(shownFit, `Rates at ${result.inhibitor_levels.length} inhibitor concentrations (${result.fits[0].n} rates; every mechanism fitted globally, the ${shownFit.model} fit shown)`, null)} ${page.ui.versionText()}`;
   drawAll(result);
 }
 
@@ -200,7 +203,10 @@ function toggleAt(kind, event) {
 
 const section = page.derived({
   key: (doc) => JSON.stringify(inhibitionRequest(doc)),
-  compute: analyseInhibition,
+  compute: (doc) => {
+    analyseInhibition(doc);
+    $('inhibition-panel').classList.toggle('no-data', !doc.inhibition.text.trim());
+  },
   stale: (on) => $('inhibition-panel').classList.toggle('stale', on),
 });
 
@@ -238,6 +244,20 @@ page.addDemo('inhibition', {
   }),
 });
 page.onCoreRestart(() => { bench = null; });
+function pointRows(result) {
+  const u = result.units;
+  const rows = [['line', 'column', page.ui.withUnit('s', u.substrate), page.ui.withUnit('i', u.inhibitor), page.ui.withUnit('v', u.rate), `fitted (${result.shown})`, 'used']];
+  for (const p of result.points) rows.push([p.line, p.column, p.s, p.i, p.v, p.fitted, !p.excluded]);
+  return rows;
+}
+$('inhibition-csv-constants').addEventListener('click', () => {
+  section.flush();
+  if (lastResult) page.ui.downloadCsv('inhibition-constants', page.ui.constantsRows(lastResult.fits));
+});
+$('inhibition-csv-points').addEventListener('click', () => {
+  section.flush();
+  if (lastResult) page.ui.downloadCsv('inhibition-points', pointRows(lastResult));
+});
 $('inhibition-input').addEventListener('input', () => page.tableEntered('inhibition', $('inhibition-input').value, 'inhibition-move-note'));
 page.view((doc) => {
   if ($('inhibition-input').value !== doc.inhibition.text) $('inhibition-input').value = doc.inhibition.text;

@@ -21,6 +21,7 @@ export const FORMAT = 'turnover-document';
  *  Fields typed by a person are kept as the text they typed (never parsed
  *  here), so that what reopens is exactly what was entered. */
 const DEFAULTS = {
+  assay: { enzyme: '', source: '', temperature: '', ph: '', buffer: '', method: '' },
   rates: {
     text: '', substrate_unit: '', rate_unit: '', enzyme: '', enzyme_unit: 'nM',
     weighting: 'uniform', interval_method: 'asymptotic', resamples: '2000', seed: '1', resample_by: 'residual',
@@ -41,6 +42,7 @@ const DEFAULTS = {
  *  demo's, these leave with it (so the demo's [E]t never reaches a person's
  *  results). Settings such as weighting are the person's choice and stay. */
 const DEMO_FIELDS = {
+  assay: Object.keys(DEFAULTS.assay),
   rates: ['text', 'substrate_unit', 'rate_unit', 'enzyme', 'enzyme_unit', 'excluded_lines'],
   inhibition: ['text', 'rate_unit', 'excluded_lines', 'excluded_cells'],
   dose: ['text', 'enzyme', 'cp_mechanism', 'cp_substrate', 'cp_km', 'cp_km_se', 'excluded_lines'],

@@ -735,6 +735,7 @@ function render(doc, typing) {
     drawDetail();
   }
   $('traces-progress').textContent = doc.traces.whole_curve ? 'Stop fitting whole curves' : 'Fit whole curves';
+  $('traces-panel').classList.toggle('no-data', !doc.traces.text.trim());
   const preset = wasm_bindgen.tracePresets().find((p) => p.key === doc.traces.preset);
   $('tr-preset-source').textContent = preset ? `Source: ${preset.source}.` : '';
 }
@@ -862,6 +863,13 @@ function wire() {
     }
   });
   $('traces-analyse').addEventListener('click', () => currentAnalysis());
+  $('traces-csv-wells').addEventListener('click', async () => {
+    const r = await currentAnalysis();
+    if (r) page.ui.downloadCsv('rates-per-well', wellRows(r));
+  });
+  $('traces-csv-whole').addEventListener('click', () => {
+    if (traceState.progress && traceState.progressKey === traceState.resultKey) page.ui.downloadCsv('whole-curve-fit', page.ui.constantsRows([traceState.progress.summary]));
+  });
   $('traces-demo').addEventListener('click', () => page.loadDemo('plate'));
   $('traces-send').addEventListener('click', sendRates);
   $('traces-progress').addEventListener('click', () => {
@@ -965,12 +973,21 @@ function start() {
   setTimeout(startWorker, 200);
 }
 
+/** Every trace's rate with its window and flags, at full precision. */
+function wellRows(r) {
+  const rows = [['trace', 'role', page.ui.withUnit('s0', r.substrate_unit), page.ui.withUnit('i', r.inhibitor_unit), page.ui.withUnit('e', r.enzyme_unit),
+    page.ui.withUnit('rate', r.rate_unit), 'std_error', page.ui.withUnit('window_start', r.time_unit), page.ui.withUnit('window_end', r.time_unit),
+    'window_points', 'window_by_hand', 'fraction_of_s0_used', 'left_out', 'flags']];
+  for (const t of r.traces) {
+    rows.push([t.name, t.role, t.s, t.i, t.e, t.rate, t.rate_se, t.window_start, t.window_end, t.window_points, t.manual_window, t.fraction_converted, t.excluded, t.flags.join(' ')]);
+  }
+  return rows;
+}
+
 page.addText('Time courses', () => {
   const r = traceState.result;
   if (!r || traceState.resultKey !== analysisKey(page.doc())) return [];
-  const lines = [['trace', 'role', 'S0', 'rate', 'std_error', 'window_start', 'window_end', 'fraction_used', 'flags'].join('\t')];
-  for (const t of r.traces) lines.push([t.name, t.role, t.s ?? '', t.rate ?? '', t.rate_se ?? '', t.window_start ?? '', t.window_end ?? '', t.fraction_converted ?? '', t.flags.join(' ')].join('\t'));
-  lines.push(`# rates in ${r.rate_unit}, times in ${r.time_unit}`);
+  const lines = wellRows(r).map((row) => row.map((x) => (typeof x === 'boolean' ? (x ? 'yes' : 'no') : x ?? '')).join('\t'));
   const fit = traceState.progress;
   if (fit && traceState.progressKey === traceState.resultKey) lines.push(...page.ui.fitAsText('Whole curves, integrated Michaelis-Menten', fit.summary));
   return lines;

@@ -388,8 +388,12 @@ test('d. clicking a point on the direct plot excludes it and refits; clicking ag
     if (f1.stats.dof !== undefined) assert.equal(num(f1.stats.dof, 'dof after exclusion'), 9, 'degrees of freedom after exclusion');
     await screenshot(page, 'excluded.png');
 
-    // Second click at the same place: re-include.
-    await page.mouse.click(cx, cy);
+    // Second click on the same point: re-include. The plot may have moved
+    // on the page (the methods paragraph above it now names the left-out
+    // line), so find it again.
+    await canvas.scrollIntoViewIfNeeded();
+    const box2 = await canvas.boundingBox();
+    await page.mouse.click(box2.x + pos.x, box2.y + pos.y);
     try {
       await page.waitForFunction((km1) => {
         const v = document.querySelector('#parameters tr[data-param="Km"]')?.getAttribute('data-value');
