@@ -697,25 +697,29 @@ function looksLikeRates(text) {
   }
 }
 
-function toggleAt(canvas, event) {
-  if (!state.result || !rates.fresh()) return;
-  const kind = canvas.dataset.kind;
+/** The drawn point nearest a click on `canvas` (within 10 CSS pixels),
+ *  from the positions the core's drawing returned, or null. */
+function nearestPoint(canvas, positions, event) {
   const scaleX = canvas.width / canvas.clientWidth;
-  const scaleY = canvas.height / canvas.clientHeight;
   const box = canvas.getBoundingClientRect();
   const x = (event.clientX - box.left) * scaleX;
-  const y = (event.clientY - box.top) * scaleY;
+  const y = (event.clientY - box.top) * (canvas.height / canvas.clientHeight);
   let best = null;
   let bestDistance = 10 * scaleX;
-  for (const p of state.positions[kind] ?? []) {
+  for (const p of positions ?? []) {
     const distance = Math.hypot(p.x - x, p.y - y);
     if (distance < bestDistance) {
       best = p;
       bestDistance = distance;
     }
   }
-  if (!best) return;
-  workspace.dispatch({ type: 'toggle point', section: 'rates', line: state.result.points[best.row].line });
+  return best;
+}
+
+function toggleAt(canvas, event) {
+  if (!state.result || !rates.fresh()) return;
+  const best = nearestPoint(canvas, state.positions[canvas.dataset.kind], event);
+  if (best) workspace.dispatch({ type: 'toggle point', section: 'rates', line: state.result.points[best.row].line });
 }
 
 /** One fit record as tab-separated lines: a header, one row per constant,
@@ -1282,6 +1286,7 @@ Object.assign(window.turnover, {
   // formats numbers and downloads files the same way.
   ui: {
     format: formatNumber,
+    nearestPoint,
     csvText,
     constantsRows,
     downloadCsv,

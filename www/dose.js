@@ -265,19 +265,7 @@ function analyseDose(doc) {
 
 function toggleAt(canvas, event) {
   if (!lastResult || !section.fresh()) return;
-  const box = canvas.getBoundingClientRect();
-  const scaleX = canvas.width / canvas.clientWidth;
-  const x = (event.clientX - box.left) * scaleX;
-  const y = (event.clientY - box.top) * (canvas.height / canvas.clientHeight);
-  let best = null;
-  let bestDistance = 10 * scaleX;
-  for (const p of positions) {
-    const distance = Math.hypot(p.x - x, p.y - y);
-    if (distance < bestDistance) {
-      best = p;
-      bestDistance = distance;
-    }
-  }
+  const best = page.ui.nearestPoint(canvas, positions, event);
   if (!best) return;
   page.dispatch({ type: 'toggle point', section: 'dose', line: lastResult.points[best.row].line });
 }

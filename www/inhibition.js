@@ -182,19 +182,7 @@ function analyseInhibition(doc) {
 function toggleAt(kind, event) {
   if (!lastResult || !section.fresh()) return;
   const canvas = $(`plot-${kind}`);
-  const box = canvas.getBoundingClientRect();
-  const scaleX = canvas.width / canvas.clientWidth;
-  const x = (event.clientX - box.left) * scaleX;
-  const y = (event.clientY - box.top) * (canvas.height / canvas.clientHeight);
-  let best = null;
-  let bestDistance = 10 * scaleX;
-  for (const p of positions[kind] ?? []) {
-    const distance = Math.hypot(p.x - x, p.y - y);
-    if (distance < bestDistance) {
-      best = p;
-      bestDistance = distance;
-    }
-  }
+  const best = page.ui.nearestPoint(canvas, positions[kind], event);
   if (!best) return;
   const point = lastResult.points[best.row];
   if (lastResult.layout === 'matrix') page.dispatch({ type: 'toggle cell', cell: `${point.line}:${point.column}` });
