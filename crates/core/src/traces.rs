@@ -36,7 +36,11 @@
 
 use crate::error::Error;
 use crate::fit::student_t_quantile;
-use crate::table::{parse_heading, parse_number, ColumnHeading, DecimalMark, InputProblem};
+use crate::table::{
+    is_comment_line, looks_like_number, outside_quotes, parse_heading, read_number, split_line, ColumnHeading, InputProblem,
+    NumberStyle, Separator, StyleVotes,
+};
+use std::borrow::Cow;
 use crate::units::{ConcentrationUnit, TimeUnit};
 use serde::{Deserialize, Serialize};
 
@@ -356,23 +360,58 @@ pub const CAUTION: &str = "Initial rates are estimates from straight lines over 
 
 fn detect_separator(lines: &[&str]) -> char {
     for sep in ['\t', ';', ','] {
-        if lines.iter().any(|l| l.contains(sep)) {
+        if lines.iter().any(|l| outside_quotes(l).contains(sep)) {
             return sep;
         }
     }
     ' '
 }
 
-fn split(line: &str, sep: char) -> Vec<&str> {
-    let mut cells: Vec<&str> = if sep == ' ' {
-        line.split_whitespace().collect()
-    } else {
-        line.split(sep).map(str::trim).collect()
+/// Splits every line into cells (quoted CSV cells read as their content),
+/// reporting a quote that is never closed.
+fn split_all<'a>(lines: &[(usize, &'a str)], sep: char, problems: &mut Vec<InputProblem>) -> Vec<(usize, Vec<Cow<'a, str>>)> {
+    let separator = match sep {
+        '\t' => Separator::Tab,
+        ';' => Separator::Semicolon,
+        ',' => Separator::Comma,
+        _ => Separator::Whitespace,
     };
-    while cells.len() > 1 && cells.last().is_some_and(|c| c.is_empty()) {
-        cells.pop();
+    lines
+        .iter()
+        .map(|(n, l)| {
+            let (cells, open_quote) = split_line(l, separator);
+            if let Some(column) = open_quote {
+                problems.push(InputProblem {
+                    line: *n,
+                    column: Some(column),
+                    message: "a quote opened in this cell is not closed on the line; the rest of the line was read as the cell".to_string(),
+                });
+            }
+            (*n, cells)
+        })
+        .collect()
+}
+
+/// Borrows split lines as string slices.
+fn as_slices<'a>(owned: &'a [(usize, Vec<Cow<'_, str>>)]) -> Vec<(usize, Vec<&'a str>)> {
+    owned.iter().map(|(n, cells)| (*n, cells.iter().map(|c| c.as_ref()).collect())).collect()
+}
+
+/// Each column's number style, decided from the cells of `rows`.
+fn column_styles(rows: &[(usize, Vec<&str>)]) -> Vec<NumberStyle> {
+    let mut votes = StyleVotes::default();
+    for (_, cells) in rows {
+        for (column, cell) in cells.iter().enumerate() {
+            if parse_clock(cell).is_none() {
+                votes.add(column, cell);
+            }
+        }
     }
-    cells
+    votes.styles()
+}
+
+fn style_of(styles: &[NumberStyle], column: usize) -> NumberStyle {
+    styles.get(column).copied().unwrap_or(NumberStyle::Undecided)
 }
 
 fn normalise_name(name: &str) -> String {
@@ -422,17 +461,6 @@ fn is_overflow_marker(cell: &str) -> bool {
         || matches!(upper.as_str(), "OVRFLW" | "OVER" | "OVERFLOW" | "OVFL" | "SAT" | "SATURATED" | "HIGH" | "HI" | "RANGE?")
 }
 
-fn decimal_mark(sep: char, cells: &[&str]) -> DecimalMark {
-    if sep == ',' {
-        return DecimalMark::Point;
-    }
-    if cells.iter().any(|c| c.contains(',') && !c.contains('.') && parse_number(c, DecimalMark::Comma).is_ok()) {
-        DecimalMark::Comma
-    } else {
-        DecimalMark::Point
-    }
-}
-
 /// A time-course table as read.
 struct RawTraces {
     time_unit: TimeUnit,
@@ -454,20 +482,19 @@ fn read_traces(
         .split('\n')
         .enumerate()
         .map(|(i, l)| (i + 1, l.strip_suffix('\r').unwrap_or(l)))
-        .filter(|(_, l)| !l.trim().is_empty() && !l.trim_start().starts_with('#'))
+        .filter(|(_, l)| !l.trim().is_empty() && !is_comment_line(l))
         .collect();
     if lines.is_empty() {
         return Err(Error::invalid_data("the time-course table is empty; paste a header (time, then one column per trace) and rows"));
     }
     let sep = detect_separator(&lines.iter().map(|(_, l)| *l).collect::<Vec<_>>());
-    let split_lines: Vec<(usize, Vec<&str>)> = lines.iter().map(|(n, l)| (*n, split(l, sep))).collect();
-    let all_cells: Vec<&str> = split_lines.iter().flat_map(|(_, c)| c.iter().copied()).collect();
-    let mark = decimal_mark(sep, &all_cells);
+    let owned = split_all(&lines, sep, problems);
+    let split_lines = as_slices(&owned);
 
     // The header is the first line whose first cell names time; failing
     // that, the last non-numeric line before the first row of numbers.
     let first_numeric = |cells: &[&str]| {
-        cells.len() >= 2 && (parse_number(cells[0], mark).is_ok() || parse_clock(cells[0]).is_some())
+        cells.len() >= 2 && (looks_like_number(cells[0]) || parse_clock(cells[0]).is_some())
     };
     let header_index = split_lines
         .iter()
@@ -560,8 +587,9 @@ fn read_traces(
     let mut row_lines = Vec::new();
     let mut values = vec![Vec::new(); names.len()];
     let mut cells = vec![Vec::new(); names.len()];
+    let styles = column_styles(&split_lines[header_index + 1..]);
     for (line, row) in &split_lines[header_index + 1..] {
-        let time = parse_clock(row[0]).map(Ok).unwrap_or_else(|| parse_number(row[0], mark));
+        let time = parse_clock(row[0]).map(Ok).unwrap_or_else(|| read_number(row[0], style_of(&styles, 0)));
         let time = match time {
             Ok(t) => t,
             Err(message) => {
@@ -607,7 +635,7 @@ fn read_traces(
                 });
                 (None, CellState::Overflow)
             } else {
-                match parse_number(cell, mark) {
+                match read_number(cell, style_of(&styles, *column)) {
                     Ok(v) => (Some(v), CellState::Value),
                     Err(message) => {
                         problems.push(InputProblem { line: *line, column: Some(column + 1), message });
@@ -647,13 +675,14 @@ fn read_layout(text: &str, problems: &mut Vec<InputProblem>, notes: &mut Vec<Str
         .split('\n')
         .enumerate()
         .map(|(i, l)| (i + 1, l.strip_suffix('\r').unwrap_or(l)))
-        .filter(|(_, l)| !l.trim().is_empty() && !l.trim_start().starts_with('#'))
+        .filter(|(_, l)| !l.trim().is_empty() && !is_comment_line(l))
         .collect();
-    let Some(&(header_line, header)) = lines.first() else {
+    let Some(&(header_line, _)) = lines.first() else {
         return Err(Error::invalid_data("the layout table is empty; it needs a header such as 'trace\\tS (µM)\\trole'"));
     };
     let sep = detect_separator(&lines.iter().map(|(_, l)| *l).collect::<Vec<_>>());
-    let headings: Vec<ColumnHeading> = split(header, sep).iter().map(|c| parse_heading(c)).collect();
+    let owned = split_all(&lines, sep, problems);
+    let headings: Vec<ColumnHeading> = owned[0].1.iter().map(|c| parse_heading(c)).collect();
     let find = |names: &[&str]| headings.iter().position(|h| names.contains(&normalise_name(&h.name).as_str()));
     let trace_col = find(&["trace", "well", "name", "label", "column"]).ok_or_else(|| {
         Error::invalid_data(format!("line {header_line}: the layout needs a 'trace' (or 'well') column naming each trace"))
@@ -675,8 +704,8 @@ fn read_layout(text: &str, problems: &mut Vec<InputProblem>, notes: &mut Vec<Str
     if s_col.is_none() {
         notes.push("The layout has no S column: fractions converted cannot be computed.".to_string());
     }
-    let all: Vec<(usize, Vec<&str>)> = lines[1..].iter().map(|(n, l)| (*n, split(l, sep))).collect();
-    let mark = decimal_mark(sep, &all.iter().flat_map(|(_, c)| c.iter().copied()).collect::<Vec<_>>());
+    let all = as_slices(&owned[1..]);
+    let styles = column_styles(&all);
     let mut rows: Vec<(String, LayoutRow)> = Vec::new();
     for (line, cells) in &all {
         let name = cells.get(trace_col).map(|c| c.trim()).unwrap_or("");
@@ -690,7 +719,7 @@ fn read_layout(text: &str, problems: &mut Vec<InputProblem>, notes: &mut Vec<Str
             if cell.is_empty() || cell == "-" {
                 return None;
             }
-            match parse_number(cell, mark) {
+            match read_number(cell, style_of(&styles, c)) {
                 Ok(v) if v >= 0.0 => Some(v),
                 Ok(v) => {
                     problems.push(InputProblem { line: *line, column: Some(c + 1), message: format!("a concentration cannot be negative ({v})") });
@@ -1486,6 +1515,38 @@ mod tests {
                 "line 3, column 3: layout: expected a number, found 'abc'",
                 "line 4, column 1: the time 1 does not increase from the line before (1); the line was not used",
                 "line 5, column 1: expected a number, found 'zz' (the time); the line was not used",
+            ]
+        );
+    }
+
+    /// Plate counts with thousands separators: the time column's decimal
+    /// points show the table's style, so `5,010` is 5010 and the rate is
+    /// +20 counts/min; without any such cell each count is a problem, never
+    /// 5.01. Spreadsheet error cells are problems, also in the time column.
+    /// (Grouping digits in threes is common practice, no source.)
+    #[test]
+    fn counts_with_thousands_separators_and_error_cells() {
+        let plain = |traces: &str| TraceRequest { traces: traces.into(), layout: "trace\nA1\n".into(), ..TraceRequest::default() };
+        let grouped = "time (min)\tA1\n0.0\t5,000\n0.5\t5,010\n1.0\t5,020\n1.5\t5,030\n2.0\t5,040\n";
+        let result = analyse_traces(&plain(grouped)).unwrap();
+        assert!(result.problems.is_empty(), "{:?}", result.problems);
+        assert!((result.traces[0].rate.unwrap() - 20.0).abs() < 1e-9, "{:?}", result.traces[0].rate);
+
+        let undecided = "time (min)\tA1\n0\t5,000\n1\t5,010\n2\t5,020\n";
+        let result = analyse_traces(&plain(undecided)).unwrap();
+        let found: Vec<String> = result.problems.iter().map(|p| p.to_string()).collect();
+        assert_eq!(found.len(), 3, "{found:?}");
+        assert!(found[0].starts_with("line 2, column 2: '5,000' could be 5000 (a comma grouping thousands) or 5.000"), "{found:?}");
+        assert_eq!(result.traces[0].rate, None);
+
+        let errors = "# run 3\ntime (s)\tA1\n#N/A\t0.1\n0\t0.1\n1\t#DIV/0!\n2\t0.3\n";
+        let result = analyse_traces(&plain(errors)).unwrap();
+        let found: Vec<String> = result.problems.iter().map(|p| p.to_string()).collect();
+        assert_eq!(
+            found,
+            [
+                "line 3, column 1: '#N/A' is a spreadsheet error, not a number; fix the formula in the spreadsheet or leave the row out (the time); the line was not used",
+                "line 5, column 2: '#DIV/0!' is a spreadsheet error, not a number; fix the formula in the spreadsheet or leave the row out",
             ]
         );
     }
