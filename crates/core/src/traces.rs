@@ -268,7 +268,9 @@ pub struct TraceResult {
     /// `rate·(window end − first time)/[S]0`.
     pub fraction_converted: Option<f64>,
     /// Words for what to look at: `depletion`, `nonlinear`, `over-range`,
-    /// `few-points`, `noisy`, `lag`, `burst`, `excluded`, `no-blank`.
+    /// `few-points`, `noisy`, `lag`, `burst`, `excluded`, `no-blank`,
+    /// `wrong-direction` (the rate is clearly negative: the signal moves the
+    /// other way than declared).
     pub flags: Vec<String>,
     /// Sentences explaining the flags.
     pub messages: Vec<String>,
@@ -1048,6 +1050,7 @@ pub fn analyse_traces_with(request: &TraceRequest, progress: &mut dyn FnMut(usiz
         return Err(Error::invalid_option("the conversion limit must be a fraction between 0 and 1, such as 0.1"));
     }
     let raw = read_traces(&request.traces, request.time_unit.as_deref(), &mut problems, &mut notes)?;
+    check_named_traces(request, &raw.names)?;
     let mut layout_problems = Vec::new();
     let layout = if request.layout.trim().is_empty() {
         notes.push("No layout given: every trace is read as a sample with unknown [S].".to_string());
@@ -1302,6 +1305,29 @@ pub fn analyse_traces_with(request: &TraceRequest, progress: &mut dyn FnMut(usiz
     })
 }
 
+/// Refuses a window or a left-out trace that names no trace of the table:
+/// an override that silently does nothing would look applied.
+fn check_named_traces(request: &TraceRequest, names: &[(String, usize)]) -> Result<(), Error> {
+    let known = |name: &str| names.iter().any(|(n, _)| n == name);
+    let list = || names.iter().map(|(n, _)| n.as_str()).collect::<Vec<_>>().join(", ");
+    if let Some(w) = request.windows.iter().find(|w| w.trace != "*" && !known(&w.trace)) {
+        return Err(Error::invalid_option(format!(
+            "the window {}–{} is set for a trace named '{}', but the table has no such trace; its traces are {} (or use * for all)",
+            w.start,
+            w.end,
+            w.trace,
+            list()
+        )));
+    }
+    if let Some(name) = request.excluded.iter().find(|name| !known(name)) {
+        return Err(Error::invalid_option(format!(
+            "the trace '{name}' is to be left out, but the table has no such trace; its traces are {}",
+            list()
+        )));
+    }
+    Ok(())
+}
+
 /// Window, line, fraction converted and flags for one trace.
 fn rate_for_trace(result: &mut TraceResult, cells: &[CellState], request: &TraceRequest, converted: bool, time_symbol: &str) {
     // Usable points: before the first overflow or over-range reading.
@@ -1350,6 +1376,16 @@ fn rate_for_trace(result: &mut TraceResult, cells: &[CellState], request: &Trace
         }
     };
     let Some(fit) = fit else { return };
+    // A clearly negative rate means the signal moves the other way than
+    // declared: the rate and the fraction used would be reported with the
+    // wrong sign.
+    if result.role == Role::Sample && fit.slope < 0.0 && fit.slope_se.is_none_or(|se| fit.slope < -2.0 * se) {
+        let message = match request.direction {
+            Direction::Falls => "The signal rises, but it was declared to fall as product forms; the rate is negative. Check the direction setting (--falls).",
+            Direction::Rises => "The signal falls, but it was declared to rise as product forms; the rate is negative. If product formation lowers the signal (NADH consumed), declare that it falls (--falls).",
+        };
+        flag(result, "wrong-direction", message.to_string());
+    }
     result.rate = Some(fit.slope);
     result.rate_se = fit.slope_se;
     result.intercept = Some(fit.intercept);
@@ -1549,6 +1585,29 @@ mod tests {
                 "line 5, column 2: '#DIV/0!' is a spreadsheet error, not a number; fix the formula in the spreadsheet or leave the row out",
             ]
         );
+    }
+
+    /// Overrides that name no trace are refused, and a signal moving
+    /// against the declared direction is flagged on its trace.
+    #[test]
+    fn overrides_and_direction_are_checked() {
+        let rising = "time (min)\tA1\n0\t0.10\n1\t0.20\n2\t0.30\n3\t0.40\n4\t0.50\n5\t0.60\n";
+        let plain = || TraceRequest { traces: rising.into(), layout: "trace\nA1\n".into(), ..TraceRequest::default() };
+        let mut request = plain();
+        request.windows.push(WindowOverride { trace: "ZZ".into(), start: 1.0, end: 2.0 });
+        let error = analyse_traces(&request).unwrap_err();
+        assert_eq!(error.message, "the window 1–2 is set for a trace named 'ZZ', but the table has no such trace; its traces are A1 (or use * for all)");
+        let mut request = plain();
+        request.excluded.push("B7".into());
+        assert!(analyse_traces(&request).unwrap_err().message.starts_with("the trace 'B7' is to be left out, but the table has no such trace"));
+        let mut request = plain();
+        request.windows.push(WindowOverride { trace: "*".into(), start: 0.0, end: 5.0 });
+        assert!(analyse_traces(&request).unwrap().traces[0].flags.is_empty());
+        let mut request = plain();
+        request.direction = Direction::Falls;
+        let result = analyse_traces(&request).unwrap();
+        assert!((result.traces[0].rate.unwrap() + 0.1).abs() < 1e-12);
+        assert!(result.traces[0].flags.contains(&"wrong-direction".to_string()), "{:?}", result.traces[0].flags);
     }
 
     /// Microplate path length: 200 µL in a 6.4 mm well, h = 200/(π·3.2²)

@@ -146,3 +146,12 @@ fn serde_json_like(result: &RateComparison) -> ComparisonView<'_> {
 pub fn version() -> String {
     env!("CARGO_PKG_VERSION").to_string()
 }
+
+/// Decodes a file's bytes to text with the core's one decoding rule
+/// (`turnover_core::decode::decode_text`): UTF-8 with or without a
+/// byte-order mark, UTF-16 with a mark, else Windows-1252; line endings
+/// become `\n`.
+#[wasm_bindgen(js_name = decodeText)]
+pub fn decode_text(bytes: &[u8]) -> String {
+    turnover_core::decode::decode_text(bytes).text
+}
