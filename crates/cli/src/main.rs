@@ -24,7 +24,7 @@ use turnover_core::inhibition::{analyse_inhibition, InhibitionRequest};
 use turnover_core::intervals::{BootstrapScheme, IntervalMethod};
 use turnover_core::models::{model_input, Mechanism, ModelInput, MODEL_NAMES};
 use turnover_core::rates::{analyse_rates, compare_rate_models, RateAnalysis, RateRequest};
-use turnover_core::table::{read_number, InputProblem, NumberStyle};
+use turnover_core::table::{read_lone_number, InputProblem};
 use turnover_core::units::ConcentrationUnit;
 use turnover_core::weighting::Weighting;
 
@@ -177,7 +177,7 @@ fn weighting_names() -> PossibleValuesParser {
 /// Reads a number option with the tables' rule: a decimal point or comma,
 /// and a value such as `1,000` refused as ambiguous.
 fn option_number(text: &str) -> Result<f64, String> {
-    read_number(text, NumberStyle::Undecided)
+    read_lone_number(text)
 }
 
 /// A failure with the exit code it maps to.
@@ -263,7 +263,7 @@ fn prepare(command: &'static str, data: DataOptions, extra: ModelExtras, model: 
     let input = model_input(model);
     if let Some(text) = &extra.enzyme {
         let (number, unit) = split_quantity(text)
-            .map_err(|m| usage(command, format!("--enzyme: '{text}' is not a concentration such as '10 nM' ({m})")))?;
+            .map_err(|m| usage(command, format!("--enzyme '{text}': {m}; give a concentration such as '10 nM'")))?;
         match input {
             Some(ModelInput::SubstrateAndInhibitor) => {
                 return Err(usage(command, format!("--enzyme is not used by the {model} mechanism fit; kcat comes from the [S]–v models (mm, substrate-inhibition, hill)")));
@@ -332,7 +332,7 @@ fn conversion_request(
     };
     let quantity = |text: &str, name: &str| -> Result<(f64, Option<ConcentrationUnit>), Failure> {
         let (value, unit) = split_quantity(text)
-            .map_err(|m| usage(command, format!("{name}: '{text}' is not a concentration such as '50 µM' or '50' ({m})")))?;
+            .map_err(|m| usage(command, format!("{name} '{text}': {m}; give a concentration such as '50 µM' or '50'")))?;
         let unit = unit.map(|u| ConcentrationUnit::parse(&u).map_err(|m| usage(command, format!("{name}: {m}")))).transpose()?;
         Ok((value, unit))
     };
@@ -371,7 +371,7 @@ fn split_quantity(text: &str) -> Result<(f64, Option<String>), String> {
     if end == 0 {
         return Err("it does not start with a number".to_string());
     }
-    let number = read_number(&text[..end], NumberStyle::Undecided)?;
+    let number = read_lone_number(&text[..end])?;
     let unit = text[end..].trim();
     Ok((number, (!unit.is_empty()).then(|| unit.to_string())))
 }
@@ -708,7 +708,7 @@ fn to_table(analysis: &RateAnalysis) -> String {
 /// The weighting as the command line names it, from the fit record.
 fn weighting_label(fit: &FitSummary) -> String {
     match Weighting::ALL.iter().find(|w| w.name() == fit.weighting) {
-        Some(w) => format!("{} ({})", w.option_name(), w.describe()),
+        Some(w) => format!("{}: {}", w.option_name(), w.describe()),
         None => fit.weighting.clone(),
     }
 }
@@ -786,7 +786,7 @@ mod tests {
             ("1,5 µM", Ok((1.5, Some("µM")))),
             ("2.5e-3 M", Ok((2.5e-3, Some("M")))),
             ("25", Ok((25.0, None))),
-            ("1,000", Err("'1,000' could be 1000 (a comma grouping thousands) or 1.000 (a decimal comma)")),
+            ("1,000", Err("'1,000' could be 1000 (a comma grouping thousands) or 1.000 (a decimal comma); write 1000 or 1.000")),
             ("nM", Err("it does not start with a number")),
         ];
         for (text, expected) in cases {

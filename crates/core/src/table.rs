@@ -632,6 +632,20 @@ fn mark_name(style: NumberStyle) -> &'static str {
     }
 }
 
+/// Reads a number that stands alone (a command-line option, a form field):
+/// the rule of [`read_number`] with no column to decide, so a value such as
+/// `1,000` is refused as ambiguous and `1,5` read as 1.5.
+pub fn read_lone_number(text: &str) -> Result<f64, String> {
+    let trimmed = text.trim();
+    if let Shape::Groupable(mark @ ',') = shape(trimmed) {
+        let (whole, fraction) = trimmed.split_once(mark).unwrap_or((trimmed, ""));
+        return Err(format!(
+            "'{trimmed}' could be {whole}{fraction} (a comma grouping thousands) or {whole}.{fraction} (a decimal comma); write {whole}{fraction} or {whole}.{fraction}"
+        ));
+    }
+    read_number(trimmed, NumberStyle::Undecided)
+}
+
 /// Reads one numeric cell with a known decimal mark (see [`read_number`]).
 pub fn parse_number(cell: &str, decimal_mark: DecimalMark) -> Result<f64, String> {
     let style = match decimal_mark {
@@ -878,6 +892,27 @@ mod tests {
         check_cells("S\tS\n1\t2\n", &[&[Some(1.0), Some(2.0)]], &[]);
         check_cells("1\t2\n3\n4\t5\t6\n7\t8\n", &[&[Some(1.0), Some(2.0)], &[Some(3.0)], &[Some(4.0), Some(5.0), Some(6.0)], &[Some(7.0), Some(8.0)]], &["line 2: expected 2 columns, found 1", "line 3: expected 2 columns, found 3"]);
         check_cells("0\t0\n-1\t-2\n", &[&[Some(0.0), Some(0.0)], &[Some(-1.0), Some(-2.0)]], &[]);
+    }
+
+    /// Numbers standing alone (options): the same rule, no column to ask.
+    #[test]
+    fn lone_numbers() {
+        let cases: &[(&str, Result<f64, &str>)] = &[
+            ("25", Ok(25.0)),
+            ("1,5", Ok(1.5)),
+            ("0,250", Ok(0.25)),
+            ("1.000", Ok(1.0)),
+            ("1,000.5", Ok(1000.5)),
+            ("1,000,000", Ok(1e6)),
+            ("-2e-3", Ok(-0.002)),
+            ("1,000", Err("'1,000' could be 1000 (a comma grouping thousands) or 1.000 (a decimal comma); write 1000 or 1.000")),
+            ("NaN", Err("expected a number, found 'NaN'")),
+            ("", Err("the cell is empty; expected a number")),
+        ];
+        for (text, expected) in cases {
+            let found = read_lone_number(text);
+            assert_eq!(found.as_ref().map_err(String::as_str), expected.as_ref().map_err(|e| *e), "{text:?}");
+        }
     }
 
     #[test]
