@@ -405,7 +405,7 @@ fn points_or_note<T>(points: &[T], wanted: bool) -> (Option<&[T]>, Option<String
         (
             None,
             Some(format!(
-                "the {} points are left out of the JSON above {POINTS_BY_DEFAULT}; pass --points to include them",
+                "the {} points (and their per-point diagnostics) are left out of the JSON above {POINTS_BY_DEFAULT}; pass --points to include them",
                 points.len()
             )),
         )
@@ -643,11 +643,28 @@ fn write_rate_json(out: &mut Output, analysis: &RateAnalysis, all_points: bool) 
     struct RateExtra<'a> {
         #[serde(flatten)]
         envelope: Envelope<'a, turnover_core::rates::PointRecord, &'a turnover_core::rates::UnitsUsed>,
-        diagnostics: &'a turnover_core::diagnostics::ResidualDiagnostics,
+        diagnostics: Diagnostics<'a>,
         direct_linear: &'a turnover_core::robust::DirectLinearEstimate,
         bootstrap: &'a Option<turnover_core::rates::BootstrapReport>,
     }
+    /// The residual diagnostics, their per-point array under the same rule
+    /// as the points.
+    #[derive(Serialize)]
+    struct Diagnostics<'a> {
+        runs: &'a Option<turnover_core::diagnostics::RunsTest>,
+        lack_of_fit: &'a Option<turnover_core::diagnostics::LackOfFit>,
+        #[serde(skip_serializing_if = "Option::is_none")]
+        points: Option<&'a [turnover_core::diagnostics::PointDiagnostics]>,
+        findings: &'a [String],
+    }
     let (points, points_omitted) = points_or_note(&analysis.points, all_points);
+    let d = &analysis.diagnostics;
+    let diagnostics = Diagnostics {
+        runs: &d.runs,
+        lack_of_fit: &d.lack_of_fit,
+        points: points_or_note(&d.points, all_points).0,
+        findings: &d.findings,
+    };
     let extra = RateExtra {
         envelope: Envelope {
             problems: &analysis.problems,
@@ -657,7 +674,7 @@ fn write_rate_json(out: &mut Output, analysis: &RateAnalysis, all_points: bool) 
             points_omitted,
             caution: &analysis.caution,
         },
-        diagnostics: &analysis.diagnostics,
+        diagnostics,
         direct_linear: &analysis.direct_linear,
         bootstrap: &analysis.bootstrap,
     };

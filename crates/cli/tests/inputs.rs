@@ -240,3 +240,25 @@ fn standard_input() {
     let record: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
     assert_eq!(record["n"], 6);
 }
+
+/// Above 10,000 points the per-point arrays leave the default JSON (with a
+/// sentence saying so); `--points` brings them back. The table is invented:
+/// 40 concentrations repeated, v = 10·[S]/(0.5 + [S]) exactly.
+#[test]
+fn large_json_leaves_points_out_unless_asked() {
+    let mut text = String::from("[S] (mM)\tv (µM/min)\n");
+    for k in 0..10_001 {
+        let s = 0.05 + (k % 40) as f64 * 0.25;
+        text.push_str(&format!("{s}\t{}\n", 10.0 * s / (0.5 + s)));
+    }
+    let path = file("large.tsv", text.as_bytes());
+    let default = json(&["fit", &path, "--json"]);
+    assert!(default.get("points").is_none());
+    assert!(default["diagnostics"].get("points").is_none());
+    assert!(default["points_omitted"].as_str().unwrap().starts_with("the 10001 points"));
+    let all = json(&["fit", &path, "--json", "--points"]);
+    assert_eq!(all["points"].as_array().unwrap().len(), 10_001);
+    assert_eq!(all["diagnostics"]["points"].as_array().unwrap().len(), 10_001);
+    assert!(all.get("points_omitted").is_none());
+    assert_eq!(default["parameters"], all["parameters"]);
+}
