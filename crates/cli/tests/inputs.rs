@@ -262,3 +262,47 @@ fn large_json_leaves_points_out_unless_asked() {
     assert!(all.get("points_omitted").is_none());
     assert_eq!(default["parameters"], all["parameters"]);
 }
+
+/// The awkward inputs of the list, each with its exit code and a
+/// piece of its message; whatever happens, nothing non-finite is printed
+/// and nothing panics (a panic would exit 101 or abort).
+#[test]
+fn awkward_inputs() {
+    let cases: &[(&str, &[u8], &[&str], i32, &str)] = &[
+        ("empty", b"", &[], 2, "no data rows found"),
+        ("one point", b"S\tv\n1\t2\n", &[], 2, "only 1 usable point(s) remain; at least 3 are needed"),
+        ("fewer points than parameters", b"S\tv\n1\t2\n2\t3\n4\t3.5\n", &["--model", "hill"], 2, "only 3 usable point(s) remain; at least 4 are needed"),
+        ("all x equal", b"S\tv\n1\t1\n1\t2\n1\t3\n", &[], 2, "only 1 distinct [S] value(s)"),
+        ("zeros", b"S\tv\n0\t0\n0\t0\n0\t0\n0\t0\n", &[], 2, ""),
+        ("negative [S]", b"S\tv\n-1\t1\n2\t2\n3\t2.5\n4\t2.8\n", &[], 2, "line 2, column 1: a concentration cannot be negative (-1)"),
+        ("NaN, Inf, n/a and a dash", b"S\tv\nNaN\t1\n2\tinf\nn/a\t3\n4\t\xe2\x80\x94\n", &[], 2, "line 5, column 2: expected a number, found '\u{2014}'"),
+        ("mixed separators", b"S\tv\n1;2\n3,4\t5\n", &[], 2, "line 2: expected 2 columns, found 1"),
+        ("ragged rows", b"S\tv\n1\t2\t3\n2\n", &[], 2, "line 2: expected 2 columns, found 3"),
+        ("unknown unit", b"S\tv (\xc2\xb5M/min)\n1\t1\n2\t1.5\n4\t2\n", &["--substrate-unit", "ppm"], 2, "unknown concentration unit 'ppm'"),
+        ("binary garbage", &[0x00, 0xff, 0x13, 0x37, 0x80, 0x0a, 0xde, 0xad, 0xbe, 0xef, 0x09, 0x01], &[], 2, ""),
+    ];
+    for (name, bytes, extra, code, piece) in cases {
+        let slug: String = name.chars().map(|c| if c.is_ascii_alphanumeric() { c } else { '-' }).collect();
+        let path = file(&format!("awkward-{slug}.tsv"), bytes);
+        let mut args = vec!["fit", path.as_str()];
+        args.extend(extra.iter());
+        let (found, out, err) = turnover(&args);
+        assert_eq!(found, *code, "{name}: {err}");
+        assert!(err.contains(piece), "{name}: expected {piece:?} in {err}");
+        for text in [&out, &err] {
+            assert!(!text.contains("NaN") || name.starts_with("NaN"), "{name}: {text}");
+            assert!(!text.contains("inf ") && !text.contains("= inf"), "{name}: {text}");
+        }
+    }
+    // An unknown unit in a header is a note, the column shown without a unit.
+    let header = file("awkward-header-unit.tsv", "S (ppm)\tv (µM/min)\n1\t1\n2\t1.5\n4\t2\n".as_bytes());
+    let (code, out, _) = turnover(&["fit", &header]);
+    assert_eq!(code, 0);
+    assert!(out.contains("note: The header's unit for [S] was not understood (unknown concentration unit 'ppm'"), "{out}");
+    // Values over 30 decades in one table: read, fitted or refused, but
+    // every printed number is finite.
+    let wide = file("awkward-wide.tsv", b"S\tv\n1e-15\t1e-15\n1e-10\t1e-9\n1e-5\t1e-4\n1\t1\n1e5\t2\n1e15\t2\n");
+    let (code, out, err) = turnover(&["fit", &wide]);
+    assert!(code == 0 || code == 3, "{err}");
+    assert!(!out.contains("NaN") && !out.contains("inf"), "{out}");
+}
