@@ -716,6 +716,15 @@ mod tests {
         );
     }
 
+    /// Replicates that agree exactly with a perfect fit leave no pure error:
+    /// the lack-of-fit F would be 0/0, which made statrs panic (found by the
+    /// `table` fuzz target). Now no lack-of-fit test is reported.
+    #[test]
+    fn exact_replicates_give_no_lack_of_fit_test() {
+        let analysis = analyse_rates(&request("S\tv\n1\t5\n1\t5\n2\t5\n2\t5\n3\t5\n3\t5\n")).unwrap();
+        assert!(analysis.diagnostics.lack_of_fit.is_none());
+    }
+
     /// Fatal inputs and the message each must give.
     #[test]
     fn fatal_inputs() {

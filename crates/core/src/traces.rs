@@ -1451,7 +1451,9 @@ fn enzyme_check(s: Option<f64>, i: Option<f64>, points: Vec<(f64, f64, String)>)
         quadratic_curvature(&xs, &y).and_then(|(c2, se)| {
             let dist = statrs::distribution::StudentsT::new(0.0, 1.0, n as f64 - 3.0).ok()?;
             use statrs::distribution::ContinuousCDF;
-            (se > 0.0).then(|| 2.0 * (1.0 - dist.cdf((c2 / se).abs())))
+            // statrs panics on a NaN argument; an overflowed ratio gives no test.
+            let t = (c2 / se).abs();
+            (se > 0.0 && t.is_finite()).then(|| 2.0 * (1.0 - dist.cdf(t)))
         })
     } else {
         None
