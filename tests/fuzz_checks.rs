@@ -45,7 +45,10 @@ pub fn table(data: &[u8]) {
     }
     if let Ok(analysis) = analyse_rates(&RateRequest { text, ..RateRequest::default() }) {
         let fit = &analysis.fit;
-        assert!(fit.rss.is_finite(), "rss {}", fit.rss);
+        // A fit the solver stopped on a non-finite value keeps rss = inf in
+        // the record (null in JSON, "not computed" in the CLI) and says it
+        // did not converge; a converged fit's rss is finite.
+        assert!(fit.rss.is_finite() || !fit.converged, "rss {} of a converged fit", fit.rss);
         for p in &fit.parameters {
             assert!(p.value.is_finite(), "{} = {}", p.name, p.value);
             assert!(p.std_error.is_none_or(f64::is_finite), "SE of {}", p.name);
