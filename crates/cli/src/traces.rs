@@ -10,7 +10,7 @@ use serde::Serialize;
 use std::process::ExitCode;
 use turnover_core::progress::fit_progress;
 use turnover_core::traces::{
-    analyse_traces, path_from_well, Direction, Role, TraceAnalysis, TraceRequest, WindowOverride, PRESETS,
+    analyse_traces, path_from_well, unmatched_overrides, Direction, Role, TraceAnalysis, TraceRequest, WindowOverride, PRESETS,
 };
 
 /// The options of `rates` and `fit-progress`.
@@ -63,6 +63,7 @@ fn preset_names() -> clap::builder::PossibleValuesParser {
 }
 
 struct Prepared {
+    command: &'static str,
     file: String,
     json: bool,
     request: TraceRequest,
@@ -113,11 +114,18 @@ fn prepare(command: &'static str, options: TraceOptions) -> Result<Prepared, Fai
         request.standard = Some(read_input(path)?);
     }
     request.traces = read_input(&options.file)?;
-    Ok(Prepared { file: options.file, json: options.json, request })
+    Ok(Prepared { command, file: options.file, json: options.json, request })
 }
 
-fn analyse(args: &Prepared) -> Result<TraceAnalysis, Failure> {
+fn analyse(command: &'static str, args: &Prepared) -> Result<TraceAnalysis, Failure> {
     let analysis = analyse_traces(&args.request).map_err(|e| Failure::Input(e.message))?;
+    // A --window or --exclude naming no trace would do nothing; on the
+    // command line that is a mistake to refuse, not a note to skim past.
+    let names: Vec<(String, usize)> = analysis.traces.iter().map(|t| (t.name.clone(), 0)).collect();
+    if let Some(sentence) = unmatched_overrides(&args.request, &names).first() {
+        let hint = if sentence.starts_with("The window") { "use --window '*=A:B' for every trace" } else { "check --exclude" };
+        return Err(usage(command, format!("{sentence} ({hint})")));
+    }
     for problem in &analysis.problems {
         warn(&format!("{}: {problem}", args.file));
     }
@@ -137,7 +145,7 @@ fn analyse(args: &Prepared) -> Result<TraceAnalysis, Failure> {
 /// `turnover rates`.
 pub fn rates(options: TraceOptions) -> Result<ExitCode, Failure> {
     let args = prepare("rates", options)?;
-    let analysis = analyse(&args)?;
+    let analysis = analyse(args.command, &args)?;
     let mut out = Output::new();
     if args.json {
         #[derive(Serialize)]
@@ -251,7 +259,7 @@ pub fn rates(options: TraceOptions) -> Result<ExitCode, Failure> {
 /// `turnover fit-progress`.
 pub fn fit_progress_command(options: TraceOptions) -> Result<ExitCode, Failure> {
     let args = prepare("fit-progress", options)?;
-    let analysis = analyse(&args)?;
+    let analysis = analyse(args.command, &args)?;
     let fit = fit_progress(&analysis).map_err(|e| Failure::Input(e.message))?;
     let mut out = Output::new();
     if args.json {

@@ -199,8 +199,8 @@ fn time_course_overrides_and_direction() {
     let traces = file("tc.tsv", TRACES.as_bytes());
     let layout = file("tc-layout.tsv", b"trace\tS (mM)\nA1\t1\n");
     check(&[
-        (vec!["rates", &traces, "--layout", &layout, "--window", "ZZ=1:2"], 2, &["a trace named 'ZZ', but the table has no such trace; its traces are A1"]),
-        (vec!["rates", &traces, "--layout", &layout, "--exclude", "B2"], 2, &["the trace 'B2' is to be left out, but the table has no such trace"]),
+        (vec!["rates", &traces, "--layout", &layout, "--window", "ZZ=1:2"], 2, &["a trace named 'ZZ', but the table has no such trace (its traces are A1)", "Usage: turnover rates"]),
+        (vec!["rates", &traces, "--layout", &layout, "--exclude", "B2"], 2, &["The trace 'B2' is to be left out, but the table has no such trace"]),
         (vec!["rates", &traces, "--layout", &layout, "--falls"], 2, &["every sample's signal rises, but --falls says the signal falls"]),
         (vec!["rates", &traces, "--layout", &layout, "--window", "A1=3:1"], 2, &["the end must come after the start", "Usage: turnover rates"]),
         (vec!["rates", &traces, "--layout", &layout, "--epsilon", "6220", "--preset", "nadh"], 2, &["give one of them"]),

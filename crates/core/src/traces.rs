@@ -1050,7 +1050,7 @@ pub fn analyse_traces_with(request: &TraceRequest, progress: &mut dyn FnMut(usiz
         return Err(Error::invalid_option("the conversion limit must be a fraction between 0 and 1, such as 0.1"));
     }
     let raw = read_traces(&request.traces, request.time_unit.as_deref(), &mut problems, &mut notes)?;
-    check_named_traces(request, &raw.names)?;
+    notes.extend(unmatched_overrides(request, &raw.names));
     let mut layout_problems = Vec::new();
     let layout = if request.layout.trim().is_empty() {
         notes.push("No layout given: every trace is read as a sample with unknown [S].".to_string());
@@ -1305,27 +1305,25 @@ pub fn analyse_traces_with(request: &TraceRequest, progress: &mut dyn FnMut(usiz
     })
 }
 
-/// Refuses a window or a left-out trace that names no trace of the table:
-/// an override that silently does nothing would look applied.
-fn check_named_traces(request: &TraceRequest, names: &[(String, usize)]) -> Result<(), Error> {
+/// Sentences for each window or left-out trace that names no trace of the
+/// table: such an override does nothing, and must not look applied. (The
+/// page keeps them while a new plate is pasted; the CLI refuses them.)
+pub fn unmatched_overrides(request: &TraceRequest, names: &[(String, usize)]) -> Vec<String> {
     let known = |name: &str| names.iter().any(|(n, _)| n == name);
-    let list = || names.iter().map(|(n, _)| n.as_str()).collect::<Vec<_>>().join(", ");
-    if let Some(w) = request.windows.iter().find(|w| w.trace != "*" && !known(&w.trace)) {
-        return Err(Error::invalid_option(format!(
-            "the window {}–{} is set for a trace named '{}', but the table has no such trace; its traces are {} (or use * for all)",
-            w.start,
-            w.end,
-            w.trace,
-            list()
-        )));
+    let list = names.iter().map(|(n, _)| n.as_str()).collect::<Vec<_>>().join(", ");
+    let mut sentences = Vec::new();
+    for w in request.windows.iter().filter(|w| w.trace != "*" && !known(&w.trace)) {
+        sentences.push(format!(
+            "The window {}–{} is set for a trace named '{}', but the table has no such trace (its traces are {list}); it was not used.",
+            w.start, w.end, w.trace
+        ));
     }
-    if let Some(name) = request.excluded.iter().find(|name| !known(name)) {
-        return Err(Error::invalid_option(format!(
-            "the trace '{name}' is to be left out, but the table has no such trace; its traces are {}",
-            list()
-        )));
+    for name in request.excluded.iter().filter(|name| !known(name)) {
+        sentences.push(format!(
+            "The trace '{name}' is to be left out, but the table has no such trace (its traces are {list}); nothing was left out for it."
+        ));
     }
-    Ok(())
+    sentences
 }
 
 /// Window, line, fraction converted and flags for one trace.
@@ -1589,7 +1587,7 @@ mod tests {
         );
     }
 
-    /// Overrides that name no trace are refused, and a signal moving
+    /// Overrides that name no trace are reported in the notes, and a signal moving
     /// against the declared direction is flagged on its trace.
     #[test]
     fn overrides_and_direction_are_checked() {
@@ -1597,11 +1595,15 @@ mod tests {
         let plain = || TraceRequest { traces: rising.into(), layout: "trace\nA1\n".into(), ..TraceRequest::default() };
         let mut request = plain();
         request.windows.push(WindowOverride { trace: "ZZ".into(), start: 1.0, end: 2.0 });
-        let error = analyse_traces(&request).unwrap_err();
-        assert_eq!(error.message, "the window 1–2 is set for a trace named 'ZZ', but the table has no such trace; its traces are A1 (or use * for all)");
+        let notes = analyse_traces(&request).unwrap().notes;
+        assert!(
+            notes.contains(&"The window 1–2 is set for a trace named 'ZZ', but the table has no such trace (its traces are A1); it was not used.".to_string()),
+            "{notes:?}"
+        );
         let mut request = plain();
         request.excluded.push("B7".into());
-        assert!(analyse_traces(&request).unwrap_err().message.starts_with("the trace 'B7' is to be left out, but the table has no such trace"));
+        let notes = analyse_traces(&request).unwrap().notes;
+        assert!(notes.iter().any(|n| n.starts_with("The trace 'B7' is to be left out, but the table has no such trace")), "{notes:?}");
         let mut request = plain();
         request.windows.push(WindowOverride { trace: "*".into(), start: 0.0, end: 5.0 });
         assert!(analyse_traces(&request).unwrap().traces[0].flags.is_empty());
