@@ -125,7 +125,8 @@ pub struct Table {
 /// cell a problem). The separator is the first of tab, semicolon, comma
 /// found outside quotes, else whitespace. Each column's decimal mark is
 /// decided from all of its cells (see the module documentation). The first
-/// remaining line is a header when any of its cells is not a number.
+/// remaining line is a header when any of its cells is neither a number nor
+/// a spreadsheet error value.
 ///
 /// An input with no lines of data at all is still a `Table` (with no rows);
 /// the caller decides whether that is an error.
@@ -158,7 +159,8 @@ pub fn parse_table(text: &str) -> Table {
     let mut headings = None;
     let mut data_start = 0;
     if let Some((_, first)) = split.first() {
-        if first.iter().any(|cell| !looks_like_number(cell)) {
+        // A spreadsheet error is a failed number, never a heading.
+        if first.iter().any(|cell| !looks_like_number(cell) && spreadsheet_error(cell).is_none()) {
             headings = Some(first.iter().map(|cell| parse_heading(cell)).collect::<Vec<_>>());
             data_start = 1;
         }
@@ -854,6 +856,12 @@ mod tests {
                 &error(7, 2, "#NUM!"),
                 &error(8, 1, "#NULL!"),
             ],
+        );
+        // Without a header, an error value in the first row leaves it data.
+        check_cells(
+            "1\t#N/A\n2\t3\n",
+            &[&[Some(1.0), None], &[Some(2.0), Some(3.0)]],
+            &[&error(1, 2, "#N/A")],
         );
         assert!(is_comment_line("#NAMES of the wells"));
         assert!(!is_comment_line("  #N/A\t3"));
