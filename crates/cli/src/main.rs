@@ -111,7 +111,7 @@ struct FitOptions {
     /// Model to fit. On [S], v: mm, substrate-inhibition, hill. On [S], [I],
     /// v (long or matrix table), fitted globally: competitive, uncompetitive,
     /// mixed, noncompetitive. On [I], response: ic50, morrison
-    #[arg(long, value_name = "NAME", value_parser = PossibleValuesParser::new(MODEL_NAMES))]
+    #[arg(long, value_name = "NAME", value_parser = model_names())]
     model: Option<String>,
     #[command(flatten)]
     extra: ModelExtras,
@@ -158,10 +158,18 @@ struct CompareOptions {
     /// Comma-separated model names, all on the same data: inhibition
     /// mechanisms (default: competitive,uncompetitive,mixed,noncompetitive)
     /// or mm with substrate-inhibition and/or hill
-    #[arg(long, value_name = "LIST", value_delimiter = ',', value_parser = PossibleValuesParser::new(MODEL_NAMES))]
+    #[arg(long, value_name = "LIST", value_delimiter = ',', value_parser = model_names())]
     models: Vec<String>,
     #[command(flatten)]
     extra: ModelExtras,
+}
+
+/// The model names, with the core's long alias `michaelis-menten` for `mm`
+/// accepted but not listed.
+fn model_names() -> PossibleValuesParser {
+    let mut values: Vec<PossibleValue> = MODEL_NAMES.iter().map(|m| PossibleValue::new(*m)).collect();
+    values.push(PossibleValue::new("michaelis-menten").hide(true));
+    PossibleValuesParser::new(values)
 }
 
 /// The weighting names, the earlier ones hidden but accepted.

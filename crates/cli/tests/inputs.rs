@@ -83,6 +83,9 @@ fn contradictory_options_are_refused() {
     let once = json(&["fit", &rates, "--json", "--enzyme", "25 nM", "--enzyme-unit", "nM"]);
     let comma = json(&["fit", &rates, "--json", "--enzyme", "25,0 nM"]);
     assert_eq!(value(&once, "kcat"), value(&comma, "kcat"));
+    // The core's long model name is still read.
+    let long = json(&["fit", &rates, "--json", "--model", "michaelis-menten"]);
+    assert_eq!(value(&long, "Km"), value(&once, "Km"));
 }
 
 /// Thousands separators in a tab-separated table: one thousand when the
