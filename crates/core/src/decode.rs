@@ -65,7 +65,14 @@ pub fn decode_text(bytes: &[u8]) -> DecodedText {
 
 fn utf8_or_fallback(bytes: &[u8]) -> (String, TextEncoding, Option<String>) {
     match std::str::from_utf8(bytes) {
-        Ok(text) => (text.to_string(), TextEncoding::Utf8, None),
+        Ok(text) => {
+            // Text of ASCII characters saved as UTF-16 without a byte-order
+            // mark is valid UTF-8 with a NUL beside every character.
+            let note = looks_like_utf16(bytes).then(|| {
+                "the file is full of NUL bytes, as UTF-16 is without its byte-order mark; it was read as UTF-8 and its cells will not read. Save it as UTF-8 (or UTF-16 with a byte-order mark)".to_string()
+            });
+            (text.to_string(), TextEncoding::Utf8, note)
+        }
         Err(error) => {
             let offset = error.valid_up_to();
             let line = 1 + bytes[..offset].iter().filter(|&&b| b == b'\n').count();
@@ -92,6 +99,17 @@ fn utf8_or_fallback(bytes: &[u8]) -> (String, TextEncoding, Option<String>) {
             (text, TextEncoding::Windows1252, Some(note))
         }
     }
+}
+
+/// Whether at least a quarter of the bytes are NUL, on one side of the byte
+/// pairs: the mark of mostly-ASCII UTF-16 (common practice, no source).
+fn looks_like_utf16(bytes: &[u8]) -> bool {
+    if bytes.len() < 4 {
+        return false;
+    }
+    let even = bytes.iter().step_by(2).filter(|&&b| b == 0).count();
+    let odd = bytes.iter().skip(1).step_by(2).filter(|&&b| b == 0).count();
+    even.max(odd) * 4 >= bytes.len()
 }
 
 fn utf16(bytes: &[u8], unit: fn([u8; 2]) -> u16) -> (String, Option<String>) {
@@ -181,5 +199,8 @@ mod tests {
         check(&[0xFF, 0xFE, 0x00, 0xD8, 0x41, 0x00], "\u{FFFD}A", TextEncoding::Utf16Le, Some("the UTF-16 file is damaged: 1 unpaired"));
         check(&[0xFE, 0xFF, 0x00, 0x41, 0x00], "A", TextEncoding::Utf16Be, Some("the UTF-16 file is damaged: the file ends in half"));
         check(b"", "", TextEncoding::Utf8, None);
+        // UTF-16 without its mark decodes as UTF-8 with NULs, and says so.
+        let unmarked: Vec<u8> = "S\tv\n".encode_utf16().flat_map(u16::to_le_bytes).collect();
+        check(&unmarked, "S\0\t\0v\0\n\0", TextEncoding::Utf8, Some("the file is full of NUL bytes"));
     }
 }
