@@ -90,15 +90,15 @@ struct DataOptions {
     /// Confidence intervals: t-based (asymptotic), profile likelihood or bootstrap
     #[arg(long, value_name = "METHOD", value_parser = ["asymptotic", "profile", "bootstrap"], default_value = "asymptotic")]
     ci: String,
-    /// Bootstrap resamples
-    #[arg(long, value_name = "N", default_value_t = 2000)]
-    resamples: usize,
-    /// Bootstrap seed; the same seed gives the same intervals
-    #[arg(long, value_name = "N", default_value_t = 1)]
-    seed: u64,
-    /// Bootstrap scheme
-    #[arg(long, value_name = "WHAT", value_parser = ["residuals", "cases"], default_value = "residuals")]
-    resample_by: String,
+    /// Bootstrap resamples (with --ci bootstrap) [default: 2000]
+    #[arg(long, value_name = "N")]
+    resamples: Option<usize>,
+    /// Bootstrap seed (with --ci bootstrap); the same seed gives the same intervals [default: 1]
+    #[arg(long, value_name = "N")]
+    seed: Option<u64>,
+    /// Bootstrap scheme (with --ci bootstrap) [default: residuals]
+    #[arg(long, value_name = "WHAT", value_parser = ["residuals", "cases"])]
+    resample_by: Option<String>,
     /// Input line numbers to leave out of the fit, such as 4,9
     #[arg(long, value_name = "LIST", value_delimiter = ',')]
     exclude_lines: Vec<String>,
@@ -259,9 +259,25 @@ fn prepare(command: &'static str, data: DataOptions, extra: ModelExtras, model: 
     }
     request.weighting = weighting;
     request.interval_method = IntervalMethod::from_name(&data.ci).map_err(|m| usage(command, m))?;
-    request.bootstrap.resamples = data.resamples;
-    request.bootstrap.seed = data.seed;
-    request.bootstrap.scheme = if data.resample_by == "cases" { BootstrapScheme::Case } else { BootstrapScheme::Residual };
+    if request.interval_method != IntervalMethod::Bootstrap {
+        for (given, name) in [(data.resamples.is_some(), "--resamples"), (data.seed.is_some(), "--seed"), (data.resample_by.is_some(), "--resample-by")] {
+            if given {
+                return Err(usage(command, format!("{name} applies to bootstrap intervals only; add --ci bootstrap or leave it out")));
+            }
+        }
+    }
+    if data.points && !data.json {
+        return Err(usage(command, "--points chooses what the JSON holds; add --json or leave it out"));
+    }
+    if let Some(resamples) = data.resamples {
+        request.bootstrap.resamples = resamples;
+    }
+    if let Some(seed) = data.seed {
+        request.bootstrap.seed = seed;
+    }
+    if data.resample_by.as_deref() == Some("cases") {
+        request.bootstrap.scheme = BootstrapScheme::Case;
+    }
     for part in data.exclude_lines.iter().map(|p| p.trim()).filter(|p| !p.is_empty()) {
         let line = part
             .parse::<usize>()
@@ -563,6 +579,9 @@ fn compare(options: CompareOptions) -> Result<ExitCode, Failure> {
         options.models.clone()
     };
     let first = models.first().cloned().unwrap_or_else(|| "mm".to_string());
+    if options.data.points {
+        return Err(usage("compare", "--points applies to fit: the comparison's JSON holds no per-point arrays"));
+    }
     let mut args = prepare("compare", options.data, options.extra, &first)?;
     args.request.text = read_input(&args.file)?;
     let inputs: Vec<Option<ModelInput>> = models.iter().map(|m| model_input(m)).collect();

@@ -77,12 +77,21 @@ fn contradictory_options_are_refused() {
         (vec!["fit", &rates, "--enzyme", "1,000", "--enzyme-unit", "nM"], 2, &["'1,000' could be 1000 (a comma grouping thousands) or 1.000 (a decimal comma)"]),
         (vec!["fit", &rates, "--model", "competitive", "--enzyme", "5 nM"], 2, &["--enzyme is not used by the competitive mechanism fit"]),
         (vec!["fit", &rates, "--model", "morrison", "--enzyme", "5 nM"], 2, &["give a bare number"]),
+        (vec!["fit", &rates, "--seed", "7"], 2, &["--seed applies to bootstrap intervals only"]),
+        (vec!["fit", &rates, "--ci", "profile", "--resamples", "100"], 2, &["--resamples applies to bootstrap intervals only"]),
+        (vec!["fit", &rates, "--points"], 2, &["--points chooses what the JSON holds"]),
     ]);
     // The same unit twice is not a contradiction, and a decimal comma in an
     // option is read as one: 25,0 nM is 25 nM.
     let once = json(&["fit", &rates, "--json", "--enzyme", "25 nM", "--enzyme-unit", "nM"]);
     let comma = json(&["fit", &rates, "--json", "--enzyme", "25,0 nM"]);
     assert_eq!(value(&once, "kcat"), value(&comma, "kcat"));
+    // Bootstrap options with bootstrap intervals are read: the same seed
+    // gives the same intervals.
+    let boot = |seed: &str| json(&["fit", &rates, "--json", "--ci", "bootstrap", "--resamples", "200", "--seed", seed]);
+    let (a, b) = (boot("5"), boot("5"));
+    assert_eq!(a["parameters"], b["parameters"]);
+    assert_eq!(a["bootstrap"]["resamples"], 200);
     // The core's long model name is still read.
     let long = json(&["fit", &rates, "--json", "--model", "michaelis-menten"]);
     assert_eq!(value(&long, "Km"), value(&once, "Km"));
