@@ -80,6 +80,9 @@ fn prepare(command: &'static str, options: TraceOptions) -> Result<Prepared, Fai
     if options.path.is_some() && options.well.is_some() {
         return Err(usage(command, "--path and --well both set the path length; give one of them"));
     }
+    if options.standard.is_some() && (options.epsilon.is_some() || options.preset.is_some() || options.path.is_some() || options.well.is_some()) {
+        return Err(usage(command, "--standard converts the signal by its own curve; leave out --epsilon, --preset, --path and --well, or the standard"));
+    }
     request.epsilon = options.epsilon;
     if let Some(key) = &options.preset {
         let preset = PRESETS.iter().find(|p| p.key.eq_ignore_ascii_case(key)).expect("clap checked the preset name");

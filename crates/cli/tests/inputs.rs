@@ -216,6 +216,8 @@ fn time_course_overrides_and_direction() {
         (vec!["rates", &traces, "--layout", &layout, "--falls"], 2, &["every sample's signal rises, but --falls says the signal falls"]),
         (vec!["rates", &traces, "--layout", &layout, "--window", "A1=3:1"], 2, &["the end must come after the start", "Usage: turnover rates"]),
         (vec!["rates", &traces, "--layout", &layout, "--epsilon", "6220", "--preset", "nadh"], 2, &["give one of them"]),
+        (vec!["rates", &traces, "--layout", &layout, "--standard", &layout, "--preset", "nadh", "--path", "1"], 2, &["--standard converts the signal by its own curve"]),
+        (vec!["rates", &traces, "--layout", &layout, "--epsilon", "6220"], 2, &["Beer-Lambert needs both"]),
     ]);
     let record = json(&["rates", &traces, "--layout", &layout, "--json", "--window", "A1=0:5"]);
     assert!((record["traces"][0]["rate"].as_f64().unwrap() - 0.1).abs() < 1e-12);
