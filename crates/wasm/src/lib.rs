@@ -155,3 +155,12 @@ pub fn version() -> String {
 pub fn decode_text(bytes: &[u8]) -> String {
     turnover_core::decode::decode_text(bytes).text
 }
+
+/// What [`decode_text`] would say about the same bytes: the encoding used
+/// when it was not plain UTF-8, characters that could not be decoded; `None`
+/// (JavaScript `undefined`) for plain UTF-8. The page shows it so that no
+/// file is read differently from how it was written without a word.
+#[wasm_bindgen(js_name = decodeTextNote)]
+pub fn decode_text_note(bytes: &[u8]) -> Option<String> {
+    turnover_core::decode::decode_text(bytes).note
+}
