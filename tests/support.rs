@@ -6,6 +6,11 @@
 //! Source of the data and certified values: NIST Statistical Reference
 //! Datasets, Nonlinear Regression (public domain); see
 //! `tests/data/nist/README.md`.
+//!
+//! Also the checks the fuzz targets run ([`fuzz_checks`]), shared with the
+//! corpus replay test so both use one code path.
+
+pub mod fuzz_checks;
 
 use turnover_core::model::{Dimension, Model, Observations, ParameterSpec};
 use turnover_core::Error;

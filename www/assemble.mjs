@@ -3,12 +3,19 @@
 // written into it, so that it works from file:// with no server and no
 // network. Uses Node's standard library only.
 //
+// Last, the page's Content-Security-Policy is rewritten so that script-src
+// lists the sha256 hash of every inline script that runs (and
+// 'wasm-unsafe-eval' for the WebAssembly), with no 'unsafe-inline'; the
+// build fails when a script would not be covered (an external src, an
+// inline event-handler attribute, a hash missing from the policy).
+//
 //   node www/assemble.mjs PKG_DIR OUT_FILE
 
 import { readFileSync, writeFileSync, mkdirSync } from 'node:fs';
 import { dirname, join } from 'node:path';
 import { gzipSync, constants } from 'node:zlib';
 import { fileURLToPath } from 'node:url';
+import { createHash } from 'node:crypto';
 
 const here = dirname(fileURLToPath(import.meta.url));
 const [pkgDir, outFile] = process.argv.slice(2);
@@ -57,6 +64,71 @@ for (const [name, replacement] of Object.entries(blocks)) {
   }
   page = page.replace(pattern, () => replacement);
 }
+// The HTML parser turns CRLF and CR into LF before a script's text is
+// hashed by the browser; do the same so the hashes match.
+page = page.replace(/\r\n?/g, '\n');
+page = withScriptHashes(page);
 mkdirSync(dirname(outFile), { recursive: true });
 writeFileSync(outFile, page);
 console.log(`${outFile}: ${page.length} bytes`);
+
+function fail(message) {
+  console.error(`assemble: ${message}`);
+  process.exit(1);
+}
+
+// Types whose <script> elements the browser runs; JSON and octet-stream
+// blocks are data, never executed, so they need no hash.
+function runs(attributes) {
+  const type = /\stype\s*=\s*"([^"]*)"/i.exec(attributes)?.[1]?.trim().toLowerCase();
+  return type === undefined || type === '' || type === 'module' || type === 'text/javascript' || type === 'application/javascript';
+}
+
+// Every inline script the browser would run, with the CSP source
+// expression of its hash.
+function runningScripts(html) {
+  const scripts = [];
+  for (const m of html.matchAll(/<script(\s[^>]*)?>([\s\S]*?)<\/script>/gi)) {
+    const attributes = m[1] ?? '';
+    if (!runs(attributes)) continue;
+    if (/\ssrc\s*=/i.test(attributes)) fail(`a script loads an external file (${attributes.trim()}); inline it`);
+    const hash = createHash('sha256').update(m[2], 'utf8').digest('base64');
+    scripts.push({ attributes: attributes.trim(), source: `'sha256-${hash}'` });
+  }
+  return scripts;
+}
+
+function withScriptHashes(html) {
+  const markup = html.replace(/<script(\s[^>]*)?>[\s\S]*?<\/script>/gi, '<script></script>');
+  const handler = /<[a-z][^>]*\son[a-z]+\s*=/i.exec(markup);
+  if (handler) fail(`an inline event-handler attribute cannot be allowed by a hash: ${handler[0]}`);
+  if (/javascript:/i.test(markup)) fail('a javascript: URL cannot be allowed by a hash');
+
+  const meta = /(<meta http-equiv="Content-Security-Policy" content=")([^"]*)(")/i;
+  const found = meta.exec(html);
+  if (!found) fail('www/index.html has no Content-Security-Policy meta element');
+  const scripts = runningScripts(html);
+  const hashes = [...new Set(scripts.map((s) => s.source))];
+  const directives = new Map(
+    found[2].split(';').map((d) => d.trim()).filter(Boolean).map((d) => {
+      const [name, ...values] = d.split(/\s+/);
+      return [name.toLowerCase(), values];
+    }),
+  );
+  directives.set('script-src', ["'wasm-unsafe-eval'", ...hashes]);
+  directives.set('base-uri', ["'none'"]);
+  directives.set('connect-src', ["'none'"]);
+  directives.set('worker-src', ['blob:']);
+  const policy = [...directives].map(([name, values]) => [name, ...values].join(' ')).join('; ');
+  const rewritten = html.replace(meta, (_, open, __, close) => open + policy + close);
+
+  // Check the result as the browser will see it.
+  const finalPolicy = meta.exec(rewritten)[2];
+  const scriptSrc = finalPolicy.split(';').map((d) => d.trim()).find((d) => d.startsWith('script-src ')).split(/\s+/);
+  if (scriptSrc.includes("'unsafe-inline'")) fail("script-src still allows 'unsafe-inline'");
+  for (const script of runningScripts(rewritten)) {
+    if (!scriptSrc.includes(script.source)) fail(`the inline script <script ${script.attributes}> is not covered by the policy`);
+  }
+  console.log(`Content-Security-Policy: ${scripts.length} inline script(s) allowed by hash`);
+  return rewritten;
+}

@@ -1,230 +1,343 @@
 //! The `turnover` command: glue between files and `turnover-core`.
 //!
-//! Every number printed here comes from `turnover_core::rates::analyse_rates`,
-//! the same function the page calls. Exit codes are decided in one place,
-//! [`main`]: 0 success, 2 bad input or usage, 3 the fit did not converge
-//! (its numbers are still printed, marked as such).
+//! Every number printed here comes from the core (`analyse_rates`,
+//! `analyse_inhibition`, `analyse_dose`, `analyse_traces`, `fit_progress`),
+//! the same functions the page calls. Arguments are read by clap (derive).
+//! Exit codes are decided in one place, [`main`]: 0 success, 1 the output
+//! could not be written, 2 bad input or usage, 3 the fit did not converge
+//! (its numbers are still printed, marked as such). A closed pipe ends the
+//! run quietly with 0.
 
+mod output;
 mod traces;
 
+use clap::builder::{PossibleValue, PossibleValuesParser};
+use clap::{Args, CommandFactory, Parser, Subcommand};
+use output::{escape_controls, fixed, significant, warn, Output};
+use serde::Serialize;
 use std::io::Read;
 use std::process::ExitCode;
+use turnover_core::decode::decode_text;
 use turnover_core::dose::{analyse_dose, ChengPrusoffRequest, DoseRequest};
 use turnover_core::fit::FitSummary;
-use turnover_core::intervals::{BootstrapScheme, IntervalMethod};
-use turnover_core::weighting::Weighting;
 use turnover_core::inhibition::{analyse_inhibition, InhibitionRequest};
+use turnover_core::intervals::{BootstrapScheme, IntervalMethod};
 use turnover_core::models::{model_input, Mechanism, ModelInput, MODEL_NAMES};
 use turnover_core::rates::{analyse_rates, compare_rate_models, RateAnalysis, RateRequest};
-use turnover_core::table::InputProblem;
+use turnover_core::table::{read_lone_number, InputProblem};
 use turnover_core::units::ConcentrationUnit;
+use turnover_core::weighting::Weighting;
 
-const USAGE: &str = "\
-turnover: enzyme kinetics from the command line
+const AFTER_HELP: &str = "\
+Numbers in options and tables may use a decimal point or a decimal comma; a
+value such as 1,000 that could be either is refused, never guessed.
 
-USAGE:
-    turnover fit FILE [OPTIONS]        fit a table of [S] and v (FILE '-' reads standard input)
-    turnover compare FILE --models LIST [--json]
-                                       fit several models to the same data, rank them (AICc,
-                                       Akaike weights), F-test nested pairs and give a verdict
-    turnover help                      show this text
-{TRACE_USAGE}
-OPTIONS for fit:
-    --model NAME           model to fit (default mm). On [S], v: mm, substrate-inhibition, hill.
-                           On [S], [I], v (long or matrix table), fitted globally: competitive,
-                           uncompetitive, mixed, noncompetitive. On [I], response: ic50, morrison.
-    --json                 print one JSON object instead of a table
-    --substrate-unit U     unit of [S] (M, mM, µM or uM, nM, pM); default: from the header
-    --rate-unit U          unit of v, a concentration per time (µM/min, nM/s, ...); default: from the header
-    --enzyme CONC          total enzyme concentration for kcat, such as '10 nM' or '10nM';
-                           for morrison, [E]t in the units of [I] (a bare number)
-    --top Y, --bottom Y    fix the top or bottom plateau of the ic50 model
-    --cheng-prusoff MECH   with ic50: add Ki converted from the IC50 for a competitive,
-                           uncompetitive or noncompetitive inhibitor (Cheng & Prusoff 1973:
-                           Ki = IC50/(1 + [S]/Km), IC50/(1 + Km/[S]), IC50); needs --substrate
-                           and --km. Assumes classical (not tight-binding) conditions.
-    --substrate CONC       [S] of the IC50 assay, such as '50 µM' or a bare number
-    --km KM                Km of the substrate, in the same form as --substrate (both bare
-                           numbers in one unit, or both with units)
-    --km-se SE             standard error of Km (bare: in the unit of --km); default: Km exact
-    --enzyme-unit U        unit of --enzyme when CONC is a bare number
-    --exclude-lines LIST   input line numbers to leave out of the fit, such as 4,9
-    --weighting W          uniform (default), relative (1/v²), poisson (1/v) or sd (1/sd² from an sd column)
-    --ci METHOD            asymptotic (default, t-based), profile (profile likelihood) or bootstrap
-    --resamples N          bootstrap resamples (default 2000)
-    --seed N               bootstrap seed (default 1); the same seed gives the same intervals
-    --resample-by WHAT     bootstrap scheme: residuals (default) or cases
-    --lenient              fit the usable rows even when some lines have problems
-                           (the problems are still reported on standard error)
-
-OPTIONS for compare:
-    --models LIST          comma-separated model names, all on the same data: inhibition
-                           mechanisms (default: competitive,uncompetitive,mixed,noncompetitive)
-                           or mm with substrate-inhibition and/or hill
-    --json                 print one JSON object: models, f_tests, preferred, verdict
-
-EXIT CODES:
-    0 success; 2 bad input or usage; 3 the fit did not converge.
+Exit codes: 0 success; 1 the output could not be written; 2 bad input or
+usage; 3 the fit did not converge (its numbers are still printed).
 
 The constants are statistical estimates; they mean what they claim only for
-valid initial-rate data. Follow your laboratory's validated procedures.
-";
+valid initial-rate data. Follow your laboratory's validated procedures.";
 
-fn usage() -> String {
-    USAGE.replace("{TRACE_USAGE}", traces::USAGE)
+/// Enzyme kinetics from the command line: rate laws fitted to [S] and v,
+/// inhibitor series and time courses, with honest uncertainties.
+#[derive(Parser)]
+#[command(name = "turnover", version, after_help = AFTER_HELP, propagate_version = true)]
+struct Cli {
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Subcommand)]
+enum Command {
+    /// Fit one model to a table of [S] and v ([S], [I] and v for inhibition
+    /// mechanisms; [I] and a response for ic50 and morrison)
+    Fit(FitOptions),
+    /// Fit several models to the same data and rank them (AICc, Akaike
+    /// weights, F tests of nested pairs, a verdict)
+    Compare(CompareOptions),
+    /// Initial rates from a time-course table
+    Rates(traces::TraceOptions),
+    /// Integrated Michaelis-Menten fit to whole time courses
+    FitProgress(traces::TraceOptions),
+}
+
+/// Options every fit of a table shares.
+#[derive(Args)]
+struct DataOptions {
+    /// The table to read ('-' reads standard input)
+    #[arg(value_name = "FILE")]
+    file: String,
+    /// Print one JSON object instead of a table
+    #[arg(long)]
+    json: bool,
+    /// In JSON, include the per-point array even when there are more than
+    /// 10,000 points (fewer are always included)
+    #[arg(long)]
+    points: bool,
+    /// Fit the usable rows even when some lines have problems (the problems
+    /// are still reported on standard error)
+    #[arg(long)]
+    lenient: bool,
+    /// Unit of [S] (M, mM, µM or uM, nM, pM); default: from the header
+    #[arg(long, value_name = "UNIT")]
+    substrate_unit: Option<String>,
+    /// Unit of v, a concentration per time (µM/min, nM/s, ...); default: from the header
+    #[arg(long, value_name = "UNIT")]
+    rate_unit: Option<String>,
+    /// What the weighting assumes about the error of a rate
+    #[arg(long, value_name = "ERROR", value_parser = weighting_names(), default_value = "constant")]
+    weighting: String,
+    /// Confidence intervals: t-based (asymptotic), profile likelihood or bootstrap
+    #[arg(long, value_name = "METHOD", value_parser = ["asymptotic", "profile", "bootstrap"], default_value = "asymptotic")]
+    ci: String,
+    /// Bootstrap resamples (with --ci bootstrap) [default: 2000]
+    #[arg(long, value_name = "N")]
+    resamples: Option<usize>,
+    /// Bootstrap seed (with --ci bootstrap); the same seed gives the same intervals [default: 1]
+    #[arg(long, value_name = "N")]
+    seed: Option<u64>,
+    /// Bootstrap scheme (with --ci bootstrap) [default: residuals]
+    #[arg(long, value_name = "WHAT", value_parser = ["residuals", "cases"])]
+    resample_by: Option<String>,
+    /// Input line numbers to leave out of the fit, such as 4,9
+    #[arg(long, value_name = "LIST", value_delimiter = ',')]
+    exclude_lines: Vec<String>,
+}
+
+#[derive(Args)]
+struct FitOptions {
+    #[command(flatten)]
+    data: DataOptions,
+    /// Model to fit. On [S], v: mm, substrate-inhibition, hill. On [S], [I],
+    /// v (long or matrix table), fitted globally: competitive, uncompetitive,
+    /// mixed, noncompetitive. On [I], response: ic50, morrison
+    #[arg(long, value_name = "NAME", value_parser = model_names())]
+    model: Option<String>,
+    #[command(flatten)]
+    extra: ModelExtras,
+}
+
+/// Options that only some models use; each is refused where it does not apply.
+#[derive(Args)]
+struct ModelExtras {
+    /// Total enzyme concentration for kcat, such as '10 nM' or '10nM'; for
+    /// morrison, [E]t in the units of [I] (a bare number)
+    #[arg(long, value_name = "CONC")]
+    enzyme: Option<String>,
+    /// Unit of --enzyme when CONC is a bare number
+    #[arg(long, value_name = "UNIT")]
+    enzyme_unit: Option<String>,
+    /// Fix the top plateau of the ic50 model
+    #[arg(long, value_name = "Y", value_parser = option_number, allow_hyphen_values = true)]
+    top: Option<f64>,
+    /// Fix the bottom plateau of the ic50 model
+    #[arg(long, value_name = "Y", value_parser = option_number, allow_hyphen_values = true)]
+    bottom: Option<f64>,
+    /// With ic50: add Ki converted from the IC50 for a competitive,
+    /// uncompetitive or noncompetitive inhibitor (Cheng & Prusoff 1973);
+    /// needs --substrate and --km; assumes classical (not tight-binding)
+    /// conditions
+    #[arg(long, value_name = "MECHANISM")]
+    cheng_prusoff: Option<String>,
+    /// [S] of the IC50 assay, such as '50 µM' or a bare number
+    #[arg(long, value_name = "CONC")]
+    substrate: Option<String>,
+    /// Km of the substrate, in the same form as --substrate (both bare
+    /// numbers in one unit, or both with units)
+    #[arg(long, value_name = "KM")]
+    km: Option<String>,
+    /// Standard error of Km (bare: in the unit of --km); default: Km exact
+    #[arg(long, value_name = "SE")]
+    km_se: Option<String>,
+}
+
+#[derive(Args)]
+struct CompareOptions {
+    #[command(flatten)]
+    data: DataOptions,
+    /// Comma-separated model names, all on the same data: inhibition
+    /// mechanisms (default: competitive,uncompetitive,mixed,noncompetitive)
+    /// or mm with substrate-inhibition and/or hill
+    #[arg(long, value_name = "LIST", value_delimiter = ',', value_parser = model_names())]
+    models: Vec<String>,
+    #[command(flatten)]
+    extra: ModelExtras,
+}
+
+/// The model names, with the core's long alias `michaelis-menten` for `mm`
+/// accepted but not listed.
+fn model_names() -> PossibleValuesParser {
+    let mut values: Vec<PossibleValue> = MODEL_NAMES.iter().map(|m| PossibleValue::new(*m)).collect();
+    values.push(PossibleValue::new("michaelis-menten").hide(true));
+    PossibleValuesParser::new(values)
+}
+
+/// The weighting names, the earlier ones hidden but accepted.
+fn weighting_names() -> PossibleValuesParser {
+    let mut values: Vec<PossibleValue> =
+        Weighting::ALL.iter().map(|w| PossibleValue::new(w.option_name()).help(w.describe())).collect();
+    values.extend(
+        Weighting::ALL.iter().filter(|w| w.name() != w.option_name()).map(|w| PossibleValue::new(w.name()).hide(true)),
+    );
+    PossibleValuesParser::new(values)
+}
+
+/// Reads a number option with the tables' rule: a decimal point or comma,
+/// and a value such as `1,000` refused as ambiguous.
+fn option_number(text: &str) -> Result<f64, String> {
+    read_lone_number(text)
 }
 
 /// A failure with the exit code it maps to.
-enum Failure {
-    Usage(String),
+pub(crate) enum Failure {
+    /// Options that cannot be used together or do not apply (exit 2, with
+    /// the command's usage).
+    Usage { command: &'static str, message: String },
+    /// Input that cannot be analysed (exit 2).
     Input(String),
+    /// The output could not be written (exit 1, or 0 for a closed pipe).
+    Output(std::io::Error),
 }
 
-struct FitArgs {
+impl From<std::io::Error> for Failure {
+    fn from(error: std::io::Error) -> Self {
+        Failure::Output(error)
+    }
+}
+
+pub(crate) fn usage(command: &'static str, message: impl Into<String>) -> Failure {
+    Failure::Usage { command, message: message.into() }
+}
+
+fn main() -> ExitCode {
+    let cli = Cli::parse();
+    let result = match cli.command {
+        Command::Fit(options) => fit(options),
+        Command::Compare(options) => compare(options),
+        Command::Rates(options) => traces::rates(options),
+        Command::FitProgress(options) => traces::fit_progress_command(options),
+    };
+    match result {
+        Ok(code) => code,
+        Err(Failure::Usage { command, message }) => {
+            let mut cli = Cli::command();
+            let sub = cli.find_subcommand_mut(command).expect("every command is declared");
+            sub.set_bin_name(format!("turnover {command}"));
+            sub.error(clap::error::ErrorKind::ArgumentConflict, escape_controls(&message)).exit()
+        }
+        Err(Failure::Input(message)) => {
+            warn(&format!("turnover: {message}"));
+            ExitCode::from(2)
+        }
+        Err(Failure::Output(error)) if error.kind() == std::io::ErrorKind::BrokenPipe => ExitCode::SUCCESS,
+        Err(Failure::Output(error)) => {
+            warn(&format!("turnover: cannot write the output: {error}"));
+            ExitCode::from(1)
+        }
+    }
+}
+
+/// The rate request, models and options of a fit or comparison.
+struct Prepared {
     file: String,
     json: bool,
+    points: bool,
     lenient: bool,
     request: RateRequest,
-    models: Vec<String>,
     top: Option<f64>,
     bottom: Option<f64>,
     cheng_prusoff: Option<ChengPrusoffRequest>,
 }
 
-fn main() -> ExitCode {
-    let args: Vec<String> = std::env::args().skip(1).collect();
-    match run(&args) {
-        Ok(code) => code,
-        Err(Failure::Usage(message)) => {
-            eprintln!("turnover: {message}\n\n{}", usage());
-            ExitCode::from(2)
-        }
-        Err(Failure::Input(message)) => {
-            eprintln!("turnover: {message}");
-            ExitCode::from(2)
+fn prepare(command: &'static str, data: DataOptions, extra: ModelExtras, model: &str) -> Result<Prepared, Failure> {
+    let mut request = RateRequest { model: model.to_string(), ..RateRequest::default() };
+    request.substrate_unit = data.substrate_unit;
+    request.rate_unit = data.rate_unit;
+    let (weighting, note) = Weighting::from_option_name(&data.weighting).map_err(|m| usage(command, m))?;
+    if let Some(note) = note {
+        warn(&format!("turnover: note: {note}"));
+    }
+    request.weighting = weighting;
+    request.interval_method = IntervalMethod::from_name(&data.ci).map_err(|m| usage(command, m))?;
+    if request.interval_method != IntervalMethod::Bootstrap {
+        for (given, name) in [(data.resamples.is_some(), "--resamples"), (data.seed.is_some(), "--seed"), (data.resample_by.is_some(), "--resample-by")] {
+            if given {
+                return Err(usage(command, format!("{name} applies to bootstrap intervals only; add --ci bootstrap or leave it out")));
+            }
         }
     }
-}
-
-fn run(args: &[String]) -> Result<ExitCode, Failure> {
-    match args.first().map(String::as_str) {
-        Some("fit") => fit(parse_fit_args(&args[1..])?),
-        Some("rates") => traces::rates(&args[1..]),
-        Some("fit-progress") => traces::fit_progress_command(&args[1..]),
-        Some("compare") => compare(parse_fit_args(&args[1..])?),
-        Some("help") | Some("--help") | Some("-h") => {
-            print!("{}", usage());
-            Ok(ExitCode::SUCCESS)
-        }
-        Some(other) => Err(Failure::Usage(format!("unknown command '{other}'"))),
-        None => Err(Failure::Usage("no command given".to_string())),
+    if data.points && !data.json {
+        return Err(usage(command, "--points chooses what the JSON holds; add --json or leave it out"));
     }
-}
-
-fn parse_fit_args(args: &[String]) -> Result<FitArgs, Failure> {
-    let mut file = None;
-    let mut json = false;
-    let mut lenient = false;
-    let mut request = RateRequest::default();
-    let mut enzyme_text: Option<String> = None;
-    let mut models = Vec::new();
-    let (mut top, mut bottom) = (None, None);
-    let mut mechanism: Option<String> = None;
-    let (mut substrate_text, mut km_text, mut km_se_text): (Option<String>, Option<String>, Option<String>) = (None, None, None);
-    let number = |text: String, name: &str| -> Result<f64, Failure> {
-        text.trim().parse::<f64>().ok().filter(|v| v.is_finite()).ok_or_else(|| Failure::Usage(format!("{name}: '{text}' is not a number")))
-    };
-    let mut i = 0;
-    let value = |i: &mut usize, name: &str| -> Result<String, Failure> {
-        *i += 1;
-        args.get(*i).cloned().ok_or_else(|| Failure::Usage(format!("{name} needs a value")))
-    };
-    while i < args.len() {
-        match args[i].as_str() {
-            "--json" => json = true,
-            "--lenient" => lenient = true,
-            "--model" => request.model = value(&mut i, "--model")?,
-            "--models" => {
-                models = value(&mut i, "--models")?.split(',').map(|m| m.trim().to_string()).filter(|m| !m.is_empty()).collect()
+    if let Some(resamples) = data.resamples {
+        request.bootstrap.resamples = resamples;
+    }
+    if let Some(seed) = data.seed {
+        request.bootstrap.seed = seed;
+    }
+    if data.resample_by.as_deref() == Some("cases") {
+        request.bootstrap.scheme = BootstrapScheme::Case;
+    }
+    for part in data.exclude_lines.iter().map(|p| p.trim()).filter(|p| !p.is_empty()) {
+        let line = part
+            .parse::<usize>()
+            .map_err(|_| usage(command, format!("--exclude-lines: '{part}' is not a line number")))?;
+        request.excluded_lines.push(line);
+    }
+    let input = model_input(model);
+    if let Some(text) = &extra.enzyme {
+        let (number, unit) = split_quantity(text)
+            .map_err(|m| usage(command, format!("--enzyme '{text}': {m}; give a concentration such as '10 nM'")))?;
+        match input {
+            Some(ModelInput::SubstrateAndInhibitor) => {
+                return Err(usage(command, format!("--enzyme is not used by the {model} mechanism fit; kcat comes from the [S]–v models (mm, substrate-inhibition, hill)")));
             }
-            "--top" => top = Some(number(value(&mut i, "--top")?, "--top")?),
-            "--bottom" => bottom = Some(number(value(&mut i, "--bottom")?, "--bottom")?),
-            "--cheng-prusoff" => mechanism = Some(value(&mut i, "--cheng-prusoff")?),
-            "--substrate" => substrate_text = Some(value(&mut i, "--substrate")?),
-            "--km" => km_text = Some(value(&mut i, "--km")?),
-            "--km-se" => km_se_text = Some(value(&mut i, "--km-se")?),
-            "--substrate-unit" => request.substrate_unit = Some(value(&mut i, "--substrate-unit")?),
-            "--rate-unit" => request.rate_unit = Some(value(&mut i, "--rate-unit")?),
-            "--enzyme" => enzyme_text = Some(value(&mut i, "--enzyme")?),
-            "--enzyme-unit" => request.enzyme_unit = Some(value(&mut i, "--enzyme-unit")?),
-            "--weighting" => {
-                request.weighting = Weighting::from_name(&value(&mut i, "--weighting")?).map_err(Failure::Usage)?
+            Some(ModelInput::Inhibitor) if unit.is_some() || extra.enzyme_unit.is_some() => {
+                return Err(usage(command, "for the dose-response models, --enzyme is [E]t in the unit of the [I] column; give a bare number and no --enzyme-unit"));
             }
-            "--ci" => {
-                request.interval_method = IntervalMethod::from_name(&value(&mut i, "--ci")?).map_err(Failure::Usage)?
-            }
-            "--resamples" => {
-                let text = value(&mut i, "--resamples")?;
-                request.bootstrap.resamples =
-                    text.parse().map_err(|_| Failure::Usage(format!("--resamples: '{text}' is not a whole number")))?;
-            }
-            "--seed" => {
-                let text = value(&mut i, "--seed")?;
-                request.bootstrap.seed =
-                    text.parse().map_err(|_| Failure::Usage(format!("--seed: '{text}' is not a whole number")))?;
-            }
-            "--resample-by" => {
-                request.bootstrap.scheme = match value(&mut i, "--resample-by")?.as_str() {
-                    "residuals" => BootstrapScheme::Residual,
-                    "cases" => BootstrapScheme::Case,
-                    other => return Err(Failure::Usage(format!("--resample-by: expected residuals or cases, found '{other}'"))),
-                }
-            }
-            "--exclude-lines" => {
-                let list = value(&mut i, "--exclude-lines")?;
-                for part in list.split(',').map(str::trim).filter(|p| !p.is_empty()) {
-                    let line = part
-                        .parse::<usize>()
-                        .map_err(|_| Failure::Usage(format!("--exclude-lines: '{part}' is not a line number")))?;
-                    request.excluded_lines.push(line);
-                }
-            }
-            flag if flag.starts_with("--") => return Err(Failure::Usage(format!("unknown option '{flag}'"))),
-            path => {
-                if file.replace(path.to_string()).is_some() {
-                    return Err(Failure::Usage("give one input file".to_string()));
-                }
+            _ => {}
+        }
+        if let (Some(given), Some(option)) = (&unit, &extra.enzyme_unit) {
+            let same = match (ConcentrationUnit::parse(given), ConcentrationUnit::parse(option)) {
+                (Ok(a), Ok(b)) => a == b,
+                _ => given.trim() == option.trim(),
+            };
+            if !same {
+                return Err(usage(
+                    command,
+                    format!("--enzyme '{text}' is in {given} but --enzyme-unit says {option}; give the unit once, in either place"),
+                ));
             }
         }
-        i += 1;
-    }
-    if let Some(text) = enzyme_text {
-        let (number, unit) = split_quantity(&text)
-            .ok_or_else(|| Failure::Usage(format!("--enzyme: '{text}' is not a concentration such as '10 nM'")))?;
         request.enzyme = Some(number);
-        if let Some(unit) = unit {
-            request.enzyme_unit = Some(unit);
-        }
+        request.enzyme_unit = unit.or(extra.enzyme_unit);
+    } else if extra.enzyme_unit.is_some() {
+        return Err(usage(command, "--enzyme-unit is the unit of --enzyme; give --enzyme too"));
     }
-    let cheng_prusoff = conversion_request(mechanism, substrate_text, km_text, km_se_text)?;
-    let name = request.model.trim();
-    if cheng_prusoff.is_some() && name != "ic50" {
-        return Err(Failure::Usage(format!(
-            "--cheng-prusoff converts the IC50 of the ic50 model; it does not apply to {}",
-            if name.is_empty() { "mm" } else { name }
-        )));
+    let cheng_prusoff = conversion_request(command, extra.cheng_prusoff, extra.substrate, extra.km, extra.km_se)?;
+    if cheng_prusoff.is_some() && model != "ic50" {
+        return Err(usage(command, format!("--cheng-prusoff converts the IC50 of the ic50 model; it does not apply to {model}")));
     }
-    if (top.is_some() || bottom.is_some()) && name != "ic50" {
-        return Err(Failure::Usage("--top and --bottom fix the plateaus of the ic50 model; they apply to no other model".to_string()));
+    if (extra.top.is_some() || extra.bottom.is_some()) && model != "ic50" {
+        return Err(usage(command, "--top and --bottom fix the plateaus of the ic50 model; they apply to no other model"));
     }
-    let file = file.ok_or_else(|| Failure::Usage("fit needs an input file ('-' for standard input)".to_string()))?;
-    Ok(FitArgs { file, json, lenient, request, models, top, bottom, cheng_prusoff })
+    Ok(Prepared {
+        file: data.file,
+        json: data.json,
+        points: data.points,
+        lenient: data.lenient,
+        request,
+        top: extra.top,
+        bottom: extra.bottom,
+        cheng_prusoff,
+    })
 }
 
 /// Reads `--cheng-prusoff`, `--substrate`, `--km` and `--km-se` into one
 /// request, [S] and Km's error expressed in the unit of Km. Refuses any of
 /// the numbers without the mechanism, and the mechanism without [S] and Km.
 fn conversion_request(
+    command: &'static str,
     mechanism: Option<String>,
     substrate: Option<String>,
     km: Option<String>,
@@ -233,19 +346,18 @@ fn conversion_request(
     let Some(mechanism) = mechanism else {
         for (given, name) in [(&substrate, "--substrate"), (&km, "--km"), (&km_se, "--km-se")] {
             if given.is_some() {
-                return Err(Failure::Usage(format!("{name} is used only with --cheng-prusoff MECHANISM")));
+                return Err(usage(command, format!("{name} is used only with --cheng-prusoff MECHANISM")));
             }
         }
         return Ok(None);
     };
     let (Some(substrate), Some(km)) = (substrate, km) else {
-        return Err(Failure::Usage("--cheng-prusoff needs both --substrate (the assay's [S]) and --km".to_string()));
+        return Err(usage(command, "--cheng-prusoff needs both --substrate (the assay's [S]) and --km"));
     };
     let quantity = |text: &str, name: &str| -> Result<(f64, Option<ConcentrationUnit>), Failure> {
         let (value, unit) = split_quantity(text)
-            .filter(|(v, _)| v.is_finite())
-            .ok_or_else(|| Failure::Usage(format!("{name}: '{text}' is not a concentration such as '50 µM' or '50'")))?;
-        let unit = unit.map(|u| ConcentrationUnit::parse(&u).map_err(|m| Failure::Usage(format!("{name}: {m}")))).transpose()?;
+            .map_err(|m| usage(command, format!("{name} '{text}': {m}; give a concentration such as '50 µM' or '50'")))?;
+        let unit = unit.map(|u| ConcentrationUnit::parse(&u).map_err(|m| usage(command, format!("{name}: {m}")))).transpose()?;
         Ok((value, unit))
     };
     let (km_value, km_unit) = quantity(&km, "--km")?;
@@ -255,9 +367,10 @@ fn conversion_request(
             (Some(u), Some(k)) => Ok(value * u.in_molar() / k.in_molar()),
             (None, None) => Ok(value),
             (None, Some(_)) if name == "--km-se" => Ok(value),
-            _ => Err(Failure::Usage(format!(
-                "{name} and --km must both carry a unit (such as '50 µM') or both be bare numbers in one unit"
-            ))),
+            _ => Err(usage(
+                command,
+                format!("{name} and --km must both carry a unit (such as '50 µM') or both be bare numbers in one unit"),
+            )),
         }
     };
     let substrate = in_km_unit(s_value, s_unit, "--substrate")?;
@@ -271,51 +384,111 @@ fn conversion_request(
     Ok(Some(ChengPrusoffRequest { mechanism, substrate, km: km_value, km_se }))
 }
 
-/// Splits `10 nM`, `10nM` or `10` into the number and an optional unit.
-fn split_quantity(text: &str) -> Option<(f64, Option<String>)> {
+/// Splits `10 nM`, `10nM`, `1,5 µM` or `10` into the number (read with the
+/// tables' rule, so `1,000` is refused as ambiguous) and an optional unit.
+fn split_quantity(text: &str) -> Result<(f64, Option<String>), String> {
     let text = text.trim();
     let end = text
         .char_indices()
-        .find(|(_, c)| !(c.is_ascii_digit() || matches!(c, '.' | '-' | '+' | 'e' | 'E')))
+        .find(|(_, c)| !(c.is_ascii_digit() || matches!(c, '.' | ',' | '-' | '+' | 'e' | 'E' | '\u{2212}')))
         .map_or(text.len(), |(i, _)| i);
-    // An exponent marker directly followed by a unit letter ("1e" in "1em")
-    // is not a number; let the parse below refuse it.
-    let number = text[..end].parse::<f64>().ok()?;
+    if end == 0 {
+        return Err("it does not start with a number".to_string());
+    }
+    let number = read_lone_number(&text[..end])?;
     let unit = text[end..].trim();
-    Some((number, (!unit.is_empty()).then(|| unit.to_string())))
+    Ok((number, (!unit.is_empty()).then(|| unit.to_string())))
 }
 
+/// Reads a file (or standard input for `-`) through the core's one
+/// decoding rule; a note about the encoding goes to standard error.
 pub(crate) fn read_input(path: &str) -> Result<String, Failure> {
+    let mut bytes = Vec::new();
     if path == "-" {
-        let mut text = String::new();
         std::io::stdin()
-            .read_to_string(&mut text)
+            .read_to_end(&mut bytes)
             .map_err(|e| Failure::Input(format!("cannot read standard input: {e}")))?;
-        Ok(text)
     } else {
-        std::fs::read_to_string(path).map_err(|e| Failure::Input(format!("cannot read '{path}': {e}")))
+        bytes = std::fs::read(path).map_err(|e| Failure::Input(format!("cannot read '{path}': {e}")))?;
+    }
+    let decoded = decode_text(&bytes);
+    if let Some(note) = decoded.note {
+        warn(&format!("turnover: {path}: note: {note}"));
+    }
+    Ok(decoded.text)
+}
+
+/// More points than this are left out of JSON unless `--points` is given.
+const POINTS_BY_DEFAULT: usize = 10_000;
+
+/// The per-point array for JSON, or why it was left out.
+fn points_or_note<T>(points: &[T], wanted: bool) -> (Option<&[T]>, Option<String>) {
+    if wanted || points.len() <= POINTS_BY_DEFAULT {
+        (Some(points), None)
+    } else {
+        (
+            None,
+            Some(format!(
+                "the {} points (and their per-point diagnostics) are left out of the JSON above {POINTS_BY_DEFAULT}; pass --points to include them",
+                points.len()
+            )),
+        )
     }
 }
 
-fn fit(mut args: FitArgs) -> Result<ExitCode, Failure> {
+/// The fit record's fields at the top level, then `extra`'s, streamed.
+#[derive(Serialize)]
+struct FitJson<'a, E: Serialize> {
+    #[serde(flatten)]
+    fit: &'a FitSummary,
+    #[serde(flatten)]
+    extra: E,
+}
+
+/// What a JSON fit carries beside the fit record.
+#[derive(Serialize)]
+struct Envelope<'a, P: Serialize, U: Serialize> {
+    problems: &'a [InputProblem],
+    notes: &'a [String],
+    units: U,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    points: Option<&'a [P]>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    points_omitted: Option<String>,
+    caution: &'a str,
+}
+
+fn fit(options: FitOptions) -> Result<ExitCode, Failure> {
+    let model = options.model.clone().unwrap_or_else(|| "mm".to_string());
+    let mut args = prepare("fit", options.data, options.extra, &model)?;
     args.request.text = read_input(&args.file)?;
-    let name = if args.request.model.trim().is_empty() { "mm".to_string() } else { args.request.model.trim().to_string() };
-    match model_input(&name) {
+    let mut out = Output::new();
+    let code = match model_input(&model) {
         Some(ModelInput::SubstrateAndInhibitor) => {
-            let request = inhibition_request(&args, vec![name]);
+            let request = inhibition_request(&args, vec![model]);
             let analysis = analyse_inhibition(&request).map_err(|e| Failure::Input(e.message))?;
             check_problems(&args, &analysis.problems)?;
             let fit = &analysis.fits[0];
-            let extra = serde_json::json!({
-                "problems": analysis.problems, "notes": analysis.notes, "units": analysis.units,
-                "points": analysis.points, "caution": analysis.caution,
-            });
-            return Ok(print_fit(&args, fit, extra, &analysis.notes, &analysis.caution));
+            if args.json {
+                let (points, points_omitted) = points_or_note(&analysis.points, args.points);
+                let extra = Envelope {
+                    problems: &analysis.problems,
+                    notes: &analysis.notes,
+                    units: &analysis.units,
+                    points,
+                    points_omitted,
+                    caution: &analysis.caution,
+                };
+                out.json(&FitJson { fit, extra })?;
+            } else {
+                out.text(&fit_table(fit, "", &analysis.notes, &analysis.caution))?;
+            }
+            exit_for(fit)
         }
         Some(ModelInput::Inhibitor) => {
             let request = DoseRequest {
-                text: args.request.text.clone(),
-                model: name,
+                text: std::mem::take(&mut args.request.text),
+                model,
                 enzyme: args.request.enzyme,
                 fixed_top: args.top,
                 fixed_bottom: args.bottom,
@@ -327,32 +500,51 @@ fn fit(mut args: FitArgs) -> Result<ExitCode, Failure> {
             };
             let analysis = analyse_dose(&request).map_err(|e| Failure::Input(e.message))?;
             check_problems(&args, &analysis.problems)?;
-            let extra = serde_json::json!({
-                "problems": analysis.problems, "notes": analysis.notes, "units": {"inhibitor": analysis.inhibitor_unit},
-                "points": analysis.points, "caution": analysis.caution,
-            });
-            return Ok(print_fit(&args, &analysis.fit, extra, &analysis.notes, &analysis.caution));
+            if args.json {
+                #[derive(Serialize)]
+                struct DoseUnits<'a> {
+                    inhibitor: &'a Option<String>,
+                }
+                let (points, points_omitted) = points_or_note(&analysis.points, args.points);
+                let extra = Envelope {
+                    problems: &analysis.problems,
+                    notes: &analysis.notes,
+                    units: DoseUnits { inhibitor: &analysis.inhibitor_unit },
+                    points,
+                    points_omitted,
+                    caution: &analysis.caution,
+                };
+                out.json(&FitJson { fit: &analysis.fit, extra })?;
+            } else {
+                out.text(&fit_table(&analysis.fit, "", &analysis.notes, &analysis.caution))?;
+            }
+            exit_for(&analysis.fit)
         }
-        _ => {}
-    }
-    let analysis = analyse_rates(&args.request).map_err(|e| Failure::Input(e.message))?;
-    report_problems(&args.file, &analysis.problems);
-    if !analysis.problems.is_empty() && !args.lenient {
-        return Err(Failure::Input(format!(
-            "{} problem(s) in the input; fix them, or pass --lenient to fit the remaining rows",
-            analysis.problems.len()
-        )));
-    }
-    if args.json {
-        println!("{}", to_json(&analysis));
+        _ => {
+            let analysis = analyse_rates(&args.request).map_err(|e| Failure::Input(e.message))?;
+            check_problems(&args, &analysis.problems)?;
+            if args.json {
+                write_rate_json(&mut out, &analysis, args.points)?;
+            } else {
+                out.text(&to_table(&analysis))?;
+            }
+            exit_for(&analysis.fit)
+        }
+    };
+    out.finish()?;
+    Ok(code)
+}
+
+fn exit_for(fit: &FitSummary) -> ExitCode {
+    if fit.converged {
+        ExitCode::SUCCESS
     } else {
-        print!("{}", to_table(&analysis));
+        ExitCode::from(3)
     }
-    Ok(if analysis.fit.converged { ExitCode::SUCCESS } else { ExitCode::from(3) })
 }
 
 /// The inhibition request for the table and options of `args`.
-fn inhibition_request(args: &FitArgs, models: Vec<String>) -> InhibitionRequest {
+fn inhibition_request(args: &Prepared, models: Vec<String>) -> InhibitionRequest {
     InhibitionRequest {
         text: args.request.text.clone(),
         models,
@@ -367,8 +559,10 @@ fn inhibition_request(args: &FitArgs, models: Vec<String>) -> InhibitionRequest 
     }
 }
 
-fn check_problems(args: &FitArgs, problems: &[InputProblem]) -> Result<(), Failure> {
-    report_problems(&args.file, problems);
+fn check_problems(args: &Prepared, problems: &[InputProblem]) -> Result<(), Failure> {
+    for problem in problems {
+        warn(&format!("{}: {problem}", args.file));
+    }
     if !problems.is_empty() && !args.lenient {
         return Err(Failure::Input(format!(
             "{} problem(s) in the input; fix them, or pass --lenient to fit the remaining rows",
@@ -378,30 +572,19 @@ fn check_problems(args: &FitArgs, problems: &[InputProblem]) -> Result<(), Failu
     Ok(())
 }
 
-fn print_fit(args: &FitArgs, fit: &FitSummary, extra: serde_json::Value, notes: &[String], caution: &str) -> ExitCode {
-    if args.json {
-        println!("{}", fit_json(fit, extra));
-    } else {
-        print!("{}", fit_table(fit, "", notes, caution));
-    }
-    if fit.converged {
-        ExitCode::SUCCESS
-    } else {
-        ExitCode::from(3)
-    }
-}
-
-fn compare(mut args: FitArgs) -> Result<ExitCode, Failure> {
-    args.request.text = read_input(&args.file)?;
-    let models = if args.models.is_empty() {
+fn compare(options: CompareOptions) -> Result<ExitCode, Failure> {
+    let models = if options.models.is_empty() {
         Mechanism::ALL.iter().map(|m| m.name().to_string()).collect()
     } else {
-        args.models.clone()
+        options.models.clone()
     };
-    let inputs: Vec<Option<ModelInput>> = models.iter().map(|m| model_input(m)).collect();
-    if let Some(k) = inputs.iter().position(Option::is_none) {
-        return Err(Failure::Usage(format!("unknown model '{}'; available: {}", models[k], MODEL_NAMES.join(", "))));
+    let first = models.first().cloned().unwrap_or_else(|| "mm".to_string());
+    if options.data.points {
+        return Err(usage("compare", "--points applies to fit: the comparison's JSON holds no per-point arrays"));
     }
+    let mut args = prepare("compare", options.data, options.extra, &first)?;
+    args.request.text = read_input(&args.file)?;
+    let inputs: Vec<Option<ModelInput>> = models.iter().map(|m| model_input(m)).collect();
     let (comparison, fits, problems, notes, caution) = if inputs.iter().all(|i| *i == Some(ModelInput::SubstrateAndInhibitor)) {
         let request = inhibition_request(&args, models);
         let a = analyse_inhibition(&request).map_err(|e| Failure::Input(e.message))?;
@@ -410,107 +593,126 @@ fn compare(mut args: FitArgs) -> Result<ExitCode, Failure> {
         let c = compare_rate_models(&args.request, &models).map_err(|e| Failure::Input(e.message))?;
         (c.comparison, c.fits, c.first.problems, c.first.notes, c.first.caution)
     } else {
-        return Err(Failure::Usage(
-            "compare needs models of the same data: all inhibition mechanisms, or mm with substrate-inhibition and hill".to_string(),
+        return Err(usage(
+            "compare",
+            "compare needs models of the same data: all inhibition mechanisms, or mm with substrate-inhibition and hill",
         ));
     };
     check_problems(&args, &problems)?;
+    let mut out = Output::new();
     if args.json {
-        let value = serde_json::json!({
-            "models": comparison.models,
-            "f_tests": comparison.f_tests,
-            "preferred": comparison.preferred,
-            "verdict": comparison.verdict,
-            "problems": problems,
-            "notes": notes,
-            "caution": caution,
-        });
-        println!("{}", serde_json::to_string_pretty(&value).expect("JSON values always serialise"));
+        #[derive(Serialize)]
+        struct CompareJson<'a> {
+            models: &'a [turnover_core::compare::ModelScore],
+            f_tests: &'a [turnover_core::compare::FTest],
+            preferred: &'a Option<String>,
+            verdict: &'a str,
+            problems: &'a [InputProblem],
+            notes: &'a [String],
+            caution: &'a str,
+        }
+        out.json(&CompareJson {
+            models: &comparison.models,
+            f_tests: &comparison.f_tests,
+            preferred: &comparison.preferred,
+            verdict: &comparison.verdict,
+            problems: &problems,
+            notes: &notes,
+            caution: &caution,
+        })?;
     } else {
-        let mut out = String::new();
-        out.push_str(&format!("{:<22} {:>12} {:>5} {:>12} {:>8}  parameters\n", "model", "RSS", "dof", "AICc", "weight"));
+        let mut text = String::new();
+        text.push_str(&format!("{:<22} {:>12} {:>5} {:>12} {:>8}  parameters\n", "model", "RSS", "dof", "AICc", "weight"));
         for m in &comparison.models {
             let params: Vec<String> = m.parameters.iter().map(|p| format!("{} = {}", p.name, number(Some(p.value)))).collect();
-            out.push_str(&format!(
+            text.push_str(&format!(
                 "{:<22} {:>12} {:>5} {:>12} {:>8}  {}\n",
                 m.model,
                 number(Some(m.rss)),
                 m.dof,
                 number(m.aicc),
-                m.akaike_weight.map_or("—".to_string(), |w| format!("{w:.3}")),
+                m.akaike_weight.map_or("—".to_string(), |w| fixed(w, 3)),
                 params.join(", ")
             ));
         }
-        out.push('\n');
+        text.push('\n');
         for t in &comparison.f_tests {
-            out.push_str(&format!("F test {} inside {}: F = {:.3} on ({}, {}) df, p = {}\n", t.simpler, t.general, t.f, t.df_extra, t.df_general, number(Some(t.p_value))));
+            text.push_str(&format!(
+                "F test {} inside {}: F = {} on ({}, {}) df, p = {}\n",
+                t.simpler,
+                t.general,
+                fixed(t.f, 3),
+                t.df_extra,
+                t.df_general,
+                number(Some(t.p_value))
+            ));
         }
-        out.push_str(&format!("\nVerdict: {}\n", comparison.verdict));
+        text.push_str(&format!("\nVerdict: {}\n", comparison.verdict));
         for note in &notes {
-            out.push_str(&format!("note: {note}\n"));
+            text.push_str(&format!("note: {note}\n"));
         }
         for fit in &fits {
             for w in &fit.warnings {
-                out.push_str(&format!("warning ({}): {w}\n", fit.model));
+                text.push_str(&format!("warning ({}): {w}\n", fit.model));
             }
         }
-        out.push_str(&format!("\n{caution}\n"));
-        print!("{out}");
+        text.push_str(&format!("\n{caution}\n"));
+        out.text(&text)?;
     }
+    out.finish()?;
     Ok(ExitCode::SUCCESS)
 }
 
-fn report_problems(file: &str, problems: &[InputProblem]) {
-    for problem in problems {
-        eprintln!("{file}: {problem}");
+/// The JSON form of a rate analysis: the fit record's fields at the top
+/// level, then the input problems, notes, units, points and the caution.
+fn write_rate_json(out: &mut Output, analysis: &RateAnalysis, all_points: bool) -> std::io::Result<()> {
+    #[derive(Serialize)]
+    struct RateExtra<'a> {
+        #[serde(flatten)]
+        envelope: Envelope<'a, turnover_core::rates::PointRecord, &'a turnover_core::rates::UnitsUsed>,
+        diagnostics: Diagnostics<'a>,
+        direct_linear: &'a turnover_core::robust::DirectLinearEstimate,
+        bootstrap: &'a Option<turnover_core::rates::BootstrapReport>,
     }
-}
-
-/// The JSON form: the fit record's fields at the top level, then the input
-/// problems, notes, units, points and the caution.
-fn to_json(analysis: &RateAnalysis) -> String {
-    let extra = serde_json::json!({
-        "problems": analysis.problems,
-        "notes": analysis.notes,
-        "units": analysis.units,
-        "points": analysis.points,
-        "diagnostics": analysis.diagnostics,
-        "direct_linear": analysis.direct_linear,
-        "bootstrap": analysis.bootstrap,
-        "caution": analysis.caution,
-    });
-    fit_json(&analysis.fit, extra)
-}
-
-/// The fit record's fields at the top level, then `extra`'s.
-fn fit_json(fit: &FitSummary, extra: serde_json::Value) -> String {
-    let mut value = serde_json::to_value(fit).expect("a fit record always serialises");
-    let object = value.as_object_mut().expect("a fit record is an object");
-    for (key, item) in extra.as_object().expect("built as an object") {
-        object.insert(key.clone(), item.clone());
+    /// The residual diagnostics, their per-point array under the same rule
+    /// as the points.
+    #[derive(Serialize)]
+    struct Diagnostics<'a> {
+        runs: &'a Option<turnover_core::diagnostics::RunsTest>,
+        lack_of_fit: &'a Option<turnover_core::diagnostics::LackOfFit>,
+        #[serde(skip_serializing_if = "Option::is_none")]
+        points: Option<&'a [turnover_core::diagnostics::PointDiagnostics]>,
+        findings: &'a [String],
     }
-    serde_json::to_string_pretty(&value).expect("JSON values always serialise")
+    let (points, points_omitted) = points_or_note(&analysis.points, all_points);
+    let d = &analysis.diagnostics;
+    let diagnostics = Diagnostics {
+        runs: &d.runs,
+        lack_of_fit: &d.lack_of_fit,
+        points: points_or_note(&d.points, all_points).0,
+        findings: &d.findings,
+    };
+    let extra = RateExtra {
+        envelope: Envelope {
+            problems: &analysis.problems,
+            notes: &analysis.notes,
+            units: &analysis.units,
+            points,
+            points_omitted,
+            caution: &analysis.caution,
+        },
+        diagnostics,
+        direct_linear: &analysis.direct_linear,
+        bootstrap: &analysis.bootstrap,
+    };
+    out.json(&FitJson { fit: &analysis.fit, extra })
 }
 
 fn number(value: Option<f64>) -> String {
     match value {
-        Some(v) => format_significant(v, 5),
+        Some(v) => significant(v, 5),
         None => "—".to_string(),
     }
-}
-
-/// Formats with `digits` significant figures, switching to exponent form
-/// for very large or small magnitudes.
-pub(crate) fn format_significant(value: f64, digits: usize) -> String {
-    if value == 0.0 || !value.is_finite() {
-        return format!("{value}");
-    }
-    let magnitude = value.abs().log10().floor() as i32;
-    if !(-4..6).contains(&magnitude) {
-        return format!("{:.*e}", digits - 1, value);
-    }
-    let decimals = (digits as i32 - 1 - magnitude).max(0) as usize;
-    format!("{value:.decimals$}")
 }
 
 fn to_table(analysis: &RateAnalysis) -> String {
@@ -518,14 +720,19 @@ fn to_table(analysis: &RateAnalysis) -> String {
     let diagnostics = &analysis.diagnostics;
     if let Some(runs) = &diagnostics.runs {
         extra.push_str(&format!(
-            "Runs test: {} runs ({:.1} expected), P(as few or fewer) = {:.3}\n",
-            runs.runs, runs.expected, runs.p_too_few
+            "Runs test: {} runs ({} expected), P(as few or fewer) = {}\n",
+            runs.runs,
+            fixed(runs.expected, 1),
+            fixed(runs.p_too_few, 3)
         ));
     }
     if let Some(l) = &diagnostics.lack_of_fit {
         extra.push_str(&format!(
-            "Lack of fit: F = {:.3} on {} and {} df, P = {:.3}\n",
-            l.f, l.lack_of_fit_dof, l.pure_error_dof, l.p_value
+            "Lack of fit: F = {} on {} and {} df, P = {}\n",
+            fixed(l.f, 3),
+            l.lack_of_fit_dof,
+            l.pure_error_dof,
+            fixed(l.p_value, 3)
         ));
     }
     if let (Some(km), Some(vmax)) = (analysis.direct_linear.km, analysis.direct_linear.vmax) {
@@ -542,6 +749,14 @@ fn to_table(analysis: &RateAnalysis) -> String {
     fit_table(&analysis.fit, &extra, &analysis.notes, &analysis.caution)
 }
 
+/// The weighting as the command line names it, from the fit record.
+fn weighting_label(fit: &FitSummary) -> String {
+    match Weighting::ALL.iter().find(|w| w.name() == fit.weighting) {
+        Some(w) => format!("{}: {}", w.option_name(), w.describe()),
+        None => fit.weighting.clone(),
+    }
+}
+
 /// The readable table of one fit; `extra` holds further lines (checks)
 /// printed before the notes.
 fn fit_table(fit: &FitSummary, extra: &str, notes: &[String], caution: &str) -> String {
@@ -550,7 +765,7 @@ fn fit_table(fit: &FitSummary, extra: &str, notes: &[String], caution: &str) -> 
     out.push_str(&format!("Fit {} after {} iteration(s).\n\n", fit.termination_text, fit.iterations));
     let level = (fit.confidence_level * 100.0).round();
     let method = fit.parameters.first().map_or("asymptotic", |p| p.ci_method.as_str());
-    out.push_str(&format!("Weighting: {}; intervals: {}\n\n", fit.weighting, method));
+    out.push_str(&format!("Weighting: {}; intervals: {}\n\n", weighting_label(fit), method));
     out.push_str(&format!(
         "{:<10} {:>14} {:>14} {:>30}  {}\n",
         "parameter",
@@ -595,4 +810,38 @@ fn fit_table(fit: &FitSummary, extra: &str, notes: &[String], caution: &str) -> 
     }
     out.push_str(&format!("\n{caution}\n"));
     out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn command_definition_is_consistent() {
+        Cli::command().debug_assert();
+    }
+
+    /// Quantities with the tables' number rule.
+    #[test]
+    fn quantities() {
+        let cases: &[(&str, Result<(f64, Option<&str>), &str>)] = &[
+            ("10 nM", Ok((10.0, Some("nM")))),
+            ("10nM", Ok((10.0, Some("nM")))),
+            ("1,5 µM", Ok((1.5, Some("µM")))),
+            ("2.5e-3 M", Ok((2.5e-3, Some("M")))),
+            ("25", Ok((25.0, None))),
+            ("1,000", Err("'1,000' could be 1000 (a comma grouping thousands) or 1.000 (a decimal comma); write 1000 or 1.000")),
+            ("nM", Err("it does not start with a number")),
+        ];
+        for (text, expected) in cases {
+            match (split_quantity(text), expected) {
+                (Ok((v, u)), Ok((ev, eu))) => {
+                    assert_eq!(v, *ev, "{text}");
+                    assert_eq!(u.as_deref(), *eu, "{text}");
+                }
+                (Err(m), Err(e)) => assert!(m.starts_with(e), "{text}: {m}"),
+                (found, _) => panic!("{text}: {found:?}"),
+            }
+        }
+    }
 }

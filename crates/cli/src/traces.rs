@@ -3,198 +3,304 @@
 //! from `turnover_core::traces::analyse_traces` and
 //! `turnover_core::progress::fit_progress`, as in the page.
 
-use crate::{format_significant, read_input, Failure};
+use crate::output::{fixed, significant, warn, Output};
+use crate::{option_number, read_input, usage, Failure};
+use clap::Args;
+use serde::Serialize;
 use std::process::ExitCode;
 use turnover_core::progress::fit_progress;
-use turnover_core::traces::{analyse_traces, path_from_well, Direction, TraceAnalysis, TraceRequest, PRESETS};
+use turnover_core::traces::{
+    analyse_traces, path_from_well, unmatched_overrides, Direction, Role, TraceAnalysis, TraceRequest, WindowOverride, PRESETS,
+};
 
-pub const USAGE: &str = "    turnover rates TRACES --layout LAYOUT [CONVERSION] [OPTIONS]
-                                       initial rates from a time-course table
-    turnover fit-progress TRACES --layout LAYOUT CONVERSION [--json]
-                                       integrated Michaelis-Menten fit to whole traces
+/// The options of `rates` and `fit-progress`.
+#[derive(Args)]
+pub struct TraceOptions {
+    /// The time-course table: time, then one column per trace ('-' reads
+    /// standard input)
+    #[arg(value_name = "TRACES")]
+    file: String,
+    /// A table saying what each trace is (trace, S, I, E, role, blank)
+    #[arg(long, value_name = "FILE")]
+    layout: String,
+    /// Print one JSON object
+    #[arg(long)]
+    json: bool,
+    /// Molar absorption coefficient ε, M⁻¹ cm⁻¹
+    #[arg(long, value_name = "E", value_parser = option_number)]
+    epsilon: Option<f64>,
+    /// ε from a preset: nadh, nadph (6220 at 340 nm), pnp (~18000 at 405 nm)
+    #[arg(long, value_name = "NAME", ignore_case = true, value_parser = preset_names())]
+    preset: Option<String>,
+    /// Optical path length in cm
+    #[arg(long, value_name = "CM", value_parser = option_number)]
+    path: Option<f64>,
+    /// Path from well volume (µL) and diameter (mm), meniscus ignored, such as 200,6.4
+    #[arg(long, value_name = "UL,MM")]
+    well: Option<String>,
+    /// A linear standard curve: concentration (with unit) and signal
+    #[arg(long, value_name = "FILE")]
+    standard: Option<String>,
+    /// The signal falls as product forms (NADH consumed)
+    #[arg(long)]
+    falls: bool,
+    /// Top of the detector's linear range, in signal units
+    #[arg(long, value_name = "A", value_parser = option_number)]
+    linear_limit: Option<f64>,
+    /// Largest fraction of [S]0 used in a window
+    #[arg(long, value_name = "F", value_parser = option_number, default_value = "0.1")]
+    max_conversion: f64,
+    /// Set the window of trace NAME (or * for all) to times A..B (repeatable)
+    #[arg(long, value_name = "NAME=A:B", allow_hyphen_values = true)]
+    window: Vec<String>,
+    /// Leave a trace out (repeatable)
+    #[arg(long, value_name = "NAME")]
+    exclude: Vec<String>,
+}
 
-CONVERSION (signal to concentration; without one, rates are in signal units):
-    --epsilon E            molar absorption coefficient, M⁻¹ cm⁻¹
-    --preset NAME          ε from a preset: nadh, nadph (6220 at 340 nm), pnp (~18000 at 405 nm)
-    --path CM              optical path length in cm
-    --well UL,MM           path from well volume (µL) and diameter (mm), meniscus ignored
-    --standard FILE        a linear standard curve: concentration (unit) and signal
-OPTIONS for rates:
-    --falls                the signal falls as product forms (NADH consumed)
-    --linear-limit A       top of the detector's linear range, in signal units
-    --max-conversion F     largest fraction of [S]0 used in a window (default 0.1)
-    --window NAME=A:B      set the window of trace NAME (or * for all) to times A..B
-    --exclude NAME         leave a trace out (repeatable)
-    --json                 one JSON object
-";
+fn preset_names() -> clap::builder::PossibleValuesParser {
+    clap::builder::PossibleValuesParser::new(PRESETS.iter().map(|p| clap::builder::PossibleValue::new(p.key)))
+}
 
-struct TraceArgs {
+struct Prepared {
+    command: &'static str,
     file: String,
     json: bool,
     request: TraceRequest,
 }
 
-fn parse(args: &[String]) -> Result<TraceArgs, Failure> {
-    let mut file = None;
-    let mut json = false;
-    let mut layout = None;
-    let mut standard = None;
+fn prepare(command: &'static str, options: TraceOptions) -> Result<Prepared, Failure> {
     let mut request = TraceRequest::default();
-    let mut i = 0;
-    let value = |i: &mut usize, name: &str| -> Result<String, Failure> {
-        *i += 1;
-        args.get(*i).cloned().ok_or_else(|| Failure::Usage(format!("{name} needs a value")))
-    };
-    let number = |text: &str, name: &str| -> Result<f64, Failure> {
-        text.trim().parse::<f64>().ok().filter(|v| v.is_finite()).ok_or_else(|| Failure::Usage(format!("{name}: '{text}' is not a number")))
-    };
-    while i < args.len() {
-        match args[i].as_str() {
-            "--json" => json = true,
-            "--falls" => request.direction = Direction::Falls,
-            "--layout" => layout = Some(value(&mut i, "--layout")?),
-            "--standard" => standard = Some(value(&mut i, "--standard")?),
-            "--epsilon" => request.epsilon = Some(number(&value(&mut i, "--epsilon")?, "--epsilon")?),
-            "--path" => request.path_cm = Some(number(&value(&mut i, "--path")?, "--path")?),
-            "--preset" => {
-                let key = value(&mut i, "--preset")?;
-                let preset = PRESETS.iter().find(|p| p.key == key.to_ascii_lowercase()).ok_or_else(|| {
-                    Failure::Usage(format!("--preset: unknown '{key}'; known: {}", PRESETS.iter().map(|p| p.key).collect::<Vec<_>>().join(", ")))
-                })?;
-                request.epsilon = Some(preset.epsilon);
-            }
-            "--well" => {
-                let text = value(&mut i, "--well")?;
-                let (v, d) = text.split_once(',').ok_or_else(|| Failure::Usage("--well needs VOLUME_UL,DIAMETER_MM such as 200,6.4".into()))?;
-                let path = path_from_well(number(v, "--well")?, number(d, "--well")?).map_err(|e| Failure::Usage(e.message))?;
-                request.path_cm = Some(path);
-            }
-            "--linear-limit" => request.linear_limit = Some(number(&value(&mut i, "--linear-limit")?, "--linear-limit")?),
-            "--max-conversion" => request.max_conversion = number(&value(&mut i, "--max-conversion")?, "--max-conversion")?,
-            "--exclude" => request.excluded.push(value(&mut i, "--exclude")?),
-            "--window" => {
-                let text = value(&mut i, "--window")?;
-                let bad = || Failure::Usage(format!("--window: '{text}' is not NAME=START:END"));
-                let (name, range) = text.split_once('=').ok_or_else(bad)?;
-                let (a, b) = range.split_once(':').ok_or_else(bad)?;
-                request.windows.push(turnover_core::traces::WindowOverride {
-                    trace: name.trim().to_string(),
-                    start: number(a, "--window")?,
-                    end: number(b, "--window")?,
-                });
-            }
-            flag if flag.starts_with("--") => return Err(Failure::Usage(format!("unknown option '{flag}'"))),
-            path => {
-                if file.replace(path.to_string()).is_some() {
-                    return Err(Failure::Usage("give one time-course file".to_string()));
-                }
-            }
+    if options.falls {
+        request.direction = Direction::Falls;
+    }
+    if options.epsilon.is_some() && options.preset.is_some() {
+        return Err(usage(command, "--epsilon and --preset both set ε; give one of them"));
+    }
+    if options.path.is_some() && options.well.is_some() {
+        return Err(usage(command, "--path and --well both set the path length; give one of them"));
+    }
+    if options.standard.is_some() && (options.epsilon.is_some() || options.preset.is_some() || options.path.is_some() || options.well.is_some()) {
+        return Err(usage(command, "--standard converts the signal by its own curve; leave out --epsilon, --preset, --path and --well, or the standard"));
+    }
+    request.epsilon = options.epsilon;
+    if let Some(key) = &options.preset {
+        let preset = PRESETS.iter().find(|p| p.key.eq_ignore_ascii_case(key)).expect("clap checked the preset name");
+        request.epsilon = Some(preset.epsilon);
+    }
+    request.path_cm = options.path;
+    if let Some(text) = &options.well {
+        let (v, d) = text
+            .split_once(['/', ';', ' '])
+            .or_else(|| text.split_once(','))
+            .ok_or_else(|| usage(command, "--well needs VOLUME_UL,DIAMETER_MM such as 200,6.4"))?;
+        let volume = option_number(v).map_err(|m| usage(command, format!("--well: {m}")))?;
+        let diameter = option_number(d).map_err(|m| usage(command, format!("--well: {m}")))?;
+        request.path_cm = Some(path_from_well(volume, diameter).map_err(|e| usage(command, e.message))?);
+    }
+    request.linear_limit = options.linear_limit;
+    request.max_conversion = options.max_conversion;
+    request.excluded = options.exclude;
+    for text in &options.window {
+        let bad = || usage(command, format!("--window: '{text}' is not NAME=START:END, such as A1=0:5"));
+        let (name, range) = text.split_once('=').ok_or_else(bad)?;
+        let (a, b) = range.split_once(':').ok_or_else(bad)?;
+        let start = option_number(a).map_err(|m| usage(command, format!("--window {text}: {m}")))?;
+        let end = option_number(b).map_err(|m| usage(command, format!("--window {text}: {m}")))?;
+        if !(end > start) {
+            return Err(usage(command, format!("--window {text}: the end must come after the start")));
         }
-        i += 1;
+        request.windows.push(WindowOverride { trace: name.trim().to_string(), start, end });
     }
-    let file = file.ok_or_else(|| Failure::Usage("give the time-course file ('-' for standard input)".to_string()))?;
-    let layout = layout.ok_or_else(|| Failure::Usage("--layout FILE is required: it says what each trace is".to_string()))?;
-    request.layout = read_input(&layout)?;
-    if let Some(path) = standard {
-        request.standard = Some(read_input(&path)?);
+    request.layout = read_input(&options.layout)?;
+    if let Some(path) = &options.standard {
+        request.standard = Some(read_input(path)?);
     }
-    request.traces = read_input(&file)?;
-    Ok(TraceArgs { file, json, request })
+    request.traces = read_input(&options.file)?;
+    Ok(Prepared { command, file: options.file, json: options.json, request })
 }
 
-fn analyse(args: &TraceArgs) -> Result<TraceAnalysis, Failure> {
+fn analyse(command: &'static str, args: &Prepared) -> Result<TraceAnalysis, Failure> {
     let analysis = analyse_traces(&args.request).map_err(|e| Failure::Input(e.message))?;
+    // A --window or --exclude naming no trace would do nothing; on the
+    // command line that is a mistake to refuse, not a note to skim past.
+    let names: Vec<(String, usize)> = analysis.traces.iter().map(|t| (t.name.clone(), 0)).collect();
+    if let Some(sentence) = unmatched_overrides(&args.request, &names).first() {
+        let hint = if sentence.starts_with("The window") { "use --window '*=A:B' for every trace" } else { "check --exclude" };
+        return Err(usage(command, format!("{sentence} ({hint})")));
+    }
     for problem in &analysis.problems {
-        eprintln!("{}: {problem}", args.file);
+        warn(&format!("{}: {problem}", args.file));
+    }
+    // Every rated sample against the declared direction: the rates would
+    // all be negative. Refuse rather than print them.
+    let rated: Vec<_> = analysis.traces.iter().filter(|t| t.role == Role::Sample && !t.excluded && t.rate.is_some()).collect();
+    if !rated.is_empty() && rated.iter().all(|t| t.flags.iter().any(|f| f == "wrong-direction")) {
+        let message = match args.request.direction {
+            Direction::Falls => "every sample's signal rises, but --falls says the signal falls as product forms; the rates would all be negative. Leave out --falls, or check the file",
+            Direction::Rises => "every sample's signal falls, but the signal was taken to rise as product forms; the rates would all be negative. If product formation lowers the signal (NADH consumed), add --falls",
+        };
+        return Err(Failure::Input(message.to_string()));
     }
     Ok(analysis)
 }
 
 /// `turnover rates`.
-pub fn rates(args: &[String]) -> Result<ExitCode, Failure> {
-    let args = parse(args)?;
-    let analysis = analyse(&args)?;
+pub fn rates(options: TraceOptions) -> Result<ExitCode, Failure> {
+    let args = prepare("rates", options)?;
+    let analysis = analyse(args.command, &args)?;
+    let mut out = Output::new();
     if args.json {
-        let traces: Vec<serde_json::Value> = analysis
+        #[derive(Serialize)]
+        struct TraceJson<'a> {
+            name: &'a str,
+            role: &'a Role,
+            s: Option<f64>,
+            i: Option<f64>,
+            e: Option<f64>,
+            rate: Option<f64>,
+            rate_se: Option<f64>,
+            rate_unit: &'a str,
+            window_start: Option<f64>,
+            window_end: Option<f64>,
+            window_points: usize,
+            manual_window: bool,
+            fraction_converted: Option<f64>,
+            blanks_subtracted: &'a [String],
+            flags: &'a [String],
+            messages: &'a [String],
+        }
+        #[derive(Serialize)]
+        struct RatesJson<'a> {
+            time_unit: &'a str,
+            value_unit: &'a str,
+            rate_unit: &'a str,
+            traces: Vec<TraceJson<'a>>,
+            enzyme_checks: &'a [turnover_core::traces::EnzymeCheck],
+            standard: &'a Option<turnover_core::traces::StandardCurve>,
+            rate_table: &'a str,
+            rate_links: &'a [turnover_core::traces::RateLink],
+            problems: &'a [turnover_core::table::InputProblem],
+            notes: &'a [String],
+            caution: &'a str,
+        }
+        let traces = analysis
             .traces
             .iter()
-            .map(|t| {
-                serde_json::json!({
-                    "name": t.name,
-                    "role": t.role,
-                    "s": t.s, "i": t.i, "e": t.e,
-                    "rate": t.rate,
-                    "rate_se": t.rate_se,
-                    "rate_unit": analysis.rate_unit,
-                    "window_start": t.window_start,
-                    "window_end": t.window_end,
-                    "window_points": t.window_points,
-                    "manual_window": t.manual_window,
-                    "fraction_converted": t.fraction_converted,
-                    "blanks_subtracted": t.blanks_subtracted,
-                    "flags": t.flags,
-                    "messages": t.messages,
-                })
+            .map(|t| TraceJson {
+                name: &t.name,
+                role: &t.role,
+                s: t.s,
+                i: t.i,
+                e: t.e,
+                rate: t.rate,
+                rate_se: t.rate_se,
+                rate_unit: &analysis.rate_unit,
+                window_start: t.window_start,
+                window_end: t.window_end,
+                window_points: t.window_points,
+                manual_window: t.manual_window,
+                fraction_converted: t.fraction_converted,
+                blanks_subtracted: &t.blanks_subtracted,
+                flags: &t.flags,
+                messages: &t.messages,
             })
             .collect();
-        let value = serde_json::json!({
-            "time_unit": analysis.time_unit,
-            "value_unit": analysis.value_unit,
-            "rate_unit": analysis.rate_unit,
-            "traces": traces,
-            "enzyme_checks": analysis.enzyme_checks,
-            "standard": analysis.standard,
-            "rate_table": analysis.rate_table,
-            "rate_links": analysis.rate_links,
-            "problems": analysis.problems,
-            "notes": analysis.notes,
-            "caution": analysis.caution,
-        });
-        println!("{}", serde_json::to_string_pretty(&value).expect("JSON values always serialise"));
+        out.json(&RatesJson {
+            time_unit: &analysis.time_unit,
+            value_unit: &analysis.value_unit,
+            rate_unit: &analysis.rate_unit,
+            traces,
+            enzyme_checks: &analysis.enzyme_checks,
+            standard: &analysis.standard,
+            rate_table: &analysis.rate_table,
+            rate_links: &analysis.rate_links,
+            problems: &analysis.problems,
+            notes: &analysis.notes,
+            caution: &analysis.caution,
+        })?;
     } else {
-        let n = |v: Option<f64>| v.map_or("—".to_string(), |v| format_significant(v, 4));
-        println!("{:<8} {:>12} {:>12} {:>16} {:>9}  flags", "trace", "rate", "std. error", format!("window ({})", analysis.time_unit), "used");
+        let n = |v: Option<f64>| v.map_or("—".to_string(), |v| significant(v, 4));
+        let mut text = format!(
+            "{:<8} {:>12} {:>12} {:>16} {:>9}  flags\n",
+            "trace",
+            "rate",
+            "std. error",
+            format!("window ({})", analysis.time_unit),
+            "used"
+        );
         for t in &analysis.traces {
             let window = match (t.window_start, t.window_end) {
-                (Some(a), Some(b)) => format!("{}–{}", format_significant(a, 3), format_significant(b, 3)),
+                (Some(a), Some(b)) => format!("{}–{}", significant(a, 3), significant(b, 3)),
                 _ => "—".to_string(),
             };
-            let used = t.fraction_converted.map_or("—".to_string(), |f| format!("{:.1} %", f * 100.0));
-            println!("{:<8} {:>12} {:>12} {:>16} {:>9}  {}", t.name, n(t.rate), n(t.rate_se), window, used, t.flags.join(" "));
+            let used = t.fraction_converted.map_or("—".to_string(), |f| format!("{} %", fixed(f * 100.0, 1)));
+            text.push_str(&format!(
+                "{:<8} {:>12} {:>12} {:>16} {:>9}  {}\n",
+                t.name,
+                n(t.rate),
+                n(t.rate_se),
+                window,
+                used,
+                t.flags.join(" ")
+            ));
         }
-        println!("\nrates in {}", analysis.rate_unit);
+        text.push_str(&format!("\nrates in {}\n", analysis.rate_unit));
+        for t in analysis.traces.iter().filter(|t| t.flags.iter().any(|f| f == "wrong-direction")) {
+            text.push_str(&format!("warning ({}): {}\n", t.name, t.messages.iter().find(|m| m.contains("declared")).map_or("", String::as_str)));
+        }
         for note in &analysis.notes {
-            println!("note: {note}");
+            text.push_str(&format!("note: {note}\n"));
         }
-        println!("\n{}", analysis.caution);
+        text.push_str(&format!("\n{}\n", analysis.caution));
+        out.text(&text)?;
     }
+    out.finish()?;
     Ok(ExitCode::SUCCESS)
 }
 
 /// `turnover fit-progress`.
-pub fn fit_progress_command(args: &[String]) -> Result<ExitCode, Failure> {
-    let args = parse(args)?;
-    let analysis = analyse(&args)?;
+pub fn fit_progress_command(options: TraceOptions) -> Result<ExitCode, Failure> {
+    let args = prepare("fit-progress", options)?;
+    let analysis = analyse(args.command, &args)?;
     let fit = fit_progress(&analysis).map_err(|e| Failure::Input(e.message))?;
+    let mut out = Output::new();
     if args.json {
-        let mut value = serde_json::to_value(&fit.summary).expect("a fit record always serialises");
-        let object = value.as_object_mut().expect("a fit record is an object");
-        object.insert("notes".into(), serde_json::json!(fit.notes));
-        object.insert("reference_enzyme".into(), serde_json::json!(fit.reference_enzyme));
-        object.insert("caution".into(), serde_json::json!(fit.caution));
-        println!("{}", serde_json::to_string_pretty(&value).expect("JSON values always serialise"));
+        #[derive(Serialize)]
+        struct ProgressJson<'a> {
+            #[serde(flatten)]
+            summary: &'a turnover_core::fit::FitSummary,
+            notes: &'a [String],
+            reference_enzyme: &'a Option<f64>,
+            caution: &'a str,
+        }
+        out.json(&ProgressJson {
+            summary: &fit.summary,
+            notes: &fit.notes,
+            reference_enzyme: &fit.reference_enzyme,
+            caution: &fit.caution,
+        })?;
     } else {
         let s = &fit.summary;
-        println!("Model: {} ({})\nFit {} after {} evaluation(s).\n", s.model, s.equation, s.termination_text, s.iterations);
-        let n = |v: Option<f64>| v.map_or("—".to_string(), |v| format_significant(v, 5));
+        let n = |v: Option<f64>| v.map_or("—".to_string(), |v| significant(v, 5));
+        let mut text =
+            format!("Model: {} ({})\nFit {} after {} evaluation(s).\n\n", s.model, s.equation, s.termination_text, s.iterations);
         for p in &s.parameters {
-            println!("{:<14} {:>14} {:>14}  {}", p.name, n(Some(p.value)), n(p.std_error), p.unit.clone().unwrap_or_default());
+            text.push_str(&format!(
+                "{:<14} {:>14} {:>14}  {}\n",
+                p.name,
+                n(Some(p.value)),
+                n(p.std_error),
+                p.unit.clone().unwrap_or_default()
+            ));
         }
-        println!("\nn = {}, dof = {}, residual SD = {}, R² = {}", s.n, s.dof, n(s.sigma), n(s.r_squared));
+        text.push_str(&format!("\nn = {}, dof = {}, residual SD = {}, R² = {}\n", s.n, s.dof, n(s.sigma), n(s.r_squared)));
         for w in s.warnings.iter().chain(&fit.notes) {
-            println!("note: {w}");
+            text.push_str(&format!("note: {w}\n"));
         }
-        println!("\n{}", fit.caution);
+        text.push_str(&format!("\n{}\n", fit.caution));
+        out.text(&text)?;
     }
+    out.finish()?;
     Ok(if fit.summary.converged { ExitCode::SUCCESS } else { ExitCode::from(3) })
 }

@@ -164,10 +164,16 @@ pub fn residual_diagnostics(model: &dyn Model, data: &Observations, fit: &Fit) -
         let lack_of_fit_dof = groups.len() - p;
         let lack_of_fit_ss = (fit.summary.rss - pure_error_ss).max(0.0);
         let f = (lack_of_fit_ss / lack_of_fit_dof as f64) / (pure_error_ss / pure_error_dof as f64);
-        let p_value = FisherSnedecor::new(lack_of_fit_dof as f64, pure_error_dof as f64)
-            .map(|d| 1.0 - d.cdf(f))
-            .unwrap_or(f64::NAN);
-        (f.is_finite() && pure_error_ss > 0.0).then_some(LackOfFit {
+        // Replicates that agree exactly leave no pure error: F is 0/0 or
+        // x/0, and statrs's F distribution panics on a NaN argument. No test
+        // is possible then, so none is reported.
+        let testable = f.is_finite() && pure_error_ss > 0.0;
+        let p_value = if testable {
+            FisherSnedecor::new(lack_of_fit_dof as f64, pure_error_dof as f64).map(|d| 1.0 - d.cdf(f)).ok()
+        } else {
+            None
+        };
+        p_value.map(|p_value| LackOfFit {
             groups: groups.len(),
             pure_error_ss,
             pure_error_dof,

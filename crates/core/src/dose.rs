@@ -16,7 +16,7 @@ use crate::models::{cheng_prusoff, model_with_options, DoseResponse, Mechanism, 
 use crate::plots::family::{dose_response_plot, morrison_plot, short_number, DosePoint};
 use crate::plots::PlotData;
 use crate::rates::{is_rate_name, is_substrate_name, normalise_name, CAUTION};
-use crate::table::{parse_table, InputProblem};
+use crate::table::{parse_table, shortage_reasons, InputProblem};
 use crate::units::ConcentrationUnit;
 use serde::{Deserialize, Serialize};
 
@@ -243,10 +243,11 @@ pub fn analyse_dose(request: &DoseRequest) -> Result<DoseAnalysis, Error> {
     let n_params = model.parameters().len();
     if used.len() <= n_params {
         return Err(Error::invalid_data(format!(
-            "only {} usable point(s) remain; at least {} are needed to fit {} parameters with an uncertainty",
+            "only {} usable point(s) remain; at least {} are needed to fit {} parameters with an uncertainty{}",
             used.len(),
             n_params + 1,
-            n_params
+            n_params,
+            shortage_reasons(&problems, points.iter().filter(|p| p.excluded).count(), 10)
         )));
     }
     let responses: Vec<f64> = used.iter().map(|p| p.y).collect();

@@ -23,7 +23,7 @@ use crate::models::{Inhibition, Mechanism, MichaelisMenten};
 use crate::plots::family::{inhibition_plots, short_number, FamilyPoint, FamilyUnits, GlobalFit};
 use crate::plots::PlotData;
 use crate::rates::{is_rate_name, is_substrate_name, normalise_name, CAUTION};
-use crate::table::{parse_table, ColumnHeading, InputProblem, Table};
+use crate::table::{parse_table, shortage_reasons, ColumnHeading, InputProblem, Table};
 use crate::units::{ConcentrationUnit, RateUnit};
 use serde::{Deserialize, Serialize};
 
@@ -417,10 +417,11 @@ pub fn analyse_inhibition(request: &InhibitionRequest) -> Result<InhibitionAnaly
     let most = mechanisms.iter().map(|m| Inhibition::new(*m).parameters().len()).max().unwrap_or(3);
     if used.len() <= most {
         return Err(Error::invalid_data(format!(
-            "only {} usable point(s) remain; at least {} are needed to fit {} parameters with an uncertainty",
+            "only {} usable point(s) remain; at least {} are needed to fit {} parameters with an uncertainty{}",
             used.len(),
             most + 1,
-            most
+            most,
+            shortage_reasons(&problems, points.iter().filter(|p| p.excluded).count(), 10)
         )));
     }
     let rates: Vec<f64> = used.iter().map(|p| p.v).collect();

@@ -7,6 +7,8 @@
 //!
 //! The main pieces:
 //!
+//! - [`decode`]: a file's bytes to text (UTF-8, UTF-16 with a byte-order
+//!   mark, Windows-1252; any line ending).
 //! - [`table`]: reading pasted tables (any common separator and decimal
 //!   mark, headers with units), reporting problems by line and column.
 //! - [`units`]: molar concentration, time and rate units; kcat conversion.
@@ -49,6 +51,7 @@
 #![deny(missing_docs)]
 
 pub mod compare;
+pub mod decode;
 pub mod diagnostics;
 pub mod dose;
 pub mod error;

@@ -12,7 +12,7 @@ use crate::model::{Dimension, Model, Observations};
 use crate::models::{model_by_name, MichaelisMentenSpecificity};
 use crate::plots::{diagnostic_plots, rate_plots, AxisUnits, PlotData, RatePoint};
 use crate::robust::{direct_linear, DirectLinearEstimate};
-use crate::table::{parse_table, ColumnHeading, InputProblem, Table};
+use crate::table::{parse_table, shortage_reasons, ColumnHeading, InputProblem, Table};
 use crate::units::{kcat_per_second, ConcentrationUnit, RateUnit};
 use crate::weighting::Weighting;
 use serde::{Deserialize, Serialize};
@@ -315,10 +315,11 @@ pub fn analyse_rates(request: &RateRequest) -> Result<RateAnalysis, Error> {
     let n_params = model.parameters().len();
     if used.len() <= n_params {
         return Err(Error::invalid_data(format!(
-            "only {} usable point(s) remain; at least {} are needed to fit {} parameters with an uncertainty",
+            "only {} usable point(s) remain; at least {} are needed to fit {} parameters with an uncertainty{}",
             used.len(),
             n_params + 1,
-            n_params
+            n_params,
+            shortage_reasons(&problems, points.iter().filter(|p| p.excluded).count(), 10)
         )));
     }
     let mut distinct: Vec<f64> = used.iter().map(|p| p.s).collect();
@@ -699,6 +700,29 @@ mod tests {
         assert_eq!(result.problems.len(), 1);
         assert_eq!(result.problems[0].to_string(), "line 3, column 2: expected a number, found 'abc'");
         assert_eq!(result.fit.n, 4);
+    }
+
+    /// When too few points remain, the message lists why each row is
+    /// missing, line by line.
+    #[test]
+    fn shortage_lists_the_reasons() {
+        let error = analyse_rates(&request("S\tv\nn/a\t1\n2\t#DIV/0!\n3\n")).unwrap_err();
+        assert_eq!(
+            error.message,
+            "only 0 usable point(s) remain; at least 3 are needed to fit 2 parameters with an uncertainty. Why rows are missing: \
+             line 2, column 1: expected a number, found 'n/a'; \
+             line 3, column 2: '#DIV/0!' is a spreadsheet error, not a number; fix the formula in the spreadsheet or leave the row out; \
+             line 4: expected 2 columns, found 1"
+        );
+    }
+
+    /// Replicates that agree exactly with a perfect fit leave no pure error:
+    /// the lack-of-fit F would be 0/0, which made statrs panic (found by the
+    /// `table` fuzz target). Now no lack-of-fit test is reported.
+    #[test]
+    fn exact_replicates_give_no_lack_of_fit_test() {
+        let analysis = analyse_rates(&request("S\tv\n1\t5\n1\t5\n2\t5\n2\t5\n3\t5\n3\t5\n")).unwrap();
+        assert!(analysis.diagnostics.lack_of_fit.is_none());
     }
 
     /// Fatal inputs and the message each must give.

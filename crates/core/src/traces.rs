@@ -36,7 +36,11 @@
 
 use crate::error::Error;
 use crate::fit::student_t_quantile;
-use crate::table::{parse_heading, parse_number, ColumnHeading, DecimalMark, InputProblem};
+use crate::table::{
+    is_comment_line, looks_like_number, outside_quotes, parse_heading, read_number, split_line, ColumnHeading, InputProblem,
+    NumberStyle, Separator, StyleVotes,
+};
+use std::borrow::Cow;
 use crate::units::{ConcentrationUnit, TimeUnit};
 use serde::{Deserialize, Serialize};
 
@@ -264,7 +268,9 @@ pub struct TraceResult {
     /// `rate·(window end − first time)/[S]0`.
     pub fraction_converted: Option<f64>,
     /// Words for what to look at: `depletion`, `nonlinear`, `over-range`,
-    /// `few-points`, `noisy`, `lag`, `burst`, `excluded`, `no-blank`.
+    /// `few-points`, `noisy`, `lag`, `burst`, `excluded`, `no-blank`,
+    /// `wrong-direction` (the rate is clearly negative: the signal moves the
+    /// other way than declared).
     pub flags: Vec<String>,
     /// Sentences explaining the flags.
     pub messages: Vec<String>,
@@ -356,23 +362,58 @@ pub const CAUTION: &str = "Initial rates are estimates from straight lines over 
 
 fn detect_separator(lines: &[&str]) -> char {
     for sep in ['\t', ';', ','] {
-        if lines.iter().any(|l| l.contains(sep)) {
+        if lines.iter().any(|l| outside_quotes(l).contains(sep)) {
             return sep;
         }
     }
     ' '
 }
 
-fn split(line: &str, sep: char) -> Vec<&str> {
-    let mut cells: Vec<&str> = if sep == ' ' {
-        line.split_whitespace().collect()
-    } else {
-        line.split(sep).map(str::trim).collect()
+/// Splits every line into cells (quoted CSV cells read as their content),
+/// reporting a quote that is never closed.
+fn split_all<'a>(lines: &[(usize, &'a str)], sep: char, problems: &mut Vec<InputProblem>) -> Vec<(usize, Vec<Cow<'a, str>>)> {
+    let separator = match sep {
+        '\t' => Separator::Tab,
+        ';' => Separator::Semicolon,
+        ',' => Separator::Comma,
+        _ => Separator::Whitespace,
     };
-    while cells.len() > 1 && cells.last().is_some_and(|c| c.is_empty()) {
-        cells.pop();
+    lines
+        .iter()
+        .map(|(n, l)| {
+            let (cells, open_quote) = split_line(l, separator);
+            if let Some(column) = open_quote {
+                problems.push(InputProblem {
+                    line: *n,
+                    column: Some(column),
+                    message: "a quote opened in this cell is not closed on the line; the rest of the line was read as the cell".to_string(),
+                });
+            }
+            (*n, cells)
+        })
+        .collect()
+}
+
+/// Borrows split lines as string slices.
+fn as_slices<'a>(owned: &'a [(usize, Vec<Cow<'_, str>>)]) -> Vec<(usize, Vec<&'a str>)> {
+    owned.iter().map(|(n, cells)| (*n, cells.iter().map(|c| c.as_ref()).collect())).collect()
+}
+
+/// Each column's number style, decided from the cells of `rows`.
+fn column_styles(rows: &[(usize, Vec<&str>)]) -> Vec<NumberStyle> {
+    let mut votes = StyleVotes::default();
+    for (_, cells) in rows {
+        for (column, cell) in cells.iter().enumerate() {
+            if parse_clock(cell).is_none() {
+                votes.add(column, cell);
+            }
+        }
     }
-    cells
+    votes.styles()
+}
+
+fn style_of(styles: &[NumberStyle], column: usize) -> NumberStyle {
+    styles.get(column).copied().unwrap_or(NumberStyle::Undecided)
 }
 
 fn normalise_name(name: &str) -> String {
@@ -422,17 +463,6 @@ fn is_overflow_marker(cell: &str) -> bool {
         || matches!(upper.as_str(), "OVRFLW" | "OVER" | "OVERFLOW" | "OVFL" | "SAT" | "SATURATED" | "HIGH" | "HI" | "RANGE?")
 }
 
-fn decimal_mark(sep: char, cells: &[&str]) -> DecimalMark {
-    if sep == ',' {
-        return DecimalMark::Point;
-    }
-    if cells.iter().any(|c| c.contains(',') && !c.contains('.') && parse_number(c, DecimalMark::Comma).is_ok()) {
-        DecimalMark::Comma
-    } else {
-        DecimalMark::Point
-    }
-}
-
 /// A time-course table as read.
 struct RawTraces {
     time_unit: TimeUnit,
@@ -454,20 +484,19 @@ fn read_traces(
         .split('\n')
         .enumerate()
         .map(|(i, l)| (i + 1, l.strip_suffix('\r').unwrap_or(l)))
-        .filter(|(_, l)| !l.trim().is_empty() && !l.trim_start().starts_with('#'))
+        .filter(|(_, l)| !l.trim().is_empty() && !is_comment_line(l))
         .collect();
     if lines.is_empty() {
         return Err(Error::invalid_data("the time-course table is empty; paste a header (time, then one column per trace) and rows"));
     }
     let sep = detect_separator(&lines.iter().map(|(_, l)| *l).collect::<Vec<_>>());
-    let split_lines: Vec<(usize, Vec<&str>)> = lines.iter().map(|(n, l)| (*n, split(l, sep))).collect();
-    let all_cells: Vec<&str> = split_lines.iter().flat_map(|(_, c)| c.iter().copied()).collect();
-    let mark = decimal_mark(sep, &all_cells);
+    let owned = split_all(&lines, sep, problems);
+    let split_lines = as_slices(&owned);
 
     // The header is the first line whose first cell names time; failing
     // that, the last non-numeric line before the first row of numbers.
     let first_numeric = |cells: &[&str]| {
-        cells.len() >= 2 && (parse_number(cells[0], mark).is_ok() || parse_clock(cells[0]).is_some())
+        cells.len() >= 2 && (looks_like_number(cells[0]) || parse_clock(cells[0]).is_some())
     };
     let header_index = split_lines
         .iter()
@@ -560,8 +589,9 @@ fn read_traces(
     let mut row_lines = Vec::new();
     let mut values = vec![Vec::new(); names.len()];
     let mut cells = vec![Vec::new(); names.len()];
+    let styles = column_styles(&split_lines[header_index + 1..]);
     for (line, row) in &split_lines[header_index + 1..] {
-        let time = parse_clock(row[0]).map(Ok).unwrap_or_else(|| parse_number(row[0], mark));
+        let time = parse_clock(row[0]).map(Ok).unwrap_or_else(|| read_number(row[0], style_of(&styles, 0)));
         let time = match time {
             Ok(t) => t,
             Err(message) => {
@@ -607,7 +637,7 @@ fn read_traces(
                 });
                 (None, CellState::Overflow)
             } else {
-                match parse_number(cell, mark) {
+                match read_number(cell, style_of(&styles, *column)) {
                     Ok(v) => (Some(v), CellState::Value),
                     Err(message) => {
                         problems.push(InputProblem { line: *line, column: Some(column + 1), message });
@@ -647,13 +677,14 @@ fn read_layout(text: &str, problems: &mut Vec<InputProblem>, notes: &mut Vec<Str
         .split('\n')
         .enumerate()
         .map(|(i, l)| (i + 1, l.strip_suffix('\r').unwrap_or(l)))
-        .filter(|(_, l)| !l.trim().is_empty() && !l.trim_start().starts_with('#'))
+        .filter(|(_, l)| !l.trim().is_empty() && !is_comment_line(l))
         .collect();
-    let Some(&(header_line, header)) = lines.first() else {
+    let Some(&(header_line, _)) = lines.first() else {
         return Err(Error::invalid_data("the layout table is empty; it needs a header such as 'trace\\tS (µM)\\trole'"));
     };
     let sep = detect_separator(&lines.iter().map(|(_, l)| *l).collect::<Vec<_>>());
-    let headings: Vec<ColumnHeading> = split(header, sep).iter().map(|c| parse_heading(c)).collect();
+    let owned = split_all(&lines, sep, problems);
+    let headings: Vec<ColumnHeading> = owned[0].1.iter().map(|c| parse_heading(c)).collect();
     let find = |names: &[&str]| headings.iter().position(|h| names.contains(&normalise_name(&h.name).as_str()));
     let trace_col = find(&["trace", "well", "name", "label", "column"]).ok_or_else(|| {
         Error::invalid_data(format!("line {header_line}: the layout needs a 'trace' (or 'well') column naming each trace"))
@@ -675,8 +706,8 @@ fn read_layout(text: &str, problems: &mut Vec<InputProblem>, notes: &mut Vec<Str
     if s_col.is_none() {
         notes.push("The layout has no S column: fractions converted cannot be computed.".to_string());
     }
-    let all: Vec<(usize, Vec<&str>)> = lines[1..].iter().map(|(n, l)| (*n, split(l, sep))).collect();
-    let mark = decimal_mark(sep, &all.iter().flat_map(|(_, c)| c.iter().copied()).collect::<Vec<_>>());
+    let all = as_slices(&owned[1..]);
+    let styles = column_styles(&all);
     let mut rows: Vec<(String, LayoutRow)> = Vec::new();
     for (line, cells) in &all {
         let name = cells.get(trace_col).map(|c| c.trim()).unwrap_or("");
@@ -690,7 +721,7 @@ fn read_layout(text: &str, problems: &mut Vec<InputProblem>, notes: &mut Vec<Str
             if cell.is_empty() || cell == "-" {
                 return None;
             }
-            match parse_number(cell, mark) {
+            match read_number(cell, style_of(&styles, c)) {
                 Ok(v) if v >= 0.0 => Some(v),
                 Ok(v) => {
                     problems.push(InputProblem { line: *line, column: Some(c + 1), message: format!("a concentration cannot be negative ({v})") });
@@ -1019,6 +1050,7 @@ pub fn analyse_traces_with(request: &TraceRequest, progress: &mut dyn FnMut(usiz
         return Err(Error::invalid_option("the conversion limit must be a fraction between 0 and 1, such as 0.1"));
     }
     let raw = read_traces(&request.traces, request.time_unit.as_deref(), &mut problems, &mut notes)?;
+    notes.extend(unmatched_overrides(request, &raw.names));
     let mut layout_problems = Vec::new();
     let layout = if request.layout.trim().is_empty() {
         notes.push("No layout given: every trace is read as a sample with unknown [S].".to_string());
@@ -1273,6 +1305,27 @@ pub fn analyse_traces_with(request: &TraceRequest, progress: &mut dyn FnMut(usiz
     })
 }
 
+/// Sentences for each window or left-out trace that names no trace of the
+/// table: such an override does nothing, and must not look applied. (The
+/// page keeps them while a new plate is pasted; the CLI refuses them.)
+pub fn unmatched_overrides(request: &TraceRequest, names: &[(String, usize)]) -> Vec<String> {
+    let known = |name: &str| names.iter().any(|(n, _)| n == name);
+    let list = names.iter().map(|(n, _)| n.as_str()).collect::<Vec<_>>().join(", ");
+    let mut sentences = Vec::new();
+    for w in request.windows.iter().filter(|w| w.trace != "*" && !known(&w.trace)) {
+        sentences.push(format!(
+            "The window {}–{} is set for a trace named '{}', but the table has no such trace (its traces are {list}); it was not used.",
+            w.start, w.end, w.trace
+        ));
+    }
+    for name in request.excluded.iter().filter(|name| !known(name)) {
+        sentences.push(format!(
+            "The trace '{name}' is to be left out, but the table has no such trace (its traces are {list}); nothing was left out for it."
+        ));
+    }
+    sentences
+}
+
 /// Window, line, fraction converted and flags for one trace.
 fn rate_for_trace(result: &mut TraceResult, cells: &[CellState], request: &TraceRequest, converted: bool, time_symbol: &str) {
     // Usable points: before the first overflow or over-range reading.
@@ -1321,6 +1374,16 @@ fn rate_for_trace(result: &mut TraceResult, cells: &[CellState], request: &Trace
         }
     };
     let Some(fit) = fit else { return };
+    // A clearly negative rate means the signal moves the other way than
+    // declared: the rate and the fraction used would be reported with the
+    // wrong sign.
+    if result.role == Role::Sample && fit.slope < 0.0 && fit.slope_se.is_none_or(|se| fit.slope < -2.0 * se) {
+        let message = match request.direction {
+            Direction::Falls => "The signal rises, but it was declared to fall as product forms; the rate is negative. Check the direction setting (--falls).",
+            Direction::Rises => "The signal falls, but it was declared to rise as product forms; the rate is negative. If product formation lowers the signal (NADH consumed), declare that it falls (--falls).",
+        };
+        flag(result, "wrong-direction", message.to_string());
+    }
     result.rate = Some(fit.slope);
     result.rate_se = fit.slope_se;
     result.intercept = Some(fit.intercept);
@@ -1386,7 +1449,9 @@ fn enzyme_check(s: Option<f64>, i: Option<f64>, points: Vec<(f64, f64, String)>)
         quadratic_curvature(&xs, &y).and_then(|(c2, se)| {
             let dist = statrs::distribution::StudentsT::new(0.0, 1.0, n as f64 - 3.0).ok()?;
             use statrs::distribution::ContinuousCDF;
-            (se > 0.0).then(|| 2.0 * (1.0 - dist.cdf((c2 / se).abs())))
+            // statrs panics on a NaN argument; an overflowed ratio gives no test.
+            let t = (c2 / se).abs();
+            (se > 0.0 && t.is_finite()).then(|| 2.0 * (1.0 - dist.cdf(t)))
         })
     } else {
         None
@@ -1488,6 +1553,65 @@ mod tests {
                 "line 5, column 1: expected a number, found 'zz' (the time); the line was not used",
             ]
         );
+    }
+
+    /// Plate counts with thousands separators: the time column's decimal
+    /// points show the table's style, so `5,010` is 5010 and the rate is
+    /// +20 counts/min; without any such cell each count is a problem, never
+    /// 5.01. Spreadsheet error cells are problems, also in the time column.
+    /// (Grouping digits in threes is common practice, no source.)
+    #[test]
+    fn counts_with_thousands_separators_and_error_cells() {
+        let plain = |traces: &str| TraceRequest { traces: traces.into(), layout: "trace\nA1\n".into(), ..TraceRequest::default() };
+        let grouped = "time (min)\tA1\n0.0\t5,000\n0.5\t5,010\n1.0\t5,020\n1.5\t5,030\n2.0\t5,040\n";
+        let result = analyse_traces(&plain(grouped)).unwrap();
+        assert!(result.problems.is_empty(), "{:?}", result.problems);
+        assert!((result.traces[0].rate.unwrap() - 20.0).abs() < 1e-9, "{:?}", result.traces[0].rate);
+
+        let undecided = "time (min)\tA1\n0\t5,000\n1\t5,010\n2\t5,020\n";
+        let result = analyse_traces(&plain(undecided)).unwrap();
+        let found: Vec<String> = result.problems.iter().map(|p| p.to_string()).collect();
+        assert_eq!(found.len(), 3, "{found:?}");
+        assert!(found[0].starts_with("line 2, column 2: '5,000' could be 5000 (a comma grouping thousands) or 5.000"), "{found:?}");
+        assert_eq!(result.traces[0].rate, None);
+
+        let errors = "# run 3\ntime (s)\tA1\n#N/A\t0.1\n0\t0.1\n1\t#DIV/0!\n2\t0.3\n";
+        let result = analyse_traces(&plain(errors)).unwrap();
+        let found: Vec<String> = result.problems.iter().map(|p| p.to_string()).collect();
+        assert_eq!(
+            found,
+            [
+                "line 3, column 1: '#N/A' is a spreadsheet error, not a number; fix the formula in the spreadsheet or leave the row out (the time); the line was not used",
+                "line 5, column 2: '#DIV/0!' is a spreadsheet error, not a number; fix the formula in the spreadsheet or leave the row out",
+            ]
+        );
+    }
+
+    /// Overrides that name no trace are reported in the notes, and a signal moving
+    /// against the declared direction is flagged on its trace.
+    #[test]
+    fn overrides_and_direction_are_checked() {
+        let rising = "time (min)\tA1\n0\t0.10\n1\t0.20\n2\t0.30\n3\t0.40\n4\t0.50\n5\t0.60\n";
+        let plain = || TraceRequest { traces: rising.into(), layout: "trace\nA1\n".into(), ..TraceRequest::default() };
+        let mut request = plain();
+        request.windows.push(WindowOverride { trace: "ZZ".into(), start: 1.0, end: 2.0 });
+        let notes = analyse_traces(&request).unwrap().notes;
+        assert!(
+            notes.contains(&"The window 1–2 is set for a trace named 'ZZ', but the table has no such trace (its traces are A1); it was not used.".to_string()),
+            "{notes:?}"
+        );
+        let mut request = plain();
+        request.excluded.push("B7".into());
+        let notes = analyse_traces(&request).unwrap().notes;
+        assert!(notes.iter().any(|n| n.starts_with("The trace 'B7' is to be left out, but the table has no such trace")), "{notes:?}");
+        let mut request = plain();
+        request.windows.push(WindowOverride { trace: "*".into(), start: 0.0, end: 5.0 });
+        assert!(analyse_traces(&request).unwrap().traces[0].flags.is_empty());
+        let mut request = plain();
+        request.direction = Direction::Falls;
+        let result = analyse_traces(&request).unwrap();
+        assert!((result.traces[0].rate.unwrap() + 0.1).abs() < 1e-12);
+        assert!(result.traces[0].flags.contains(&"wrong-direction".to_string()), "{:?}", result.traces[0].flags);
     }
 
     /// Microplate path length: 200 µL in a 6.4 mm well, h = 200/(π·3.2²)

@@ -51,6 +51,40 @@ impl Weighting {
         })
     }
 
+    /// The name the command line uses: what the weighting assumes about
+    /// the error of a rate. `constant` (the same absolute error everywhere),
+    /// `proportional` (error proportional to v), `sqrt` (error growing like
+    /// the square root of v, as for counts), `sd` (the error is given).
+    pub fn option_name(self) -> &'static str {
+        match self {
+            Weighting::Uniform => "constant",
+            Weighting::Relative => "proportional",
+            Weighting::Poisson => "sqrt",
+            Weighting::Sd => "sd",
+        }
+    }
+
+    /// Reads a weighting by [`Weighting::option_name`]. The earlier names
+    /// (`uniform`, `relative`, `poisson`) are still read for one release; the
+    /// second value is then a note saying which name replaces them.
+    pub fn from_option_name(name: &str) -> Result<(Weighting, Option<String>), String> {
+        let name = name.trim();
+        if let Some(w) = Weighting::ALL.into_iter().find(|w| w.option_name() == name) {
+            return Ok((w, None));
+        }
+        if let Some(w) = Weighting::ALL.into_iter().find(|w| w.name() == name) {
+            let note = format!(
+                "the weighting name '{name}' is replaced by '{}' ({}); the old name will be refused in a later release",
+                w.option_name(),
+                w.describe()
+            );
+            return Ok((w, Some(note)));
+        }
+        Err(format!(
+            "unknown weighting '{name}'; expected constant (same error everywhere), proportional (error ∝ v), sqrt (error ∝ √v, as for counts) or sd (from an sd column)"
+        ))
+    }
+
     /// A phrase for people, such as `weights 1/v² (constant relative error)`.
     pub fn describe(self) -> &'static str {
         match self {
@@ -103,5 +137,33 @@ impl Weighting {
                 None => Err("weighting by sd needs a standard deviation on every row".to_string()),
             },
         }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Every name the command line reads, with the weighting and whether a
+    /// note about a replaced name comes with it.
+    #[test]
+    fn option_names_and_old_names() {
+        let cases: &[(&str, Weighting, bool)] = &[
+            ("constant", Weighting::Uniform, false),
+            ("proportional", Weighting::Relative, false),
+            ("sqrt", Weighting::Poisson, false),
+            ("sd", Weighting::Sd, false),
+            ("uniform", Weighting::Uniform, true),
+            ("relative", Weighting::Relative, true),
+            ("poisson", Weighting::Poisson, true),
+        ];
+        for &(name, weighting, noted) in cases {
+            let (found, note) = Weighting::from_option_name(name).unwrap();
+            assert_eq!(found, weighting, "{name}");
+            assert_eq!(note.is_some(), noted, "{name}: {note:?}");
+        }
+        let note = Weighting::from_option_name("relative").unwrap().1.unwrap();
+        assert!(note.starts_with("the weighting name 'relative' is replaced by 'proportional'"), "{note}");
+        assert!(Weighting::from_option_name("1/y").unwrap_err().starts_with("unknown weighting '1/y'; expected constant"));
     }
 }

@@ -171,3 +171,21 @@ pub fn panic_for_test() {
 pub fn version() -> String {
     env!("CARGO_PKG_VERSION").to_string()
 }
+
+/// Decodes a file's bytes to text with the core's one decoding rule
+/// (`turnover_core::decode::decode_text`): UTF-8 with or without a
+/// byte-order mark, UTF-16 with a mark, else Windows-1252; line endings
+/// become `\n`.
+#[wasm_bindgen(js_name = decodeText)]
+pub fn decode_text(bytes: &[u8]) -> String {
+    turnover_core::decode::decode_text(bytes).text
+}
+
+/// What [`decode_text`] would say about the same bytes: the encoding used
+/// when it was not plain UTF-8, characters that could not be decoded; `None`
+/// (JavaScript `undefined`) for plain UTF-8. The page shows it so that no
+/// file is read differently from how it was written without a word.
+#[wasm_bindgen(js_name = decodeTextNote)]
+pub fn decode_text_note(bytes: &[u8]) -> Option<String> {
+    turnover_core::decode::decode_text(bytes).note
+}
