@@ -73,13 +73,26 @@ async function startWasm() {
   return wasm_bindgen({ module_or_path: '../target/pkg/turnover_wasm_bg.wasm' });
 }
 
-/** A number typed into a field, as the page reads it: null when empty,
- *  NaN when it is not a plain number. A decimal comma is accepted. */
-function typedNumber(text) {
+/** A number typed into a field, read by the core's rule for a lone number
+ *  (`1,5` is 1.5; `1,000` is ambiguous and refused): `{value, problem}`,
+ *  value null when the field is empty or unreadable. */
+function readTyped(text) {
   const trimmed = String(text).trim();
-  if (trimmed === '') return null;
-  if (!/^[-+]?(\d+([.,]\d*)?|[.,]\d+)([eE][-+]?\d+)?$/.test(trimmed)) return NaN;
-  return Number(trimmed.replace(',', '.'));
+  if (trimmed === '') return { value: null, problem: null };
+  try {
+    return { value: wasm_bindgen.readNumber(trimmed), problem: null };
+  } catch (error) {
+    const message = String(error?.message ?? error);
+    // The core names the text itself when it says what it found.
+    return { value: null, problem: message.includes(`'${trimmed}'`) ? message : `'${trimmed}': ${message}` };
+  }
+}
+
+/** The same, for callers that only need the number: null when empty, NaN
+ *  when it cannot be read. */
+function typedNumber(text) {
+  const { value, problem } = readTyped(text);
+  return problem ? NaN : value;
 }
 
 /** The rate section's settings as the core's request, from the document
@@ -87,14 +100,31 @@ function typedNumber(text) {
 function rateRequest(doc) {
   const r = doc.rates;
   const problems = [];
-  const enzyme = typedNumber(r.enzyme);
-  if (Number.isNaN(enzyme) || (enzyme !== null && enzyme <= 0)) {
-    problems.push(`[E]t: '${r.enzyme}' is not a positive number, so kcat and kcat/Km are not computed. Type the total enzyme concentration (for example 25) and choose its unit, or leave the field empty.`);
-  }
-  const whole = (text, label) => {
-    const value = typedNumber(text);
-    if (value === null || !Number.isInteger(value) || value < 0) {
-      problems.push(`${label}: '${text}' is not a whole number.`);
+  // [E]t may carry its unit (`25 nM`), read as the command line reads --enzyme.
+  let enzyme = null;
+  let enzymeUnit = r.enzyme_unit;
+  if (r.enzyme.trim()) {
+    try {
+      const q = wasm_bindgen.readQuantity(r.enzyme);
+      if (q.unit !== null && q.unit !== undefined && q.unit.replace('u', 'µ') !== r.enzyme_unit) {
+        if (['M', 'mM', 'µM', 'uM', 'nM', 'pM'].includes(q.unit)) {
+          problems.push(`[E]t: '${r.enzyme}' is in ${q.unit} but the unit menu beside it says ${r.enzyme_unit}; give the unit once (type the number alone, or choose ${q.unit} in the menu). kcat is not computed until then.`);
+        } else {
+          problems.push(`[E]t: '${r.enzyme}' has the unit '${q.unit}', which is not a molar concentration (M, mM, µM, nM or pM); kcat is not computed until then.`);
+        }
+      } else if (!(q.value > 0)) {
+        problems.push(`[E]t: '${r.enzyme}' is not a positive concentration, so kcat and kcat/Km are not computed.`);
+      } else {
+        enzyme = q.value;
+        if (q.unit) enzymeUnit = q.unit.replace('u', 'µ');
+      }
+    } catch (error) {
+      problems.push(`[E]t: '${r.enzyme.trim()}': ${error?.message ?? error}. kcat and kcat/Km are not computed until it can be read.`);
+    }
+  }  const whole = (text, label) => {
+    const { value, problem } = readTyped(text);
+    if (problem || value === null || !Number.isInteger(value) || value < 0) {
+      problems.push(`${label}: ${problem ?? `'${text}' is not a whole number`}.`);
       return null;
     }
     return value;
@@ -107,8 +137,8 @@ function rateRequest(doc) {
     model: 'mm',
     substrate_unit: r.substrate_unit || null,
     rate_unit: r.rate_unit || null,
-    enzyme: enzyme !== null && Number.isFinite(enzyme) && enzyme > 0 ? enzyme : null,
-    enzyme_unit: r.enzyme_unit,
+    enzyme,
+    enzyme_unit: enzymeUnit,
     excluded_lines: [...r.excluded_lines],
     weighting: r.weighting,
     interval_method: r.interval_method,
@@ -1115,11 +1145,24 @@ function wireBar() {
 
 let rates = null;
 
-function readFile(file) {
-  const reader = new FileReader();
-  reader.onload = () => tableEntered('rates', String(reader.result), 'rates-move-note');
-  reader.onerror = () => showProblems([], `Could not read the file ${file.name}.`);
-  reader.readAsText(file);
+/** Reads a dropped or opened file with the core's one decoding rule (the
+ *  command line's too): UTF-8, UTF-16 with a byte-order mark, else
+ *  Windows-1252; how it was decoded is said when it was not plain UTF-8. */
+async function readFile(file) {
+  let bytes;
+  try {
+    bytes = new Uint8Array(await file.arrayBuffer());
+  } catch {
+    showProblems([], `Could not read the file ${file.name}.`);
+    return;
+  }
+  const text = wasm_bindgen.decodeFileText(bytes);
+  const note = wasm_bindgen.decodeFileNote(bytes);
+  tableEntered('rates', text, 'rates-move-note');
+  if (note) {
+    $('rates-move-note').hidden = false;
+    $('rates-move-note').textContent = `${file.name}: ${note}. ${$('rates-move-note').textContent}`.trim();
+  }
 }
 
 function wireRates() {
@@ -1294,6 +1337,7 @@ Object.assign(window.turnover, {
     versionText,
     withUnit,
     typedNumber,
+    readTyped,
     fitAsText,
     cell(tag, text, attributes = {}) {
       const node = document.createElement(tag);

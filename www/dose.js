@@ -50,35 +50,31 @@ const { format, cell, download } = page.ui;
 // The options of this section as a request, or a message saying which
 // field is wrong. Nothing unreadable is sent or silently dropped.
 function options(d) {
-  const fields = {
-    'dose-enzyme': d.enzyme, 'dose-top': d.top, 'dose-bottom': d.bottom,
-    'dose-cp-substrate': d.cp_substrate, 'dose-cp-km': d.cp_km, 'dose-cp-km-se': d.cp_km_se,
-  };
-  const fieldNumber = (id) => page.ui.typedNumber(fields[id]);
-  const $ = (id) => ({ value: fields[id] });
+  // Each field read by the core's rule for a lone number; a field that
+  // cannot be read is named with the core's reason.
+  const read = (text) => page.ui.readTyped(text);
   const morrison = d.model === 'morrison';
   const out = { model: morrison ? 'morrison' : 'ic50', enzyme: null, fixed_top: null, fixed_bottom: null, cheng_prusoff: null };
   if (morrison) {
-    const enzyme = fieldNumber('dose-enzyme');
-    if (enzyme === null) return { problem: 'Enter [E]t, the total enzyme concentration in the unit of [I], for the tight-binding fit.' };
-    if (Number.isNaN(enzyme) || enzyme <= 0) return { problem: `[E]t: '${$('dose-enzyme').value}' is not a positive number.` };
-    out.enzyme = enzyme;
+    const { value, problem } = read(d.enzyme);
+    if (problem) return { problem: `[E]t: ${problem}.` };
+    if (value === null) return { problem: 'Enter [E]t, the total enzyme concentration in the unit of [I], for the tight-binding fit.' };
+    if (value <= 0) return { problem: `[E]t: '${d.enzyme}' is not a positive number.` };
+    out.enzyme = value;
     return { request: out };
   }
-  for (const [fixed, field, key, what] of [[d.fix_top, 'dose-top', 'fixed_top', 'top'], [d.fix_bottom, 'dose-bottom', 'fixed_bottom', 'bottom']]) {
+  for (const [fixed, text, key, what] of [[d.fix_top, d.top, 'fixed_top', 'top'], [d.fix_bottom, d.bottom, 'fixed_bottom', 'bottom']]) {
     if (!fixed) continue;
-    const value = fieldNumber(field);
-    if (value === null || Number.isNaN(value)) return { problem: `Fixed ${what}: '${$(field).value}' is not a number.` };
+    const { value, problem } = read(text);
+    if (problem || value === null) return { problem: `Fixed ${what}: ${problem ?? 'the field is empty; type the value to fix it at'}.` };
     out[key] = value;
   }
   const mechanism = d.cp_mechanism;
   if (mechanism) {
-    const s = fieldNumber('dose-cp-substrate');
-    const km = fieldNumber('dose-cp-km');
-    const kmSe = fieldNumber('dose-cp-km-se');
-    const bad = [['[S]', 'dose-cp-substrate', s], ['Km', 'dose-cp-km', km], ['SE of Km', 'dose-cp-km-se', kmSe]]
-      .find(([, , v]) => Number.isNaN(v));
-    if (bad) return { request: out, cpProblem: `${bad[0]}: '${$(bad[1]).value}' is not a number.` };
+    const fields = [['[S]', read(d.cp_substrate)], ['Km', read(d.cp_km)], ['SE of Km', read(d.cp_km_se)]];
+    const bad = fields.find(([, r]) => r.problem);
+    if (bad) return { request: out, cpProblem: `${bad[0]}: ${bad[1].problem}.` };
+    const [s, km, kmSe] = fields.map(([, r]) => r.value);
     if (s === null || km === null) return { request: out, cpProblem: 'Enter the assay’s [S] and the substrate’s Km (one unit for both) to convert the IC50 into Ki.' };
     out.cheng_prusoff = { mechanism, substrate: s, km, km_se: kmSe };
   }

@@ -14,7 +14,7 @@ const COLOURS = {
 // Short marks for the plate view; the full words are in the table.
 const FLAG_MARKS = {
   depletion: 'D', nonlinear: 'C', 'over-range': 'O', 'few-points': 'F', noisy: 'N',
-  lag: 'L', burst: 'B', excluded: 'X', 'no-blank': '∅',
+  lag: 'L', burst: 'B', excluded: 'X', 'no-blank': '∅', 'wrong-direction': 'R',
 };
 
 const page = window.turnover;
@@ -92,23 +92,27 @@ function demoPlate() {
  *  a number is named in `problem`; nothing unreadable is sent. */
 function traceRequest(doc) {
   const t = doc.traces;
-  const number = (text) => page.ui.typedNumber(text);
+  // Each number field read by the core's rule for a lone number.
+  const problems = [];
+  const number = (text, label) => {
+    const { value, problem } = page.ui.readTyped(text);
+    if (problem) problems.push(`The ${label}: ${problem}.`);
+    return value;
+  };
   const mode = t.conversion;
   const request = {
     traces: t.text,
     layout: t.layout,
-    epsilon: mode === 'epsilon' ? number(t.epsilon) : null,
-    path_cm: mode === 'epsilon' ? number(t.path) : null,
+    epsilon: mode === 'epsilon' ? number(t.epsilon, 'ε') : null,
+    path_cm: mode === 'epsilon' ? number(t.path, 'path length') : null,
     standard: mode === 'standard' ? t.standard : null,
     direction: t.direction,
-    linear_limit: number(t.limit),
-    max_conversion: number(t.max_conversion),
+    linear_limit: number(t.limit, 'linear limit'),
+    max_conversion: number(t.max_conversion, 'conversion limit'),
     windows: Object.entries(t.windows).map(([trace, [start, end]]) => ({ trace, start, end })),
     excluded: [...t.excluded],
   };
-  for (const [key, label, text] of [['epsilon', 'ε', t.epsilon], ['path_cm', 'path length', t.path], ['linear_limit', 'linear limit', t.limit], ['max_conversion', 'conversion limit', t.max_conversion]]) {
-    if (Number.isNaN(request[key])) return { request, problem: `The ${label} '${text}' is not a number.` };
-  }
+  if (problems.length) return { request, problem: problems.join(' ') };
   request.max_conversion = (request.max_conversion ?? 10) / 100;
   return { request, problem: null };
 }
@@ -854,8 +858,8 @@ function wire() {
   page.bindField('tr-preset', 'traces.preset');
   $('tr-well-path').addEventListener('click', () => {
     const t = page.doc().traces;
-    const volume = page.ui.typedNumber(t.volume);
-    const diameter = page.ui.typedNumber(t.diameter);
+    const volume = page.ui.readTyped(t.volume).value;
+    const diameter = page.ui.readTyped(t.diameter).value;
     try {
       page.dispatch({ type: 'set field', path: 'traces.path', value: wasm_bindgen.pathFromWell(volume ?? NaN, diameter ?? NaN).toFixed(4) });
     } catch (error) {

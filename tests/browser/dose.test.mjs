@@ -121,7 +121,7 @@ test('dose-response demo: IC50 with intervals and a drawn log-axis plot with the
   assert.deepEqual(Object.keys(await paramRows(page)), ['IC50', 'hill_slope']);
   await page.fill('#dose-top', 'abc');
   await page.waitForFunction(() => document.querySelector('#dose-status').dataset.state === 'error', null, { timeout: 10_000 });
-  assert.match(await page.textContent('#dose-status'), /Fixed top: 'abc' is not a number/);
+  assert.match(await page.textContent('#dose-status'), /Fixed top: expected a number, found 'abc'/);
 
   const panel = await page.$('#dose-panel');
   await page.fill('#dose-top', '100');
@@ -191,7 +191,7 @@ test('Cheng-Prusoff: competitive Ki = IC50/(1 + [S]/Km) on the page’s own IC50
 
   // Unreadable input is named, not dropped.
   await page.fill('#dose-cp-km', '2O');
-  await page.waitForFunction(() => /Km: '2O' is not a number/.test(document.querySelector('#dose-ki').textContent), null, { timeout: 10_000 });
+  await page.waitForFunction(() => /Km: expected a number, found '2O'/.test(document.querySelector('#dose-ki').textContent), null, { timeout: 10_000 });
   assert.deepEqual(errors, []);
   assert.deepEqual(external, []);
   await page.close();

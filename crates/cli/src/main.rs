@@ -286,7 +286,7 @@ fn prepare(command: &'static str, data: DataOptions, extra: ModelExtras, model: 
     }
     let input = model_input(model);
     if let Some(text) = &extra.enzyme {
-        let (number, unit) = split_quantity(text)
+        let (number, unit) = turnover_core::table::read_quantity(text)
             .map_err(|m| usage(command, format!("--enzyme '{text}': {m}; give a concentration such as '10 nM'")))?;
         match input {
             Some(ModelInput::SubstrateAndInhibitor) => {
@@ -355,7 +355,7 @@ fn conversion_request(
         return Err(usage(command, "--cheng-prusoff needs both --substrate (the assay's [S]) and --km"));
     };
     let quantity = |text: &str, name: &str| -> Result<(f64, Option<ConcentrationUnit>), Failure> {
-        let (value, unit) = split_quantity(text)
+        let (value, unit) = turnover_core::table::read_quantity(text)
             .map_err(|m| usage(command, format!("{name} '{text}': {m}; give a concentration such as '50 µM' or '50'")))?;
         let unit = unit.map(|u| ConcentrationUnit::parse(&u).map_err(|m| usage(command, format!("{name}: {m}")))).transpose()?;
         Ok((value, unit))
@@ -382,22 +382,6 @@ fn conversion_request(
         None => None,
     };
     Ok(Some(ChengPrusoffRequest { mechanism, substrate, km: km_value, km_se }))
-}
-
-/// Splits `10 nM`, `10nM`, `1,5 µM` or `10` into the number (read with the
-/// tables' rule, so `1,000` is refused as ambiguous) and an optional unit.
-fn split_quantity(text: &str) -> Result<(f64, Option<String>), String> {
-    let text = text.trim();
-    let end = text
-        .char_indices()
-        .find(|(_, c)| !(c.is_ascii_digit() || matches!(c, '.' | ',' | '-' | '+' | 'e' | 'E' | '\u{2212}')))
-        .map_or(text.len(), |(i, _)| i);
-    if end == 0 {
-        return Err("it does not start with a number".to_string());
-    }
-    let number = read_lone_number(&text[..end])?;
-    let unit = text[end..].trim();
-    Ok((number, (!unit.is_empty()).then(|| unit.to_string())))
 }
 
 /// Reads a file (or standard input for `-`) through the core's one
@@ -834,7 +818,7 @@ mod tests {
             ("nM", Err("it does not start with a number")),
         ];
         for (text, expected) in cases {
-            match (split_quantity(text), expected) {
+            match (turnover_core::table::read_quantity(text), expected) {
                 (Ok((v, u)), Ok((ev, eu))) => {
                     assert_eq!(v, *ev, "{text}");
                     assert_eq!(u.as_deref(), *eu, "{text}");

@@ -648,6 +648,24 @@ pub fn read_lone_number(text: &str) -> Result<f64, String> {
     read_number(trimmed, NumberStyle::Undecided)
 }
 
+/// Reads a quantity typed alone, such as `25 nM`, `25nM` or `25`: the
+/// number by [`read_lone_number`], then the unit as written (`None` when
+/// there is none). The unit is not checked here; the caller knows which
+/// units fit. One rule for the command line's options and the page's fields.
+pub fn read_quantity(text: &str) -> Result<(f64, Option<String>), String> {
+    let text = text.trim();
+    let end = text
+        .char_indices()
+        .find(|(_, c)| !(c.is_ascii_digit() || matches!(c, '.' | ',' | '-' | '+' | 'e' | 'E' | '\u{2212}')))
+        .map_or(text.len(), |(i, _)| i);
+    if end == 0 {
+        return Err("it does not start with a number".to_string());
+    }
+    let number = read_lone_number(&text[..end])?;
+    let unit = text[end..].trim();
+    Ok((number, (!unit.is_empty()).then(|| unit.to_string())))
+}
+
 /// Reads one numeric cell with a known decimal mark (see [`read_number`]).
 pub fn parse_number(cell: &str, decimal_mark: DecimalMark) -> Result<f64, String> {
     let style = match decimal_mark {

@@ -173,10 +173,13 @@ pub fn version() -> String {
 }
 
 /// Decodes a file's bytes to text with the core's one decoding rule
+/// (named `decodeFileText` in JavaScript: wasm-bindgen's glue has a
+/// function of its own called `decodeText`, which an export of that name
+/// would be shadowed by)
 /// (`turnover_core::decode::decode_text`): UTF-8 with or without a
 /// byte-order mark, UTF-16 with a mark, else Windows-1252; line endings
 /// become `\n`.
-#[wasm_bindgen(js_name = decodeText)]
+#[wasm_bindgen(js_name = decodeFileText)]
 pub fn decode_text(bytes: &[u8]) -> String {
     turnover_core::decode::decode_text(bytes).text
 }
@@ -185,7 +188,31 @@ pub fn decode_text(bytes: &[u8]) -> String {
 /// when it was not plain UTF-8, characters that could not be decoded; `None`
 /// (JavaScript `undefined`) for plain UTF-8. The page shows it so that no
 /// file is read differently from how it was written without a word.
-#[wasm_bindgen(js_name = decodeTextNote)]
+#[wasm_bindgen(js_name = decodeFileNote)]
 pub fn decode_text_note(bytes: &[u8]) -> Option<String> {
     turnover_core::decode::decode_text(bytes).note
+}
+
+/// Reads a number typed into one of the page's fields with the core's rule
+/// for a lone number (`turnover_core::table::read_lone_number`): `1,5` is
+/// 1.5, `1,000` is refused as ambiguous. Throws an `Error` whose message
+/// says what is wrong and what to type instead.
+#[wasm_bindgen(js_name = readNumber)]
+pub fn read_number(text: &str) -> Result<f64, JsError> {
+    turnover_core::table::read_lone_number(text).map_err(|m| JsError::new(&m))
+}
+
+/// A quantity typed into a field, such as `25 nM`: `{value, unit}` with
+/// `unit` null when none was typed, by the same rule as the command line's
+/// options (`turnover_core::table::read_quantity`). Throws an `Error` with
+/// the reason when it cannot be read.
+#[wasm_bindgen(js_name = readQuantity)]
+pub fn read_quantity(text: &str) -> Result<JsValue, JsError> {
+    #[derive(Serialize)]
+    struct Quantity {
+        value: f64,
+        unit: Option<String>,
+    }
+    let (value, unit) = turnover_core::table::read_quantity(text).map_err(|m| JsError::new(&m))?;
+    to_js(&Quantity { value, unit })
 }

@@ -1,0 +1,150 @@
+// Inputs the page must read exactly as written or report, in every
+// section, with the same rules as the command line (the core's): numbers
+// whose format is ambiguous, spreadsheet error cells, quoted CSV, files in
+// other encodings, quantities with units in fields, contradictions. In
+// every case the person's text stays in the document as typed.
+
+import { test, before, after } from 'node:test';
+import assert from 'node:assert/strict';
+import { writeFileSync } from 'node:fs';
+import { join } from 'node:path';
+
+import { launch, pageUrl, shotDir } from './harness.mjs';
+
+let browser;
+
+before(async () => {
+  browser = await launch('inputs');
+});
+
+after(async () => {
+  if (browser) await browser.close();
+});
+
+async function open() {
+  const page = await browser.context.newPage();
+  const errors = [];
+  page.on('pageerror', (err) => errors.push(String(err?.stack ?? err)));
+  await page.goto(pageUrl);
+  await page.waitForFunction(() => window.turnover?.lastResult?.() && window.turnoverTraces?.lastResult());
+  return { page, errors };
+}
+
+const problemsText = (page) => page.evaluate(() => {
+  window.turnover.analyse();
+  return document.querySelector('#input-problems').textContent;
+});
+const constants = (page) => page.evaluate(() => {
+  window.turnover.analyse();
+  return Object.fromEntries([...document.querySelectorAll('#parameters tr[data-param]')].map((r) => [r.dataset.param, r.dataset.value]));
+});
+
+// Invented rates (not measured data), in µM and µM/min.
+const ROWS = [[2, 0.91], [5, 1.93], [10, 3.18], [20, 4.71], [50, 6.52], [100, 7.38], [200, 8.04]];
+const TABLE = `[S] (µM)\tv (µM/min)\n${ROWS.map(([s, v]) => `${s}\t${v}`).join('\n')}\n`;
+
+// Each case: a table, and what the page must report about it. The rate
+// fit goes on with the lines it can read.
+const TABLE_CASES = [
+  ['a comma that could group thousands or mark decimals, with no decimal point anywhere to tell',
+    `[S] (nM)\tv (nM/min)\n500\t31\n1,000\t46\n2,500\t69\n5000\t80\n10000\t86\n`, /line 3, column 1: .*1,000/],
+  ['a spreadsheet error cell at the start of a row', `${TABLE}#DIV/0!\t5.5\n`, /line 9, column 1: .*#DIV\/0!/],
+  ['an error cell in the rate column', `${TABLE}300\t#N/A\n`, /line 9, column 2: .*#N\/A/],
+  ['a percentage in a number column', `${TABLE}400\t8.5%\n`, /line 9, column 2/],
+];
+
+test('table inputs that are not read exactly as written are reported by line and column; the document keeps the text', { timeout: 90_000 }, async () => {
+  const { page, errors } = await open();
+  for (const [what, text, expected] of TABLE_CASES) {
+    await page.fill('#data-input', text);
+    const problems = await problemsText(page);
+    assert.match(problems, expected, what);
+    assert.equal(await page.evaluate(() => window.turnover.doc().rates.text), text, `${what}: the text is kept as typed`);
+  }
+  // With decimal points elsewhere in the table, 1,000 can only be one thousand.
+  await page.fill('#data-input', `[S] (nM)\tv (nM/min)\n500\t3.1\n1,000\t4.6\n2,500\t6.9\n5000\t8.0\n10000\t8.6\n`);
+  const grouped = await constants(page);
+  await page.fill('#data-input', `[S] (nM)\tv (nM/min)\n500\t3.1\n1000\t4.6\n2500\t6.9\n5000\t8.0\n10000\t8.6\n`);
+  assert.deepEqual(await constants(page), grouped, '1,000 and 2,500 read as thousands beside decimal points');
+  // Quoted CSV fields are read, not refused.
+  const quoted = `"[S] (µM)","v (µM/min)"\n${ROWS.map(([s, v]) => `"${s}","${v}"`).join('\n')}\n`;
+  await page.fill('#data-input', quoted);
+  const fromQuoted = await constants(page);
+  await page.fill('#data-input', TABLE);
+  assert.deepEqual(await constants(page), fromQuoted, 'quoted CSV gives the same fit as the tab-separated table');
+  assert.deepEqual(errors, []);
+  await page.close();
+});
+
+test('number fields use the same rule as the command line: ambiguous numbers, units and contradictions', { timeout: 60_000 }, async () => {
+  const { page, errors } = await open();
+  await page.fill('#data-input', TABLE);
+  await page.fill('#enzyme', '25');
+  await page.selectOption('#enzyme-unit', 'nM');
+  const plain = await constants(page);
+  assert.ok(plain.kcat, 'kcat with [E]t 25 nM');
+  // The unit typed in the field, as on the command line.
+  await page.fill('#enzyme', '25 nM');
+  assert.equal((await constants(page)).kcat, plain.kcat, "'25 nM' in the field gives the same kcat");
+  // A unit that contradicts the menu is refused with the reason.
+  await page.fill('#enzyme', '25 pM');
+  let problems = await problemsText(page);
+  assert.match(problems, /\[E\]t: '25 pM' is in pM but the unit menu beside it says nM/);
+  assert.equal((await constants(page)).kcat, undefined, 'no kcat from a contradiction');
+  // An ambiguous number is refused, never read as 1.0 or 1000 silently.
+  await page.fill('#enzyme', '1,000');
+  problems = await problemsText(page);
+  assert.match(problems, /\[E\]t: .*1,000.*could be/);
+  assert.equal((await constants(page)).kcat, undefined);
+  assert.equal(await page.evaluate(() => window.turnover.doc().rates.enzyme), '1,000', 'the field keeps what was typed');
+  // A decimal comma alone is read.
+  await page.fill('#enzyme', '2,5');
+  assert.ok((await constants(page)).kcat);
+  // The time-course section's fields follow the same rule.
+  await page.click('#traces-demo');
+  await page.fill('#tr-epsilon', '6,220');
+  await page.click('#traces-analyse');
+  await page.waitForFunction(() => document.querySelector('#traces-status').dataset.state === 'error');
+  assert.match(await page.textContent('#traces-status'), /The ε: .*6,220.*could be/);
+  assert.deepEqual(errors, []);
+  await page.close();
+});
+
+test('a file in UTF-16 or Windows-1252 opens as the same table as in UTF-8; a guessed encoding is said', { timeout: 60_000 }, async () => {
+  const { page, errors } = await open();
+  await page.fill('#data-input', TABLE);
+  const expected = await constants(page);
+  // UTF-16 little-endian with its byte-order mark, as some spreadsheet
+  // programs save "Unicode text".
+  const utf16 = join(shotDir, 'rates-utf16.txt');
+  writeFileSync(utf16, Buffer.concat([Buffer.from([0xff, 0xfe]), Buffer.from(TABLE, 'utf16le')]));
+  await page.fill('#data-input', '');
+  await page.setInputFiles('#file-input', utf16);
+  await page.waitForFunction((text) => document.querySelector('#data-input').value === text, TABLE);
+  assert.deepEqual(await constants(page), expected, 'UTF-16 with its byte-order mark reads exactly, with nothing to say');
+  // Windows-1252: µ is one byte, 0xB5.
+  const latin = join(shotDir, 'rates-1252.txt');
+  writeFileSync(latin, Buffer.from(TABLE.replace(/µ/g, '\u00b5'), 'latin1'));
+  await page.fill('#data-input', '');
+  await page.setInputFiles('#file-input', latin);
+  await page.waitForFunction((text) => document.querySelector('#data-input').value === text, TABLE);
+  assert.deepEqual(await constants(page), expected);
+  assert.match(await page.textContent('#rates-move-note'), /1252/);
+  assert.deepEqual(errors, []);
+  await page.close();
+});
+
+test('the inhibitor-series section shows every problem the core reports, such as an unreadable matrix cell', { timeout: 60_000 }, async () => {
+  const { page, errors } = await open();
+  await page.click('#load-inhibition-demo');
+  await page.waitForFunction(() => ['ok', 'warn'].includes(document.querySelector('#inhibition-status')?.dataset.state));
+  const text = await page.inputValue('#inhibition-input');
+  // Spoil one rate of the matrix: line 6 (after two comments and the header), the [I] = 2.5 µM column.
+  const spoilt = text.split('\n').map((line, k) => (k === 5 ? line.split('\t').map((c, j) => (j === 3 ? 'n.d.' : c)).join('\t') : line)).join('\n');
+  await page.fill('#inhibition-input', spoilt);
+  await page.evaluate(() => window.turnover.analyse());
+  await page.waitForFunction(() => /line 6, column 4/.test(document.querySelector('#inhibition-warnings').textContent));
+  assert.match(await page.textContent('#inhibition-status'), /1 cell\(s\) or line\(s\) not used/);
+  assert.deepEqual(errors, []);
+  await page.close();
+});
