@@ -502,9 +502,73 @@ pub fn diagnostic_plots(
     vec![quantile, direct_linear]
 }
 
+/// Which spread a replicate error bar shows.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Spread {
+    /// No error bars.
+    #[default]
+    None,
+    /// Mean ± sample standard deviation (n − 1 in the denominator).
+    Sd,
+    /// Mean ± standard error of the mean, SD/√n.
+    Sem,
+}
+
+/// The mean and spread of replicate points (points sharing an x).
+#[derive(Clone, Copy, Debug, PartialEq, Serialize, Deserialize)]
+pub struct ReplicateBar {
+    /// The shared x.
+    pub x: f64,
+    /// Mean of the replicates' y.
+    pub mean: f64,
+    /// Mean minus the spread.
+    pub low: f64,
+    /// Mean plus the spread.
+    pub high: f64,
+    /// Number of replicates.
+    pub n: usize,
+}
+
+/// Mean ± SD or SEM of the points that share an x exactly (replicates),
+/// for every x with two or more points. Points left out of the fit are not
+/// counted; the points themselves stay on the plot.
+pub fn replicate_bars(points: &[PlotPoint], spread: Spread) -> Vec<ReplicateBar> {
+    if spread == Spread::None {
+        return Vec::new();
+    }
+    let mut used: Vec<(f64, f64)> =
+        points.iter().filter(|p| !p.excluded && p.x.is_finite() && p.y.is_finite()).map(|p| (p.x, p.y)).collect();
+    used.sort_by(|a, b| a.0.total_cmp(&b.0));
+    used.chunk_by(|a, b| a.0 == b.0)
+        .filter(|group| group.len() >= 2)
+        .map(|group| {
+            let n = group.len() as f64;
+            let mean = group.iter().map(|p| p.1).sum::<f64>() / n;
+            let sd = (group.iter().map(|p| (p.1 - mean).powi(2)).sum::<f64>() / (n - 1.0)).sqrt();
+            let half = if spread == Spread::Sem { sd / n.sqrt() } else { sd };
+            ReplicateBar { x: group[0].0, mean, low: mean - half, high: mean + half, n: group.len() }
+        })
+        .collect()
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// Sample SD with n − 1 and SEM = SD/√n, the textbook definitions:
+    /// for 1, 2, 3 the SD is 1 and the SEM 1/√3; single points get no bar
+    /// and left-out points do not count.
+    #[test]
+    fn replicate_bars_use_the_sample_sd() {
+        let p = |x: f64, y: f64, excluded: bool| PlotPoint { row: 0, x, y, excluded };
+        let points = [p(2.0, 1.0, false), p(1.0, 5.0, false), p(2.0, 3.0, false), p(2.0, 2.0, false), p(2.0, 40.0, true)];
+        let sd = replicate_bars(&points, Spread::Sd);
+        assert_eq!(sd, vec![ReplicateBar { x: 2.0, mean: 2.0, low: 1.0, high: 3.0, n: 3 }]);
+        let sem = replicate_bars(&points, Spread::Sem);
+        assert!((sem[0].high - 2.0 - 1.0 / 3f64.sqrt()).abs() < 1e-15);
+        assert!(replicate_bars(&points, Spread::None).is_empty());
+    }
 
     /// On exact Michaelis-Menten data every transformed point lies on the
     /// drawn line of its linearised plot.

@@ -58,7 +58,7 @@ impl DoseBench {
         let root = backend.into_drawing_area();
         let positions = draw_plot(&root, plot).map_err(|e| JsError::new(&format!("drawing failed: {e}")))?;
         root.present().map_err(|e| JsError::new(&format!("drawing failed: {e}")))?;
-        to_js(&positions)
+        to_js(&positions.points)
     }
 
     /// The plot as a standalone SVG document, `width` × `height` pixels.

@@ -57,7 +57,7 @@ impl InhibitionBench {
         let root = backend.into_drawing_area();
         let positions = draw_plot(&root, plot).map_err(|e| JsError::new(&format!("drawing failed: {e}")))?;
         root.present().map_err(|e| JsError::new(&format!("drawing failed: {e}")))?;
-        to_js(&positions)
+        to_js(&positions.points)
     }
 
     /// Plot `kind` of the last analysis as an SVG document.

@@ -25,7 +25,7 @@ use turnover_core::rates::{analyse_rates, compare_rate_models, RateAnalysis, Rat
 use wasm_bindgen::prelude::*;
 
 pub use dose::{is_dose_table, DoseBench};
-pub use draw::{draw_plot, PointPosition};
+pub use draw::{draw_plot, Drawn, PlotArea, PointPosition};
 pub use inhibition::{is_inhibition_table, InhibitionBench};
 pub use traces::TraceBench;
 
@@ -108,7 +108,7 @@ impl Workbench {
         let root = backend.into_drawing_area();
         let positions = draw_plot(&root, plot).map_err(|e| JsError::new(&format!("drawing failed: {e}")))?;
         root.present().map_err(|e| JsError::new(&format!("drawing failed: {e}")))?;
-        to_js(&positions)
+        to_js(&positions.points)
     }
 
     /// Fits the rate laws `mm`, `substrate-inhibition` and `hill` to the
