@@ -61,6 +61,20 @@ impl DoseBench {
         to_js(&positions.points)
     }
 
+    /// Draws the plot and returns `{points, area}` as
+    /// `Workbench.drawMapped` does.
+    #[wasm_bindgen(js_name = drawMapped)]
+    pub fn draw_mapped(&self, canvas_id: &str) -> Result<JsValue, JsError> {
+        to_js(&crate::figures::draw_on_canvas(canvas_id, self.plot()?)?)
+    }
+
+    /// The plot as an SVG figure; `options_json` as for
+    /// `Workbench.figureSvg`.
+    #[wasm_bindgen(js_name = figureSvg)]
+    pub fn figure_svg(&self, options_json: &str) -> Result<String, JsError> {
+        crate::figures::figure(self.plot()?, options_json)
+    }
+
     /// The plot as a standalone SVG document, `width` × `height` pixels.
     pub fn svg(&self, width: u32, height: u32) -> Result<String, JsError> {
         plot_svg(self.plot()?, width, height).map_err(|e| JsError::new(&format!("drawing failed: {e}")))

@@ -250,6 +250,8 @@ pub fn tick_labels(ticks: &[f64], step: f64) -> Vec<String> {
                 format!("{value:.*}", (-step_power).max(0) as usize)
             }
         })
+        // The typographic minus sign, as printed figures use.
+        .map(|label| label.replace('-', "−"))
         .collect()
 }
 
@@ -992,6 +994,13 @@ pub fn draw_plate<DB: DrawingBackend>(
     }
     let mut boxes = Vec::with_capacity(view.wells.len());
     let thin = style.whole(0.5);
+    // Every position of the grid, so the plate's shape shows.
+    for row in 0..view.rows {
+        for column in 0..view.columns {
+            let (x0, y0) = (left + column as f64 * cell_w, top + row as f64 * cell_h);
+            root.draw(&Rectangle::new([((x0 + 1.0) as i32, (y0 + 1.0) as i32), ((x0 + cell_w - 1.0) as i32, (y0 + cell_h - 1.0) as i32)], GRID.mix(0.6).stroke_width(thin)))?;
+        }
+    }
     for well in &view.wells {
         let x0 = left + well.column as f64 * cell_w;
         let y0 = top + well.row as f64 * cell_h;
@@ -1045,7 +1054,7 @@ pub fn draw_plate<DB: DrawingBackend>(
 
 /// Options of an exported figure, as the page sends them (JSON).
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
-#[serde(default)]
+#[serde(default, deny_unknown_fields)]
 pub struct FigureOptions {
     /// Width of the figure in millimetres (20 to 500; rounded to 0.1 mm).
     pub width_mm: f64,
@@ -1524,6 +1533,14 @@ mod tests {
     }
 
     /// Ticks: steps of 1, 2 or 5 times a power of ten, covering the data.
+    pub(super) fn every_plot_for_look() -> Vec<PlotData> {
+        every_plot()
+    }
+
+    pub(super) fn trace_plots_for_look() -> (Vec<PlotData>, PlateView) {
+        trace_plots()
+    }
+
     #[test]
     fn ticks_are_round() {
         let check = |low: f64, high: f64, count: usize, expected: &[&str]| {
@@ -1533,14 +1550,35 @@ mod tests {
             assert!(ticks[0] <= low && *ticks.last().unwrap() >= high);
         };
         check(0.0, 0.95, 5, &["0", "0.2", "0.4", "0.6", "0.8", "1.0"]);
-        check(-0.272, 67.3, 5, &["-20", "0", "20", "40", "60", "80"]);
+        check(-0.272, 67.3, 5, &["−20", "0", "20", "40", "60", "80"]);
         check(0.0, 67.3, 8, &["0", "10", "20", "30", "40", "50", "60", "70"]);
         check(0.0, 3.1e-5, 4, &["0", "1×10⁻⁵", "2×10⁻⁵", "3×10⁻⁵", "4×10⁻⁵"]);
         check(0.0, 240000.0, 5, &["0", "0.5×10⁵", "1.0×10⁵", "1.5×10⁵", "2.0×10⁵", "2.5×10⁵"]);
-        check(-1.3, 1.3, 6, &["-1.5", "-1.0", "-0.5", "0", "0.5", "1.0", "1.5"]);
+        check(-1.3, 1.3, 6, &["−1.5", "−1.0", "−0.5", "0", "0.5", "1.0", "1.5"]);
         check(0.3, 0.3, 4, &["0.1", "0.2", "0.3", "0.4", "0.5"]);
         assert_eq!(decade_label(-2), "0.01");
         assert_eq!(decade_label(3), "1000");
         assert_eq!(decade_label(6), "10⁶");
+    }
+}
+
+#[cfg(test)]
+mod look {
+    /// Writes sample figures to `target/figures/` for a look by eye:
+    /// `cargo test -p turnover-wasm write_sample_figures -- --ignored`.
+    #[test]
+    #[ignore]
+    fn write_sample_figures() {
+        use super::*;
+        let dir = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("../../target/figures");
+        std::fs::create_dir_all(&dir).unwrap();
+        let plots = tests::every_plot_for_look();
+        for (k, plot) in plots.iter().enumerate() {
+            let options = FigureOptions { title: true, error_bars: Spread::Sd, ..FigureOptions::default() };
+            std::fs::write(dir.join(format!("{k:02}-{}.svg", plot.kind.name())), figure_svg(plot, &options).unwrap()).unwrap();
+            std::fs::write(dir.join(format!("{k:02}-{}-screen.svg", plot.kind.name())), plot_svg(plot, 640, 460).unwrap()).unwrap();
+        }
+        let (_, view) = tests::trace_plots_for_look();
+        std::fs::write(dir.join("plate.svg"), plate_svg(&view, &FigureOptions { width_mm: 170.0, height_mm: 110.0, ..FigureOptions::default() }).unwrap()).unwrap();
     }
 }

@@ -60,6 +60,28 @@ impl InhibitionBench {
         to_js(&positions.points)
     }
 
+    /// Draws plot `kind` and returns `{points, area}` as
+    /// `Workbench.drawMapped` does.
+    #[wasm_bindgen(js_name = drawMapped)]
+    pub fn draw_mapped(&self, canvas_id: &str, kind: &str) -> Result<JsValue, JsError> {
+        to_js(&crate::figures::draw_on_canvas(canvas_id, self.plot(kind)?)?)
+    }
+
+    /// Plot `kind` as an SVG figure; `options_json` as for
+    /// `Workbench.figureSvg`.
+    #[wasm_bindgen(js_name = figureSvg)]
+    pub fn figure_svg(&self, kind: &str, options_json: &str) -> Result<String, JsError> {
+        crate::figures::figure(self.plot(kind)?, options_json)
+    }
+
+    /// Several plots (a JSON array of names) as one lettered figure.
+    #[wasm_bindgen(js_name = figurePanelsSvg)]
+    pub fn figure_panels_svg(&self, kinds_json: &str, options_json: &str) -> Result<String, JsError> {
+        let kinds = crate::figures::read_kinds(kinds_json)?;
+        let plots = kinds.iter().map(|k| self.plot(k)).collect::<Result<Vec<_>, _>>()?;
+        crate::figures::panels(&plots, options_json)
+    }
+
     /// Plot `kind` of the last analysis as an SVG document.
     pub fn svg(&self, kind: &str, width: u32, height: u32) -> Result<String, JsError> {
         plot_svg(self.plot(kind)?, width, height).map_err(|e| JsError::new(&format!("drawing failed: {e}")))
