@@ -285,11 +285,21 @@ struct Axis {
     ticks: Vec<(f64, String)>,
 }
 
+/// The axis runs from tick to tick, except that an end tick more than half
+/// a step beyond the data is dropped and the axis ends at the data: a
+/// line reaching to −1/Km = −1.2 does not need an axis from −5.
+fn trimmed(low: f64, high: f64, step: f64, ticks: Vec<(f64, String)>) -> Axis {
+    let (first, last) = (ticks[0].0, ticks[ticks.len() - 1].0);
+    let axis_low = if low - first > 0.5 * step { low } else { first };
+    let axis_high = if last - high > 0.5 * step { high } else { last };
+    let ticks = ticks.into_iter().filter(|t| t.0 >= axis_low - 1e-9 * step && t.0 <= axis_high + 1e-9 * step).collect();
+    Axis { low: axis_low, high: axis_high, ticks }
+}
+
 fn linear_axis(low: f64, high: f64, max_count: usize) -> Axis {
     let (ticks, step) = nice_ticks(low, high, max_count);
-    let (first, last) = (ticks[0], ticks[ticks.len() - 1]);
     let labels = tick_labels(&ticks, step);
-    Axis { low: first, high: last, ticks: ticks.into_iter().zip(labels).collect() }
+    trimmed(low, high, step, ticks.into_iter().zip(labels).collect())
 }
 
 fn log_axis(low: f64, high: f64) -> Axis {
@@ -297,7 +307,7 @@ fn log_axis(low: f64, high: f64) -> Axis {
     if last == first {
         last += 1;
     }
-    Axis { low: first as f64, high: last as f64, ticks: (first..=last).map(|k| (k as f64, decade_label(k))).collect() }
+    trimmed(low, high, 1.0, (first..=last).map(|k| (k as f64, decade_label(k))).collect())
 }
 
 /// A plot's x value in drawing coordinates (log10 on a logarithmic axis).
@@ -470,6 +480,9 @@ fn occupied(plot: &PlotData, layout: &Layout) -> Vec<(f64, f64)> {
     let mut lines: Vec<Vec<(f64, f64)>> = vec![plot.curve.clone()];
     lines.extend(plot.series.iter().map(|s| s.curve.clone()));
     lines.extend(plot.segments.iter().map(|s| vec![s.0, s.1]));
+    // Marker lines run the full height.
+    let (low, high) = (layout.y.low, layout.y.high);
+    lines.extend(plot.marks.iter().map(|m| vec![(m.x, low), (m.x, high)]));
     for line in lines {
         let pixels: Vec<(f64, f64)> = line
             .iter()
@@ -1485,10 +1498,13 @@ mod tests {
         let plot = &rate_analysis().plots[0];
         let bare = figure_svg(plot, &FigureOptions::default()).unwrap();
         let with = figure_svg(plot, &FigureOptions { error_bars: Spread::Sd, ..FigureOptions::default() }).unwrap();
-        let lines = |svg: &str| svg.matches("<polyline").count();
+        // Strokes in ink 0.75 pt wide (3 units of 0.1 mm): the axis line
+        // and the bars.
+        let strokes = |svg: &str| svg.matches("stroke=\"#263238\" stroke-width=\"3\"").count();
+        assert_eq!(strokes(&bare), 1);
         // Six [S] with two points each; line 3 left out leaves one at 0.1 mM,
         // so five bars of three strokes (the bar and two caps).
-        assert_eq!(lines(&with) - lines(&bare), 5 * 3);
+        assert_eq!(strokes(&with) - strokes(&bare), 5 * 3);
         assert_eq!(circles(&with).len(), circles(&bare).len());
         check_plot(plot, &with, "direct with SD bars");
     }
