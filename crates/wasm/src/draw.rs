@@ -538,12 +538,29 @@ fn short(value: f64) -> String {
     turnover_core::plots::family::short_number(value)
 }
 
+/// The title broken at spaces into lines that fit the figure's width.
+fn title_lines(title: &str, style: &Style, width: f64) -> Vec<String> {
+    let size = 1.15 * style.font();
+    let room = width - 1.2 * style.font();
+    let mut lines: Vec<String> = Vec::new();
+    for word in title.split_whitespace() {
+        match lines.last_mut() {
+            Some(line) if text_width(&format!("{line} {word}"), size) <= room => {
+                line.push(' ');
+                line.push_str(word);
+            }
+            _ => lines.push(word.to_string()),
+        }
+    }
+    lines
+}
+
 /// Lays the plot out in a `width` × `height` backend area.
 fn layout(plot: &PlotData, style: &Style, width: f64, height: f64, bars: &[(f64, f64, f64)], key: (f64, f64), outside: Outside) -> Layout {
     let f = style.font();
     let margin = 0.6 * f;
     let tick_length = 0.35 * f;
-    let top = if style.title { margin + 1.15 * f * 1.5 } else { margin + 0.6 * f };
+    let top = if style.title { margin + title_lines(&plot.title, style, width).len() as f64 * 1.15 * f * 1.25 + 0.4 * f } else { margin + 0.6 * f };
     let below = if outside == Outside::Below { key.1 + 0.5 * f } else { 0.0 };
     let bottom = margin + 1.3 * f + tick_length + 0.3 * f + f + below;
     let plot_height = (height - top - bottom).max(2.0 * f);
@@ -763,14 +780,15 @@ pub fn draw_plot_styled<DB: DrawingBackend>(
     let px = |p: (f64, f64)| layout.pixel(p);
     let (ax0, ay0, ax1, ay1) = (a.x0.round() as i32, a.y0.round() as i32, a.x1.round() as i32, a.y1.round() as i32);
 
-    // Title.
+    // Title, centred on the figure, on as many lines as it needs.
     if style.title {
-        let title_height = 1.15 * f;
-        root.draw(&Text::new(
-            plot.title.clone(),
-            (((a.x0 + a.x1) / 2.0).round() as i32, (0.6 * f).round() as i32),
-            style.text_style(title_height, &INK, HPos::Center, VPos::Top),
-        ))?;
+        for (k, line) in title_lines(&plot.title, style, width).into_iter().enumerate() {
+            root.draw(&Text::new(
+                line,
+                ((width / 2.0).round() as i32, (0.6 * f + k as f64 * 1.15 * f * 1.25).round() as i32),
+                style.text_style(1.15 * f, &INK, HPos::Center, VPos::Top),
+            ))?;
+        }
     }
     // Shaded band.
     if let Some(band) = &plot.band {
@@ -1362,6 +1380,7 @@ mod tests {
         assert!(plots.iter().any(|p| p.kind == PlotKind::RateAgainstEnzyme), "the trace plate has a v against [E] check");
         let sizes = [
             FigureOptions::default(),
+            FigureOptions { title: true, ..FigureOptions::default() },
             FigureOptions { width_mm: 180.0, height_mm: 120.0, font_pt: 9.0, title: true, ..FigureOptions::default() },
             FigureOptions { width_mm: 60.0, height_mm: 50.0, font_pt: 6.0, ..FigureOptions::default() },
         ];
@@ -1372,16 +1391,15 @@ mod tests {
                 assert!(svg.contains(&format!("width=\"{}mm\"", options.width_mm)), "{}", &svg[..200]);
                 assert_eq!(svg_size(&svg), (options.width_mm * 10.0, options.height_mm * 10.0));
                 assert!(svg.contains("font-family=\"Helvetica, Arial, &apos;Liberation Sans&apos;, sans-serif\""));
-                assert_eq!(svg.contains(&xml_escape(&plot.title)), options.title, "{}: title on or off", plot.kind.name());
+                let first_word = plot.title.split(' ').next().unwrap();
+                let title_drawn = text_boxes(&svg).iter().any(|b| plot.title.starts_with(&b.text) && b.text.starts_with(first_word) && b.text.len() > 1);
+                assert_eq!(title_drawn, options.title, "{}: title on or off", plot.kind.name());
             }
             let svg = plot_svg(plot, 640, 460).unwrap();
             check_plot(plot, &svg, &format!("{} on screen", plot.kind.name()));
         }
     }
 
-    fn xml_escape(text: &str) -> String {
-        text.replace('&', "&amp;").replace('<', "&lt;").replace('>', "&gt;").replace('\'', "&apos;")
-    }
 
     /// 8 pt text in a figure whose user unit is 0.1 mm: 8 × 25.4/72 mm =
     /// 2.822 mm, written by plotters as the size it was given.
