@@ -965,7 +965,6 @@ pub fn draw_plot_styled<DB: DrawingBackend>(
             PointPosition { row: p.row, x, y }
         })
         .collect();
-    let _ = (ax1, ay1);
     Ok(Drawn { points, area })
 }
 
