@@ -1394,8 +1394,11 @@ mod tests {
                 let title_drawn = text_boxes(&svg).iter().any(|b| plot.title.starts_with(&b.text) && b.text.starts_with(first_word) && b.text.len() > 1);
                 assert_eq!(title_drawn, options.title, "{}: title on or off", plot.kind.name());
             }
-            let svg = plot_svg(plot, 640, 460).unwrap();
-            check_plot(plot, &svg, &format!("{} on screen", plot.kind.name()));
+            // The page's canvas sizes.
+            for (width, height) in [(640, 460), (560, 380), (400, 320), (480, 300)] {
+                let svg = plot_svg(plot, width, height).unwrap();
+                check_plot(plot, &svg, &format!("{} on a {width} × {height} canvas", plot.kind.name()));
+            }
         }
     }
 
