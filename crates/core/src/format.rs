@@ -176,6 +176,25 @@ pub fn format_interval(low: Option<f64>, high: Option<f64>, se: Option<f64>) -> 
     formatted
 }
 
+/// One line per parameter, `name = value ± se unit`, by the rule: the
+/// text block a figure prints beside its plot. Derived parameters are
+/// included; the interval is not (a figure legend says which it is).
+pub fn constants_text(parameters: &[crate::fit::ParameterEstimate]) -> String {
+    parameters
+        .iter()
+        .map(|p| {
+            let formatted = format_estimate(Some(p.value), p.std_error, None);
+            let unit = p.unit.as_deref().filter(|u| !u.is_empty()).map(|u| format!(" {u}")).unwrap_or_default();
+            if formatted.se.is_some() {
+                format!("{} = {}{unit}", p.name, formatted.text)
+            } else {
+                format!("{} = {}{unit} (no standard error)", p.name, formatted.value)
+            }
+        })
+        .collect::<Vec<_>>()
+        .join("\n")
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -226,6 +245,28 @@ mod tests {
         assert_eq!((f.value.as_str(), f.se.as_deref(), f.power), ("1.235×10⁵", Some("0.023×10⁵"), Some(5)));
         let f = format_estimate(Some(212.68), Some(6.947), None);
         assert_eq!((f.value.as_str(), f.se.as_deref(), f.power), ("212.7", Some("6.9"), None));
+    }
+
+    #[test]
+    fn constants_for_a_figure() {
+        let p = |name: &str, value: f64, se: Option<f64>, unit: Option<&str>| crate::fit::ParameterEstimate {
+            name: name.into(),
+            value,
+            std_error: se,
+            ci_low: None,
+            ci_high: None,
+            unit: unit.map(String::from),
+            derived: false,
+            ci_method: "asymptotic".into(),
+        };
+        let text = constants_text(&[
+            p("Vmax", 212.68, Some(6.947), Some("µM/min")),
+            p("Km", 0.064121, Some(0.0082809), Some("mM")),
+            p("kcat/Km", 123456.0, Some(2345.0), Some("M⁻¹ s⁻¹")),
+            p("n", 1.0, None, None),
+            p("h", 2.5, None, Some("s")),
+        ]);
+        assert_eq!(text, "Vmax = 212.7 ± 6.9 µM/min\nKm = 0.0641 ± 0.0083 mM\nkcat/Km = (1.235 ± 0.023)×10⁵ M⁻¹ s⁻¹\nn = 1.000 (no standard error)\nh = 2.500 s (no standard error)");
     }
 
     #[test]

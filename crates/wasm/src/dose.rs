@@ -61,6 +61,14 @@ impl DoseBench {
         to_js(&positions.points)
     }
 
+    /// The fitted constants, one line each, by the core's formatting
+    /// rule: text for the `constants` figure option.
+    #[wasm_bindgen(js_name = constantsText)]
+    pub fn constants_text(&self) -> Result<String, JsError> {
+        let analysis = self.last.as_ref().ok_or_else(|| JsError::new("there is no dose-response analysis"))?;
+        Ok(turnover_core::format::constants_text(&analysis.fit.parameters))
+    }
+
     /// Draws the plot and returns `{points, area}` as
     /// `Workbench.drawMapped` does.
     #[wasm_bindgen(js_name = drawMapped)]

@@ -1536,6 +1536,17 @@ mod tests {
         let svg = figure_svg(plot, &options).unwrap();
         assert!(svg.contains("Km = 0.41 ± 0.03 mM") && svg.contains("Vmax = 9.2 ± 0.2 µM/min"));
         check_plot(plot, &svg, "direct with constants");
+        // The constants of the shown mechanism (what
+        // `InhibitionBench.constantsText` prints) on a family plot.
+        let (a, _, _) = family();
+        let fit = a.fits.iter().find(|f| f.model == a.shown).expect("the shown mechanism's fit");
+        let text = turnover_core::format::constants_text(&fit.parameters);
+        assert!(text.lines().count() >= 3 && text.contains(" ± "), "{text}");
+        for plot in &a.plots {
+            let svg = figure_svg(plot, &FigureOptions { constants: Some(text.clone()), ..FigureOptions::default() }).unwrap();
+            check_plot(plot, &svg, &format!("{} with constants", plot.kind.name()));
+            assert!(text.lines().all(|line| svg.contains(&line.replace('&', "&amp;"))));
+        }
     }
 
     #[test]

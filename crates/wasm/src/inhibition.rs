@@ -60,6 +60,15 @@ impl InhibitionBench {
         to_js(&positions.points)
     }
 
+    /// The constants of the mechanism the plots show, one line each, by
+    /// the core's formatting rule: text for the `constants` figure option.
+    #[wasm_bindgen(js_name = constantsText)]
+    pub fn constants_text(&self) -> Result<String, JsError> {
+        let analysis = self.last.as_ref().ok_or_else(|| JsError::new("there is no inhibition analysis"))?;
+        let fit = analysis.fits.iter().find(|f| f.model == analysis.shown).ok_or_else(|| JsError::new("the shown mechanism has no fit"))?;
+        Ok(turnover_core::format::constants_text(&fit.parameters))
+    }
+
     /// Draws plot `kind` and returns `{points, area}` as
     /// `Workbench.drawMapped` does.
     #[wasm_bindgen(js_name = drawMapped)]

@@ -125,6 +125,15 @@ impl Workbench {
         to_js(&serde_json_like(&result))
     }
 
+    /// The fitted constants of the last analysis, one line each
+    /// (`Km = 0.0641 ± 0.0083 mM`) by the core's formatting rule: text for
+    /// the `constants` figure option.
+    #[wasm_bindgen(js_name = constantsText)]
+    pub fn constants_text(&self) -> Result<String, JsError> {
+        let analysis = self.last.as_ref().ok_or_else(|| JsError::new("there is no analysis"))?;
+        Ok(turnover_core::format::constants_text(&analysis.fit.parameters))
+    }
+
     /// Draws plot `kind` like `draw`, and returns `{points: [{row, x, y}],
     /// area: {left, top, width, height, x_min, x_max, y_min, y_max, log_x}}`:
     /// the points and the plotting area's mapping, in canvas pixels.
