@@ -56,6 +56,7 @@ pub mod diagnostics;
 pub mod dose;
 pub mod error;
 pub mod fit;
+pub mod format;
 pub mod inhibition;
 pub mod intervals;
 pub mod lambert;

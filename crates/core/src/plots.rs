@@ -7,12 +7,13 @@
 //! only: no line is ever fitted to transformed data, because the transforms
 //! distort the error structure.
 
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 
 pub mod family;
+pub mod traces;
 
 /// Which plot.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize)]
 #[serde(rename_all = "kebab-case")]
 pub enum PlotKind {
     /// v against [S] with the fitted curve.
@@ -50,6 +51,13 @@ pub enum PlotKind {
     /// Rate against [I] for a tight-binding inhibitor, with the classical
     /// hyperbola for contrast.
     Morrison,
+    /// One time course: readings, the rate window shaded, the fitted line.
+    TraceDetail,
+    /// Initial rate against [E] at one condition, with its straight line.
+    RateAgainstEnzyme,
+    /// The integrated Michaelis-Menten fit: readings and fitted curve per
+    /// trace.
+    ProgressCurves,
 }
 
 impl PlotKind {
@@ -84,6 +92,9 @@ impl PlotKind {
             PlotKind::InterceptReplot => "intercept-replot",
             PlotKind::DoseResponse => "dose-response",
             PlotKind::Morrison => "morrison",
+            PlotKind::TraceDetail => "trace-detail",
+            PlotKind::RateAgainstEnzyme => "rate-against-enzyme",
+            PlotKind::ProgressCurves => "progress-curves",
         }
     }
 
@@ -105,12 +116,13 @@ impl PlotKind {
             .into_iter()
             .chain(PlotKind::INHIBITION)
             .chain([PlotKind::DoseResponse, PlotKind::Morrison])
+            .chain([PlotKind::TraceDetail, PlotKind::RateAgainstEnzyme, PlotKind::ProgressCurves])
             .find(|k| k.name() == name)
     }
 }
 
 /// One data point of a plot.
-#[derive(Clone, Copy, Debug, PartialEq, Serialize)]
+#[derive(Clone, Copy, Debug, PartialEq, Serialize, Deserialize)]
 pub struct PlotPoint {
     /// Index into the analysis' point list.
     pub row: usize,
@@ -123,7 +135,7 @@ pub struct PlotPoint {
 }
 
 /// Everything needed to draw one plot.
-#[derive(Clone, Debug, PartialEq, Serialize)]
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct PlotData {
     /// Which plot.
     pub kind: PlotKind,
@@ -156,10 +168,26 @@ pub struct PlotData {
     pub log_x: bool,
     /// Vertical marker lines with a label, such as the IC50.
     pub marks: Vec<Mark>,
+    /// A shaded band across the plot between two x values, such as a
+    /// time course's rate window. Points outside it are drawn lighter:
+    /// the band says which points the line was fitted to.
+    #[serde(default)]
+    pub band: Option<Band>,
+}
+
+/// A shaded vertical band.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct Band {
+    /// Left edge, in plot coordinates.
+    pub from: f64,
+    /// Right edge, in plot coordinates.
+    pub to: f64,
+    /// What the band is, for the legend.
+    pub label: String,
 }
 
 /// A labelled group of points and its curve.
-#[derive(Clone, Debug, PartialEq, Serialize)]
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct Series {
     /// Legend text, such as `[I] = 5 µM`.
     pub label: String,
@@ -172,7 +200,7 @@ pub struct Series {
 }
 
 /// A vertical marker line.
-#[derive(Clone, Debug, PartialEq, Serialize)]
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct Mark {
     /// Where, in plot coordinates.
     pub x: f64,
@@ -186,7 +214,7 @@ fn single_curve() -> (Vec<Series>, bool, Vec<Mark>) {
 }
 
 /// A labelled point on a plot.
-#[derive(Clone, Debug, PartialEq, Serialize)]
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct Spot {
     /// Horizontal coordinate.
     pub x: f64,
@@ -284,6 +312,7 @@ pub fn rate_plots(
         series: single_curve().0,
         log_x: single_curve().1,
         marks: single_curve().2,
+        band: None,
     });
 
     let weighted = points.iter().any(|p| p.weight != 1.0);
@@ -306,6 +335,7 @@ pub fn rate_plots(
         series: single_curve().0,
         log_x: single_curve().1,
         marks: single_curve().2,
+        band: None,
     });
 
     let transformable: Vec<(usize, &RatePoint)> =
@@ -357,6 +387,7 @@ pub fn rate_plots(
         series: single_curve().0,
         log_x: single_curve().1,
         marks: single_curve().2,
+        band: None,
     });
 
     let eh_curve = match hyperbola {
@@ -377,6 +408,7 @@ pub fn rate_plots(
         series: single_curve().0,
         log_x: single_curve().1,
         marks: single_curve().2,
+        band: None,
     });
 
     let hw_curve = match hyperbola {
@@ -401,6 +433,7 @@ pub fn rate_plots(
         series: single_curve().0,
         log_x: single_curve().1,
         marks: single_curve().2,
+        band: None,
     });
 
     plots
@@ -431,6 +464,7 @@ pub fn diagnostic_plots(
         series: Vec::new(),
         log_x: false,
         marks: Vec::new(),
+        band: None,
         note: "Points near the line mean roughly normal residuals; a bend means skewed errors, and lone points far off are worth a look at the bench.".to_string(),
     };
 
@@ -458,6 +492,7 @@ pub fn diagnostic_plots(
         series: Vec::new(),
         log_x: false,
         marks: Vec::new(),
+        band: None,
         note: format!(
             "Each line is one measurement: every (Km, Vmax) that fits it exactly. The medians of the {} intersections{} are a distribution-free check on the least-squares values.",
             robust.intersections,
@@ -467,9 +502,73 @@ pub fn diagnostic_plots(
     vec![quantile, direct_linear]
 }
 
+/// Which spread a replicate error bar shows.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Spread {
+    /// No error bars.
+    #[default]
+    None,
+    /// Mean ± sample standard deviation (n − 1 in the denominator).
+    Sd,
+    /// Mean ± standard error of the mean, SD/√n.
+    Sem,
+}
+
+/// The mean and spread of replicate points (points sharing an x).
+#[derive(Clone, Copy, Debug, PartialEq, Serialize, Deserialize)]
+pub struct ReplicateBar {
+    /// The shared x.
+    pub x: f64,
+    /// Mean of the replicates' y.
+    pub mean: f64,
+    /// Mean minus the spread.
+    pub low: f64,
+    /// Mean plus the spread.
+    pub high: f64,
+    /// Number of replicates.
+    pub n: usize,
+}
+
+/// Mean ± SD or SEM of the points that share an x exactly (replicates),
+/// for every x with two or more points. Points left out of the fit are not
+/// counted; the points themselves stay on the plot.
+pub fn replicate_bars(points: &[PlotPoint], spread: Spread) -> Vec<ReplicateBar> {
+    if spread == Spread::None {
+        return Vec::new();
+    }
+    let mut used: Vec<(f64, f64)> =
+        points.iter().filter(|p| !p.excluded && p.x.is_finite() && p.y.is_finite()).map(|p| (p.x, p.y)).collect();
+    used.sort_by(|a, b| a.0.total_cmp(&b.0));
+    used.chunk_by(|a, b| a.0 == b.0)
+        .filter(|group| group.len() >= 2)
+        .map(|group| {
+            let n = group.len() as f64;
+            let mean = group.iter().map(|p| p.1).sum::<f64>() / n;
+            let sd = (group.iter().map(|p| (p.1 - mean).powi(2)).sum::<f64>() / (n - 1.0)).sqrt();
+            let half = if spread == Spread::Sem { sd / n.sqrt() } else { sd };
+            ReplicateBar { x: group[0].0, mean, low: mean - half, high: mean + half, n: group.len() }
+        })
+        .collect()
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// Sample SD with n − 1 and SEM = SD/√n, the textbook definitions:
+    /// for 1, 2, 3 the SD is 1 and the SEM 1/√3; single points get no bar
+    /// and left-out points do not count.
+    #[test]
+    fn replicate_bars_use_the_sample_sd() {
+        let p = |x: f64, y: f64, excluded: bool| PlotPoint { row: 0, x, y, excluded };
+        let points = [p(2.0, 1.0, false), p(1.0, 5.0, false), p(2.0, 3.0, false), p(2.0, 2.0, false), p(2.0, 40.0, true)];
+        let sd = replicate_bars(&points, Spread::Sd);
+        assert_eq!(sd, vec![ReplicateBar { x: 2.0, mean: 2.0, low: 1.0, high: 3.0, n: 3 }]);
+        let sem = replicate_bars(&points, Spread::Sem);
+        assert!((sem[0].high - 2.0 - 1.0 / 3f64.sqrt()).abs() < 1e-15);
+        assert!(replicate_bars(&points, Spread::None).is_empty());
+    }
 
     /// On exact Michaelis-Menten data every transformed point lies on the
     /// drawn line of its linearised plot.

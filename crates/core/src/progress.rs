@@ -47,7 +47,7 @@ use crate::solver::Termination;
 use crate::traces::{CellState, Role, TraceAnalysis};
 use levenberg_marquardt::{LeastSquaresProblem, LevenbergMarquardt};
 use nalgebra::{DMatrix, DVector, Dyn, Matrix2, Owned, Vector2};
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 
 /// Product formed at time `t` by the integrated Michaelis-Menten equation,
 /// with its derivatives with respect to Km and Vmax. `None` when Km or
@@ -82,7 +82,7 @@ fn product_near(t: f64, s0: f64, km: f64, vmax: f64, log_ratio: f64, near: Optio
 }
 
 /// One trace as fitted.
-#[derive(Clone, Debug, PartialEq, Serialize)]
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct ProgressCurve {
     /// The trace's name.
     pub trace: String,

@@ -192,7 +192,7 @@ pub enum Role {
 }
 
 /// What one cell of a trace held.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize)]
 #[serde(rename_all = "kebab-case")]
 pub enum CellState {
     /// A number.
@@ -227,7 +227,7 @@ pub struct StandardCurve {
 }
 
 /// The result for one trace.
-#[derive(Clone, Debug, PartialEq, Serialize)]
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct TraceResult {
     /// Name from the header (a well such as `B3`, or any label).
     pub name: String,
@@ -279,7 +279,7 @@ pub struct TraceResult {
 }
 
 /// A straight line through rates against [E] at one condition.
-#[derive(Clone, Debug, PartialEq, Serialize)]
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct EnzymeCheck {
     /// [S] of the group.
     pub s: Option<f64>,

@@ -58,7 +58,29 @@ impl DoseBench {
         let root = backend.into_drawing_area();
         let positions = draw_plot(&root, plot).map_err(|e| JsError::new(&format!("drawing failed: {e}")))?;
         root.present().map_err(|e| JsError::new(&format!("drawing failed: {e}")))?;
-        to_js(&positions)
+        to_js(&positions.points)
+    }
+
+    /// The fitted constants, one line each, by the core's formatting
+    /// rule: text for the `constants` figure option.
+    #[wasm_bindgen(js_name = constantsText)]
+    pub fn constants_text(&self) -> Result<String, JsError> {
+        let analysis = self.last.as_ref().ok_or_else(|| JsError::new("there is no dose-response analysis"))?;
+        Ok(turnover_core::format::constants_text(&analysis.fit.parameters))
+    }
+
+    /// Draws the plot and returns `{points, area}` as
+    /// `Workbench.drawMapped` does.
+    #[wasm_bindgen(js_name = drawMapped)]
+    pub fn draw_mapped(&self, canvas_id: &str) -> Result<JsValue, JsError> {
+        to_js(&crate::figures::draw_on_canvas(canvas_id, self.plot()?)?)
+    }
+
+    /// The plot as an SVG figure; `options_json` as for
+    /// `Workbench.figureSvg`.
+    #[wasm_bindgen(js_name = figureSvg)]
+    pub fn figure_svg(&self, options_json: &str) -> Result<String, JsError> {
+        crate::figures::figure(self.plot()?, options_json)
     }
 
     /// The plot as a standalone SVG document, `width` × `height` pixels.

@@ -57,7 +57,38 @@ impl InhibitionBench {
         let root = backend.into_drawing_area();
         let positions = draw_plot(&root, plot).map_err(|e| JsError::new(&format!("drawing failed: {e}")))?;
         root.present().map_err(|e| JsError::new(&format!("drawing failed: {e}")))?;
-        to_js(&positions)
+        to_js(&positions.points)
+    }
+
+    /// The constants of the mechanism the plots show, one line each, by
+    /// the core's formatting rule: text for the `constants` figure option.
+    #[wasm_bindgen(js_name = constantsText)]
+    pub fn constants_text(&self) -> Result<String, JsError> {
+        let analysis = self.last.as_ref().ok_or_else(|| JsError::new("there is no inhibition analysis"))?;
+        let fit = analysis.fits.iter().find(|f| f.model == analysis.shown).ok_or_else(|| JsError::new("the shown mechanism has no fit"))?;
+        Ok(turnover_core::format::constants_text(&fit.parameters))
+    }
+
+    /// Draws plot `kind` and returns `{points, area}` as
+    /// `Workbench.drawMapped` does.
+    #[wasm_bindgen(js_name = drawMapped)]
+    pub fn draw_mapped(&self, canvas_id: &str, kind: &str) -> Result<JsValue, JsError> {
+        to_js(&crate::figures::draw_on_canvas(canvas_id, self.plot(kind)?)?)
+    }
+
+    /// Plot `kind` as an SVG figure; `options_json` as for
+    /// `Workbench.figureSvg`.
+    #[wasm_bindgen(js_name = figureSvg)]
+    pub fn figure_svg(&self, kind: &str, options_json: &str) -> Result<String, JsError> {
+        crate::figures::figure(self.plot(kind)?, options_json)
+    }
+
+    /// Several plots (a JSON array of names) as one lettered figure.
+    #[wasm_bindgen(js_name = figurePanelsSvg)]
+    pub fn figure_panels_svg(&self, kinds_json: &str, options_json: &str) -> Result<String, JsError> {
+        let kinds = crate::figures::read_kinds(kinds_json)?;
+        let plots = kinds.iter().map(|k| self.plot(k)).collect::<Result<Vec<_>, _>>()?;
+        crate::figures::panels(&plots, options_json)
     }
 
     /// Plot `kind` of the last analysis as an SVG document.

@@ -14,6 +14,8 @@
 
 mod dose;
 mod draw;
+mod figures;
+mod format;
 mod inhibition;
 mod traces;
 
@@ -25,7 +27,8 @@ use turnover_core::rates::{analyse_rates, compare_rate_models, RateAnalysis, Rat
 use wasm_bindgen::prelude::*;
 
 pub use dose::{is_dose_table, DoseBench};
-pub use draw::{draw_plot, PointPosition};
+pub use draw::{draw_plot, Drawn, FigureOptions, PlotArea, PointPosition};
+pub use figures::TraceFigures;
 pub use inhibition::{is_inhibition_table, InhibitionBench};
 pub use traces::TraceBench;
 
@@ -108,7 +111,7 @@ impl Workbench {
         let root = backend.into_drawing_area();
         let positions = draw_plot(&root, plot).map_err(|e| JsError::new(&format!("drawing failed: {e}")))?;
         root.present().map_err(|e| JsError::new(&format!("drawing failed: {e}")))?;
-        to_js(&positions)
+        to_js(&positions.points)
     }
 
     /// Fits the rate laws `mm`, `substrate-inhibition` and `hill` to the
@@ -120,6 +123,42 @@ impl Workbench {
         let models: Vec<String> = ["mm", "substrate-inhibition", "hill"].iter().map(|m| m.to_string()).collect();
         let result = compare_rate_models(&request, &models).map_err(|e| JsError::new(&e.message))?;
         to_js(&serde_json_like(&result))
+    }
+
+    /// The fitted constants of the last analysis, one line each
+    /// (`Km = 0.0641 ± 0.0083 mM`) by the core's formatting rule: text for
+    /// the `constants` figure option.
+    #[wasm_bindgen(js_name = constantsText)]
+    pub fn constants_text(&self) -> Result<String, JsError> {
+        let analysis = self.last.as_ref().ok_or_else(|| JsError::new("there is no analysis"))?;
+        Ok(turnover_core::format::constants_text(&analysis.fit.parameters))
+    }
+
+    /// Draws plot `kind` like `draw`, and returns `{points: [{row, x, y}],
+    /// area: {left, top, width, height, x_min, x_max, y_min, y_max, log_x}}`:
+    /// the points and the plotting area's mapping, in canvas pixels.
+    #[wasm_bindgen(js_name = drawMapped)]
+    pub fn draw_mapped(&self, canvas_id: &str, kind: &str) -> Result<JsValue, JsError> {
+        to_js(&figures::draw_on_canvas(canvas_id, self.plot(kind)?)?)
+    }
+
+    /// Plot `kind` of the last analysis as an SVG figure. `options_json`
+    /// is the JSON text of `{width_mm, height_mm, font_pt, title, constants,
+    /// error_bars}` (every field optional: 85 × 65 mm, 8 pt, no title, no
+    /// constants, `"none"`; `error_bars` is `"none"`, `"sd"` or `"sem"`).
+    #[wasm_bindgen(js_name = figureSvg)]
+    pub fn figure_svg(&self, kind: &str, options_json: &str) -> Result<String, JsError> {
+        figures::figure(self.plot(kind)?, options_json)
+    }
+
+    /// Several plots of the last analysis (`kinds_json`, a JSON array of
+    /// names such as `["direct", "residuals"]`) as one SVG figure, side by
+    /// side (three to a row), lettered A, B, C.
+    #[wasm_bindgen(js_name = figurePanelsSvg)]
+    pub fn figure_panels_svg(&self, kinds_json: &str, options_json: &str) -> Result<String, JsError> {
+        let kinds = figures::read_kinds(kinds_json)?;
+        let plots = kinds.iter().map(|k| self.plot(k)).collect::<Result<Vec<_>, _>>()?;
+        figures::panels(&plots, options_json)
     }
 
     /// The plot `kind` of the last analysis as a standalone SVG document,

@@ -31,6 +31,9 @@ pub struct FamilyUnits {
     pub rate: String,
 }
 
+/// The unit shown for a rate the table gives without one: arbitrary units.
+pub const UNSTATED_RATE_UNIT: &str = "a.u.";
+
 /// The fitted global model, as the plots need it.
 pub struct GlobalFit<'a> {
     /// v at ([S], [I]).
@@ -79,7 +82,7 @@ fn levels(values: impl Iterator<Item = f64>) -> Vec<f64> {
 
 fn plot(kind: PlotKind, title: &str, x_label: String, y_label: String, series: Vec<Series>, note: String) -> PlotData {
     let points = series.iter().filter(|s| !s.dashed || !s.points.is_empty()).flat_map(|s| s.points.clone()).collect();
-    PlotData { kind, title: title.to_string(), x_label, y_label, points, curve: Vec::new(), zero_line: true, segments: Vec::new(), spots: Vec::new(), note, series, log_x: false, marks: Vec::new() }
+    PlotData { kind, title: title.to_string(), x_label, y_label, points, curve: Vec::new(), zero_line: true, segments: Vec::new(), spots: Vec::new(), note, series, log_x: false, marks: Vec::new(), band: None }
 }
 
 /// A straight line through (a, f(a)) and (b, f(b)), drawn from `from` to `to`.
@@ -104,6 +107,13 @@ pub fn inhibition_plots(
     separate: &[(f64, Option<(f64, f64)>)],
     units: &FamilyUnits,
 ) -> Vec<PlotData> {
+    // Every axis carries a unit: a rate entered without one is in the
+    // table's own arbitrary units, and the labels say so.
+    let units = &FamilyUnits {
+        substrate: units.substrate.clone(),
+        inhibitor: units.inhibitor.clone(),
+        rate: if units.rate.is_empty() { UNSTATED_RATE_UNIT.to_string() } else { units.rate.clone() },
+    };
     let i_levels = levels(points.iter().map(|p| p.i));
     let s_levels = levels(points.iter().map(|p| p.s).filter(|s| *s > 0.0));
     let s_max = s_levels.last().copied().unwrap_or(1.0);
@@ -315,6 +325,7 @@ pub fn dose_response_plot(points: &[DosePoint], curve: &dyn Fn(f64) -> f64, ic50
         note: format!("The curve is the fitted four-parameter logistic; the dashed line marks the IC50. {note}"),
         series: vec![Series { label: "logistic fit".to_string(), points: shown, curve: samples, dashed: false }],
         log_x: true,
+        band: None,
         marks: vec![Mark { x: ic50, label: format!("IC50 = {}", with_unit(ic50, inhibitor_unit)) }],
     }
 }
@@ -348,6 +359,7 @@ pub fn morrison_plot(points: &[DosePoint], curve: &dyn Fn(f64) -> f64, v0: f64, 
         ],
         log_x: false,
         marks: Vec::new(),
+        band: None,
     }
 }
 
@@ -370,6 +382,24 @@ mod tests {
         }
         let fit = GlobalFit { rate: &rate, apparent: &apparent, constants: (kic, kiu), mechanism: "mixed" };
         let plots = inhibition_plots(&points, &fit, &[], &FamilyUnits::default());
+        // Without a rate unit in the table, the rate axes still say what
+        // they measure in.
+        let units = FamilyUnits { substrate: "mM".into(), inhibitor: "µM".into(), rate: String::new() };
+        let labelled = inhibition_plots(&points, &fit, &[], &units);
+        let y_labels: Vec<&str> = labelled.iter().map(|p| p.y_label.as_str()).collect();
+        assert_eq!(
+            y_labels,
+            [
+                "v (a.u.)",
+                "1/v (a.u.⁻¹)",
+                "v (a.u.)",
+                "[S]/v (mM/a.u.)",
+                "1/v (a.u.⁻¹)",
+                "[S]/v (mM/a.u.)",
+                "slope Km/Vmax (app) (mM/a.u.)",
+                "intercept 1/Vmax (app) (a.u.⁻¹)"
+            ]
+        );
         for plot in &plots[1..6] {
             for series in &plot.series {
                 let (a, b) = (series.curve[0], series.curve[1]);
