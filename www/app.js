@@ -168,23 +168,45 @@ function formatNumber(value, digits = 4) {
   return `${mantissa}×10${superscript(Number(exponent))}`;
 }
 
-// Interval ends in the same style as the estimate: the same number of
-// decimals, or the same power of ten, so a row reads as one.
-function formatLike(reference, value) {
-  if (value === null || value === undefined || !Number.isFinite(value)) return 'open';
-  if (!Number.isFinite(reference) || reference === 0) return formatNumber(value, 4);
-  const magnitude = Math.floor(Math.log10(Math.abs(reference)));
-  if (magnitude >= 6 || magnitude <= -4) {
-    const scaled = value / 10 ** magnitude;
-    return `${scaled.toFixed(3)}×10${superscript(magnitude)}`;
-  }
-  const decimals = Math.max(0, 3 - magnitude);
-  return value.toFixed(decimals);
-}
-
 function superscript(text) {
   const map = { '-': '⁻', 0: '⁰', 1: '¹', 2: '²', 3: '³', 4: '⁴', 5: '⁵', 6: '⁶', 7: '⁷', 8: '⁸', 9: '⁹' };
   return [...String(text)].map((c) => map[c] ?? c).join('');
+}
+
+/** A constant by the core's one formatting rule: standard error to two
+ *  significant figures, the estimate and its interval to the same decimal
+ *  place, one power of ten for all of them outside 10⁻³–10⁵. */
+function formatted(p) {
+  const num = (x) => (x === null || x === undefined || !Number.isFinite(x) ? null : x);
+  const interval = p.ci_low !== null || p.ci_high !== null;
+  return wasm_bindgen.formatEstimate(p.value, num(p.std_error), interval ? num(p.ci_low) : undefined, interval ? num(p.ci_high) : undefined);
+}
+
+/** "value ± SE" by the same rule, for a sentence. */
+function estimateText(value, se) {
+  const num = (x) => (x === null || x === undefined || !Number.isFinite(x) ? null : x);
+  return wasm_bindgen.formatEstimate(num(value), num(se)).text;
+}
+
+/** One constant as a table row: name, estimate, SE, interval, unit, with
+ *  the full-precision numbers in data attributes. */
+function parameterRow(p) {
+  const row = element('tr', { 'data-param': p.name, 'data-value': String(p.value) });
+  if (p.std_error !== null) row.dataset.se = String(p.std_error);
+  if (p.ci_low !== null) row.dataset.ciLow = String(p.ci_low);
+  if (p.ci_high !== null) row.dataset.ciHigh = String(p.ci_high);
+  if (p.derived) row.classList.add('derived');
+  const f = formatted(p);
+  const end = (text) => text ?? 'open';
+  row.append(
+    element('td', {}, p.name),
+    element('td', { class: 'num value' }, f.value),
+    element('td', { class: 'num se' }, f.se ?? '—'),
+    element('td', { class: 'num ci', title: `interval: ${p.ci_method}` },
+      p.ci_low === null && p.ci_high === null ? '—' : `${end(f.low)} to ${end(f.high)}`),
+    element('td', { class: 'unit' }, p.unit ?? '(no unit given)'),
+  );
+  return row;
 }
 
 function element(tag, attributes = {}, text) {
@@ -240,22 +262,7 @@ function showResult(result) {
 
   const body = $('parameters').tBodies[0];
   body.replaceChildren();
-  for (const p of fit.parameters) {
-    const row = element('tr', { 'data-param': p.name, 'data-value': String(p.value) });
-    if (p.std_error !== null) row.dataset.se = String(p.std_error);
-    if (p.ci_low !== null) row.dataset.ciLow = String(p.ci_low);
-    if (p.ci_high !== null) row.dataset.ciHigh = String(p.ci_high);
-    if (p.derived) row.classList.add('derived');
-    row.append(
-      element('td', {}, p.name),
-      element('td', { class: 'num value' }, formatNumber(p.value, 4)),
-      element('td', { class: 'num se' }, formatNumber(p.std_error, 3)),
-      element('td', { class: 'num ci', title: `interval: ${p.ci_method}` },
-        p.ci_low === null && p.ci_high === null ? '—' : `${formatLike(p.value, p.ci_low)} to ${formatLike(p.value, p.ci_high)}`),
-      element('td', { class: 'unit' }, p.unit ?? '(no unit given)'),
-    );
-    body.append(row);
-  }
+  for (const p of fit.parameters) body.append(parameterRow(p));
   if (fit.parameters.some((p) => p.derived)) {
     const note = element('tr', { class: 'footnote' });
     note.append(element('td', { colspan: '5', class: 'hint' }, '† computed from Vmax, Km and [E]t ([E]t taken as exact); standard error by the delta method with the full covariance; interval by the method chosen (delta method when asymptotic; kcat/Km profiled by refitting with Vmax/Km as a parameter).'));
@@ -512,6 +519,74 @@ function fileStem() {
 
 function downloadCsv(suffix, rows) {
   download(`turnover-${fileStem()}-${suffix}.csv`, 'text/csv', csvText(rows));
+}
+
+// ------------------------------------------------------------ figures as PNG
+
+// CRC-32 of the PNG chunk format (ISO 3309 polynomial, as the PNG
+// specification, W3C/ISO 15948, requires for every chunk).
+const CRC_TABLE = (() => {
+  const table = new Uint32Array(256);
+  for (let n = 0; n < 256; n++) {
+    let c = n;
+    for (let k = 0; k < 8; k++) c = c & 1 ? 0xedb88320 ^ (c >>> 1) : c >>> 1;
+    table[n] = c >>> 0;
+  }
+  return table;
+})();
+
+function crc32(bytes) {
+  let c = 0xffffffff;
+  for (const b of bytes) c = CRC_TABLE[(c ^ b) & 0xff] ^ (c >>> 8);
+  return (c ^ 0xffffffff) >>> 0;
+}
+
+/** The PNG with a pHYs chunk (pixels per metre) after its header, so that
+ *  programs that place it know its size in millimetres. */
+function withResolution(png, dpi) {
+  const perMetre = Math.round(dpi / 0.0254);
+  const chunk = new Uint8Array(21);
+  const view = new DataView(chunk.buffer);
+  view.setUint32(0, 9);
+  chunk.set([0x70, 0x48, 0x59, 0x73], 4); // "pHYs"
+  view.setUint32(8, perMetre);
+  view.setUint32(12, perMetre);
+  chunk[16] = 1; // the unit is the metre
+  view.setUint32(17, crc32(chunk.subarray(4, 17)));
+  // Signature (8 bytes), then IHDR (4 + 4 + 13 + 4 bytes).
+  const at = 8 + 25;
+  const out = new Uint8Array(png.length + chunk.length);
+  out.set(png.subarray(0, at), 0);
+  out.set(chunk, at);
+  out.set(png.subarray(at), at + chunk.length);
+  return out;
+}
+
+/** An SVG figure drawn by the browser into a PNG of `widthMm` × `heightMm`
+ *  at `dpi`, white background, with its resolution recorded. */
+async function svgToPng(svgText, widthMm, heightMm, dpi) {
+  const width = Math.round((widthMm / 25.4) * dpi);
+  const height = Math.round((heightMm / 25.4) * dpi);
+  const url = URL.createObjectURL(new Blob([svgText], { type: 'image/svg+xml' }));
+  try {
+    const image = new Image();
+    await new Promise((resolve, reject) => {
+      image.onload = resolve;
+      image.onerror = () => reject(new Error('the browser could not draw the figure'));
+      image.src = url;
+    });
+    const canvas = document.createElement('canvas');
+    canvas.width = width;
+    canvas.height = height;
+    const context = canvas.getContext('2d');
+    context.fillStyle = '#ffffff';
+    context.fillRect(0, 0, width, height);
+    context.drawImage(image, 0, 0, width, height);
+    const blob = await new Promise((resolve) => canvas.toBlob(resolve, 'image/png'));
+    return withResolution(new Uint8Array(await blob.arrayBuffer()), dpi);
+  } finally {
+    URL.revokeObjectURL(url);
+  }
 }
 
 // ------------------------------------------------------------ the reporting checklist
@@ -1328,6 +1403,9 @@ Object.assign(window.turnover, {
   // Small helpers the other page modules share, so that every section
   // formats numbers and downloads files the same way.
   ui: {
+    svgToPng,
+    parameterRow,
+    estimateText,
     format: formatNumber,
     nearestPoint,
     csvText,

@@ -84,18 +84,7 @@ function options(d) {
 function showParameters(fit) {
   const body = $('dose-parameters').tBodies[0];
   body.replaceChildren();
-  for (const p of fit.parameters) {
-    const row = document.createElement('tr');
-    row.dataset.param = p.name;
-    row.dataset.value = String(p.value);
-    row.dataset.se = String(p.std_error ?? '');
-    if (p.derived) row.className = 'derived';
-    const end = (x) => (x === null || x === undefined ? 'open' : format(x));
-    const interval = p.ci_low === null && p.ci_high === null ? '—' : `${end(p.ci_low)} to ${end(p.ci_high)}`;
-    row.append(cell('td', p.name), cell('td', format(p.value)), cell('td', format(p.std_error)),
-      cell('td', interval, { title: `interval: ${p.ci_method}` }), cell('td', p.unit ?? ''));
-    body.append(row);
-  }
+  for (const p of fit.parameters) body.append(page.ui.parameterRow(p));
   const method = fit.parameters[0]?.ci_method ?? 'asymptotic';
   $('dose-ci-heading').textContent = `${Math.round(fit.confidence_level * 100)}% interval (${method})`;
   const stats = $('dose-stats');
@@ -135,8 +124,9 @@ function showKi(result, cpProblem, mechanism) {
   box.dataset.value = String(ki.value);
   box.dataset.se = String(ki.std_error ?? '');
   const unit = ki.unit ? ` ${ki.unit}` : '';
-  const interval = ki.ci_low === null || ki.ci_high === null ? '' : `; ${Math.round(result.fit.confidence_level * 100)}% interval ${format(ki.ci_low)} to ${format(ki.ci_high)}${unit} (${ki.ci_method})`;
-  box.textContent = `Ki = ${format(ki.value)} ± ${format(ki.std_error, 3)}${unit} (standard error)${interval}`;
+  const f = wasm_bindgen.formatEstimate(ki.value, ki.std_error ?? null, ki.ci_low ?? undefined, ki.ci_high ?? undefined);
+  const interval = ki.ci_low === null || ki.ci_high === null ? '' : `; ${Math.round(result.fit.confidence_level * 100)}% interval ${f.low} to ${f.high}${unit} (${ki.ci_method})`;
+  box.textContent = `Ki = ${f.value} ± ${f.se ?? '—'}${unit} (standard error)${interval}`;
 }
 
 function draw(result) {

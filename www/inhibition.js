@@ -72,16 +72,7 @@ function showConstants(result) {
   $('inhibition-equation').textContent = fit.equation;
   const body = $('inhibition-parameters').tBodies[0];
   body.replaceChildren();
-  for (const p of fit.parameters) {
-    const row = document.createElement('tr');
-    row.dataset.param = p.name;
-    row.dataset.value = String(p.value);
-    row.dataset.se = String(p.std_error ?? '');
-    const end = (x) => (x === null || x === undefined ? 'open' : format(x));
-    const interval = p.ci_low === null && p.ci_high === null ? '—' : `${end(p.ci_low)} to ${end(p.ci_high)}`;
-    row.append(cell('td', p.name), cell('td', format(p.value)), cell('td', format(p.std_error)), cell('td', interval), cell('td', p.unit ?? ''));
-    body.append(row);
-  }
+  for (const p of fit.parameters) body.append(page.ui.parameterRow(p));
   const method = fit.parameters[0]?.ci_method ?? 'asymptotic';
   $('inhibition-ci-heading').textContent = `95% interval (${method})`;
   const warnings = $('inhibition-warnings');

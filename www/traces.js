@@ -327,6 +327,8 @@ async function analyseTraces(doc, key) {
   if (number !== analysisCount) return null;
   hideBusy();
   traceState.result = JSON.parse(json);
+  traceState.json = json;
+  traceState.figures = null;
   traceState.resultKey = key;
   traceState.engine = engine;
   traceState.elapsed = performance.now() - started;
@@ -393,119 +395,46 @@ function showProblems(r) {
 // ------------------------------------------------------------ drawing
 
 function fmt(v, digits = 3) {
-  if (v === null || v === undefined || !Number.isFinite(v)) return '—';
-  if (v === 0) return '0';
-  const m = Math.floor(Math.log10(Math.abs(v)));
-  if (m < -3 || m > 5) return v.toExponential(digits - 1);
-  return v.toFixed(Math.max(0, digits - 1 - m));
+  return page.ui.format(v, digits);
 }
 
-function extent(values) {
-  let lo = Infinity;
-  let hi = -Infinity;
-  for (const v of values) {
-    if (v === null || !Number.isFinite(v)) continue;
-    if (v < lo) lo = v;
-    if (v > hi) hi = v;
+// Every time-course plot is drawn by the core's one drawing path
+// (turnover-wasm TraceFigures) from the analysis JSON, which may have come
+// from the worker; the figures object is made once per analysis.
+function figures() {
+  if (!traceState.result) return null;
+  if (!traceState.figures) {
+    traceState.figures = new wasm_bindgen.TraceFigures(traceState.json);
+    if (traceState.progress && traceState.progressKey === traceState.resultKey) traceState.figures.setProgressJson(traceState.progressJson);
   }
-  if (!Number.isFinite(lo)) return [0, 1];
-  if (hi === lo) return [lo - 0.5, hi + 0.5];
-  return [lo, hi];
+  return traceState.figures;
+}
+
+function blank(canvas, message = '') {
+  const ctx = canvas.getContext('2d');
+  ctx.fillStyle = '#ffffff';
+  ctx.fillRect(0, 0, canvas.width, canvas.height);
+  if (message) {
+    ctx.fillStyle = COLOURS.muted;
+    ctx.font = '13px system-ui, sans-serif';
+    ctx.fillText(message, 16, 26);
+  }
 }
 
 function drawPlate() {
   const canvas = $('plate-grid');
-  const ctx = canvas.getContext('2d');
-  const r = traceState.result;
-  const traces = r ? r.traces : [];
-  const columns = traces.length > 96 ? 24 : traces.length > 24 ? 12 : 8;
-  const rows = Math.max(1, Math.ceil(traces.length / columns));
-  const cellW = Math.floor(1160 / columns);
-  const cellH = columns === 24 ? 46 : 70;
-  canvas.width = cellW * columns;
-  canvas.height = cellH * rows;
-  ctx.clearRect(0, 0, canvas.width, canvas.height);
+  const f = figures();
   traceState.cellBoxes = [];
-  if (!r) return;
-  const tMin = r.traces[0]?.times[0] ?? 0;
-  const tMax = r.traces[0]?.times.at(-1) ?? 1;
-  traces.forEach((trace, index) => {
-    const x0 = (index % columns) * cellW;
-    const y0 = Math.floor(index / columns) * cellH;
-    traceState.cellBoxes.push({ name: trace.name, x: x0, y: y0, w: cellW, h: cellH });
-    ctx.fillStyle = trace.name === traceState.selected ? '#fff7e6' : trace.excluded ? '#f1efea' : COLOURS.paper;
-    ctx.fillRect(x0 + 1, y0 + 1, cellW - 2, cellH - 2);
-    ctx.strokeStyle = trace.name === traceState.selected ? COLOURS.amber : COLOURS.line;
-    ctx.lineWidth = trace.name === traceState.selected ? 2 : 1;
-    ctx.strokeRect(x0 + 1, y0 + 1, cellW - 2, cellH - 2);
-    const pad = 3;
-    const top = y0 + 13;
-    const h = cellH - 16 - pad;
-    const [vLo, vHi] = extent(trace.values);
-    const X = (t) => x0 + pad + ((t - tMin) / (tMax - tMin || 1)) * (cellW - 2 * pad);
-    const Y = (v) => top + h - ((v - vLo) / (vHi - vLo)) * h;
-    if (trace.window_start !== null) {
-      ctx.fillStyle = COLOURS.tealSoft;
-      ctx.fillRect(X(trace.window_start), top, Math.max(1, X(trace.window_end) - X(trace.window_start)), h);
-    }
-    ctx.strokeStyle = trace.role === 'sample' ? COLOURS.teal : COLOURS.muted;
-    ctx.lineWidth = 1;
-    ctx.beginPath();
-    let pen = false;
-    trace.values.forEach((v, j) => {
-      if (v === null) { pen = false; return; }
-      if (pen) ctx.lineTo(X(trace.times[j]), Y(v)); else ctx.moveTo(X(trace.times[j]), Y(v));
-      pen = true;
-    });
-    ctx.stroke();
-    ctx.fillStyle = COLOURS.brick;
-    trace.cells.forEach((c, j) => {
-      if (c === 'overflow' || c === 'over-range') ctx.fillRect(X(trace.times[j]) - 1, top, 2, 3);
-      if (c === 'missing' || c === 'unreadable') ctx.fillRect(X(trace.times[j]) - 1, top + h - 3, 2, 3);
-    });
-    ctx.font = '10px system-ui, sans-serif';
-    ctx.fillStyle = COLOURS.ink;
-    ctx.textBaseline = 'top';
-    ctx.fillText(trace.name + (trace.role === 'blank' ? ' blank' : trace.role === 'no-enzyme' ? ' no E' : ''), x0 + 4, y0 + 3);
-    const marks = trace.flags.map((f) => FLAG_MARKS[f] ?? '?').join('');
-    if (marks) {
-      ctx.fillStyle = COLOURS.brick;
-      ctx.textAlign = 'right';
-      ctx.fillText(marks, x0 + cellW - 4, y0 + 3);
-      ctx.textAlign = 'left';
-    }
-  });
-}
-
-function axes(ctx, box, xRange, yRange, xLabel, yLabel) {
-  const { left, top, width, height } = box;
-  ctx.strokeStyle = COLOURS.ink;
-  ctx.lineWidth = 1;
-  ctx.strokeRect(left, top, width, height);
-  ctx.fillStyle = COLOURS.ink;
-  ctx.font = '11px system-ui, sans-serif';
-  ctx.textAlign = 'center';
-  ctx.textBaseline = 'top';
-  for (let k = 0; k <= 4; k++) {
-    const v = xRange[0] + (k / 4) * (xRange[1] - xRange[0]);
-    ctx.fillText(fmt(v), left + (k / 4) * width, top + height + 4);
+  if (!f) {
+    canvas.height = 60;
+    blank(canvas);
+    return;
   }
-  ctx.fillText(xLabel, left + width / 2, top + height + 18);
-  ctx.textAlign = 'right';
-  ctx.textBaseline = 'middle';
-  for (let k = 0; k <= 4; k++) {
-    const v = yRange[0] + (k / 4) * (yRange[1] - yRange[0]);
-    ctx.fillText(fmt(v), left - 4, top + height - (k / 4) * height);
-  }
-  ctx.save();
-  ctx.translate(12, top + height / 2);
-  ctx.rotate(-Math.PI / 2);
-  ctx.textAlign = 'center';
-  ctx.fillText(yLabel, 0, 0);
-  ctx.restore();
-  const X = (x) => left + ((x - xRange[0]) / (xRange[1] - xRange[0] || 1)) * width;
-  const Y = (y) => top + height - ((y - yRange[0]) / (yRange[1] - yRange[0] || 1)) * height;
-  return { X, Y, left, top, width, height, xRange };
+  const plate = JSON.parse(f.plateJson());
+  // Plate geometry: 8 × 12 or 16 × 24 when the names are well names.
+  canvas.width = 1160;
+  canvas.height = Math.max(60, plate.rows * (plate.columns > 12 ? 46 : 70) + 24);
+  traceState.cellBoxes = f.drawPlate('plate-grid', traceState.selected ?? null);
 }
 
 function selectedTrace() {
@@ -514,50 +443,23 @@ function selectedTrace() {
 
 function drawDetail() {
   const canvas = $('trace-detail');
-  const ctx = canvas.getContext('2d');
-  ctx.clearRect(0, 0, canvas.width, canvas.height);
   const trace = selectedTrace();
   const r = traceState.result;
   const info = $('trace-info');
   info.textContent = '';
-  if (!trace) return;
-  const tRange = extent(trace.times);
-  const vRange = extent(trace.values);
-  const map = axes(ctx, { left: 62, top: 14, width: canvas.width - 80, height: canvas.height - 52 }, tRange, vRange,
-    `time (${r.time_unit})`, `${r.value_unit === 'signal' ? 'signal' : `product (${r.value_unit})`}`);
-  traceState.detailMap = map;
-  if (trace.window_start !== null) {
-    ctx.fillStyle = COLOURS.tealSoft;
-    ctx.fillRect(map.X(trace.window_start), map.top, map.X(trace.window_end) - map.X(trace.window_start), map.height);
+  traceState.detailMap = null;
+  if (!trace) {
+    blank(canvas);
+    return;
   }
-  trace.values.forEach((v, j) => {
-    if (v === null) return;
-    const inWindow = trace.window_start !== null && trace.times[j] >= trace.window_start && trace.times[j] <= trace.window_end;
-    ctx.fillStyle = inWindow ? COLOURS.teal : COLOURS.muted;
-    ctx.beginPath();
-    ctx.arc(map.X(trace.times[j]), map.Y(v), inWindow ? 3 : 2.2, 0, 2 * Math.PI);
-    ctx.fill();
-  });
-  trace.cells.forEach((c, j) => {
-    if (c === 'overflow' || c === 'over-range') {
-      ctx.fillStyle = COLOURS.brick;
-      ctx.fillRect(map.X(trace.times[j]) - 1.5, map.top, 3, 8);
-    }
-  });
-  if (trace.rate !== null) {
-    ctx.strokeStyle = COLOURS.amber;
-    ctx.lineWidth = 2;
-    ctx.beginPath();
-    const a = trace.window_start;
-    const b = trace.window_end;
-    ctx.moveTo(map.X(a), map.Y(trace.intercept));
-    ctx.lineTo(map.X(b), map.Y(trace.intercept + trace.rate * (b - a)));
-    ctx.stroke();
-  }
+  const drawn = figures().draw('trace-detail', 'trace-detail', trace.name);
+  const a = drawn.area;
+  const X = (t) => a.left + ((t - a.x_min) / (a.x_max - a.x_min || 1)) * a.width;
+  traceState.detailMap = { ...a, X, time: (x) => a.x_min + ((x - a.left) / a.width) * (a.x_max - a.x_min) };
   const parts = [
     ['Trace', `${trace.name} (${trace.role})`],
     ['[S]₀', trace.s === null ? '—' : `${fmt(trace.s, 4)} ${r.substrate_unit ?? ''}`],
-    ['Rate', trace.rate === null ? '—' : `${fmt(trace.rate, 4)} ± ${fmt(trace.rate_se, 2)} ${r.rate_unit}`],
+    ['Rate', trace.rate === null ? '—' : `${page.ui.estimateText(trace.rate, trace.rate_se)} ${r.rate_unit}`],
     ['Window', trace.window_start === null ? '—' : `${fmt(trace.window_start)}–${fmt(trace.window_end)} ${r.time_unit}, ${trace.window_points} points, ${trace.manual_window ? 'set by hand' : 'automatic'}`],
     ['Used', trace.fraction_converted === null ? '—' : `${(100 * trace.fraction_converted).toFixed(1)} % of [S]₀`],
     ['Blank', trace.blanks_subtracted.length ? trace.blanks_subtracted.join(', ') : 'none'],
@@ -586,71 +488,32 @@ function drawDetail() {
 
 function drawEnzymeCheck() {
   const canvas = $('enzyme-check');
-  const ctx = canvas.getContext('2d');
-  ctx.clearRect(0, 0, canvas.width, canvas.height);
   const r = traceState.result;
   const text = $('enzyme-check-text');
   text.textContent = '';
   const check = r?.enzyme_checks?.[0];
   if (!check) {
+    blank(canvas);
     text.textContent = 'Needs samples at one [S] with three or more [E] (an E column in the layout).';
     return;
   }
-  const xs = check.points.map((p) => p[0]);
-  const ys = check.points.map((p) => p[1]);
-  const xr = [0, Math.max(...xs) * 1.05];
-  const yr = extent([0, ...ys, check.intercept]);
-  const map = axes(ctx, { left: 62, top: 12, width: canvas.width - 76, height: canvas.height - 48 }, xr, [Math.min(0, yr[0]), yr[1] * 1.05],
-    `[E] (${r.enzyme_unit ?? '?'})`, `v (${r.rate_unit})`);
-  ctx.strokeStyle = COLOURS.amber;
-  ctx.lineWidth = 2;
-  ctx.beginPath();
-  ctx.moveTo(map.X(0), map.Y(check.intercept));
-  ctx.lineTo(map.X(xr[1]), map.Y(check.intercept + check.slope * xr[1]));
-  ctx.stroke();
-  ctx.fillStyle = COLOURS.teal;
-  for (const [x, y] of check.points) {
-    ctx.beginPath();
-    ctx.arc(map.X(x), map.Y(y), 3.5, 0, 2 * Math.PI);
-    ctx.fill();
-  }
-  text.textContent = `At [S] = ${fmt(check.s, 4)} ${r.substrate_unit ?? ''}: slope ${fmt(check.slope, 4)} ± ${fmt(check.slope_se, 2)}, intercept ${fmt(check.intercept, 3)} ± ${fmt(check.intercept_se, 2)} ${r.rate_unit} (${check.intercept_zero ? 'zero within its 95 % interval' : 'not zero within its 95 % interval'}), R² ${fmt(check.r_squared, 4)}${check.curvature_p !== null ? `, curvature p = ${fmt(check.curvature_p, 2)}` : ''}. ${check.messages.join(' ')}`;
+  figures().draw('enzyme-check', 'rate-against-enzyme', '');
+  text.textContent = `At [S] = ${fmt(check.s, 4)} ${r.substrate_unit ?? ''}: slope ${page.ui.estimateText(check.slope, check.slope_se)}, intercept ${page.ui.estimateText(check.intercept, check.intercept_se)} ${r.rate_unit} (${check.intercept_zero ? 'zero within its 95 % interval' : 'not zero within its 95 % interval'}), R² ${check.r_squared === null ? '—' : check.r_squared.toFixed(4)}${check.curvature_p !== null ? `, curvature p = ${fmt(check.curvature_p, 2)}` : ''}. ${check.messages.join(' ')}`;
 }
 
 function drawProgress() {
   const canvas = $('progress-plot');
-  const ctx = canvas.getContext('2d');
-  ctx.clearRect(0, 0, canvas.width, canvas.height);
   const body = $('progress-parameters').querySelector('tbody');
   body.textContent = '';
   const fit = traceState.progress;
   const r = traceState.result;
-  if (!fit || !r) return;
-  const allT = fit.curves.flatMap((c) => c.times);
-  const allY = fit.curves.flatMap((c) => c.observed.concat(c.fitted));
-  const map = axes(ctx, { left: 62, top: 12, width: canvas.width - 76, height: canvas.height - 48 }, extent(allT), extent(allY),
-    `time (${r.time_unit})`, `product (${r.value_unit})`);
-  for (const c of fit.curves) {
-    ctx.fillStyle = 'rgba(0, 105, 110, 0.45)';
-    c.times.forEach((t, j) => ctx.fillRect(map.X(t) - 1, map.Y(c.observed[j]) - 1, 2, 2));
-    ctx.strokeStyle = COLOURS.amber;
-    ctx.lineWidth = 1.5;
-    ctx.beginPath();
-    c.times.forEach((t, j) => (j ? ctx.lineTo(map.X(t), map.Y(c.fitted[j])) : ctx.moveTo(map.X(t), map.Y(c.fitted[j]))));
-    ctx.stroke();
+  if (!fit || !r || traceState.progressKey !== traceState.resultKey) {
+    blank(canvas);
+    $('progress-note').textContent = '';
+    return;
   }
-  for (const p of fit.summary.parameters.slice(0, 2)) {
-    const tr = document.createElement('tr');
-    tr.dataset.param = p.name;
-    tr.dataset.value = p.value;
-    tr.dataset.se = p.std_error ?? '';
-    for (const v of [p.name, fmt(p.value, 4), fmt(p.std_error, 2), p.ci_low === null ? '—' : `${fmt(p.ci_low, 4)} to ${fmt(p.ci_high, 4)}`, p.unit ?? '']) {
-      const td = document.createElement('td');
-      td.textContent = v;
-      tr.append(td);
-    }
-    body.append(tr);
-  }
+  figures().draw('progress-plot', 'progress-curves', '');
+  for (const p of fit.summary.parameters.slice(0, 2)) body.append(page.ui.parameterRow(p));
   $('progress-note').textContent = `${fit.summary.converged ? 'Converged' : 'Did not converge'}; ${fit.curves.length} traces, n = ${fit.summary.n}, residual SD ${fmt(fit.summary.sigma, 3)} ${r.value_unit}. ${fit.summary.warnings.join(' ')} ${fit.notes.join(' ')} ${fit.caution}`;
 }
 
@@ -804,6 +667,8 @@ async function fitCurves(key) {
     if (json === null) json = traceState.bench.fitProgressJson();
     if (number !== analysisCount) return;
     traceState.progress = JSON.parse(json);
+    traceState.progressJson = json;
+    traceState.figures = null;
     traceState.progressKey = key;
   } catch (error) {
     if (number !== analysisCount) return;
@@ -912,13 +777,14 @@ function wire() {
     const x = (event.clientX - rect.left) * (detail.width / rect.width);
     const m = traceState.detailMap;
     if (!m) return null;
-    return m.xRange[0] + ((x - m.left) / m.width) * (m.xRange[1] - m.xRange[0]);
+    return m.time(x);
   };
   detail.addEventListener('mousedown', (event) => { dragFrom = timeAt(event); });
   detail.addEventListener('mousemove', (event) => {
     if (dragFrom === null) return;
     drawDetail();
     const m = traceState.detailMap;
+    if (!m) return;
     const ctx = detail.getContext('2d');
     const to = timeAt(event);
     ctx.fillStyle = 'rgba(214, 138, 20, 0.2)';
