@@ -589,6 +589,63 @@ async function svgToPng(svgText, widthMm, heightMm, dpi) {
   }
 }
 
+// ------------------------------------------------------------ figure export
+
+/** The figure settings of the document as the core's options, or a
+ *  problem naming the field that cannot be read. */
+function figureOptions(doc, constants) {
+  const f = doc.figure;
+  const problems = [];
+  const number = (text, label, low, high) => {
+    const { value, problem } = readTyped(text);
+    if (problem || value === null || value < low || value > high) {
+      problems.push(`${label}: ${problem ?? `'${text}' is not between ${low} and ${high}`}`);
+      return null;
+    }
+    return value;
+  };
+  const options = {
+    width_mm: number(f.width_mm, 'width', 20, 500),
+    height_mm: number(f.height_mm, 'height', 20, 500),
+    font_pt: number(f.font_pt, 'text size', 4, 24),
+    title: f.title,
+    constants: f.constants && constants ? constants : null,
+    error_bars: f.error_bars,
+  };
+  return { options, problem: problems.length ? `Figure settings: ${problems.join('; ')}.` : null };
+}
+
+/** Downloads a figure: `svg(optionsJson)` draws it by the core's one
+ *  drawing path; PNG is the same SVG drawn by the browser at the chosen
+ *  resolution. `constants()` gives the text block for "constants on the plot". */
+async function exportFigure(name, svg, constants = () => null) {
+  const doc = workspace.doc;
+  const note = $('figure-note');
+  const { options, problem } = figureOptions(doc, doc.figure.constants ? constants() : null);
+  if (problem) {
+    note.textContent = problem;
+    return null;
+  }
+  let text;
+  try {
+    text = svg(JSON.stringify(options));
+  } catch (error) {
+    if (coreFailed(error)) return null;
+    note.textContent = `No figure: ${error?.message ?? error}`;
+    return null;
+  }
+  note.textContent = '';
+  const stem = `turnover-${fileStem()}-${name}`;
+  if (doc.figure.format === 'png') {
+    const dpi = readTyped(doc.figure.dpi).value ?? 300;
+    const png = await svgToPng(text, options.width_mm, options.height_mm, dpi);
+    download(`${stem}.png`, 'image/png', png);
+    return png;
+  }
+  download(`${stem}.svg`, 'image/svg+xml', text);
+  return text;
+}
+
 // ------------------------------------------------------------ the reporting checklist
 
 /** The items a report of these constants needs (after the STRENDA
@@ -1309,8 +1366,18 @@ function wireRates() {
     button.addEventListener('click', () => {
       rates.flush();
       if (!state.result) return;
-      download(`turnover-${button.dataset.kind}.svg`, 'image/svg+xml', workbench.svg(button.dataset.kind, 640, 460));
+      const kind = button.dataset.kind;
+      exportFigure(kind, (options) => workbench.figureSvg(kind, options), () => workbench.constantsText());
     });
+  }
+  $('figure-panels').addEventListener('click', () => {
+    rates.flush();
+    if (!state.result) return;
+    exportFigure('panels', (options) => workbench.figurePanelsSvg(JSON.stringify(['direct', 'residuals', 'lineweaver-burk']), options), () => workbench.constantsText());
+  });
+  for (const [id, key] of [['figure-width', 'width_mm'], ['figure-height', 'height_mm'], ['figure-font', 'font_pt'], ['figure-title', 'title'],
+    ['figure-constants', 'constants'], ['figure-error-bars', 'error_bars'], ['figure-format', 'format'], ['figure-dpi', 'dpi']]) {
+    bindField(id, `figure.${key}`);
   }
 }
 
@@ -1404,6 +1471,7 @@ Object.assign(window.turnover, {
   // formats numbers and downloads files the same way.
   ui: {
     svgToPng,
+    exportFigure,
     parameterRow,
     estimateText,
     format: formatNumber,

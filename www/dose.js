@@ -325,5 +325,5 @@ $('dose-include-all').addEventListener('click', () => page.dispatch({ type: 'use
 $('dose-svg').addEventListener('click', () => {
   section.flush();
   if (!lastResult) return;
-  download(`turnover-${lastResult.plots[0]?.kind ?? 'dose'}.svg`, 'image/svg+xml', bench.svg(640, 460));
+  page.ui.exportFigure(lastResult.plots[0]?.kind ?? 'dose', (options) => bench.figureSvg(options), () => bench.constantsText());
 });

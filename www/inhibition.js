@@ -209,7 +209,8 @@ for (const button of document.querySelectorAll('button.inhibition-svg')) {
   button.addEventListener('click', () => {
     section.flush();
     if (!lastResult) return;
-    download(`turnover-${button.dataset.kind}.svg`, 'image/svg+xml', bench.svg(button.dataset.kind, 640, 460));
+    const kind = button.dataset.kind;
+    page.ui.exportFigure(kind, (options) => bench.figureSvg(kind, options), () => bench.constantsText());
   });
 }
 $('inhibition-include-all').addEventListener('click', () => page.dispatch({ type: 'use all points', section: 'inhibition' }));

@@ -21,6 +21,7 @@ export const FORMAT = 'turnover-document';
  *  Fields typed by a person are kept as the text they typed (never parsed
  *  here), so that what reopens is exactly what was entered. */
 const DEFAULTS = {
+  figure: { width_mm: '85', height_mm: '65', font_pt: '8', title: false, constants: false, error_bars: 'none', format: 'svg', dpi: '300' },
   assay: { enzyme: '', source: '', temperature: '', ph: '', buffer: '', method: '' },
   rates: {
     text: '', substrate_unit: '', rate_unit: '', enzyme: '', enzyme_unit: 'nM',

@@ -732,6 +732,16 @@ function wire() {
     }
   });
   $('traces-analyse').addEventListener('click', () => currentAnalysis());
+  for (const button of document.querySelectorAll('button.trace-figure')) {
+    button.addEventListener('click', async () => {
+      const r = await currentAnalysis();
+      if (!r) return;
+      const kind = button.dataset.kind;
+      const which = kind === 'trace-detail' ? traceState.selected ?? '' : '';
+      if (kind === 'progress-curves' && traceState.progressKey !== traceState.resultKey) return;
+      page.ui.exportFigure(kind === 'trace-detail' ? `trace-${which}` : kind, (options) => figures().figureSvg(kind, which, options));
+    });
+  }
   $('traces-csv-wells').addEventListener('click', async () => {
     const r = await currentAnalysis();
     if (r) page.ui.downloadCsv('rates-per-well', wellRows(r));

@@ -1,0 +1,12 @@
+import { pageUrl, launch, shotDir } from './harness.mjs';
+const browser = await launch('dbg');
+const page = await browser.context.newPage();
+page.on('console', (m) => console.log('console', m.type(), m.text()));
+page.on('pageerror', (e) => console.log('pageerror', e.stack ?? e));
+await page.goto(pageUrl);
+await page.waitForTimeout(2500);
+await page.evaluate(() => window.turnoverTraces.fitWhole());
+await page.waitForTimeout(500);
+await page.locator('#traces-panel').screenshot({ path: `${shotDir}/dbg-traces.png` });
+await page.locator('#plots-panel').screenshot({ path: `${shotDir}/dbg-plots.png` });
+await browser.close();
