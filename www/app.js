@@ -1197,7 +1197,47 @@ function isTextField(target) {
   return target.tagName === 'INPUT' && !['checkbox', 'radio', 'button', 'submit', 'file', 'range', 'color'].includes(target.type);
 }
 
+// The same file open in two tabs keeps one shelf: when another tab saves
+// a new version of the analysis shown here, say so and let the person
+// choose, instead of letting the next edit here overwrite it unseen.
+let otherVersion = null;
+window.addEventListener('storage', (event) => {
+  if (!workspace?.doc) return;
+  if (event.key === 'turnover.analyses') {
+    renderBar();
+    return;
+  }
+  if (event.key !== `turnover.analysis.${workspace.doc.id}` || event.newValue === null) return;
+  if (event.newValue === JSON.stringify(workspace.doc)) return;
+  otherVersion = event.newValue;
+  $('other-tab').hidden = false;
+  $('other-tab-text').textContent = `“${workspace.doc.name}” was changed in another tab or window of this page. Your next change here would replace that version.`;
+});
+
+function wireOtherTab() {
+  $('other-tab-open').addEventListener('click', () => {
+    $('other-tab').hidden = true;
+    if (otherVersion === null) return;
+    let checked;
+    try {
+      checked = store.validateDocument(JSON.parse(otherVersion));
+    } catch (error) {
+      checked = { error: `it is not valid JSON (${error.message})` };
+    }
+    if (checked.error) refuse('The version from the other tab', checked.error, otherVersion);
+    else workspace.dispatch({ type: 'open analysis', document: checked.document });
+    otherVersion = null;
+  });
+  $('other-tab-keep').addEventListener('click', () => {
+    $('other-tab').hidden = true;
+    otherVersion = null;
+    // Write this tab's version back, so both tabs now hold it.
+    workspace.shelf.put(workspace.doc);
+  });
+}
+
 function wireBar() {
+  wireOtherTab();
   $('undo').addEventListener('click', () => workspace.undo());
   $('redo').addEventListener('click', () => workspace.redo());
   document.addEventListener('keydown', (event) => {

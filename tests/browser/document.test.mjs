@@ -424,3 +424,23 @@ test('when the browser keeps nothing, the page says so once and keeps working', 
   await page.screenshot({ path: join(shotDir, 'storage-full.png') });
   await page.close();
 });
+
+test('the same analysis open in two tabs: a change in one is announced in the other, which can take it', { timeout: TIMEOUT }, async () => {
+  const profile = mkdtempSync(join(tmpdir(), 'turnover-tabs-'));
+  const shared = await launch('tabs', { profile, freshTabs: false });
+  try {
+    const first = await open(shared.context);
+    await paste(first.page, '#data-input', OWN_TABLE);
+    const second = await open(shared.context);
+    assert.equal(await second.page.inputValue('#data-input'), OWN_TABLE, 'the second tab opens the same analysis');
+    await first.page.fill('#enzyme', '7');
+    await second.page.waitForSelector('#other-tab:not([hidden])');
+    assert.match(await second.page.textContent('#other-tab-text'), /changed in another tab/);
+    await second.page.click('#other-tab-open');
+    assert.equal(await second.page.inputValue('#enzyme'), '7', 'the other tab’s version is taken');
+    assert.deepEqual([...first.problems, ...second.problems], []);
+  } finally {
+    await shared.close();
+    rmSync(profile, { recursive: true, force: true });
+  }
+});
