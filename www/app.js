@@ -420,7 +420,11 @@ function showPoints(result) {
   const head = $('points-table').tHead.rows[0].cells;
   head[1].textContent = u.substrate ? `[S] (${u.substrate})` : '[S]';
   head[2].textContent = u.rate ? `v (${u.rate})` : 'v';
-  body.replaceChildren(...result.points.map((p) => {
+  // A long table shows its first rows and every point that is flagged or
+  // left out; all of them are in the CSV export.
+  const shown = result.points.length <= POINTS_SHOWN ? result.points
+    : result.points.filter((p, k) => k < POINTS_SHOWN / 2 || p.flagged || p.excluded);
+  const rows = shown.map((p) => {
     const row = element('tr', { 'data-line': String(p.line) });
     if (p.excluded) row.classList.add('left-out');
     if (p.flagged) row.classList.add('flagged');
@@ -429,8 +433,18 @@ function showPoints(result) {
       num(p.studentised, 3), num(p.leverage, 3), num(p.weight, 3), element('td', {}, p.excluded ? 'left out' : 'used'));
     row.addEventListener('click', () => workspace.dispatch({ type: 'toggle point', section: 'rates', line: p.line }));
     return row;
-  }));
+  });
+  if (shown.length < result.points.length) {
+    const note = element('tr', { class: 'footnote' });
+    note.append(element('td', { colspan: '9', class: 'hint' }, `${shown.length} of ${result.points.length} points shown: the first ${POINTS_SHOWN / 2} and every one flagged or left out. All of them are in “CSV: points”.`));
+    rows.push(note);
+  }
+  body.replaceChildren(...rows);
 }
+
+// Rows of the points table drawn at most (a table of thousands of rows
+// holds the page for seconds and helps nobody read it).
+const POINTS_SHOWN = 400;
 
 const WEIGHT_WORDS = {
   uniform: 'equal weights (constant absolute error)',
