@@ -99,11 +99,29 @@ ensure_node_packages() {
   fi
 }
 
+# A short bounded fuzz run of the three readers (20 s each) where the
+# nightly toolchain and cargo-fuzz are installed; elsewhere it says why it
+# is skipped (the corpus and every kept regression are replayed on stable
+# by the cargo tests either way). Longer runs: DEVELOPERS.md, fuzz/.
+fuzz_briefly() {
+  if ! cargo +nightly --version >/dev/null 2>&1 || ! command -v cargo-fuzz >/dev/null 2>&1; then
+    say "fuzzing skipped: it needs the nightly toolchain and cargo-fuzz (rustup toolchain install nightly; cargo install cargo-fuzz); the corpus replay ran with the cargo tests"
+    return 0
+  fi
+  say "fuzzing the readers briefly (20 s per target; a crash fails the build)"
+  local target
+  for target in table traces layout; do
+    cargo +nightly fuzz run "$target" -- -max_total_time=20 -rss_limit_mb=4096 2>&1 | tail -n 3
+    [ "${PIPESTATUS[0]}" -eq 0 ] || { echo "fuzz target $target found a crash: see fuzz/artifacts/$target" >&2; return 1; }
+  done
+}
+
 run_tests() {
   build_test_hooks_page
   build_page
   say "cargo tests: unit, reference checks (NIST StRD, Puromycin), gradients"
   cargo test --workspace --release
+  fuzz_briefly
   say "SciPy cross-check (scipy.optimize.curve_fit)"
   cargo build --release -p turnover-cli
   ensure_python_packages
