@@ -169,18 +169,30 @@ fn profile_interval_coverage_in_simulation() {
     }
 }
 
-/// Weighting by sd with sd proportional to v gives the same estimates as
-/// relative weighting (the weights differ only by a constant factor).
+/// Relative weights come from the fitted curve and are iterated to a fixed
+/// point, so a fit weighted by an sd column holding any constant multiple of
+/// the relative fit's *fitted* values must give the same estimates and
+/// errors (the defining property of the fixed point; generalised least
+/// squares, Carroll & Ruppert 1988, ch. 2, from memory). Weights on the
+/// measured rates (sd ∝ v) give other estimates: that was the old, biased
+/// convention.
 #[test]
-fn sd_weights_proportional_to_v_equal_relative_weighting() {
-    let text_sd = "S\tv\tsd\n0.1\t1.9\t0.19\n0.2\t3.1\t0.31\n0.5\t5.2\t0.52\n1\t6.4\t0.64\n2\t7.5\t0.75\n5\t8.3\t0.83\n";
+fn relative_weighting_is_the_fixed_point_of_weights_from_the_curve() {
     let text = "S\tv\n0.1\t1.9\n0.2\t3.1\n0.5\t5.2\n1\t6.4\n2\t7.5\n5\t8.3\n";
-    let by_sd = analyse_rates(&RateRequest { text: text_sd.into(), weighting: Weighting::Sd, ..RateRequest::default() }).unwrap();
     let relative = analyse_rates(&RateRequest { text: text.into(), weighting: Weighting::Relative, ..RateRequest::default() }).unwrap();
-    for (a, b) in by_sd.fit.parameters.iter().zip(&relative.fit.parameters) {
-        assert!((a.value / b.value - 1.0).abs() < 1e-10);
-        assert!((a.std_error.unwrap() / b.std_error.unwrap() - 1.0).abs() < 1e-8);
+    assert!(relative.fit.reweighting_rounds.unwrap() >= 1);
+    let mut text_sd = String::from("S\tv\tsd\n");
+    for p in &relative.points {
+        text_sd.push_str(&format!("{}\t{}\t{:.17e}\n", p.s, p.v, 0.1 * p.fitted));
     }
+    let by_sd = analyse_rates(&RateRequest { text: text_sd, weighting: Weighting::Sd, ..RateRequest::default() }).unwrap();
+    for (a, b) in by_sd.fit.parameters.iter().zip(&relative.fit.parameters) {
+        assert!((a.value / b.value - 1.0).abs() < 1e-9, "{}: {} vs {}", a.name, a.value, b.value);
+        assert!((a.std_error.unwrap() / b.std_error.unwrap() - 1.0).abs() < 1e-7, "{}", a.name);
+    }
+    let text_observed = "S\tv\tsd\n0.1\t1.9\t0.19\n0.2\t3.1\t0.31\n0.5\t5.2\t0.52\n1\t6.4\t0.64\n2\t7.5\t0.75\n5\t8.3\t0.83\n";
+    let observed = analyse_rates(&RateRequest { text: text_observed.into(), weighting: Weighting::Sd, ..RateRequest::default() }).unwrap();
+    assert!((observed.fit.parameters[1].value / relative.fit.parameters[1].value - 1.0).abs() > 1e-6);
 }
 
 /// The interval choice reaches the global inhibition fits: profile

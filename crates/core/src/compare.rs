@@ -278,6 +278,7 @@ mod tests {
             termination_text: String::new(),
             confidence_level: 0.95,
             weighting: "uniform".into(),
+            reweighting_rounds: None,
             parameters: Vec::new(),
             correlation: Vec::new(),
             warnings: Vec::new(),

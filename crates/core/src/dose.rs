@@ -7,7 +7,7 @@
 //! source).
 
 use crate::error::Error;
-use crate::fit::{fit_model, FitSettings, FitSummary};
+use crate::fit::{FitSettings, FitSummary};
 use crate::inhibition::is_inhibitor_name;
 use crate::model::{Dimension, Observations};
 use crate::fit::{Fit, ParameterEstimate};
@@ -255,7 +255,7 @@ pub fn analyse_dose(request: &DoseRequest) -> Result<DoseAnalysis, Error> {
         None => Error::invalid_option(message),
     })?;
     let data = Observations::new(1, used.iter().map(|p| p.i).collect(), responses, weights)?;
-    let fit = fit_model(model.as_ref(), &data, None, &FitSettings::default())?;
+    let (fit, data) = crate::fit::fit_weighted(model.as_ref(), &data, request.weighting, None, &FitSettings::default())?;
     let values = fit.values().to_vec();
     for p in &mut points {
         p.fitted = model.value(&[p.i], &values);

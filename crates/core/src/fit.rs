@@ -14,6 +14,7 @@
 use crate::error::Error;
 use crate::model::{Model, Observations};
 use crate::solver::{minimise, SolverReport, SolverSettings, Termination};
+use crate::weighting::Weighting;
 use nalgebra::DMatrix;
 use serde::Serialize;
 use statrs::distribution::{ContinuousCDF, StudentsT};
@@ -74,6 +75,10 @@ pub struct FitSummary {
     pub confidence_level: f64,
     /// The weighting used, by name (`uniform`, `relative`, `poisson`, `sd`).
     pub weighting: String,
+    /// For weights recomputed from the fitted curve (relative, Poisson):
+    /// the number of reweighting rounds until the parameters stopped
+    /// changing; `None` for fixed weights.
+    pub reweighting_rounds: Option<usize>,
     /// Fitted parameters, then derived ones.
     pub parameters: Vec<ParameterEstimate>,
     /// Correlation matrix of the fitted parameters (rows and columns in
@@ -94,6 +99,10 @@ pub struct Fit {
     pub report: SolverReport,
     /// Two-sided t quantile used for the intervals (`None` when dof = 0).
     pub t_quantile: Option<f64>,
+    /// The scheme whose weights were recomputed from the fitted curve, when
+    /// the fit was made by [`fit_weighted`]; refits of resampled data
+    /// (bootstrap) iterate the same way.
+    pub reweighting: Option<Weighting>,
 }
 
 impl Fit {
@@ -150,6 +159,111 @@ pub fn fit_model(model: &dyn Model, data: &Observations, start: Option<&[f64]>, 
     }
     let report = minimise(model, data, &start, &settings.solver);
     Ok(summarise(model, data, report, settings.confidence_level))
+}
+
+/// Relative change of every parameter between two reweighting rounds below
+/// which the weights count as settled. Each round converges linearly with
+/// a rate of about the squared coefficient of variation of the data, so a
+/// handful of rounds reach it; 1e-11 leaves the fixed point well inside the
+/// 1e-6 the SciPy cross-check asks for.
+pub const REWEIGHT_TOLERANCE: f64 = 1e-11;
+
+/// Most reweighting rounds before the iteration is declared unsettled.
+pub const REWEIGHT_LIMIT: usize = 100;
+
+/// The outcome of iterated reweighting (see [`fit_weighted`]).
+pub(crate) struct Reweighted {
+    /// The last minimisation.
+    pub report: SolverReport,
+    /// The observations with the weights of the last round.
+    pub data: Observations,
+    /// Rounds after the first fit.
+    pub rounds: usize,
+    /// Why the iteration did not settle, when it did not.
+    pub unsettled: Option<String>,
+}
+
+/// Minimises, recomputes the weights of `weighting` from the fitted values,
+/// and refits from the last solution until no parameter changes by more
+/// than `tolerance` (relative) or `limit` rounds have passed. `data`'s own
+/// weights serve the first round.
+pub(crate) fn iterate_weights(
+    model: &dyn Model,
+    data: &Observations,
+    weighting: Weighting,
+    start: &[f64],
+    solver: &SolverSettings,
+    tolerance: f64,
+    limit: usize,
+) -> Reweighted {
+    let mut report = minimise(model, data, start, solver);
+    let mut current = data.clone();
+    for round in 1..=limit {
+        if !report.converged {
+            return Reweighted { report, data: current, rounds: round - 1, unsettled: Some("a refit did not converge".to_string()) };
+        }
+        let weights: Option<Vec<f64>> =
+            (0..data.len()).map(|i| weighting.weight_at_fitted(model.value(data.x(i), &report.parameters))).collect();
+        let Some(weights) = weights else {
+            return Reweighted {
+                report,
+                data: current,
+                rounds: round - 1,
+                unsettled: Some(format!("a fitted value cannot carry {}", weighting.describe())),
+            };
+        };
+        let Ok(next) = data.with_weights(weights) else {
+            return Reweighted { report, data: current, rounds: round - 1, unsettled: Some("the weights were not finite".to_string()) };
+        };
+        let previous = report.parameters.clone();
+        report = minimise(model, &next, &previous, solver);
+        current = next;
+        let change = previous
+            .iter()
+            .zip(&report.parameters)
+            .map(|(a, b)| (a - b).abs() / a.abs().max(b.abs()).max(f64::MIN_POSITIVE))
+            .fold(0.0, f64::max);
+        if report.converged && change <= tolerance {
+            return Reweighted { report, data: current, rounds: round, unsettled: None };
+        }
+    }
+    Reweighted { report, data: current, rounds: limit, unsettled: Some(format!("the weights had not settled after {limit} rounds")) }
+}
+
+/// Fits `model` to `data` with the weights of `weighting`. For relative and
+/// Poisson weighting the weights are recomputed from the fitted curve until
+/// they settle (see [`crate::weighting`]); the first round uses `data`'s own
+/// weights, which should be the same scheme on the measured values. For
+/// uniform and sd weighting this is [`fit_model`]. Returns the fit and the
+/// observations with the final weights, on which profiles and residual
+/// diagnostics must be computed.
+pub fn fit_weighted(
+    model: &dyn Model,
+    data: &Observations,
+    weighting: Weighting,
+    start: Option<&[f64]>,
+    settings: &FitSettings,
+) -> Result<(Fit, Observations), Error> {
+    let first = fit_model(model, data, start, settings)?;
+    if !weighting.from_model() || !first.summary.converged {
+        return Ok((first, data.clone()));
+    }
+    let r = iterate_weights(model, data, weighting, first.values(), &settings.solver, REWEIGHT_TOLERANCE, REWEIGHT_LIMIT);
+    if let Some(why) = r.unsettled {
+        // Reweighting can wander off when the curve nears zero where the
+        // data do not (errors that are not proportional, for example); the
+        // fit on the measured rates is then the better-defined answer.
+        let mut first = first;
+        first.summary.warnings.push(format!(
+            "The weights from the fitted curve did not settle ({why}); the fit shown uses {} on the measured values instead, which biases the estimates slightly (check the error structure).",
+            weighting.describe().replace(" from the fitted curve", "")
+        ));
+        return Ok((first, data.clone()));
+    }
+    let mut fit = summarise(model, &r.data, r.report, settings.confidence_level);
+    fit.summary.reweighting_rounds = Some(r.rounds);
+    fit.reweighting = Some(weighting);
+    Ok((fit, r.data))
 }
 
 /// Condition below which the scaled Jacobian counts as rank deficient:
@@ -221,11 +335,12 @@ fn summarise(model: &dyn Model, data: &Observations, report: SolverReport, level
         termination_text: report.termination.describe().to_string(),
         confidence_level: level,
         weighting: if data.weights().iter().all(|w| *w == 1.0) { "uniform" } else { "weighted" }.to_string(),
+        reweighting_rounds: None,
         parameters,
         correlation,
         warnings,
     };
-    Fit { summary, covariance, report, t_quantile }
+    Fit { summary, covariance, report, t_quantile, reweighting: None }
 }
 
 /// Builds an estimate with a symmetric t-based interval.

@@ -129,6 +129,11 @@ pub struct InhibitionAnalysis {
     pub caution: String,
 }
 
+fn capitalise(text: &str) -> String {
+    let mut chars = text.chars();
+    chars.next().map(|c| c.to_uppercase().chain(chars).collect()).unwrap_or_default()
+}
+
 pub(crate) fn is_inhibitor_name(name: &str) -> bool {
     matches!(normalise_name(name).as_str(), "i" | "i0" | "inhibitor" | "inh" | "inhibitorconcentration")
 }
@@ -428,7 +433,44 @@ pub fn analyse_inhibition(request: &InhibitionRequest) -> Result<InhibitionAnaly
         Some(i) => Error::invalid_data(format!("line {}: {message}", used[i].line)),
         None => Error::invalid_option(message),
     })?;
-    let data = Observations::new(2, used.iter().flat_map(|p| [p.s, p.i]).collect(), rates, weights)?;
+    let mut data = Observations::new(2, used.iter().flat_map(|p| [p.s, p.i]).collect(), rates, weights)?;
+    // Relative and Poisson weights come from a fitted curve. Mechanisms are
+    // compared by their sums of squares, which is fair only with the same
+    // weights for all; so the weights are iterated to convergence on the
+    // most general mechanism asked for (mixed, when present: its curve is
+    // consistent under every nested hypothesis) and then held fixed for
+    // every mechanism.
+    let mut reweighting_rounds = None;
+    if request.weighting.from_model() {
+        let general = if mechanisms.contains(&Mechanism::Mixed) { Mechanism::Mixed } else { mechanisms[0] };
+        let first = fit_mechanism(general, &data, &[])?;
+        if first.summary.converged {
+            let r = crate::fit::iterate_weights(
+                &Inhibition::new(general),
+                &data,
+                request.weighting,
+                first.values(),
+                &FitSettings::default().solver,
+                crate::fit::REWEIGHT_TOLERANCE,
+                crate::fit::REWEIGHT_LIMIT,
+            );
+            if r.unsettled.is_none() {
+                data = r.data;
+                reweighting_rounds = Some(r.rounds);
+                notes.push(format!(
+                    "{}: the weights are computed from the {} fit's curve (settled after {} round(s)) and used unchanged for every mechanism, so that the comparison is between sums of squares with the same weights.",
+                    capitalise(request.weighting.describe()),
+                    general.name(),
+                    r.rounds
+                ));
+            } else {
+                notes.push(format!(
+                    "The weights from the fitted curve did not settle on the {} fit; the weights on the measured rates are used for every mechanism.",
+                    general.name()
+                ));
+            }
+        }
+    }
     let mut inhibitor_levels: Vec<f64> = points.iter().map(|p| p.i).collect();
     inhibitor_levels.sort_by(f64::total_cmp);
     inhibitor_levels.dedup();
@@ -458,6 +500,7 @@ pub fn analyse_inhibition(request: &InhibitionRequest) -> Result<InhibitionAnaly
         let model = Inhibition::new(*mechanism);
         let mut summary = fit.summary.clone();
         summary.weighting = request.weighting.name().to_string();
+        summary.reweighting_rounds = reweighting_rounds;
         crate::intervals::apply_interval_method(&mut summary, &model, &data, fit, request.interval_method, &request.bootstrap)?;
         for (estimate, spec) in summary.parameters.iter_mut().zip(model.parameters()) {
             estimate.unit = unit_of(spec.dimension);

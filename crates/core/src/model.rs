@@ -108,6 +108,12 @@ impl Observations {
         &self.weights
     }
 
+    /// The same observations with new weights; `Err` when a weight is not
+    /// a positive finite number or the count differs.
+    pub fn with_weights(&self, weights: Vec<f64>) -> Result<Observations, Error> {
+        Observations::new(self.predictors, self.x.clone(), self.y.clone(), Some(weights))
+    }
+
     /// Column `j` of the predictors, one value per observation.
     pub fn predictor_column(&self, j: usize) -> Vec<f64> {
         (0..self.len()).map(|i| self.x(i)[j]).collect()

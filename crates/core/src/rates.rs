@@ -6,8 +6,8 @@
 
 use crate::diagnostics::{residual_diagnostics, ResidualDiagnostics};
 use crate::error::Error;
-use crate::fit::{estimate, fit_model, Fit, FitSettings, FitSummary, ParameterEstimate};
-use crate::intervals::{apply_interval_method, percentile_interval, profile_interval, BootstrapScheme, BootstrapSettings, IntervalMethod};
+use crate::fit::{estimate, fit_model, fit_weighted, Fit, FitSettings, FitSummary, ParameterEstimate};
+use crate::intervals::{apply_interval_method, bootstrap_interval, profile_interval, BootstrapScheme, BootstrapSettings, IntervalMethod};
 use crate::model::{Dimension, Model, Observations};
 use crate::models::{model_by_name, MichaelisMentenSpecificity};
 use crate::plots::{diagnostic_plots, rate_plots, AxisUnits, PlotData, RatePoint};
@@ -15,6 +15,7 @@ use crate::robust::{direct_linear, DirectLinearEstimate};
 use crate::table::{parse_table, ColumnHeading, InputProblem, Table};
 use crate::units::{kcat_per_second, ConcentrationUnit, RateUnit};
 use crate::weighting::Weighting;
+use nalgebra::DMatrix;
 use serde::{Deserialize, Serialize};
 
 /// What to analyse and how.
@@ -62,7 +63,9 @@ pub struct PointRecord {
     pub residual: f64,
     /// The standard deviation given in an `sd` column, if any.
     pub sd: Option<f64>,
-    /// Weight in the fit (0 for an excluded point).
+    /// Weight in the fit. For relative and Poisson weighting it comes from
+    /// the fitted value (the final reweighting round), also for an
+    /// excluded point, whose weight does not enter the fit.
     pub weight: f64,
     /// Leverage in the fit (`None` for an excluded point).
     pub leverage: Option<f64>,
@@ -83,6 +86,9 @@ pub struct BootstrapReport {
     pub seed: u64,
     /// The resampling scheme.
     pub scheme: BootstrapScheme,
+    /// How intervals were read from the replicates: `studentised`
+    /// (bootstrap-t, the default) or `percentile`.
+    pub interval: String,
 }
 
 /// The units the analysis used, as symbols; `None` when not known.
@@ -339,11 +345,16 @@ pub fn analyse_rates(request: &RateRequest) -> Result<RateAnalysis, Error> {
         Some(used.iter().map(|p| p.weight).collect()),
     )?;
     let settings = FitSettings::default();
-    let fit = fit_model(model.as_ref(), &observations, None, &settings)?;
+    let (fit, observations) = fit_weighted(model.as_ref(), &observations, request.weighting, None, &settings)?;
     let values = fit.values().to_vec();
     for point in &mut points {
         point.fitted = model.value(&[point.s], &values);
         point.residual = point.v - point.fitted;
+        // Weights from the fitted curve: the final round's weight, also for
+        // a left-out point (for the residual plot).
+        if let Some(w) = fit.reweighting.and_then(|scheme| scheme.weight_at_fitted(point.fitted)) {
+            point.weight = w;
+        }
     }
     let diagnostics = residual_diagnostics(model.as_ref(), &observations, &fit);
     for (used_index, point) in points.iter_mut().filter(|p| !p.excluded).enumerate() {
@@ -634,22 +645,40 @@ fn bootstrap_intervals(
     let sample = apply_interval_method(summary, model, data, fit, IntervalMethod::Bootstrap, settings)?
         .expect("the bootstrap method returns its sample");
     let column = |f: &dyn Fn(&[f64]) -> f64| -> Vec<f64> { sample.estimates.iter().map(|p| f(p)).collect() };
-    let mut derived: Vec<Vec<f64>> = Vec::new();
+    // Each replicate's standard error of a derived constant, by the delta
+    // method from that replicate's covariance, for the studentised interval.
+    let se_column = |f: &dyn Fn(&[f64], &DMatrix<f64>) -> f64| -> Vec<Option<f64>> {
+        sample.estimates.iter().zip(&sample.covariances).map(|(p, c)| c.as_ref().map(|c| f(p, c))).collect()
+    };
+    let mut derived: Vec<(Vec<f64>, Vec<Option<f64>>)> = Vec::new();
     if let Some(factor) = kcat_factor {
-        derived.push(column(&|p| p[0] * factor));
+        derived.push((column(&|p| p[0] * factor), se_column(&|_, c| c[(0, 0)].sqrt() * factor)));
     }
     if let Some(scale) = specificity_factor {
-        derived.push(column(&|p| scale * p[0] / p[1]));
+        derived.push((
+            column(&|p| scale * p[0] / p[1]),
+            se_column(&|p, c| {
+                let (dv, dk) = (scale / p[1], -scale * p[0] / (p[1] * p[1]));
+                (dv * dv * c[(0, 0)] + dk * dk * c[(1, 1)] + 2.0 * dv * dk * c[(0, 1)]).sqrt()
+            }),
+        ));
     }
     let n_fitted = fit.values().len();
-    for (estimate, values) in summary.parameters[n_fitted..].iter_mut().zip(&derived) {
-        let (low, high) = percentile_interval(values, summary.confidence_level);
+    for (estimate, (values, ses)) in summary.parameters[n_fitted..].iter_mut().zip(&derived) {
+        let (low, high) =
+            bootstrap_interval(settings, estimate.value, estimate.std_error, values, ses, summary.confidence_level);
         estimate.ci_low = low;
         estimate.ci_high = high;
         estimate.ci_method = IntervalMethod::Bootstrap.name().to_string();
     }
     let resamples = if fit.summary.converged { settings.resamples } else { 0 };
-    Ok(BootstrapReport { resamples, failures: sample.failures, seed: settings.seed, scheme: settings.scheme })
+    Ok(BootstrapReport {
+        resamples,
+        failures: sample.failures,
+        seed: settings.seed,
+        scheme: settings.scheme,
+        interval: settings.interval.name().to_string(),
+    })
 }
 
 #[cfg(test)]
