@@ -262,7 +262,16 @@ pub fn analyse_dose(request: &DoseRequest) -> Result<DoseAnalysis, Error> {
     }
     let mut summary = fit.summary.clone();
     summary.weighting = request.weighting.name().to_string();
-    crate::intervals::apply_interval_method(&mut summary, model.as_ref(), &data, &fit, request.interval_method, &request.bootstrap)?;
+    if fit.summary.termination == crate::solver::Termination::NoFiniteOptimum {
+        // Only the profile says which side the data bound when the fit ran off.
+        crate::intervals::apply_profile_intervals(&mut summary, model.as_ref(), &data, &fit, true);
+    } else {
+        crate::intervals::apply_interval_method(&mut summary, model.as_ref(), &data, &fit, request.interval_method, &request.bootstrap)?;
+        if request.interval_method == IntervalMethod::Asymptotic && fit.summary.converged {
+            // Flag constants whose profile never closes; the intervals stay.
+            crate::intervals::apply_profile_intervals(&mut summary, model.as_ref(), &data, &fit, false);
+        }
+    }
     let i_symbol = inhibitor_unit.map(|u| u.symbol().to_string());
     for (estimate, spec) in summary.parameters.iter_mut().zip(model.parameters()) {
         estimate.unit = match spec.dimension {
@@ -394,6 +403,7 @@ fn add_ki(
         unit: ic50.unit.clone(),
         derived: true,
         ci_method,
+        flag: None,
     });
     Ok(())
 }

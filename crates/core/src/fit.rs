@@ -12,7 +12,7 @@
 //! parameter well.
 
 use crate::error::Error;
-use crate::model::{Model, Observations};
+use crate::model::{Dimension, Model, Observations};
 use crate::solver::{minimise, SolverReport, SolverSettings, Termination};
 use crate::weighting::Weighting;
 use nalgebra::DMatrix;
@@ -41,6 +41,47 @@ pub struct ParameterEstimate {
     /// `bootstrap` (for derived constants with the asymptotic method, by
     /// the delta method).
     pub ci_method: String,
+    /// What the data say about this parameter beyond its numbers, when it
+    /// is not simply well determined: `not_determined` (the fit ran off
+    /// without bound), `not_bounded_above` / `not_bounded_below` (the
+    /// profile never closes on that side, or the bootstrap replicates run
+    /// off), `asymptotic_crosses_zero` (a positive constant whose
+    /// asymptotic interval reaches below zero: use the profile interval).
+    /// `None` otherwise. A warning in words goes with every flag.
+    pub flag: Option<String>,
+}
+
+/// [`ParameterEstimate::flag`] values.
+pub mod flags {
+    /// The fit ran off without bound in this parameter.
+    pub const NOT_DETERMINED: &str = "not_determined";
+    /// The profile (or bootstrap) does not bound it from above.
+    pub const NOT_BOUNDED_ABOVE: &str = "not_bounded_above";
+    /// The profile (or bootstrap) does not bound it from below.
+    pub const NOT_BOUNDED_BELOW: &str = "not_bounded_below";
+    /// A positive constant whose asymptotic interval reaches below zero.
+    pub const ASYMPTOTIC_CROSSES_ZERO: &str = "asymptotic_crosses_zero";
+}
+
+/// A parameter counts as run off when its magnitude exceeds this multiple
+/// of the data's own scale for its dimension (the largest |v| for a rate,
+/// the largest |x| for a concentration): 1,000 times beyond anything
+/// measured, the value is an extrapolation the data cannot support, and in
+/// practice such fits are drifting along a valley towards infinity (a
+/// stated rule: common practice, no source, for the idea; the multiple is
+/// Turnover's choice).
+pub const RUNAWAY_MULTIPLE: f64 = 1e3;
+
+/// The magnitude beyond which parameter `index` counts as run off
+/// (see [`RUNAWAY_MULTIPLE`]); `None` for dimensionless parameters or when
+/// the data's scale is zero.
+pub fn runaway_limit(model: &dyn Model, data: &Observations, index: usize) -> Option<f64> {
+    let scale = match model.parameters()[index].dimension {
+        Dimension::Response => data.y().iter().fold(0.0f64, |m, v| m.max(v.abs())),
+        Dimension::Predictor(j) => (0..data.len()).fold(0.0f64, |m, i| m.max(data.x(i)[j].abs())),
+        Dimension::Dimensionless | Dimension::Unspecified => return None,
+    };
+    (scale > 0.0 && scale.is_finite()).then_some(RUNAWAY_MULTIPLE * scale)
 }
 
 /// Everything known about one fit.
@@ -271,7 +312,16 @@ pub fn fit_weighted(
 /// column to unit length) carry no information in double precision.
 const RANK_TOLERANCE: f64 = 1e-12;
 
-fn summarise(model: &dyn Model, data: &Observations, report: SolverReport, level: f64) -> Fit {
+fn summarise(model: &dyn Model, data: &Observations, mut report: SolverReport, level: f64) -> Fit {
+    // A stopped minimiser with a parameter far beyond the data's scale has
+    // not found an optimum: it drifted along a valley towards infinity.
+    let runaway: Vec<usize> = (0..report.parameters.len())
+        .filter(|&j| runaway_limit(model, data, j).is_some_and(|limit| report.parameters[j].abs() > limit))
+        .collect();
+    if report.converged && !runaway.is_empty() {
+        report.converged = false;
+        report.termination = Termination::NoFiniteOptimum;
+    }
     let n = data.len();
     let p = report.parameters.len();
     let dof = n - p;
@@ -310,8 +360,38 @@ fn summarise(model: &dyn Model, data: &Observations, report: SolverReport, level
     let aicc = aicc(report.rss, n, p);
 
     let mut warnings = Vec::new();
-    if !report.converged {
+    if report.termination == Termination::NoFiniteOptimum {
+        for &j in &runaway {
+            parameters[j].flag = Some(flags::NOT_DETERMINED.to_string());
+        }
+        let names: Vec<String> = runaway
+            .iter()
+            .map(|&j| format!("{} (ran off to {:.3e})", model.parameters()[j].name, report.parameters[j]))
+            .collect();
+        warnings.push(format!(
+            "Not determined by these data: {}. The sum of squares keeps falling as {} grow{} without bound (beyond {}× the largest measured value of the same kind), so no finite value is a best fit; the numbers shown are where the search stopped, not estimates. Extend the design (for a hyperbola: concentrations well above Km).",
+            names.join(", "),
+            if runaway.len() == 1 { "it" } else { "they" },
+            if runaway.len() == 1 { "s" } else { "" },
+            RUNAWAY_MULTIPLE
+        ));
+    } else if !report.converged {
         warnings.push(format!("The fit {}; the numbers shown are not a least-squares solution.", report.termination.describe()));
+    }
+    if report.converged {
+        let crossing: Vec<usize> = (0..p)
+            .filter(|&j| model.positive(j) && parameters[j].value > 0.0 && parameters[j].ci_low.is_some_and(|low| low <= 0.0))
+            .collect();
+        for &j in &crossing {
+            parameters[j].flag = Some(flags::ASYMPTOTIC_CROSSES_ZERO.to_string());
+        }
+        if !crossing.is_empty() {
+            let names: Vec<&str> = crossing.iter().map(|&j| model.parameters()[j].name).collect();
+            warnings.push(format!(
+                "The asymptotic interval of {} reaches zero or below, impossible for a positive constant: the straight-line approximation behind it fails here. Use the profile interval, which follows the curvature and says when the data do not bound a constant.",
+                names.join(", ")
+            ));
+        }
     }
     if covariance.is_none() && report.converged {
         warnings.push(
@@ -358,6 +438,7 @@ pub fn estimate(name: &str, value: f64, std_error: Option<f64>, t_quantile: Opti
         unit: None,
         derived: false,
         ci_method: "asymptotic".to_string(),
+        flag: None,
     }
 }
 

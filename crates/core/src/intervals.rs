@@ -21,10 +21,10 @@
 //! percentile interval undercovers; percentiles remain available. The
 //! generator is seeded by the caller, so results are reproducible.
 
-use crate::fit::{iterate_weights, unscaled_covariance, Fit, FitSummary};
+use crate::fit::{flags, iterate_weights, runaway_limit, unscaled_covariance, Fit, FitSummary};
 use crate::model::{Model, Observations, ParameterSpec};
 use crate::random::SplitMix64;
-use crate::solver::{minimise, SolverReport, SolverSettings};
+use crate::solver::{minimise, SolverReport, SolverSettings, Termination};
 use nalgebra::DMatrix;
 use serde::{Deserialize, Serialize};
 
@@ -133,6 +133,11 @@ pub fn profile_rss(model: &dyn Model, data: &Observations, index: usize, value: 
 fn profile_end(model: &dyn Model, data: &Observations, fit: &Fit, index: usize, direction: f64, t: f64) -> Option<f64> {
     let best = fit.values();
     let theta = best[index];
+    let ran_off = fit.summary.parameters[index].flag.as_deref() == Some(flags::NOT_DETERMINED);
+    if ran_off && direction * theta > 0.0 {
+        // The fit ran off this way: the profile keeps falling, never closes.
+        return None;
+    }
     let s = (fit.summary.rss / fit.summary.dof as f64).sqrt();
     if !(s > 0.0) {
         return None;
@@ -146,7 +151,10 @@ fn profile_end(model: &dyn Model, data: &Observations, fit: &Fit, index: usize, 
     let mut inner = (theta, 0.0, best.to_vec());
     let mut outer = None;
     for _ in 0..80 {
-        let c = inner.0 + direction * step;
+        // From a run-off value back towards the data, halve (a geometric
+        // walk): additive steps of its huge standard error would overshoot
+        // past zero at once.
+        let c = if ran_off { inner.0 / 2.0 } else { inner.0 + direction * step };
         let Some((rss, params)) = profile_rss(model, data, index, c, &inner.2) else {
             return None;
         };
@@ -202,7 +210,9 @@ pub fn profile_interval(model: &dyn Model, data: &Observations, fit: &Fit, index
     let Some(t) = fit.t_quantile else {
         return (None, None);
     };
-    if !fit.summary.converged {
+    // A fit with no finite optimum still has a best-known sum of squares
+    // (the limit it runs towards), so the side that does close is found.
+    if !fit.summary.converged && fit.summary.termination != Termination::NoFiniteOptimum {
         return (None, None);
     }
     (profile_end(model, data, fit, index, -1.0, t), profile_end(model, data, fit, index, 1.0, t))
@@ -426,23 +436,7 @@ pub fn apply_interval_method(
     match method {
         IntervalMethod::Asymptotic => Ok(None),
         IntervalMethod::Profile => {
-            let mut open = Vec::new();
-            for j in 0..p {
-                let (low, high) = profile_interval(model, data, fit, j);
-                let estimate = &mut summary.parameters[j];
-                if low.is_none() || high.is_none() {
-                    open.push(estimate.name.clone());
-                }
-                estimate.ci_low = low;
-                estimate.ci_high = high;
-                estimate.ci_method = IntervalMethod::Profile.name().to_string();
-            }
-            if !open.is_empty() {
-                summary.warnings.push(format!(
-                    "The profile interval of {} is open on at least one side: within the search the data do not bound it at this confidence level.",
-                    open.join(", ")
-                ));
-            }
+            apply_profile_intervals(summary, model, data, fit, true);
             Ok(None)
         }
         IntervalMethod::Bootstrap => {
@@ -469,7 +463,12 @@ pub fn apply_interval_method(
                 estimate.ci_low = low;
                 estimate.ci_high = high;
                 estimate.ci_method = IntervalMethod::Bootstrap.name().to_string();
+                if estimate.flag.as_deref() == Some(flags::ASYMPTOTIC_CROSSES_ZERO) {
+                    estimate.flag = None;
+                }
             }
+            summary.warnings.retain(|w| !w.starts_with(ASYMPTOTIC_ZERO_WARNING));
+            open_runaway_bootstrap_sides(summary, model, data, &sample);
             if sample.failures * 20 > settings.resamples {
                 summary.warnings.push(format!(
                     "{} of {} bootstrap refits did not converge and were left out; the intervals may be too narrow.",
@@ -477,6 +476,101 @@ pub fn apply_interval_method(
                 ));
             }
             Ok(Some(sample))
+        }
+    }
+}
+
+/// Replaces the intervals of the fitted parameters by profile intervals,
+/// flags every side the profile does not close (`not_bounded_above` /
+/// `not_bounded_below`; a run-off parameter keeps `not_determined`) and
+/// says so in the warnings. Also used when the fit ran off, whatever
+/// interval method was asked for, since then only the profile can say
+/// which side the data bound.
+///
+/// With `replace` false the intervals are left as they are (asymptotic)
+/// and only the flags and the warning are added: the check that the data
+/// bound every parameter at all.
+pub fn apply_profile_intervals(summary: &mut FitSummary, model: &dyn Model, data: &Observations, fit: &Fit, replace: bool) {
+    let mut open = Vec::new();
+    for j in 0..fit.values().len() {
+        let (low, high) = profile_interval(model, data, fit, j);
+        let estimate = &mut summary.parameters[j];
+        if replace {
+            estimate.ci_low = low;
+            estimate.ci_high = high;
+            estimate.ci_method = IntervalMethod::Profile.name().to_string();
+            if estimate.flag.as_deref() == Some(flags::ASYMPTOTIC_CROSSES_ZERO) {
+                estimate.flag = None;
+            }
+        }
+        if low.is_none() || high.is_none() {
+            let side = match (low, high) {
+                (None, Some(_)) => "below",
+                (Some(_), None) => "above",
+                _ => "on either side",
+            };
+            if estimate.flag.as_deref() != Some(flags::NOT_DETERMINED) {
+                estimate.flag = Some(
+                    if low.is_none() && high.is_some() { flags::NOT_BOUNDED_BELOW } else { flags::NOT_BOUNDED_ABOVE }.to_string(),
+                );
+            }
+            let bound = match (low, high) {
+                (Some(l), None) => format!(" (the data say only that it exceeds {l:.4})"),
+                (None, Some(h)) => format!(" (the data say only that it is below {h:.4})"),
+                _ => String::new(),
+            };
+            open.push(format!("{} {side}{bound}", estimate.name));
+        }
+    }
+    if !open.is_empty() {
+        summary.warnings.push(format!(
+            "Not determined by these data at this confidence level: the profile interval is open for {}. Within the search the sum of squares never rises enough on that side{}.",
+            open.join("; "),
+            if replace { "" } else { "; the asymptotic interval shown pretends otherwise" }
+        ));
+    }
+    if replace {
+        summary.warnings.retain(|w| !w.starts_with(ASYMPTOTIC_ZERO_WARNING));
+    }
+}
+
+/// How the warning about an asymptotic interval below zero begins (see
+/// [`crate::fit`]); removed when another method replaces the intervals.
+const ASYMPTOTIC_ZERO_WARNING: &str = "The asymptotic interval of";
+
+/// Opens the bootstrap interval of every parameter whose replicates run
+/// off (beyond [`runaway_limit`]) in more than the interval's tail
+/// fraction: then the upper (or lower) quantile is a run-off value, not a
+/// bound. Flags the parameter and says so.
+fn open_runaway_bootstrap_sides(summary: &mut FitSummary, model: &dyn Model, data: &Observations, sample: &BootstrapSample) {
+    let tail = (1.0 - summary.confidence_level) / 2.0;
+    let total = sample.estimates.len() as f64;
+    if total == 0.0 {
+        return;
+    }
+    for j in 0..model.parameters().len() {
+        let Some(limit) = runaway_limit(model, data, j) else { continue };
+        let above = sample.estimates.iter().filter(|e| e[j] > limit).count() as f64 / total;
+        let below = sample.estimates.iter().filter(|e| e[j] < -limit).count() as f64 / total;
+        let estimate = &mut summary.parameters[j];
+        for (fraction, upper) in [(above, true), (below, false)] {
+            if fraction > tail {
+                if upper {
+                    estimate.ci_high = None;
+                    estimate.flag = Some(flags::NOT_BOUNDED_ABOVE.to_string());
+                } else {
+                    estimate.ci_low = None;
+                    estimate.flag = Some(flags::NOT_BOUNDED_BELOW.to_string());
+                }
+                summary.warnings.push(format!(
+                    "Not determined by these data: in {:.1}% of the bootstrap refits {} ran off beyond {:.3e} ({}× the data's scale), so its interval is open {}.",
+                    100.0 * fraction,
+                    estimate.name,
+                    if upper { limit } else { -limit },
+                    crate::fit::RUNAWAY_MULTIPLE,
+                    if upper { "above" } else { "below" }
+                ));
+            }
         }
     }
 }

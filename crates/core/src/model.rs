@@ -145,6 +145,16 @@ pub trait Model {
 
     /// Starting values computed from the data.
     fn initial_guess(&self, data: &Observations) -> Result<Vec<f64>, Error>;
+
+    /// Whether parameter `index` is a constant that is positive by its
+    /// nature, so that an interval reaching below zero says the
+    /// approximation behind it has failed. By default: concentrations (a
+    /// predictor's dimension, such as Km, Ki, IC50) and a maximal rate
+    /// named `Vmax`.
+    fn positive(&self, index: usize) -> bool {
+        let spec = self.parameters()[index];
+        matches!(spec.dimension, Dimension::Predictor(_)) || spec.name == "Vmax"
+    }
 }
 
 /// Checks an analytic gradient against central finite differences at `p`

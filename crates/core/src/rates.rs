@@ -7,11 +7,12 @@
 use crate::diagnostics::{residual_diagnostics, ResidualDiagnostics};
 use crate::error::Error;
 use crate::fit::{estimate, fit_model, fit_weighted, Fit, FitSettings, FitSummary, ParameterEstimate};
-use crate::intervals::{apply_interval_method, bootstrap_interval, profile_interval, BootstrapScheme, BootstrapSettings, IntervalMethod};
+use crate::intervals::{apply_interval_method, apply_profile_intervals, bootstrap_interval, profile_interval, BootstrapScheme, BootstrapSettings, IntervalMethod};
 use crate::model::{Dimension, Model, Observations};
 use crate::models::{model_by_name, MichaelisMentenSpecificity};
 use crate::plots::{diagnostic_plots, rate_plots, AxisUnits, PlotData, RatePoint};
 use crate::robust::{direct_linear, DirectLinearEstimate};
+use crate::solver::Termination;
 use crate::table::{parse_table, ColumnHeading, InputProblem, Table};
 use crate::units::{kcat_per_second, ConcentrationUnit, RateUnit};
 use crate::weighting::Weighting;
@@ -414,8 +415,26 @@ pub fn analyse_rates(request: &RateRequest) -> Result<RateAnalysis, Error> {
     }
     add_derived(&mut summary, &fit, kcat_factor, specificity_factor);
 
+    let ran_off = fit.summary.termination == Termination::NoFiniteOptimum;
     let bootstrap_report = match request.interval_method {
-        IntervalMethod::Asymptotic => None,
+        // A fit that ran off has no asymptotic or bootstrap interval worth
+        // the name; the profile says which side the data do bound.
+        _ if ran_off => {
+            profile_intervals(&mut summary, model.as_ref(), &observations, &fit, kcat_factor, specificity_factor);
+            summary.warnings.push(
+                "The intervals shown are profile intervals whatever method was chosen: with no finite optimum only the profile says which side the data bound."
+                    .to_string(),
+            );
+            None
+        }
+        IntervalMethod::Asymptotic => {
+            // The check that the data bound every constant at all: a
+            // profile that never closes is flagged, the intervals stay.
+            if fit.summary.converged {
+                apply_profile_intervals(&mut summary, model.as_ref(), &observations, &fit, false);
+            }
+            None
+        }
         IntervalMethod::Profile => {
             profile_intervals(&mut summary, model.as_ref(), &observations, &fit, kcat_factor, specificity_factor);
             None
