@@ -420,6 +420,7 @@ fn compare(mut args: FitArgs) -> Result<ExitCode, Failure> {
             "models": comparison.models,
             "f_tests": comparison.f_tests,
             "preferred": comparison.preferred,
+            "candidates": comparison.candidates,
             "verdict": comparison.verdict,
             "problems": problems,
             "notes": notes,
