@@ -306,3 +306,48 @@ fn bootstrap_covers_for_the_logistic() {
     bootstrap_coverage(&cases, sets(200, 2000), if full() { 999 } else { 400 }, &mut report);
     report.finish();
 }
+
+/// Goal (d): the check of the error structure suggests the weighting that
+/// generated the noise. Design (invented): Michaelis-Menten, Vmax 10, Km 2,
+/// [S] at 0.2, 0.35, 0.6, 1, 1.7, 3, 5, 8×Km in duplicate (n = 16); (1)
+/// 10% proportional noise, seed 41; (2) constant noise SD 0.3, seed 42.
+/// Goals: a wrong decisive suggestion (uniform for proportional noise,
+/// relative for constant noise) in at most 5% of sets, plus twice the
+/// Monte Carlo error; the right one for proportional noise in at least
+/// 40% (the check has modest power with 16 points: about half when this
+/// was written; the shares are printed).
+#[test]
+fn the_error_structure_check_suggests_the_generating_weighting() {
+    use turnover_core::errors::error_structure;
+    let (vmax, km) = (10.0, 2.0);
+    let design: Vec<f64> = [0.2, 0.35, 0.6, 1.0, 1.7, 3.0, 5.0, 8.0].iter().flat_map(|f| [f * km, f * km]).collect();
+    let trials = sets(400, 4000);
+    let slack = 2.0 * (0.05f64 * 0.95 / trials as f64).sqrt();
+    let mut failures = Vec::new();
+    for (label, seed, proportional) in [("10% proportional", 41u64, true), ("constant SD 0.3", 42, false)] {
+        let mut rng = SplitMix64::new(seed);
+        let mut counts = std::collections::BTreeMap::<String, usize>::new();
+        for _ in 0..trials {
+            let v: Vec<f64> = design
+                .iter()
+                .map(|s| {
+                    let mean = vmax * s / (km + s);
+                    if proportional { mean * (1.0 + 0.1 * rng.normal()) } else { mean + 0.3 * rng.normal() }
+                })
+                .collect();
+            let data = Observations::single(&design, &v).unwrap();
+            let check = error_structure(&MichaelisMenten, &data).expect("the uniform fit converges");
+            *counts.entry(check.suggested.unwrap_or_else(|| "none".into())).or_default() += 1;
+        }
+        let share = |k: &str| *counts.get(k).unwrap_or(&0) as f64 / trials as f64;
+        println!("error structure, {label}, {trials} sets: suggestions {counts:?}");
+        let (wrong, right) = if proportional { ("uniform", "relative") } else { ("relative", "uniform") };
+        if share(wrong) > 0.05 + slack {
+            failures.push(format!("{label}: {wrong} suggested in {:.1}%", 100.0 * share(wrong)));
+        }
+        if proportional && share(right) < 0.4 {
+            failures.push(format!("{label}: {right} suggested in only {:.1}%", 100.0 * share(right)));
+        }
+    }
+    assert!(failures.is_empty(), "{}", failures.join("\n"));
+}

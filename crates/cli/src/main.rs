@@ -478,6 +478,7 @@ fn to_json(analysis: &RateAnalysis) -> String {
         "diagnostics": analysis.diagnostics,
         "direct_linear": analysis.direct_linear,
         "bootstrap": analysis.bootstrap,
+        "error_structure": analysis.error_structure,
         "caution": analysis.caution,
     });
     fit_json(&analysis.fit, extra)

@@ -123,6 +123,10 @@ pub struct InhibitionAnalysis {
     pub notes: Vec<String>,
     /// Units.
     pub units: InhibitionUnits,
+    /// The check of the error structure on the most general mechanism
+    /// (constant, Poisson-like or relative error) and the weighting it
+    /// suggests.
+    pub error_structure: Option<crate::errors::ErrorStructure>,
     /// The family of plots.
     pub plots: Vec<PlotData>,
     /// The standing caution.
@@ -524,6 +528,19 @@ pub fn analyse_inhibition(request: &InhibitionRequest) -> Result<InhibitionAnaly
         fits.push(summary);
     }
     let comparison = compare_fits(&fits);
+    let general = if mechanisms.contains(&Mechanism::Mixed) { Mechanism::Mixed } else { mechanisms[0] };
+    let error_structure = crate::errors::error_structure(&Inhibition::new(general), &data);
+    if let Some(check) = &error_structure {
+        match check.suggested.as_deref() {
+            Some(suggested) if suggested != request.weighting.name() => notes.push(format!(
+                "{} (on the {} fit.) Every mechanism was fitted with {}; weighting {suggested} suits these data better, and the F test and AICc are only as good as the weights.",
+                check.text,
+                general.name(),
+                request.weighting.describe()
+            )),
+            _ => notes.push(format!("{} (on the {} fit.)", check.text, general.name())),
+        }
+    }
     if inhibitor_levels.iter().filter(|i| **i > 0.0).count() < 2 {
         notes.push("Fewer than two inhibitor concentrations above zero: the mechanisms can hardly be told apart.".to_string());
     }
@@ -578,6 +595,7 @@ pub fn analyse_inhibition(request: &InhibitionRequest) -> Result<InhibitionAnaly
         problems,
         notes,
         units: InhibitionUnits { substrate: symbol(substrate_unit), inhibitor: symbol(inhibitor_unit), rate: rate_unit.map(|u| u.symbol()) },
+        error_structure,
         plots,
         caution: CAUTION.to_string(),
     })

@@ -31,6 +31,8 @@
 //!   mechanism fitted globally, compared and plotted.
 //! - [`dose`]: inhibitor series (IC50 logistic, Morrison tight binding).
 //! - [`compare`]: AICc ranking, Akaike weights, F tests, verdict.
+//! - [`errors`]: the error structure (constant, Poisson-like or relative)
+//!   and the weighting it suggests.
 //!
 //! ```
 //! use turnover_core::rates::{analyse_rates, RateRequest};
@@ -49,6 +51,7 @@
 #![deny(missing_docs)]
 
 pub mod compare;
+pub mod errors;
 pub mod diagnostics;
 pub mod dose;
 pub mod error;

@@ -120,6 +120,10 @@ pub struct RateAnalysis {
     pub diagnostics: ResidualDiagnostics,
     /// The direct linear plot's median estimates, an independent check.
     pub direct_linear: DirectLinearEstimate,
+    /// The check of the error structure (constant, Poisson-like or
+    /// relative) and the weighting it suggests; `None` with weighting by sd
+    /// or when it cannot be computed.
+    pub error_structure: Option<crate::errors::ErrorStructure>,
     /// Details of the bootstrap, when intervals came from one.
     pub bootstrap: Option<BootstrapReport>,
     /// Plot data, direct plot first.
@@ -450,6 +454,17 @@ pub fn analyse_rates(request: &RateRequest) -> Result<RateAnalysis, Error> {
         )?),
     };
     summary.warnings.extend(diagnostics.findings.iter().cloned());
+    let error_structure =
+        if request.weighting == Weighting::Sd { None } else { crate::errors::error_structure(model.as_ref(), &observations) };
+    if let Some(check) = &error_structure {
+        if let Some(suggested) = check.suggested.as_deref().filter(|w| *w != request.weighting.name()) {
+            summary.warnings.push(format!(
+                "{} The fit shown uses {}; weighting {suggested} suits these data better.",
+                check.text,
+                request.weighting.describe()
+            ));
+        }
+    }
 
     let robust_points: Vec<(f64, f64)> = used.iter().filter(|p| p.s > 0.0).map(|p| (p.s, p.v)).collect();
     let robust = direct_linear(&robust_points);
@@ -488,6 +503,7 @@ pub fn analyse_rates(request: &RateRequest) -> Result<RateAnalysis, Error> {
         },
         diagnostics,
         direct_linear: robust,
+        error_structure,
         bootstrap: bootstrap_report,
         plots,
         caution: CAUTION.to_string(),
