@@ -234,10 +234,10 @@ fn bootstrap_coverage(cases: &[BootstrapCase], trials: usize, resamples: usize, 
                 let ses: Vec<Option<f64>> = sample.covariances.iter().map(|c| c.as_ref().map(|c| c[(j, j)].sqrt())).collect();
                 let estimate = &fit.summary.parameters[j];
                 settings.interval = BootstrapInterval::Studentised;
-                let (low, high) = bootstrap_interval(&settings, estimate.value, estimate.std_error, &values, &ses, 0.95);
+                let (low, high) = bootstrap_interval(&settings, estimate.value, estimate.std_error, &values, &ses, 0.95, fit.t_quantile);
                 studentised[j].add(estimate.value, low.zip(high), case.truth[j]);
                 settings.interval = BootstrapInterval::Percentile;
-                let (low, high) = bootstrap_interval(&settings, estimate.value, estimate.std_error, &values, &ses, 0.95);
+                let (low, high) = bootstrap_interval(&settings, estimate.value, estimate.std_error, &values, &ses, 0.95, fit.t_quantile);
                 percentile[j].add(estimate.value, low.zip(high), case.truth[j]);
                 asymptotic[j].add(estimate.value, estimate.ci_low.zip(estimate.ci_high), case.truth[j]);
             }
@@ -350,4 +350,101 @@ fn the_error_structure_check_suggests_the_generating_weighting() {
         }
     }
     assert!(failures.is_empty(), "{}", failures.join("\n"));
+}
+
+/// Goal (g): asymptotic and profile intervals of every rate law in the
+/// study, the bias of the estimates beside them. For each case, `trials`
+/// simulated sets; the profile interval (an open side counts as reaching
+/// infinity) is checked against 94–96%, the asymptotic one against
+/// 93–97% (it is the approximation the others improve on; outside that
+/// range it is a finding), bias reported only (small-sample bias of a
+/// nonlinear estimate is the model's, not the interval's).
+fn likelihood_coverage(cases: &[BootstrapCase], trials: usize, report: &mut Report) {
+    use turnover_core::intervals::profile_interval;
+    for case in cases {
+        let p = case.truth.len();
+        let mut rng = SplitMix64::new(case.seed);
+        let mut profile: Vec<Tally> = (0..p).map(|_| Tally::default()).collect();
+        let mut asymptotic: Vec<Tally> = (0..p).map(|_| Tally::default()).collect();
+        let mut failed = 0;
+        for _ in 0..trials {
+            let y: Vec<f64> = case
+                .design
+                .iter()
+                .map(|x| {
+                    let mean = case.model.value(&[*x], &case.truth);
+                    mean + (case.sd)(mean) * rng.normal()
+                })
+                .collect();
+            let weights: Option<Vec<f64>> = match case.weighting {
+                Weighting::Relative => Some(y.iter().map(|v| 1.0 / (v * v)).collect()),
+                _ => None,
+            };
+            let data = Observations::new(1, case.design.clone(), y, weights).unwrap();
+            let Ok((fit, data)) = fit_weighted(case.model.as_ref(), &data, case.weighting, None, &FitSettings::default()) else {
+                failed += 1;
+                continue;
+            };
+            if !fit.summary.converged {
+                failed += 1;
+                continue;
+            }
+            for j in 0..p {
+                let estimate = &fit.summary.parameters[j];
+                let (low, high) = profile_interval(case.model.as_ref(), &data, &fit, j);
+                profile[j].add(estimate.value, Some((low.unwrap_or(f64::NEG_INFINITY), high.unwrap_or(f64::INFINITY))), case.truth[j]);
+                asymptotic[j].add(estimate.value, estimate.ci_low.zip(estimate.ci_high), case.truth[j]);
+            }
+        }
+        assert!(failed * 50 <= trials, "{}: {failed} of {trials} fits failed", case.label);
+        for j in 0..p {
+            let name = case.model.parameters()[j].name;
+            report.push(profile[j].check(&format!("{}, {name}, profile", case.label), None, Some((0.94, 0.96))));
+            report.push(asymptotic[j].check(&format!("{}, {name}, asymptotic", case.label), None, Some((0.93, 0.97))));
+        }
+    }
+}
+
+/// Goal (g): the designs of the bootstrap study, with asymptotic and
+/// profile intervals. Michaelis-Menten n = 16 uniform (seed 51) and
+/// relative (seed 52), the logistic n = 16 (seed 53); designs as in
+/// `bootstrap_covers_for_michaelis_menten` and
+/// `bootstrap_covers_for_the_logistic`. Quick: 400 sets each; full: 4,000.
+#[test]
+fn asymptotic_and_profile_intervals_cover() {
+    use turnover_core::models::{model_with_options, ModelOptions};
+    let design: Vec<f64> = [0.2, 0.35, 0.6, 1.0, 1.7, 3.0, 5.0, 8.0].iter().flat_map(|f| [2.0 * f, 2.0 * f]).collect();
+    let doses: Vec<f64> = [0.03, 0.1, 0.2, 0.5, 1.0, 2.0, 5.0, 30.0].iter().flat_map(|x| [*x, *x]).collect();
+    let cases = [
+        BootstrapCase {
+            label: "mm n=16 uniform, sd 0.4",
+            model: Box::new(MichaelisMenten),
+            truth: vec![10.0, 2.0],
+            design: design.clone(),
+            sd: |_| 0.4,
+            weighting: Weighting::Uniform,
+            seed: 51,
+        },
+        BootstrapCase {
+            label: "mm n=16 relative, cv 10%",
+            model: Box::new(MichaelisMenten),
+            truth: vec![10.0, 2.0],
+            design,
+            sd: |mean| 0.1 * mean,
+            weighting: Weighting::Relative,
+            seed: 52,
+        },
+        BootstrapCase {
+            label: "logistic n=16 uniform, sd 4",
+            model: model_with_options("ic50", &ModelOptions::default()).unwrap(),
+            truth: vec![5.0, 100.0, 1.0, 1.0],
+            design: doses,
+            sd: |_| 4.0,
+            weighting: Weighting::Uniform,
+            seed: 53,
+        },
+    ];
+    let mut report = Report::default();
+    likelihood_coverage(&cases, sets(400, 4000), &mut report);
+    report.finish();
 }

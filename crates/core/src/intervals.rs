@@ -236,9 +236,10 @@ pub enum BootstrapScheme {
 pub enum BootstrapInterval {
     /// Bootstrap-t: the quantiles of (θ* − θ̂)/SE* around θ̂ scaled by the
     /// fit's own SE (Efron & Tibshirani 1993, ch. 12; Davison & Hinkley
-    /// 1997, sec. 5.2; from memory). It carries the small-sample t-like
-    /// widening that percentile intervals lack, which is why percentile
-    /// intervals undercover at n = 12–20.
+    /// 1997, sec. 5.2; from memory), each side at least as wide as the t
+    /// interval (see [`studentised_interval`]). It carries the small-sample
+    /// t-like widening that percentile intervals lack, which is why
+    /// percentile intervals undercover at n = 12–20.
     #[default]
     Studentised,
     /// The α/2 and 1 − α/2 quantiles of the replicates themselves (kept
@@ -381,7 +382,25 @@ pub fn bootstrap(model: &dyn Model, data: &Observations, fit: &Fit, settings: &B
 /// Bootstrap-t interval at `level` for an estimate `value` with standard
 /// error `se`, from replicates `values` with their own standard errors
 /// `ses` (pairs with a non-finite or non-positive SE are left out).
-pub fn studentised_interval(value: f64, se: f64, values: &[f64], ses: &[Option<f64>], level: f64) -> (Option<f64>, Option<f64>) {
+///
+/// `t_floor`, when given, is the Student t quantile t(1 − α/2, n − p): each
+/// side's multiplier is at least that. With 12–20 points the empirical
+/// distribution of the residuals is lighter-tailed than the errors it
+/// stands for (the sample kurtosis is biased low), so the resampled
+/// standard errors vary too little and the bootstrap-t quantiles come out
+/// narrower than the exact t quantiles of the linear normal model; the
+/// floor keeps that exact small-sample width and lets the bootstrap add
+/// only what the model's curvature adds (asymmetry, extra width).
+/// Turnover's rule, checked by simulation in `tests/coverage.rs`: the
+/// four-parameter logistic at n = 16 covered 92.5% without it.
+pub fn studentised_interval(
+    value: f64,
+    se: f64,
+    values: &[f64],
+    ses: &[Option<f64>],
+    level: f64,
+    t_floor: Option<f64>,
+) -> (Option<f64>, Option<f64>) {
     if !(se.is_finite() && se > 0.0) {
         return (None, None);
     }
@@ -395,12 +414,14 @@ pub fn studentised_interval(value: f64, se: f64, values: &[f64], ses: &[Option<f
     let (Some(low_t), Some(high_t)) = (quantile(&mut t, alpha / 2.0), quantile(&mut t, 1.0 - alpha / 2.0)) else {
         return (None, None);
     };
-    (Some(value - high_t * se), Some(value - low_t * se))
+    let floor = t_floor.unwrap_or(0.0);
+    (Some(value - high_t.max(floor) * se), Some(value - low_t.min(-floor) * se))
 }
 
 /// The interval of one quantity from a bootstrap, by the method in
 /// `settings`: `value` and `se` are the original fit's, `values` and `ses`
-/// the replicates'.
+/// the replicates', `t_floor` the fit's t quantile (see
+/// [`studentised_interval`]).
 pub fn bootstrap_interval(
     settings: &BootstrapSettings,
     value: f64,
@@ -408,9 +429,10 @@ pub fn bootstrap_interval(
     values: &[f64],
     ses: &[Option<f64>],
     level: f64,
+    t_floor: Option<f64>,
 ) -> (Option<f64>, Option<f64>) {
     match (settings.interval, se) {
-        (BootstrapInterval::Studentised, Some(se)) => studentised_interval(value, se, values, ses, level),
+        (BootstrapInterval::Studentised, Some(se)) => studentised_interval(value, se, values, ses, level, t_floor),
         (BootstrapInterval::Studentised, None) => (None, None),
         (BootstrapInterval::Percentile, _) => percentile_interval(values, level),
     }
@@ -458,6 +480,7 @@ pub fn apply_interval_method(
                     &values,
                     &ses,
                     summary.confidence_level,
+                    fit.t_quantile,
                 );
                 let estimate = &mut summary.parameters[j];
                 estimate.ci_low = low;

@@ -701,7 +701,7 @@ fn bootstrap_intervals(
     let n_fitted = fit.values().len();
     for (estimate, (values, ses)) in summary.parameters[n_fitted..].iter_mut().zip(&derived) {
         let (low, high) =
-            bootstrap_interval(settings, estimate.value, estimate.std_error, values, ses, summary.confidence_level);
+            bootstrap_interval(settings, estimate.value, estimate.std_error, values, ses, summary.confidence_level, fit.t_quantile);
         estimate.ci_low = low;
         estimate.ci_high = high;
         estimate.ci_method = IntervalMethod::Bootstrap.name().to_string();
