@@ -25,6 +25,8 @@
 //! - [`rates`]: the whole rate analysis used by page and CLI alike.
 //! - [`traces`]: time courses to initial rates (windows, flags, blanks,
 //!   Beer-Lambert or a standard curve), and the rate table they make.
+//! - [`early`]: a trace's initial rate from its early part with curvature
+//!   (integrated rate equation with apparent constants).
 //! - [`lambert`]: the Lambert W function.
 //! - [`progress`]: the integrated Michaelis-Menten fit to whole time courses.
 //! - [`inhibition`]: rates at several [S] and [I], every reversible
@@ -51,6 +53,7 @@
 #![deny(missing_docs)]
 
 pub mod compare;
+pub mod early;
 pub mod errors;
 pub mod diagnostics;
 pub mod dose;
