@@ -230,6 +230,13 @@ fn choose_unit<T>(
 /// Reads the table, fits the model and gathers everything the page and the
 /// CLI show.
 pub fn analyse_rates(request: &RateRequest) -> Result<RateAnalysis, Error> {
+    analyse_rates_with(request, None)
+}
+
+/// [`analyse_rates`] with the weights of the points used (in table order,
+/// left-out lines skipped) given and held fixed: the comparison of rate
+/// laws fits every law with the same weights.
+fn analyse_rates_with(request: &RateRequest, fixed_weights: Option<&[f64]>) -> Result<RateAnalysis, Error> {
     let model_name = if request.model.trim().is_empty() { "mm" } else { request.model.trim() };
     if crate::models::model_input(model_name).is_some_and(|input| input != crate::models::ModelInput::Substrate) {
         return Err(Error::invalid_option(format!(
@@ -350,7 +357,18 @@ pub fn analyse_rates(request: &RateRequest) -> Result<RateAnalysis, Error> {
         Some(used.iter().map(|p| p.weight).collect()),
     )?;
     let settings = FitSettings::default();
-    let (fit, observations) = fit_weighted(model.as_ref(), &observations, request.weighting, None, &settings)?;
+    let observations = match fixed_weights {
+        Some(w) if w.len() == observations.len() => observations.with_weights(w.to_vec())?,
+        Some(_) => return Err(Error::invalid_data("the fixed weights do not match the points used")),
+        None => observations,
+    };
+    let scheme = if fixed_weights.is_some() { Weighting::Sd } else { request.weighting };
+    let (fit, observations) = fit_weighted(model.as_ref(), &observations, scheme, None, &settings)?;
+    if let Some(w) = fixed_weights {
+        for (point, weight) in points.iter_mut().filter(|p| !p.excluded).zip(w) {
+            point.weight = *weight;
+        }
+    }
     let values = fit.values().to_vec();
     for point in &mut points {
         point.fitted = model.value(&[point.s], &values);
@@ -529,17 +547,42 @@ pub fn compare_rate_models(request: &RateRequest, models: &[String]) -> Result<R
     if models.is_empty() {
         return Err(Error::invalid_option("name at least one model to compare"));
     }
-    let mut fits = Vec::with_capacity(models.len());
-    let mut first = None;
-    for model in models {
+    let one = |model: &String, fixed: Option<&[f64]>| {
         let mut one = request.clone();
         one.model = model.clone();
-        let analysis = analyse_rates(&one)?;
-        fits.push(analysis.fit.clone());
-        first.get_or_insert(analysis);
+        analyse_rates_with(&one, fixed)
+    };
+    let mut analyses = models.iter().map(|m| one(m, None)).collect::<Result<Vec<_>, Error>>()?;
+    // Weights from a fitted curve differ between laws; sums of squares
+    // compare only with the same weights. So the weights of the law with
+    // the most parameters (the first such in the list), iterated on its own
+    // curve, are held fixed for every law.
+    if request.weighting.from_model() {
+        let general = (0..models.len())
+            .max_by_key(|&k| (model_by_name(&models[k]).map(|m| m.parameters().len()).unwrap_or(0), std::cmp::Reverse(k)))
+            .expect("at least one model");
+        if analyses[general].fit.reweighting_rounds.is_some() {
+            let weights: Vec<f64> = analyses[general].points.iter().filter(|p| !p.excluded).map(|p| p.weight).collect();
+            let rounds = analyses[general].fit.reweighting_rounds;
+            analyses = models.iter().map(|m| one(m, Some(&weights))).collect::<Result<Vec<_>, Error>>()?;
+            for analysis in &mut analyses {
+                analysis.fit.reweighting_rounds = rounds;
+            }
+            analyses[0].notes.push(format!(
+                "For the comparison, {} are computed from the {} fit's curve and used unchanged for every rate law, so that the sums of squares compare.",
+                request.weighting.describe(),
+                models[general]
+            ));
+        } else {
+            analyses[0].notes.push(format!(
+                "The weights from the {} fit's curve did not settle; every rate law keeps its own weights, so the comparison of sums of squares is approximate.",
+                models[general]
+            ));
+        }
     }
+    let fits: Vec<FitSummary> = analyses.iter().map(|a| a.fit.clone()).collect();
     let comparison = crate::compare::compare_fits(&fits);
-    Ok(RateComparison { comparison, fits, first: first.expect("at least one model was fitted") })
+    Ok(RateComparison { comparison, fits, first: analyses.swap_remove(0) })
 }
 
 /// Warnings about what the design lets the data determine, for the
@@ -788,5 +831,25 @@ mod tests {
         req.enzyme = Some(-1.0);
         req.enzyme_unit = Some("nM".into());
         assert!(analyse_rates(&req).unwrap_err().message.contains("must be a positive number"));
+    }
+
+    /// With weights from the fitted curve, the comparison of rate laws holds
+    /// one set of weights (from the law with most parameters) for every law:
+    /// then a nested law can never fit better than the law that contains it
+    /// (least squares with the same weights; common practice, no source),
+    /// and the verdict says so.
+    #[test]
+    fn rate_laws_are_compared_with_the_same_weights() {
+        let text = "S\tv\n0.1\t1.9\n0.2\t3.1\n0.5\t5.3\n1\t6.4\n2\t7.4\n5\t8.4\n10\t8.9\n20\t9.0\n";
+        let mut req = request(text);
+        req.weighting = Weighting::Relative;
+        let models: Vec<String> = ["mm", "hill", "substrate-inhibition"].iter().map(|m| m.to_string()).collect();
+        let c = compare_rate_models(&req, &models).unwrap();
+        assert!(c.comparison.verdict.contains("the same relative weights"), "{}", c.comparison.verdict);
+        assert!(c.fits.iter().all(|f| f.reweighting_rounds == c.fits[0].reweighting_rounds));
+        for general in &c.fits[1..] {
+            assert!(general.rss <= c.fits[0].rss * (1.0 + 1e-9), "{}: {} vs mm {}", general.model, general.rss, c.fits[0].rss);
+        }
+        assert!(c.first.notes.iter().any(|n| n.contains("used unchanged for every rate law")), "{:?}", c.first.notes);
     }
 }
