@@ -219,6 +219,7 @@ fn lambert_w_matches_scipy() {
 fn benchmark_384_wells() {
     use std::time::Instant;
     let p = plate(99, 384, 100, 0.25, 50.0, 2.0, 0.001, &[5.0, 10.0, 20.0, 40.0, 80.0, 160.0, 320.0, 640.0]);
+    // The page's path: window rates only (v0 is asked for separately).
     let req = request(&p);
     let reference = || {
         let t0 = Instant::now();
@@ -392,7 +393,7 @@ fn early_trace_model_recovers_v0_on_the_noise_free_plate() {
     let (km, vmax) = (20.0, 2.0);
     let concentrations = [5.0, 10.0, 20.0, 40.0, 80.0, 160.0];
     let exact = plate(1, 12, 61, 0.5, km, vmax, 0.0, &concentrations);
-    let result = analyse_traces(&request(&exact)).unwrap();
+    let result = analyse_traces(&TraceRequest { fit_v0: true, ..request(&exact) }).unwrap();
     for (trace, (name, s0, v0)) in result.traces.iter().zip(&exact.truth) {
         let found = trace.v0.unwrap_or_else(|| panic!("{name}: no v0"));
         let window = trace.rate.unwrap();
@@ -435,7 +436,7 @@ fn early_trace_model_recovers_initial_rates() {
         let mut missing = 0;
         for k in 0..plates {
             let p = plate(seed_base + k as u64, 12, 61, 0.5, km, vmax, noise, &concentrations);
-            let result = analyse_traces(&request(&p)).unwrap();
+            let result = analyse_traces(&TraceRequest { fit_v0: true, ..request(&p) }).unwrap();
             for (trace, (_, s0, v0)) in result.traces.iter().zip(&p.truth) {
                 let c = concentrations.iter().position(|x| x == s0).unwrap();
                 let (Some(v), Some(low), Some(high)) = (trace.v0, trace.v0_ci_low, trace.v0_ci_high) else {

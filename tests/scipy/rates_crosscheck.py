@@ -22,7 +22,7 @@ The plates are GENERATED synthetic data from numpy.random.default_rng seeds
 6220 M^-1 cm^-1 (from memory), path 0.6 cm, Gaussian noise, written with
 '%.9g'; the numbers actually written are what is refitted.
 
-Every trace's curvature-aware initial rate ``v0`` (the integrated
+With ``--v0``, every trace's curvature-aware initial rate ``v0`` (the integrated
 Michaelis-Menten equation with apparent constants of that trace, fitted to
 the ``v0_points`` first readings) is refitted by ``scipy.optimize.curve_fit``
 with ``scipy.special.lambertw`` (Newton's iteration in log form where
@@ -170,7 +170,7 @@ with tempfile.TemporaryDirectory() as tmp:
         tt, conc = rows[:, 0], rows[:, 1:] / (EPS * PATH) * 1e6
         try:
             out = subprocess.run([BIN, "rates", str(traces), "--layout", str(layout),
-                                  "--epsilon", str(EPS), "--path", str(PATH), "--json"],
+                                  "--epsilon", str(EPS), "--path", str(PATH), "--json", "--v0"],
                                  capture_output=True, text=True, check=True)
         except (OSError, subprocess.CalledProcessError) as e:
             print(f"FAIL plate {seed}: turnover did not run: {e}")

@@ -26,6 +26,7 @@ OPTIONS for rates:
     --window NAME=A:B      set the window of trace NAME (or * for all) to times A..B
     --exclude NAME         leave a trace out (repeatable)
     --json                 one JSON object
+    --v0                   also fit each trace's curvature-aware initial rate (v0, its SE and 95% profile interval)
 ";
 
 struct TraceArgs {
@@ -51,6 +52,7 @@ fn parse(args: &[String]) -> Result<TraceArgs, Failure> {
     while i < args.len() {
         match args[i].as_str() {
             "--json" => json = true,
+            "--v0" => request.fit_v0 = true,
             "--falls" => request.direction = Direction::Falls,
             "--layout" => layout = Some(value(&mut i, "--layout")?),
             "--standard" => standard = Some(value(&mut i, "--standard")?),

@@ -155,6 +155,12 @@ pub struct TraceRequest {
     pub windows: Vec<WindowOverride>,
     /// Traces to leave out of the rate table and the fits.
     pub excluded: Vec<String>,
+    /// Whether to fit each trace's curvature-aware initial rate `v0`
+    /// beside the window's rate ([`crate::early`]). Default false: it costs
+    /// tens of refits per trace (its profile interval), of the order of
+    /// 0.1 s per 100-point trace natively, so a plate reader's 384 wells
+    /// take most of a minute; ask for it where it is shown or used.
+    pub fit_v0: bool,
 }
 
 impl Default for TraceRequest {
@@ -171,6 +177,7 @@ impl Default for TraceRequest {
             max_conversion: 0.10,
             windows: Vec::new(),
             excluded: Vec::new(),
+            fit_v0: false,
         }
     }
 }
@@ -258,8 +265,9 @@ pub struct TraceResult {
     pub rate_ci_high: Option<f64>,
     /// The initial rate from the early-trace model that accounts for
     /// curvature (the integrated rate equation with apparent constants of
-    /// this trace; see [`crate::early`]), when [S]0 is known in
-    /// concentration units and the fit converges. The window's `rate` stays
+    /// this trace; see [`crate::early`]), when asked for
+    /// ([`TraceRequest::fit_v0`]), [S]0 is known in concentration units and
+    /// the fit converges. The window's `rate` stays
     /// the rate the rate table uses; this is the estimate beside it.
     pub v0: Option<f64>,
     /// Its standard error (from every point the fit used, with K free, also
@@ -1364,7 +1372,7 @@ fn rate_for_trace(result: &mut TraceResult, cells: &[CellState], request: &Trace
         result.rate_ci_low = Some(fit.slope - q * se);
         result.rate_ci_high = Some(fit.slope + q * se);
     }
-    if let Some(s0) = s0 {
+    if let Some(s0) = s0.filter(|_| request.fit_v0) {
         if let Some(early) = crate::early::integrated_initial_rate(&t, &y, s0, fit.slope, fit.intercept - fit.slope * (t[fit.start] - t[0])) {
             result.v0 = Some(early.rate);
             result.v0_se = Some(early.std_error);
