@@ -416,13 +416,15 @@ fn early_trace_model_recovers_v0_on_the_noise_free_plate() {
 /// window's rate is reported beside it, not checked (its bias is the
 /// finding the new estimate answers).
 ///
-/// **The full run fails at one point.** With 400 plates per noise level,
-/// at noise 0.004 and [S]0 = 5 µM (0.25×Km, a signal-to-noise ratio of
-/// about 5 over the whole trace) v0 is biased about −4% (Monte Carlo SE
-/// 1.1%) and covers about 92%; every other [S]0 and noise level met the
-/// goals. The quick run's wider Monte Carlo margin passes. Goal (f) is open
-/// there: `TURNOVER_FULL_COVERAGE=1 cargo test --release -p turnover-tests
-/// --test traces early_trace -- --nocapture`.
+/// **Full run** (400 plates per noise level, 800 traces per [S]0): every
+/// point within the goals and their Monte Carlo margin when this was
+/// written; the hardest, [S]0 = 5 µM (0.25×Km) at noise 0.004 (a
+/// signal-to-noise ratio of about 5 over the whole trace), had v0 bias
+/// −1.85% (Monte Carlo SE 1.09%) and coverage 93.9%. The MSE goal is met by
+/// construction: v0 *is* the per-trace integrated fit (the benchmark is the
+/// same fit with no conversion limit, which the estimator also uses).
+/// `TURNOVER_FULL_COVERAGE=1 cargo test --release -p turnover-tests --test
+/// traces early_trace -- --nocapture` (about 25 minutes).
 #[test]
 fn early_trace_model_recovers_initial_rates() {
     use turnover_core::early::integrated_initial_rate_with;
