@@ -101,33 +101,71 @@ fn check_recovery(name: &str, cv: f64, estimates: &[turnover_core::fit::Paramete
     }
 }
 
-/// The mechanism choice (best single mechanism by RSS, mixed only when the
-/// F test rejects it at p < 0.05) finds the generating mechanism in at
-/// least 90% of 200 seeded trials each. Design (invented): Vmax 10 µM/min,
-/// Km 0.5 mM, [S] 0.1–5 mM (0.2–10×Km), [I] 0–10 µM, duplicates, 5%
-/// proportional noise; Ki = 2 µM, and Kic = 2, Kiu = 6 µM for mixed.
+/// The mechanism choice (see `compare.rs`: the F test rejects, AICc must
+/// agree before a single mechanism is named, otherwise "undecided" with
+/// candidates) on 200 seeded trials each. Design (invented): Vmax 10
+/// µM/min, Km 0.5 mM, [S] 0.1–5 mM (0.2–10×Km), [I] 0–10 µM, duplicates,
+/// 5% proportional noise; Ki = 2 µM, and Kic = 2, Kiu = 6 µM for mixed.
+/// Checks: the generating mechanism is named, or is among the candidates
+/// of an undecided verdict, in at least 90% (180) of trials, as before the
+/// rule admitted doubt; a wrong mechanism is named in at most 5% plus
+/// twice the Monte Carlo error (14 of 200); the truth is named outright in
+/// at least 85% (170; the rule now says "undecided" where the F test and
+/// AICc disagree, about 6% of competitive trials when this was written).
+/// A fourth case, mixed with Kiu only 1.5×Kic (Kic 2, Kiu 3 µM), is where
+/// the old rule named "noncompetitive" when the F test merely failed to
+/// reject it: naming noncompetitive there is wrong. On these 200 seeds the
+/// old rule named it 46 times (every undecided verdict below plus every
+/// wrong one); the new rule may name it at most 30 times (15%; 26 when this
+/// was written: where the F test has no power and AICc agrees with it,
+/// doubt cannot be detected from these two numbers), and every other trial
+/// must be mixed or undecided with mixed among the candidates.
 #[test]
 fn mechanism_choice_finds_the_generating_mechanism() {
-    let cases: [(&str, [f64; 4]); 3] =
-        [("competitive", [10.0, 0.5, 2.0, 0.0]), ("uncompetitive", [10.0, 0.5, 2.0, 0.0]), ("mixed", [10.0, 0.5, 2.0, 6.0])];
+    let cases: [(&str, [f64; 4], bool); 4] = [
+        ("competitive", [10.0, 0.5, 2.0, 0.0], true),
+        ("uncompetitive", [10.0, 0.5, 2.0, 0.0], true),
+        ("mixed", [10.0, 0.5, 2.0, 6.0], true),
+        ("mixed", [10.0, 0.5, 2.0, 3.0], false),
+    ];
     let mut report = Vec::new();
-    for (k, (name, truth)) in cases.iter().enumerate() {
+    let mut failures = Vec::new();
+    for (k, (name, truth, powered)) in cases.iter().enumerate() {
         let model = model_with_options(name, &ModelOptions::default()).unwrap();
         let p = &truth[..model.parameters().len()];
-        let mut right = 0;
+        let (mut right, mut standing, mut wrong) = (0, 0, 0);
         let mut chosen = std::collections::BTreeMap::<String, usize>::new();
         for trial in 0..200u64 {
             let mut noise = Noise(SplitMix64::new(1000 * k as u64 + trial));
             let text = inhibition_table(model.as_ref(), p, 0.05, &mut noise);
             let a = analyse_inhibition(&InhibitionRequest { text, ..Default::default() }).unwrap();
-            let pick = a.comparison.preferred.clone().unwrap_or_else(|| "undecided".into());
-            right += usize::from(pick == *name);
-            *chosen.entry(pick).or_default() += 1;
+            let c = &a.comparison;
+            assert!(!c.candidates.is_empty(), "a verdict always leaves a candidate");
+            match &c.preferred {
+                Some(pick) if pick == name => right += 1,
+                Some(_) => wrong += 1,
+                None => {
+                    assert!(c.verdict.starts_with("undecided between "), "{}", c.verdict);
+                    assert!(c.candidates.len() >= 2, "{:?}", c.candidates);
+                    if c.candidates.iter().any(|m| m.model == *name) {
+                        standing += 1;
+                    }
+                }
+            }
+            *chosen.entry(c.preferred.clone().unwrap_or_else(|| "undecided".into())).or_default() += 1;
         }
-        report.push(format!("{name}: {right}/200 right, choices {chosen:?}"));
-        assert!(right >= 180, "{}", report.join("\n"));
+        let line = format!("{name} {truth:?}: {right}/200 named, {standing} undecided with it standing, {wrong} wrong; {chosen:?}");
+        report.push(line.clone());
+        if *powered {
+            if right + standing < 180 || wrong > 14 || right < 170 {
+                failures.push(line);
+            }
+        } else if wrong > 30 || right + standing + wrong < 200 {
+            failures.push(line);
+        }
     }
     println!("{}", report.join("\n"));
+    assert!(failures.is_empty(), "{}", failures.join("\n"));
 }
 
 /// The same measurements in the long and the matrix layout give the same
@@ -212,4 +250,37 @@ fn inhibitor_series_tables_are_read_with_units() {
     assert_eq!(names, ["bottom", "IC50", "hill_slope"]);
     assert_eq!(a.fit.parameters[1].unit.as_deref(), Some("nM"));
     assert!(a.plots[0].log_x && a.plots[0].marks.len() == 1);
+}
+
+
+/// Goal (d) in the mechanism comparison: noncompetitive data (Vmax 10,
+/// Km 0.5, Ki 2; the design of the test above) with 10% proportional noise,
+/// 200 seeded trials (seed 5000 + trial), compared with uniform weights and
+/// with relative weights from the curve. With relative weights the F test
+/// keeps its level: mixed is named in at most 5% plus twice the Monte Carlo
+/// error (14 of 200). With uniform weights the notes must point to the
+/// error structure: the check suggests relative weights in at least half of
+/// the trials. The false "mixed" counts of both are printed.
+#[test]
+fn mechanism_comparison_with_proportional_noise_uses_and_names_the_weighting() {
+    let model = model_with_options("noncompetitive", &ModelOptions::default()).unwrap();
+    let (mut mixed_uniform, mut mixed_relative, mut pointed) = (0, 0, 0);
+    for trial in 0..200u64 {
+        let mut noise = Noise(SplitMix64::new(5000 + trial));
+        let text = inhibition_table(model.as_ref(), &[10.0, 0.5, 2.0], 0.10, &mut noise);
+        let uniform = analyse_inhibition(&InhibitionRequest { text: text.clone(), ..Default::default() }).unwrap();
+        mixed_uniform += usize::from(uniform.comparison.preferred.as_deref() == Some("mixed"));
+        pointed += usize::from(uniform.notes.iter().any(|n| n.contains("weighting relative suits these data better")));
+        let relative = analyse_inhibition(&InhibitionRequest {
+            text,
+            weighting: turnover_core::weighting::Weighting::Relative,
+            ..Default::default()
+        })
+        .unwrap();
+        mixed_relative += usize::from(relative.comparison.preferred.as_deref() == Some("mixed"));
+        assert!(relative.comparison.verdict.contains("every model fitted with the same relative weights"), "{}", relative.comparison.verdict);
+    }
+    println!("noncompetitive, 10% proportional noise, 200 trials: mixed named {mixed_uniform} (uniform weights), {mixed_relative} (relative weights); uniform-weight notes suggest relative in {pointed}");
+    assert!(mixed_relative <= 14, "{mixed_relative}");
+    assert!(pointed >= 100, "{pointed}");
 }

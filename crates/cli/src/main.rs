@@ -590,6 +590,7 @@ fn compare(options: CompareOptions) -> Result<ExitCode, Failure> {
             models: &'a [turnover_core::compare::ModelScore],
             f_tests: &'a [turnover_core::compare::FTest],
             preferred: &'a Option<String>,
+            candidates: &'a [turnover_core::compare::Candidate],
             verdict: &'a str,
             problems: &'a [InputProblem],
             notes: &'a [String],
@@ -599,6 +600,7 @@ fn compare(options: CompareOptions) -> Result<ExitCode, Failure> {
             models: &comparison.models,
             f_tests: &comparison.f_tests,
             preferred: &comparison.preferred,
+            candidates: &comparison.candidates,
             verdict: &comparison.verdict,
             problems: &problems,
             notes: &notes,
@@ -657,6 +659,7 @@ fn write_rate_json(out: &mut Output, analysis: &RateAnalysis, all_points: bool) 
         diagnostics: Diagnostics<'a>,
         direct_linear: &'a turnover_core::robust::DirectLinearEstimate,
         bootstrap: &'a Option<turnover_core::rates::BootstrapReport>,
+        error_structure: &'a Option<turnover_core::errors::ErrorStructure>,
     }
     /// The residual diagnostics, their per-point array under the same rule
     /// as the points.
@@ -688,6 +691,7 @@ fn write_rate_json(out: &mut Output, analysis: &RateAnalysis, all_points: bool) 
         diagnostics,
         direct_linear: &analysis.direct_linear,
         bootstrap: &analysis.bootstrap,
+        error_structure: &analysis.error_structure,
     };
     out.json(&FitJson { fit: &analysis.fit, extra })
 }

@@ -56,6 +56,9 @@ pub struct TraceOptions {
     /// Leave a trace out (repeatable)
     #[arg(long, value_name = "NAME")]
     exclude: Vec<String>,
+    /// Also fit each trace's curvature-aware initial rate (v0, its SE and 95% profile interval)
+    #[arg(long)]
+    v0: bool,
 }
 
 fn preset_names() -> clap::builder::PossibleValuesParser {
@@ -109,6 +112,7 @@ fn prepare(command: &'static str, options: TraceOptions) -> Result<Prepared, Fai
         let end = option_number(b).map_err(|m| usage(command, format!("--window {text}: {m}")))?;
         if !(end > start) {
             return Err(usage(command, format!("--window {text}: the end must come after the start")));
+    request.fit_v0 = options.v0;
         }
         request.windows.push(WindowOverride { trace: name.trim().to_string(), start, end });
     }
@@ -160,6 +164,14 @@ pub fn rates(options: TraceOptions) -> Result<ExitCode, Failure> {
             e: Option<f64>,
             rate: Option<f64>,
             rate_se: Option<f64>,
+            rate_ci_low: Option<f64>,
+            rate_ci_high: Option<f64>,
+            v0: Option<f64>,
+            v0_se: Option<f64>,
+            v0_ci_low: Option<f64>,
+            v0_ci_high: Option<f64>,
+            v0_points: usize,
+            v0_k: Option<f64>,
             rate_unit: &'a str,
             window_start: Option<f64>,
             window_end: Option<f64>,
@@ -195,6 +207,14 @@ pub fn rates(options: TraceOptions) -> Result<ExitCode, Failure> {
                 e: t.e,
                 rate: t.rate,
                 rate_se: t.rate_se,
+                rate_ci_low: t.rate_ci_low,
+                rate_ci_high: t.rate_ci_high,
+                v0: t.v0,
+                v0_se: t.v0_se,
+                v0_ci_low: t.v0_ci_low,
+                v0_ci_high: t.v0_ci_high,
+                v0_points: t.v0_points,
+                v0_k: t.v0_k,
                 rate_unit: &analysis.rate_unit,
                 window_start: t.window_start,
                 window_end: t.window_end,

@@ -11,11 +11,20 @@
 //! principle; Bates & Watts 1988, sec. 3.5, from memory). It is exact only
 //! for models linear in the parameters and approximate otherwise.
 //!
-//! **The choice rule** is deliberately conservative: the simpler model is
-//! kept unless the F test rejects it at p < 0.05 (the conventional level;
-//! common practice, no source). Ranking by AICc alone would choose a
-//! one-parameter-richer model about one time in six when the simpler one
-//! is true, so AICc ranks, the F test decides.
+//! **The choice rule** is deliberately conservative, and says when it
+//! cannot decide. The F test decides what the data reject (p < 0.05, the
+//! conventional level; common practice, no source); AICc must agree before
+//! a simpler model is named, since failing to reject is not evidence for it.
+//! For inhibition: mixed is named when every single mechanism is rejected
+//! against it; a single mechanism is named when it alone is not rejected and
+//! its AICc is below mixed's; otherwise the verdict is *undecided* and names
+//! the candidates (the mechanisms not rejected, and mixed) with their Akaike
+//! weights. For rate laws: a richer law is named when it rejects
+//! Michaelis-Menten; Michaelis-Menten is named when nothing rejects it and
+//! no richer law has a lower AICc; otherwise undecided. (A nested simpler
+//! model's Akaike weight against its general model cannot exceed about
+//! 0.75, so weights alone can never "support" it strongly; the F test does
+//! the rejecting, AICc the tie-breaking.)
 
 use crate::fit::{FitSummary, ParameterEstimate};
 use serde::Serialize;
@@ -58,6 +67,15 @@ pub struct ModelScore {
     pub parameters: Vec<ParameterEstimate>,
 }
 
+/// A model the evidence leaves standing.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct Candidate {
+    /// Machine name.
+    pub model: String,
+    /// Its Akaike weight within the whole set.
+    pub akaike_weight: Option<f64>,
+}
+
 /// One extra-sum-of-squares F test.
 #[derive(Clone, Debug, PartialEq, Serialize)]
 pub struct FTest {
@@ -82,8 +100,13 @@ pub struct Comparison {
     pub models: Vec<ModelScore>,
     /// F tests for the nested pairs present.
     pub f_tests: Vec<FTest>,
-    /// The model the choice rule prefers; `None` when it cannot decide.
+    /// The model the choice rule names; `None` when the data do not decide
+    /// (then `candidates` lists the models still standing).
     pub preferred: Option<String>,
+    /// The models the evidence leaves standing, by decreasing Akaike
+    /// weight: the preferred one alone when there is one, else the
+    /// candidates the verdict names.
+    pub candidates: Vec<Candidate>,
     /// The verdict in words, with its numbers.
     pub verdict: String,
 }
@@ -170,8 +193,20 @@ pub fn compare_fits(fits: &[FitSummary]) -> Comparison {
         .collect();
     let test_of = |s: &str, g: &str| f_tests.iter().find(|t| t.simpler == s && t.general == g);
 
-    let (preferred, verdict) = decide(fits, &f_tests, &test_of, &find);
-    Comparison { models, f_tests: f_tests.clone(), preferred, verdict }
+    let (preferred, mut verdict, candidates) = decide(fits, &f_tests, &test_of, &find, &models);
+    if let Some(weighting) = fits.first().map(|f| f.weighting.as_str()).filter(|w| *w != "uniform") {
+        // Weights recomputed from each model's own curve differ between
+        // models; the analyses hold one set fixed, which shows as the same
+        // number of reweighting rounds on every fit.
+        if fits.iter().all(|f| f.reweighting_rounds == fits[0].reweighting_rounds) {
+            verdict.push_str(&format!(" [every model fitted with the same {weighting} weights, so the sums of squares compare]"));
+        } else {
+            verdict.push_str(&format!(
+                " [the {weighting} weights come from each model's own curve and differ between models, so the sums of squares compare only approximately]"
+            ));
+        }
+    }
+    Comparison { models, f_tests: f_tests.clone(), preferred, candidates, verdict }
 }
 
 type TestLookup<'a> = dyn Fn(&str, &str) -> Option<&'a FTest> + 'a;
@@ -182,52 +217,124 @@ fn decide<'a>(
     f_tests: &'a [FTest],
     test_of: &TestLookup<'a>,
     find: &FitLookup<'a>,
-) -> (Option<String>, String) {
+    models: &[ModelScore],
+) -> (Option<String>, String, Vec<Candidate>) {
     if fits.is_empty() {
-        return (None, "no models were fitted".to_string());
+        return (None, "no models were fitted".to_string(), Vec::new());
     }
+    let weight_of = |name: &str| models.iter().find(|m| m.model == name).and_then(|m| m.akaike_weight);
+    let aicc_of = |name: &str| models.iter().find(|m| m.model == name).and_then(|m| m.aicc).unwrap_or(f64::INFINITY);
+    let candidates_of = |names: &[String]| -> Vec<Candidate> {
+        let mut c: Vec<Candidate> = names.iter().map(|n| Candidate { model: n.clone(), akaike_weight: weight_of(n) }).collect();
+        c.sort_by(|a, b| b.akaike_weight.unwrap_or(0.0).total_cmp(&a.akaike_weight.unwrap_or(0.0)));
+        c
+    };
+    let listed = |c: &[Candidate]| -> String {
+        c.iter()
+            .map(|c| format!("{} (Akaike weight {})", c.model, c.akaike_weight.map_or("—".to_string(), |w| format!("{w:.2}"))))
+            .collect::<Vec<_>>()
+            .join(", ")
+    };
+    let one = |name: &str| vec![Candidate { model: name.to_string(), akaike_weight: weight_of(name) }];
+
     let singles: Vec<&FitSummary> = ["competitive", "uncompetitive", "noncompetitive"].iter().filter_map(|n| find(n)).collect();
     if !singles.is_empty() {
         let mut ranked = singles.clone();
         ranked.sort_by(|a, b| a.rss.total_cmp(&b.rss));
         let best = ranked[0];
-        if let (Some(mixed), Some(test)) = (find("mixed"), test_of(&best.model, "mixed")) {
-            if test.p_value < SIGNIFICANCE {
-                return (
-                    Some("mixed".to_string()),
-                    format!(
-                        "mixed, with {} (the best single mechanism, {}, is rejected: F = {:.2}, {})",
-                        ratio_text(mixed),
-                        best.model,
-                        test.f,
-                        p_text(test.p_value)
-                    ),
-                );
-            }
-        }
-        let against_mixed = test_of(&best.model, "mixed")
-            .map(|t| format!("; mixed adds nothing significant: F = {:.2}, {}", t.f, p_text(t.p_value)))
-            .unwrap_or_default();
-        if let Some(second) = ranked.get(1) {
-            if let (Some(a), Some(b)) = (best.aicc, second.aicc) {
-                if b - a < AICC_TIE {
+        let Some(mixed) = find("mixed") else {
+            // No general model to test against: AICc alone, and only a clear
+            // lead names a mechanism.
+            if let Some(second) = ranked.get(1) {
+                let gap = aicc_of(&second.model) - aicc_of(&best.model);
+                if !(gap >= AICC_TIE) {
+                    let names: Vec<String> = ranked.iter().map(|f| f.model.clone()).collect();
+                    let c = candidates_of(&names);
                     return (
                         None,
-                        format!(
-                            "cannot distinguish {} from {} (AICc differ by {:.1}){against_mixed}; collect data at higher [I] and over a wider [S] range",
-                            best.model,
-                            second.model,
-                            b - a
-                        ),
+                        format!("undecided: {} fit about equally well (AICc differ by {gap:.1}); collect data at higher [I] and over a wider [S] range", listed(&c)),
+                        c,
                     );
                 }
                 return (
                     Some(best.model.clone()),
-                    format!("{} (AICc lower than {} by {:.1}{against_mixed})", best.model, second.model, b - a),
+                    format!("{} (AICc lower than {} by {gap:.1}; no mixed fit to test it against)", best.model, second.model),
+                    one(&best.model),
                 );
             }
+            return (Some(best.model.clone()), format!("{} (the only mechanism fitted)", best.model), one(&best.model));
+        };
+        // Every single mechanism is a special case of mixed: the F test
+        // says which the data reject.
+        let standing: Vec<&FitSummary> =
+            ranked.iter().copied().filter(|f| test_of(&f.model, "mixed").is_none_or(|t| t.p_value >= SIGNIFICANCE)).collect();
+        if standing.is_empty() {
+            let test = test_of(&best.model, "mixed").expect("a rejected single has its test");
+            return (
+                Some("mixed".to_string()),
+                format!(
+                    "mixed, with {} (the best single mechanism, {}, is rejected: F = {:.2}, {})",
+                    ratio_text(mixed),
+                    best.model,
+                    test.f,
+                    p_text(test.p_value)
+                ),
+                one("mixed"),
+            );
         }
-        return (Some(best.model.clone()), format!("{}{against_mixed}", best.model));
+        let not_rejected = |f: &FitSummary| {
+            test_of(&f.model, "mixed").map(|t| format!("F = {:.2}, {}", t.f, p_text(t.p_value))).unwrap_or_else(|| "no test".to_string())
+        };
+        let rejected: Vec<String> = ranked
+            .iter()
+            .filter(|f| !standing.iter().any(|s| s.model == f.model))
+            .filter_map(|f| test_of(&f.model, "mixed").map(|t| format!("{} {}", f.model, p_text(t.p_value))))
+            .collect();
+        let rejected_text =
+            if rejected.is_empty() { String::new() } else { format!("; rejected against mixed: {}", rejected.join(", ")) };
+        let survivor = standing[0];
+        // Name a single mechanism only when it alone survives the F test
+        // and AICc agrees (its Akaike weight above mixed's). When the F test
+        // merely fails to reject while AICc prefers mixed, or several single
+        // mechanisms survive, the data do not decide.
+        if standing.len() == 1 && aicc_of(&survivor.model) < aicc_of("mixed") {
+            return (
+                Some(survivor.model.clone()),
+                format!(
+                    "{} (mixed adds nothing significant: {}; Akaike weights {} {:.2}, mixed {:.2}{rejected_text})",
+                    survivor.model,
+                    not_rejected(survivor),
+                    survivor.model,
+                    weight_of(&survivor.model).unwrap_or(f64::NAN),
+                    weight_of("mixed").unwrap_or(f64::NAN)
+                ),
+                one(&survivor.model),
+            );
+        }
+        let mut names: Vec<String> = standing.iter().map(|f| f.model.clone()).collect();
+        names.push("mixed".to_string());
+        let c = candidates_of(&names);
+        let why = if standing.len() > 1 {
+            format!(
+                "the F test rejects none of {} against mixed",
+                standing.iter().map(|f| format!("{} ({})", f.model, not_rejected(f))).collect::<Vec<_>>().join(", ")
+            )
+        } else {
+            format!(
+                "the F test does not reject {} against mixed ({}), but AICc prefers mixed, with {}",
+                survivor.model,
+                not_rejected(survivor),
+                ratio_text(mixed)
+            )
+        };
+        return (
+            None,
+            format!(
+                "undecided between {}: {why}{rejected_text}; collect data at higher [I] and over a wider [S] range",
+                listed(&c)
+            ),
+            c,
+        );
     }
     if let Some(mm) = find("mm") {
         let mut significant: Vec<(&FitSummary, &FTest)> = f_tests
@@ -240,6 +347,7 @@ fn decide<'a>(
             return (
                 Some(general.model.clone()),
                 format!("{} (Michaelis-Menten is rejected: F = {:.2}, {})", general.model, test.f, p_text(test.p_value)),
+                one(&general.model),
             );
         }
         let tested: Vec<String> = f_tests
@@ -247,14 +355,31 @@ fn decide<'a>(
             .filter(|t| t.simpler == "mm")
             .map(|t| format!("{}: F = {:.2}, {}", t.general, t.f, p_text(t.p_value)))
             .collect();
+        // Not rejected, but named only when AICc agrees.
+        let richer_ahead: Vec<String> =
+            models.iter().filter(|m| m.model != "mm" && m.aicc.unwrap_or(f64::INFINITY) < aicc_of("mm")).map(|m| m.model.clone()).collect();
+        if !richer_ahead.is_empty() && !tested.is_empty() {
+            let mut names = richer_ahead;
+            names.push("mm".to_string());
+            let c = candidates_of(&names);
+            return (
+                None,
+                format!(
+                    "undecided between {}: no richer rate law is significant ({}), but AICc does not prefer Michaelis-Menten; measure more [S] values where the curves differ",
+                    listed(&c),
+                    tested.join("; ")
+                ),
+                c,
+            );
+        }
         let detail = if tested.is_empty() { String::new() } else { format!(" (no richer model is significant; {})", tested.join("; ")) };
-        return (Some(mm.model.clone()), format!("{}{detail}", mm.model));
+        return (Some(mm.model.clone()), format!("{}{detail}", mm.model), one(&mm.model));
     }
     let best = fits
         .iter()
         .min_by(|a, b| a.aicc.unwrap_or(f64::INFINITY).total_cmp(&b.aicc.unwrap_or(f64::INFINITY)))
         .expect("fits is not empty");
-    (Some(best.model.clone()), format!("{} (lowest AICc; no nested pair to test)", best.model))
+    (Some(best.model.clone()), format!("{} (lowest AICc; no nested pair to test)", best.model), one(&best.model))
 }
 
 #[cfg(test)]
@@ -278,6 +403,7 @@ mod tests {
             termination_text: String::new(),
             confidence_level: 0.95,
             weighting: "uniform".into(),
+            reweighting_rounds: None,
             parameters: Vec::new(),
             correlation: Vec::new(),
             warnings: Vec::new(),
@@ -311,5 +437,26 @@ mod tests {
         let ratio = a.akaike_weight.unwrap() / b.akaike_weight.unwrap();
         assert!((ratio - (b.delta_aicc.unwrap() / 2.0).exp()).abs() < 1e-9);
         assert_eq!(c.preferred.as_deref(), Some("competitive"), "{}", c.verdict);
+    }
+
+    /// The F test does not reject competitive against mixed (F = 2.89 on
+    /// (1, 26) df, p ≈ 0.10; the 5% point of F(1, 26) is 4.23, Abramowitz &
+    /// Stegun Table 26.9, from memory) but AICc prefers mixed: the verdict
+    /// must not name competitive, and must list both with their weights.
+    #[test]
+    fn a_mere_failure_to_reject_with_split_weights_is_undecided() {
+        let fits = [summary("competitive", 30, 3, 5.0), summary("uncompetitive", 30, 3, 9.0), summary("mixed", 30, 4, 4.5)];
+        let c = compare_fits(&fits);
+        assert_eq!(c.preferred, None, "{}", c.verdict);
+        assert!(c.verdict.starts_with("undecided between mixed (Akaike weight "), "{}", c.verdict);
+        let names: Vec<&str> = c.candidates.iter().map(|m| m.model.as_str()).collect();
+        assert_eq!(names, ["mixed", "competitive"]);
+        let t = c.f_tests.iter().find(|t| t.simpler == "competitive").unwrap();
+        assert!(t.p_value > 0.05 && t.p_value < 0.2, "{}", t.p_value);
+        // Two single mechanisms both standing: undecided as well.
+        let fits = [summary("competitive", 30, 3, 5.0), summary("noncompetitive", 30, 3, 5.05), summary("mixed", 30, 4, 4.95)];
+        let c = compare_fits(&fits);
+        assert_eq!(c.preferred, None, "{}", c.verdict);
+        assert_eq!(c.candidates.len(), 3);
     }
 }

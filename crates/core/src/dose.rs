@@ -7,7 +7,7 @@
 //! source).
 
 use crate::error::Error;
-use crate::fit::{fit_model, FitSettings, FitSummary};
+use crate::fit::{FitSettings, FitSummary};
 use crate::inhibition::is_inhibitor_name;
 use crate::model::{Dimension, Observations};
 use crate::fit::{Fit, ParameterEstimate};
@@ -256,14 +256,23 @@ pub fn analyse_dose(request: &DoseRequest) -> Result<DoseAnalysis, Error> {
         None => Error::invalid_option(message),
     })?;
     let data = Observations::new(1, used.iter().map(|p| p.i).collect(), responses, weights)?;
-    let fit = fit_model(model.as_ref(), &data, None, &FitSettings::default())?;
+    let (fit, data) = crate::fit::fit_weighted(model.as_ref(), &data, request.weighting, None, &FitSettings::default())?;
     let values = fit.values().to_vec();
     for p in &mut points {
         p.fitted = model.value(&[p.i], &values);
     }
     let mut summary = fit.summary.clone();
     summary.weighting = request.weighting.name().to_string();
-    crate::intervals::apply_interval_method(&mut summary, model.as_ref(), &data, &fit, request.interval_method, &request.bootstrap)?;
+    if fit.summary.termination == crate::solver::Termination::NoFiniteOptimum {
+        // Only the profile says which side the data bound when the fit ran off.
+        crate::intervals::apply_profile_intervals(&mut summary, model.as_ref(), &data, &fit, true);
+    } else {
+        crate::intervals::apply_interval_method(&mut summary, model.as_ref(), &data, &fit, request.interval_method, &request.bootstrap)?;
+        if request.interval_method == IntervalMethod::Asymptotic && fit.summary.converged {
+            // Flag constants whose profile never closes; the intervals stay.
+            crate::intervals::apply_profile_intervals(&mut summary, model.as_ref(), &data, &fit, false);
+        }
+    }
     let i_symbol = inhibitor_unit.map(|u| u.symbol().to_string());
     for (estimate, spec) in summary.parameters.iter_mut().zip(model.parameters()) {
         estimate.unit = match spec.dimension {
@@ -395,6 +404,7 @@ fn add_ki(
         unit: ic50.unit.clone(),
         derived: true,
         ci_method,
+        flag: None,
     });
     Ok(())
 }

@@ -12,8 +12,9 @@
 //! parameter well.
 
 use crate::error::Error;
-use crate::model::{Model, Observations};
+use crate::model::{Dimension, Model, Observations};
 use crate::solver::{minimise, SolverReport, SolverSettings, Termination};
+use crate::weighting::Weighting;
 use nalgebra::DMatrix;
 use serde::Serialize;
 use statrs::distribution::{ContinuousCDF, StudentsT};
@@ -40,6 +41,47 @@ pub struct ParameterEstimate {
     /// `bootstrap` (for derived constants with the asymptotic method, by
     /// the delta method).
     pub ci_method: String,
+    /// What the data say about this parameter beyond its numbers, when it
+    /// is not simply well determined: `not_determined` (the fit ran off
+    /// without bound), `not_bounded_above` / `not_bounded_below` (the
+    /// profile never closes on that side, or the bootstrap replicates run
+    /// off), `asymptotic_crosses_zero` (a positive constant whose
+    /// asymptotic interval reaches below zero: use the profile interval).
+    /// `None` otherwise. A warning in words goes with every flag.
+    pub flag: Option<String>,
+}
+
+/// [`ParameterEstimate::flag`] values.
+pub mod flags {
+    /// The fit ran off without bound in this parameter.
+    pub const NOT_DETERMINED: &str = "not_determined";
+    /// The profile (or bootstrap) does not bound it from above.
+    pub const NOT_BOUNDED_ABOVE: &str = "not_bounded_above";
+    /// The profile (or bootstrap) does not bound it from below.
+    pub const NOT_BOUNDED_BELOW: &str = "not_bounded_below";
+    /// A positive constant whose asymptotic interval reaches below zero.
+    pub const ASYMPTOTIC_CROSSES_ZERO: &str = "asymptotic_crosses_zero";
+}
+
+/// A parameter counts as run off when its magnitude exceeds this multiple
+/// of the data's own scale for its dimension (the largest |v| for a rate,
+/// the largest |x| for a concentration): 1,000 times beyond anything
+/// measured, the value is an extrapolation the data cannot support, and in
+/// practice such fits are drifting along a valley towards infinity (a
+/// stated rule: common practice, no source, for the idea; the multiple is
+/// Turnover's choice).
+pub const RUNAWAY_MULTIPLE: f64 = 1e3;
+
+/// The magnitude beyond which parameter `index` counts as run off
+/// (see [`RUNAWAY_MULTIPLE`]); `None` for dimensionless parameters or when
+/// the data's scale is zero.
+pub fn runaway_limit(model: &dyn Model, data: &Observations, index: usize) -> Option<f64> {
+    let scale = match model.parameters()[index].dimension {
+        Dimension::Response => data.y().iter().fold(0.0f64, |m, v| m.max(v.abs())),
+        Dimension::Predictor(j) => (0..data.len()).fold(0.0f64, |m, i| m.max(data.x(i)[j].abs())),
+        Dimension::Dimensionless | Dimension::Unspecified => return None,
+    };
+    (scale > 0.0 && scale.is_finite()).then_some(RUNAWAY_MULTIPLE * scale)
 }
 
 /// Everything known about one fit.
@@ -74,6 +116,10 @@ pub struct FitSummary {
     pub confidence_level: f64,
     /// The weighting used, by name (`uniform`, `relative`, `poisson`, `sd`).
     pub weighting: String,
+    /// For weights recomputed from the fitted curve (relative, Poisson):
+    /// the number of reweighting rounds until the parameters stopped
+    /// changing; `None` for fixed weights.
+    pub reweighting_rounds: Option<usize>,
     /// Fitted parameters, then derived ones.
     pub parameters: Vec<ParameterEstimate>,
     /// Correlation matrix of the fitted parameters (rows and columns in
@@ -94,6 +140,10 @@ pub struct Fit {
     pub report: SolverReport,
     /// Two-sided t quantile used for the intervals (`None` when dof = 0).
     pub t_quantile: Option<f64>,
+    /// The scheme whose weights were recomputed from the fitted curve, when
+    /// the fit was made by [`fit_weighted`]; refits of resampled data
+    /// (bootstrap) iterate the same way.
+    pub reweighting: Option<Weighting>,
 }
 
 impl Fit {
@@ -152,12 +202,126 @@ pub fn fit_model(model: &dyn Model, data: &Observations, start: Option<&[f64]>, 
     Ok(summarise(model, data, report, settings.confidence_level))
 }
 
+/// Relative change of every parameter between two reweighting rounds below
+/// which the weights count as settled. Each round converges linearly with
+/// a rate of about the squared coefficient of variation of the data, so a
+/// handful of rounds reach it; 1e-11 leaves the fixed point well inside the
+/// 1e-6 the SciPy cross-check asks for.
+pub const REWEIGHT_TOLERANCE: f64 = 1e-11;
+
+/// Most reweighting rounds before the iteration is declared unsettled.
+pub const REWEIGHT_LIMIT: usize = 100;
+
+/// The outcome of iterated reweighting (see [`fit_weighted`]).
+pub(crate) struct Reweighted {
+    /// The last minimisation.
+    pub report: SolverReport,
+    /// The observations with the weights of the last round.
+    pub data: Observations,
+    /// Rounds after the first fit.
+    pub rounds: usize,
+    /// Why the iteration did not settle, when it did not.
+    pub unsettled: Option<String>,
+}
+
+/// Minimises, recomputes the weights of `weighting` from the fitted values,
+/// and refits from the last solution until no parameter changes by more
+/// than `tolerance` (relative) or `limit` rounds have passed. `data`'s own
+/// weights serve the first round.
+pub(crate) fn iterate_weights(
+    model: &dyn Model,
+    data: &Observations,
+    weighting: Weighting,
+    start: &[f64],
+    solver: &SolverSettings,
+    tolerance: f64,
+    limit: usize,
+) -> Reweighted {
+    let mut report = minimise(model, data, start, solver);
+    let mut current = data.clone();
+    for round in 1..=limit {
+        if !report.converged {
+            return Reweighted { report, data: current, rounds: round - 1, unsettled: Some("a refit did not converge".to_string()) };
+        }
+        let weights: Option<Vec<f64>> =
+            (0..data.len()).map(|i| weighting.weight_at_fitted(model.value(data.x(i), &report.parameters))).collect();
+        let Some(weights) = weights else {
+            return Reweighted {
+                report,
+                data: current,
+                rounds: round - 1,
+                unsettled: Some(format!("a fitted value cannot carry {}", weighting.describe())),
+            };
+        };
+        let Ok(next) = data.with_weights(weights) else {
+            return Reweighted { report, data: current, rounds: round - 1, unsettled: Some("the weights were not finite".to_string()) };
+        };
+        let previous = report.parameters.clone();
+        report = minimise(model, &next, &previous, solver);
+        current = next;
+        let change = previous
+            .iter()
+            .zip(&report.parameters)
+            .map(|(a, b)| (a - b).abs() / a.abs().max(b.abs()).max(f64::MIN_POSITIVE))
+            .fold(0.0, f64::max);
+        if report.converged && change <= tolerance {
+            return Reweighted { report, data: current, rounds: round, unsettled: None };
+        }
+    }
+    Reweighted { report, data: current, rounds: limit, unsettled: Some(format!("the weights had not settled after {limit} rounds")) }
+}
+
+/// Fits `model` to `data` with the weights of `weighting`. For relative and
+/// Poisson weighting the weights are recomputed from the fitted curve until
+/// they settle (see [`crate::weighting`]); the first round uses `data`'s own
+/// weights, which should be the same scheme on the measured values. For
+/// uniform and sd weighting this is [`fit_model`]. Returns the fit and the
+/// observations with the final weights, on which profiles and residual
+/// diagnostics must be computed.
+pub fn fit_weighted(
+    model: &dyn Model,
+    data: &Observations,
+    weighting: Weighting,
+    start: Option<&[f64]>,
+    settings: &FitSettings,
+) -> Result<(Fit, Observations), Error> {
+    let first = fit_model(model, data, start, settings)?;
+    if !weighting.from_model() || !first.summary.converged {
+        return Ok((first, data.clone()));
+    }
+    let r = iterate_weights(model, data, weighting, first.values(), &settings.solver, REWEIGHT_TOLERANCE, REWEIGHT_LIMIT);
+    if let Some(why) = r.unsettled {
+        // Reweighting can wander off when the curve nears zero where the
+        // data do not (errors that are not proportional, for example); the
+        // fit on the measured rates is then the better-defined answer.
+        let mut first = first;
+        first.summary.warnings.push(format!(
+            "The weights from the fitted curve did not settle ({why}); the fit shown uses {} on the measured values instead, which biases the estimates slightly (check the error structure).",
+            weighting.describe().replace(" from the fitted curve", "")
+        ));
+        return Ok((first, data.clone()));
+    }
+    let mut fit = summarise(model, &r.data, r.report, settings.confidence_level);
+    fit.summary.reweighting_rounds = Some(r.rounds);
+    fit.reweighting = Some(weighting);
+    Ok((fit, r.data))
+}
+
 /// Condition below which the scaled Jacobian counts as rank deficient:
 /// singular values smaller than this times the largest (after scaling each
 /// column to unit length) carry no information in double precision.
 const RANK_TOLERANCE: f64 = 1e-12;
 
-fn summarise(model: &dyn Model, data: &Observations, report: SolverReport, level: f64) -> Fit {
+fn summarise(model: &dyn Model, data: &Observations, mut report: SolverReport, level: f64) -> Fit {
+    // A stopped minimiser with a parameter far beyond the data's scale has
+    // not found an optimum: it drifted along a valley towards infinity.
+    let runaway: Vec<usize> = (0..report.parameters.len())
+        .filter(|&j| runaway_limit(model, data, j).is_some_and(|limit| report.parameters[j].abs() > limit))
+        .collect();
+    if report.converged && !runaway.is_empty() {
+        report.converged = false;
+        report.termination = Termination::NoFiniteOptimum;
+    }
     let n = data.len();
     let p = report.parameters.len();
     let dof = n - p;
@@ -196,8 +360,38 @@ fn summarise(model: &dyn Model, data: &Observations, report: SolverReport, level
     let aicc = aicc(report.rss, n, p);
 
     let mut warnings = Vec::new();
-    if !report.converged {
+    if report.termination == Termination::NoFiniteOptimum {
+        for &j in &runaway {
+            parameters[j].flag = Some(flags::NOT_DETERMINED.to_string());
+        }
+        let names: Vec<String> = runaway
+            .iter()
+            .map(|&j| format!("{} (ran off to {:.3e})", model.parameters()[j].name, report.parameters[j]))
+            .collect();
+        warnings.push(format!(
+            "Not determined by these data: {}. The sum of squares keeps falling as {} grow{} without bound (beyond {}× the largest measured value of the same kind), so no finite value is a best fit; the numbers shown are where the search stopped, not estimates. Extend the design (for a hyperbola: concentrations well above Km).",
+            names.join(", "),
+            if runaway.len() == 1 { "it" } else { "they" },
+            if runaway.len() == 1 { "s" } else { "" },
+            RUNAWAY_MULTIPLE
+        ));
+    } else if !report.converged {
         warnings.push(format!("The fit {}; the numbers shown are not a least-squares solution.", report.termination.describe()));
+    }
+    if report.converged {
+        let crossing: Vec<usize> = (0..p)
+            .filter(|&j| model.positive(j) && parameters[j].value > 0.0 && parameters[j].ci_low.is_some_and(|low| low <= 0.0))
+            .collect();
+        for &j in &crossing {
+            parameters[j].flag = Some(flags::ASYMPTOTIC_CROSSES_ZERO.to_string());
+        }
+        if !crossing.is_empty() {
+            let names: Vec<&str> = crossing.iter().map(|&j| model.parameters()[j].name).collect();
+            warnings.push(format!(
+                "The asymptotic interval of {} reaches zero or below, impossible for a positive constant: the straight-line approximation behind it fails here. Use the profile interval, which follows the curvature and says when the data do not bound a constant.",
+                names.join(", ")
+            ));
+        }
     }
     if covariance.is_none() && report.converged {
         warnings.push(
@@ -221,11 +415,12 @@ fn summarise(model: &dyn Model, data: &Observations, report: SolverReport, level
         termination_text: report.termination.describe().to_string(),
         confidence_level: level,
         weighting: if data.weights().iter().all(|w| *w == 1.0) { "uniform" } else { "weighted" }.to_string(),
+        reweighting_rounds: None,
         parameters,
         correlation,
         warnings,
     };
-    Fit { summary, covariance, report, t_quantile }
+    Fit { summary, covariance, report, t_quantile, reweighting: None }
 }
 
 /// Builds an estimate with a symmetric t-based interval.
@@ -243,6 +438,7 @@ pub fn estimate(name: &str, value: f64, std_error: Option<f64>, t_quantile: Opti
         unit: None,
         derived: false,
         ci_method: "asymptotic".to_string(),
+        flag: None,
     }
 }
 

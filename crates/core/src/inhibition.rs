@@ -123,10 +123,19 @@ pub struct InhibitionAnalysis {
     pub notes: Vec<String>,
     /// Units.
     pub units: InhibitionUnits,
+    /// The check of the error structure on the most general mechanism
+    /// (constant, Poisson-like or relative error) and the weighting it
+    /// suggests.
+    pub error_structure: Option<crate::errors::ErrorStructure>,
     /// The family of plots.
     pub plots: Vec<PlotData>,
     /// The standing caution.
     pub caution: String,
+}
+
+fn capitalise(text: &str) -> String {
+    let mut chars = text.chars();
+    chars.next().map(|c| c.to_uppercase().chain(chars).collect()).unwrap_or_default()
 }
 
 pub(crate) fn is_inhibitor_name(name: &str) -> bool {
@@ -429,7 +438,44 @@ pub fn analyse_inhibition(request: &InhibitionRequest) -> Result<InhibitionAnaly
         Some(i) => Error::invalid_data(format!("line {}: {message}", used[i].line)),
         None => Error::invalid_option(message),
     })?;
-    let data = Observations::new(2, used.iter().flat_map(|p| [p.s, p.i]).collect(), rates, weights)?;
+    let mut data = Observations::new(2, used.iter().flat_map(|p| [p.s, p.i]).collect(), rates, weights)?;
+    // Relative and Poisson weights come from a fitted curve. Mechanisms are
+    // compared by their sums of squares, which is fair only with the same
+    // weights for all; so the weights are iterated to convergence on the
+    // most general mechanism asked for (mixed, when present: its curve is
+    // consistent under every nested hypothesis) and then held fixed for
+    // every mechanism.
+    let mut reweighting_rounds = None;
+    if request.weighting.from_model() {
+        let general = if mechanisms.contains(&Mechanism::Mixed) { Mechanism::Mixed } else { mechanisms[0] };
+        let first = fit_mechanism(general, &data, &[])?;
+        if first.summary.converged {
+            let r = crate::fit::iterate_weights(
+                &Inhibition::new(general),
+                &data,
+                request.weighting,
+                first.values(),
+                &FitSettings::default().solver,
+                crate::fit::REWEIGHT_TOLERANCE,
+                crate::fit::REWEIGHT_LIMIT,
+            );
+            if r.unsettled.is_none() {
+                data = r.data;
+                reweighting_rounds = Some(r.rounds);
+                notes.push(format!(
+                    "{}: the weights are computed from the {} fit's curve (settled after {} round(s)) and used unchanged for every mechanism, so that the comparison is between sums of squares with the same weights.",
+                    capitalise(request.weighting.describe()),
+                    general.name(),
+                    r.rounds
+                ));
+            } else {
+                notes.push(format!(
+                    "The weights from the fitted curve did not settle on the {} fit; the weights on the measured rates are used for every mechanism.",
+                    general.name()
+                ));
+            }
+        }
+    }
     let mut inhibitor_levels: Vec<f64> = points.iter().map(|p| p.i).collect();
     inhibitor_levels.sort_by(f64::total_cmp);
     inhibitor_levels.dedup();
@@ -459,6 +505,7 @@ pub fn analyse_inhibition(request: &InhibitionRequest) -> Result<InhibitionAnaly
         let model = Inhibition::new(*mechanism);
         let mut summary = fit.summary.clone();
         summary.weighting = request.weighting.name().to_string();
+        summary.reweighting_rounds = reweighting_rounds;
         crate::intervals::apply_interval_method(&mut summary, &model, &data, fit, request.interval_method, &request.bootstrap)?;
         for (estimate, spec) in summary.parameters.iter_mut().zip(model.parameters()) {
             estimate.unit = unit_of(spec.dimension);
@@ -482,6 +529,19 @@ pub fn analyse_inhibition(request: &InhibitionRequest) -> Result<InhibitionAnaly
         fits.push(summary);
     }
     let comparison = compare_fits(&fits);
+    let general = if mechanisms.contains(&Mechanism::Mixed) { Mechanism::Mixed } else { mechanisms[0] };
+    let error_structure = crate::errors::error_structure(&Inhibition::new(general), &data);
+    if let Some(check) = &error_structure {
+        match check.suggested.as_deref() {
+            Some(suggested) if suggested != request.weighting.name() => notes.push(format!(
+                "{} (on the {} fit.) Every mechanism was fitted with {}; weighting {suggested} suits these data better, and the F test and AICc are only as good as the weights.",
+                check.text,
+                general.name(),
+                request.weighting.describe()
+            )),
+            _ => notes.push(format!("{} (on the {} fit.)", check.text, general.name())),
+        }
+    }
     if inhibitor_levels.iter().filter(|i| **i > 0.0).count() < 2 {
         notes.push("Fewer than two inhibitor concentrations above zero: the mechanisms can hardly be told apart.".to_string());
     }
@@ -536,6 +596,7 @@ pub fn analyse_inhibition(request: &InhibitionRequest) -> Result<InhibitionAnaly
         problems,
         notes,
         units: InhibitionUnits { substrate: symbol(substrate_unit), inhibitor: symbol(inhibitor_unit), rate: rate_unit.map(|u| u.symbol()) },
+        error_structure,
         plots,
         caution: CAUTION.to_string(),
     })

@@ -27,12 +27,16 @@
 //! - [`rates`]: the whole rate analysis used by page and CLI alike.
 //! - [`traces`]: time courses to initial rates (windows, flags, blanks,
 //!   Beer-Lambert or a standard curve), and the rate table they make.
+//! - [`early`]: a trace's initial rate from its early part with curvature
+//!   (integrated rate equation with apparent constants).
 //! - [`lambert`]: the Lambert W function.
 //! - [`progress`]: the integrated Michaelis-Menten fit to whole time courses.
 //! - [`inhibition`]: rates at several [S] and [I], every reversible
 //!   mechanism fitted globally, compared and plotted.
 //! - [`dose`]: inhibitor series (IC50 logistic, Morrison tight binding).
 //! - [`compare`]: AICc ranking, Akaike weights, F tests, verdict.
+//! - [`errors`]: the error structure (constant, Poisson-like or relative)
+//!   and the weighting it suggests.
 //!
 //! ```
 //! use turnover_core::rates::{analyse_rates, RateRequest};
@@ -52,6 +56,8 @@
 
 pub mod compare;
 pub mod decode;
+pub mod early;
+pub mod errors;
 pub mod diagnostics;
 pub mod dose;
 pub mod error;

@@ -108,6 +108,12 @@ impl Observations {
         &self.weights
     }
 
+    /// The same observations with new weights; `Err` when a weight is not
+    /// a positive finite number or the count differs.
+    pub fn with_weights(&self, weights: Vec<f64>) -> Result<Observations, Error> {
+        Observations::new(self.predictors, self.x.clone(), self.y.clone(), Some(weights))
+    }
+
     /// Column `j` of the predictors, one value per observation.
     pub fn predictor_column(&self, j: usize) -> Vec<f64> {
         (0..self.len()).map(|i| self.x(i)[j]).collect()
@@ -139,6 +145,16 @@ pub trait Model {
 
     /// Starting values computed from the data.
     fn initial_guess(&self, data: &Observations) -> Result<Vec<f64>, Error>;
+
+    /// Whether parameter `index` is a constant that is positive by its
+    /// nature, so that an interval reaching below zero says the
+    /// approximation behind it has failed. By default: concentrations (a
+    /// predictor's dimension, such as Km, Ki, IC50) and a maximal rate
+    /// named `Vmax`.
+    fn positive(&self, index: usize) -> bool {
+        let spec = self.parameters()[index];
+        matches!(spec.dimension, Dimension::Predictor(_)) || spec.name == "Vmax"
+    }
 }
 
 /// Checks an analytic gradient against central finite differences at `p`

@@ -450,6 +450,7 @@ pub fn fit_progress_with(analysis: &TraceAnalysis, progress: &mut dyn FnMut(usiz
         termination_text: termination.describe().to_string(),
         confidence_level: 0.95,
         weighting: "uniform".to_string(),
+        reweighting_rounds: None,
         parameters,
         correlation,
         warnings,

@@ -6,15 +6,17 @@
 
 use crate::diagnostics::{residual_diagnostics, ResidualDiagnostics};
 use crate::error::Error;
-use crate::fit::{estimate, fit_model, Fit, FitSettings, FitSummary, ParameterEstimate};
-use crate::intervals::{apply_interval_method, percentile_interval, profile_interval, BootstrapScheme, BootstrapSettings, IntervalMethod};
+use crate::fit::{estimate, fit_model, fit_weighted, Fit, FitSettings, FitSummary, ParameterEstimate};
+use crate::intervals::{apply_interval_method, apply_profile_intervals, bootstrap_interval, profile_interval, BootstrapScheme, BootstrapSettings, IntervalMethod};
 use crate::model::{Dimension, Model, Observations};
 use crate::models::{model_by_name, MichaelisMentenSpecificity};
 use crate::plots::{diagnostic_plots, rate_plots, AxisUnits, PlotData, RatePoint};
 use crate::robust::{direct_linear, DirectLinearEstimate};
+use crate::solver::Termination;
 use crate::table::{parse_table, shortage_reasons, ColumnHeading, InputProblem, Table};
 use crate::units::{kcat_per_second, ConcentrationUnit, RateUnit};
 use crate::weighting::Weighting;
+use nalgebra::DMatrix;
 use serde::{Deserialize, Serialize};
 
 /// What to analyse and how.
@@ -62,7 +64,9 @@ pub struct PointRecord {
     pub residual: f64,
     /// The standard deviation given in an `sd` column, if any.
     pub sd: Option<f64>,
-    /// Weight in the fit (0 for an excluded point).
+    /// Weight in the fit. For relative and Poisson weighting it comes from
+    /// the fitted value (the final reweighting round), also for an
+    /// excluded point, whose weight does not enter the fit.
     pub weight: f64,
     /// Leverage in the fit (`None` for an excluded point).
     pub leverage: Option<f64>,
@@ -83,6 +87,9 @@ pub struct BootstrapReport {
     pub seed: u64,
     /// The resampling scheme.
     pub scheme: BootstrapScheme,
+    /// How intervals were read from the replicates: `studentised`
+    /// (bootstrap-t, the default) or `percentile`.
+    pub interval: String,
 }
 
 /// The units the analysis used, as symbols; `None` when not known.
@@ -113,6 +120,10 @@ pub struct RateAnalysis {
     pub diagnostics: ResidualDiagnostics,
     /// The direct linear plot's median estimates, an independent check.
     pub direct_linear: DirectLinearEstimate,
+    /// The check of the error structure (constant, Poisson-like or
+    /// relative) and the weighting it suggests; `None` with weighting by sd
+    /// or when it cannot be computed.
+    pub error_structure: Option<crate::errors::ErrorStructure>,
     /// Details of the bootstrap, when intervals came from one.
     pub bootstrap: Option<BootstrapReport>,
     /// Plot data, direct plot first.
@@ -219,6 +230,13 @@ fn choose_unit<T>(
 /// Reads the table, fits the model and gathers everything the page and the
 /// CLI show.
 pub fn analyse_rates(request: &RateRequest) -> Result<RateAnalysis, Error> {
+    analyse_rates_with(request, None)
+}
+
+/// [`analyse_rates`] with the weights of the points used (in table order,
+/// left-out lines skipped) given and held fixed: the comparison of rate
+/// laws fits every law with the same weights.
+fn analyse_rates_with(request: &RateRequest, fixed_weights: Option<&[f64]>) -> Result<RateAnalysis, Error> {
     let model_name = if request.model.trim().is_empty() { "mm" } else { request.model.trim() };
     if crate::models::model_input(model_name).is_some_and(|input| input != crate::models::ModelInput::Substrate) {
         return Err(Error::invalid_option(format!(
@@ -340,11 +358,27 @@ pub fn analyse_rates(request: &RateRequest) -> Result<RateAnalysis, Error> {
         Some(used.iter().map(|p| p.weight).collect()),
     )?;
     let settings = FitSettings::default();
-    let fit = fit_model(model.as_ref(), &observations, None, &settings)?;
+    let observations = match fixed_weights {
+        Some(w) if w.len() == observations.len() => observations.with_weights(w.to_vec())?,
+        Some(_) => return Err(Error::invalid_data("the fixed weights do not match the points used")),
+        None => observations,
+    };
+    let scheme = if fixed_weights.is_some() { Weighting::Sd } else { request.weighting };
+    let (fit, observations) = fit_weighted(model.as_ref(), &observations, scheme, None, &settings)?;
+    if let Some(w) = fixed_weights {
+        for (point, weight) in points.iter_mut().filter(|p| !p.excluded).zip(w) {
+            point.weight = *weight;
+        }
+    }
     let values = fit.values().to_vec();
     for point in &mut points {
         point.fitted = model.value(&[point.s], &values);
         point.residual = point.v - point.fitted;
+        // Weights from the fitted curve: the final round's weight, also for
+        // a left-out point (for the residual plot).
+        if let Some(w) = fit.reweighting.and_then(|scheme| scheme.weight_at_fitted(point.fitted)) {
+            point.weight = w;
+        }
     }
     let diagnostics = residual_diagnostics(model.as_ref(), &observations, &fit);
     for (used_index, point) in points.iter_mut().filter(|p| !p.excluded).enumerate() {
@@ -404,8 +438,26 @@ pub fn analyse_rates(request: &RateRequest) -> Result<RateAnalysis, Error> {
     }
     add_derived(&mut summary, &fit, kcat_factor, specificity_factor);
 
+    let ran_off = fit.summary.termination == Termination::NoFiniteOptimum;
     let bootstrap_report = match request.interval_method {
-        IntervalMethod::Asymptotic => None,
+        // A fit that ran off has no asymptotic or bootstrap interval worth
+        // the name; the profile says which side the data do bound.
+        _ if ran_off => {
+            profile_intervals(&mut summary, model.as_ref(), &observations, &fit, kcat_factor, specificity_factor);
+            summary.warnings.push(
+                "The intervals shown are profile intervals whatever method was chosen: with no finite optimum only the profile says which side the data bound."
+                    .to_string(),
+            );
+            None
+        }
+        IntervalMethod::Asymptotic => {
+            // The check that the data bound every constant at all: a
+            // profile that never closes is flagged, the intervals stay.
+            if fit.summary.converged {
+                apply_profile_intervals(&mut summary, model.as_ref(), &observations, &fit, false);
+            }
+            None
+        }
         IntervalMethod::Profile => {
             profile_intervals(&mut summary, model.as_ref(), &observations, &fit, kcat_factor, specificity_factor);
             None
@@ -421,6 +473,17 @@ pub fn analyse_rates(request: &RateRequest) -> Result<RateAnalysis, Error> {
         )?),
     };
     summary.warnings.extend(diagnostics.findings.iter().cloned());
+    let error_structure =
+        if request.weighting == Weighting::Sd { None } else { crate::errors::error_structure(model.as_ref(), &observations) };
+    if let Some(check) = &error_structure {
+        if let Some(suggested) = check.suggested.as_deref().filter(|w| *w != request.weighting.name()) {
+            summary.warnings.push(format!(
+                "{} The fit shown uses {}; weighting {suggested} suits these data better.",
+                check.text,
+                request.weighting.describe()
+            ));
+        }
+    }
 
     let robust_points: Vec<(f64, f64)> = used.iter().filter(|p| p.s > 0.0).map(|p| (p.s, p.v)).collect();
     let robust = direct_linear(&robust_points);
@@ -459,6 +522,7 @@ pub fn analyse_rates(request: &RateRequest) -> Result<RateAnalysis, Error> {
         },
         diagnostics,
         direct_linear: robust,
+        error_structure,
         bootstrap: bootstrap_report,
         plots,
         caution: CAUTION.to_string(),
@@ -484,17 +548,42 @@ pub fn compare_rate_models(request: &RateRequest, models: &[String]) -> Result<R
     if models.is_empty() {
         return Err(Error::invalid_option("name at least one model to compare"));
     }
-    let mut fits = Vec::with_capacity(models.len());
-    let mut first = None;
-    for model in models {
+    let one = |model: &String, fixed: Option<&[f64]>| {
         let mut one = request.clone();
         one.model = model.clone();
-        let analysis = analyse_rates(&one)?;
-        fits.push(analysis.fit.clone());
-        first.get_or_insert(analysis);
+        analyse_rates_with(&one, fixed)
+    };
+    let mut analyses = models.iter().map(|m| one(m, None)).collect::<Result<Vec<_>, Error>>()?;
+    // Weights from a fitted curve differ between laws; sums of squares
+    // compare only with the same weights. So the weights of the law with
+    // the most parameters (the first such in the list), iterated on its own
+    // curve, are held fixed for every law.
+    if request.weighting.from_model() {
+        let general = (0..models.len())
+            .max_by_key(|&k| (model_by_name(&models[k]).map(|m| m.parameters().len()).unwrap_or(0), std::cmp::Reverse(k)))
+            .expect("at least one model");
+        if analyses[general].fit.reweighting_rounds.is_some() {
+            let weights: Vec<f64> = analyses[general].points.iter().filter(|p| !p.excluded).map(|p| p.weight).collect();
+            let rounds = analyses[general].fit.reweighting_rounds;
+            analyses = models.iter().map(|m| one(m, Some(&weights))).collect::<Result<Vec<_>, Error>>()?;
+            for analysis in &mut analyses {
+                analysis.fit.reweighting_rounds = rounds;
+            }
+            analyses[0].notes.push(format!(
+                "For the comparison, {} are computed from the {} fit's curve and used unchanged for every rate law, so that the sums of squares compare.",
+                request.weighting.describe(),
+                models[general]
+            ));
+        } else {
+            analyses[0].notes.push(format!(
+                "The weights from the {} fit's curve did not settle; every rate law keeps its own weights, so the comparison of sums of squares is approximate.",
+                models[general]
+            ));
+        }
     }
+    let fits: Vec<FitSummary> = analyses.iter().map(|a| a.fit.clone()).collect();
     let comparison = crate::compare::compare_fits(&fits);
-    Ok(RateComparison { comparison, fits, first: first.expect("at least one model was fitted") })
+    Ok(RateComparison { comparison, fits, first: analyses.swap_remove(0) })
 }
 
 /// Warnings about what the design lets the data determine, for the
@@ -635,22 +724,40 @@ fn bootstrap_intervals(
     let sample = apply_interval_method(summary, model, data, fit, IntervalMethod::Bootstrap, settings)?
         .expect("the bootstrap method returns its sample");
     let column = |f: &dyn Fn(&[f64]) -> f64| -> Vec<f64> { sample.estimates.iter().map(|p| f(p)).collect() };
-    let mut derived: Vec<Vec<f64>> = Vec::new();
+    // Each replicate's standard error of a derived constant, by the delta
+    // method from that replicate's covariance, for the studentised interval.
+    let se_column = |f: &dyn Fn(&[f64], &DMatrix<f64>) -> f64| -> Vec<Option<f64>> {
+        sample.estimates.iter().zip(&sample.covariances).map(|(p, c)| c.as_ref().map(|c| f(p, c))).collect()
+    };
+    let mut derived: Vec<(Vec<f64>, Vec<Option<f64>>)> = Vec::new();
     if let Some(factor) = kcat_factor {
-        derived.push(column(&|p| p[0] * factor));
+        derived.push((column(&|p| p[0] * factor), se_column(&|_, c| c[(0, 0)].sqrt() * factor)));
     }
     if let Some(scale) = specificity_factor {
-        derived.push(column(&|p| scale * p[0] / p[1]));
+        derived.push((
+            column(&|p| scale * p[0] / p[1]),
+            se_column(&|p, c| {
+                let (dv, dk) = (scale / p[1], -scale * p[0] / (p[1] * p[1]));
+                (dv * dv * c[(0, 0)] + dk * dk * c[(1, 1)] + 2.0 * dv * dk * c[(0, 1)]).sqrt()
+            }),
+        ));
     }
     let n_fitted = fit.values().len();
-    for (estimate, values) in summary.parameters[n_fitted..].iter_mut().zip(&derived) {
-        let (low, high) = percentile_interval(values, summary.confidence_level);
+    for (estimate, (values, ses)) in summary.parameters[n_fitted..].iter_mut().zip(&derived) {
+        let (low, high) =
+            bootstrap_interval(settings, estimate.value, estimate.std_error, values, ses, summary.confidence_level, fit.t_quantile);
         estimate.ci_low = low;
         estimate.ci_high = high;
         estimate.ci_method = IntervalMethod::Bootstrap.name().to_string();
     }
     let resamples = if fit.summary.converged { settings.resamples } else { 0 };
-    Ok(BootstrapReport { resamples, failures: sample.failures, seed: settings.seed, scheme: settings.scheme })
+    Ok(BootstrapReport {
+        resamples,
+        failures: sample.failures,
+        seed: settings.seed,
+        scheme: settings.scheme,
+        interval: settings.interval.name().to_string(),
+    })
 }
 
 #[cfg(test)]
@@ -748,5 +855,25 @@ mod tests {
         req.enzyme = Some(-1.0);
         req.enzyme_unit = Some("nM".into());
         assert!(analyse_rates(&req).unwrap_err().message.contains("must be a positive number"));
+    }
+
+    /// With weights from the fitted curve, the comparison of rate laws holds
+    /// one set of weights (from the law with most parameters) for every law:
+    /// then a nested law can never fit better than the law that contains it
+    /// (least squares with the same weights; common practice, no source),
+    /// and the verdict says so.
+    #[test]
+    fn rate_laws_are_compared_with_the_same_weights() {
+        let text = "S\tv\n0.1\t1.9\n0.2\t3.1\n0.5\t5.3\n1\t6.4\n2\t7.4\n5\t8.4\n10\t8.9\n20\t9.0\n";
+        let mut req = request(text);
+        req.weighting = Weighting::Relative;
+        let models: Vec<String> = ["mm", "hill", "substrate-inhibition"].iter().map(|m| m.to_string()).collect();
+        let c = compare_rate_models(&req, &models).unwrap();
+        assert!(c.comparison.verdict.contains("the same relative weights"), "{}", c.comparison.verdict);
+        assert!(c.fits.iter().all(|f| f.reweighting_rounds == c.fits[0].reweighting_rounds));
+        for general in &c.fits[1..] {
+            assert!(general.rss <= c.fits[0].rss * (1.0 + 1e-9), "{}: {} vs mm {}", general.model, general.rss, c.fits[0].rss);
+        }
+        assert!(c.first.notes.iter().any(|n| n.contains("used unchanged for every rate law")), "{:?}", c.first.notes);
     }
 }

@@ -60,6 +60,11 @@ pub enum Termination {
     NonFinite,
     /// The problem was not usable (no parameters or no observations).
     Unusable,
+    /// The minimiser stopped, but with a parameter run off far beyond the
+    /// data's own scale: the sum of squares keeps falling towards a limit
+    /// that no finite value reaches, so the data do not determine it (set by
+    /// [`crate::fit::fit_model`], never by the minimiser itself).
+    NoFiniteOptimum,
 }
 
 impl Termination {
@@ -73,6 +78,9 @@ impl Termination {
             Termination::TooManyEvaluations => "did not converge: the evaluation budget ran out",
             Termination::NonFinite => "did not converge: the model gave a non-finite value",
             Termination::Unusable => "not fitted: there were no parameters or no observations",
+            Termination::NoFiniteOptimum => {
+                "did not converge to a finite optimum: a parameter ran off without bound, so these data do not determine it"
+            }
         }
     }
 }

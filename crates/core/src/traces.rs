@@ -159,6 +159,12 @@ pub struct TraceRequest {
     pub windows: Vec<WindowOverride>,
     /// Traces to leave out of the rate table and the fits.
     pub excluded: Vec<String>,
+    /// Whether to fit each trace's curvature-aware initial rate `v0`
+    /// beside the window's rate ([`crate::early`]). Default false: it costs
+    /// tens of refits per trace (its profile interval), of the order of
+    /// 0.1 s per 100-point trace natively, so a plate reader's 384 wells
+    /// take most of a minute; ask for it where it is shown or used.
+    pub fit_v0: bool,
 }
 
 impl Default for TraceRequest {
@@ -175,6 +181,7 @@ impl Default for TraceRequest {
             max_conversion: 0.10,
             windows: Vec::new(),
             excluded: Vec::new(),
+            fit_v0: false,
         }
     }
 }
@@ -254,6 +261,32 @@ pub struct TraceResult {
     pub rate: Option<f64>,
     /// Its standard error.
     pub rate_se: Option<f64>,
+    /// 95% interval of the window's rate, rate ± t(0.975, k − 2)·SE with k
+    /// the window's points. It is the straight line's interval: it does not
+    /// include the line's bias on a curving trace (compare `v0`).
+    pub rate_ci_low: Option<f64>,
+    /// Upper end of that interval.
+    pub rate_ci_high: Option<f64>,
+    /// The initial rate from the early-trace model that accounts for
+    /// curvature (the integrated rate equation with apparent constants of
+    /// this trace; see [`crate::early`]), when asked for
+    /// ([`TraceRequest::fit_v0`]), [S]0 is known in concentration units and
+    /// the fit converges. The window's `rate` stays
+    /// the rate the rate table uses; this is the estimate beside it.
+    pub v0: Option<f64>,
+    /// Its standard error (from every point the fit used, with K free, also
+    /// when a limit of K fits best).
+    pub v0_se: Option<f64>,
+    /// Lower end of its 95% (profile-likelihood) interval.
+    pub v0_ci_low: Option<f64>,
+    /// Upper end of that interval.
+    pub v0_ci_high: Option<f64>,
+    /// Points the early-trace fit used (the whole usable trace).
+    pub v0_points: usize,
+    /// The trace's apparent constant K of that fit ([S]0's unit): 0 when
+    /// the best curve is the straight line until exhaustion, `None` when it
+    /// is first-order decay (K → ∞) or there is no fit.
+    pub v0_k: Option<f64>,
     /// Intercept of the line at the window's first time.
     pub intercept: Option<f64>,
     /// First time of the window.
@@ -1190,6 +1223,14 @@ pub fn analyse_traces_with(request: &TraceRequest, progress: &mut dyn FnMut(usiz
             blanks_subtracted: blanks.iter().map(|&b| raw.names[b].0.clone()).collect(),
             rate: None,
             rate_se: None,
+            rate_ci_low: None,
+            rate_ci_high: None,
+            v0: None,
+            v0_se: None,
+            v0_ci_low: None,
+            v0_ci_high: None,
+            v0_points: 0,
+            v0_k: None,
             intercept: None,
             window_start: None,
             window_end: None,
@@ -1390,6 +1431,20 @@ fn rate_for_trace(result: &mut TraceResult, cells: &[CellState], request: &Trace
     result.window_start = Some(t[fit.start]);
     result.window_end = Some(t[fit.end - 1]);
     result.window_points = fit.end - fit.start;
+    if let (Some(se), Some(q)) = (fit.slope_se, student_t_quantile(0.975, (fit.end - fit.start) as f64 - 2.0)) {
+        result.rate_ci_low = Some(fit.slope - q * se);
+        result.rate_ci_high = Some(fit.slope + q * se);
+    }
+    if let Some(s0) = s0.filter(|_| request.fit_v0) {
+        if let Some(early) = crate::early::integrated_initial_rate(&t, &y, s0, fit.slope, fit.intercept - fit.slope * (t[fit.start] - t[0])) {
+            result.v0 = Some(early.rate);
+            result.v0_se = Some(early.std_error);
+            result.v0_ci_low = Some(early.ci.0);
+            result.v0_ci_high = Some(early.ci.1);
+            result.v0_points = early.points;
+            result.v0_k = early.k_apparent.is_finite().then_some(early.k_apparent);
+        }
+    }
 
     if let Some(s0) = s0 {
         let fraction = fit.slope * (t[fit.end - 1] - t[0]) / s0;

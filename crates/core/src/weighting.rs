@@ -3,10 +3,21 @@
 //! Rates measured over a wide range rarely have constant error. The choices
 //! here are the usual ones: constant absolute error (uniform), constant
 //! relative error (1/v²), error growing like a count (1/v), or the
-//! standard deviation of each rate given in an `sd` column (1/sd²). Weights
-//! use the **measured** v, so they are fixed during the fit; that matches R's
-//! `nls(weights = )` and SciPy's `curve_fit(sigma = )`, which is what the
-//! cross-checks compare against.
+//! standard deviation of each rate given in an `sd` column (1/sd²).
+//!
+//! **Relative and Poisson weights come from the fitted curve**, not from the
+//! measured rates. A weight 1/v_obs² is correlated with the error in v_obs
+//! (a rate measured too low gets too much weight), which biases the fit
+//! downwards by roughly the squared coefficient of variation per point; the
+//! estimating equation Σ (y − f)·∂f/∂θ / g(f) = 0 with the variance function
+//! g evaluated at the *fitted* value has expectation zero at the truth and
+//! so no such bias. [`crate::fit::fit_weighted`] finds that fixed point by
+//! iteratively reweighted least squares: fit, recompute the weights from the
+//! fitted values, refit from the last solution, until the parameters stop
+//! changing (Carroll & Ruppert 1988, *Transformation and Weighting in
+//! Regression*, ch. 2, generalised least squares; from memory). The first
+//! round starts from weights on the measured rates. Weights by sd are fixed:
+//! they are data.
 //!
 //! With any weighting the covariance is still scaled by the residual
 //! variance (`absolute_sigma = False` in SciPy's terms): standard
@@ -89,8 +100,8 @@ impl Weighting {
     pub fn describe(self) -> &'static str {
         match self {
             Weighting::Uniform => "uniform weights (constant absolute error)",
-            Weighting::Relative => "weights 1/v² (constant relative error)",
-            Weighting::Poisson => "weights 1/v (variance proportional to v)",
+            Weighting::Relative => "weights 1/v² from the fitted curve (constant relative error)",
+            Weighting::Poisson => "weights 1/v from the fitted curve (variance proportional to v)",
             Weighting::Sd => "weights 1/sd² from the sd column",
         }
     }
@@ -110,6 +121,27 @@ impl Weighting {
                 .collect::<Result<Vec<f64>, _>>()
                 .map(Some),
         }
+    }
+
+    /// Whether the weights of this scheme are recomputed from the fitted
+    /// curve (relative and Poisson) rather than fixed (uniform and sd).
+    pub fn from_model(self) -> bool {
+        matches!(self, Weighting::Relative | Weighting::Poisson)
+    }
+
+    /// The weight of an observation whose fitted value is `fitted`, for the
+    /// schemes whose variance follows the mean: 1/f² (relative) or 1/f
+    /// (Poisson). `None` when the fitted value cannot carry that weight (zero
+    /// or negative) or the scheme has fixed weights.
+    pub fn weight_at_fitted(self, fitted: f64) -> Option<f64> {
+        let w = match self {
+            // A constant relative error needs a positive mean: a fitted
+            // value at or below zero cannot carry it.
+            Weighting::Relative if fitted > 0.0 => 1.0 / (fitted * fitted),
+            Weighting::Poisson if fitted > 0.0 => 1.0 / fitted,
+            _ => return None,
+        };
+        (w.is_finite() && w > 0.0).then_some(w)
     }
 
     /// The weight of one observation with measured rate `v` and, when
