@@ -32,6 +32,8 @@
 //! - [`inhibition`]: rates at several [S] and [I], every reversible
 //!   mechanism fitted globally, compared and plotted.
 //! - [`dose`]: inhibitor series (IC50 logistic, Morrison tight binding).
+//! - [`batch`]: many curves in one table, grouped by a column, each fitted
+//!   alone and flagged.
 //! - [`compare`]: AICc ranking, Akaike weights, F tests, verdict.
 //!
 //! ```
@@ -50,6 +52,7 @@
 
 #![deny(missing_docs)]
 
+pub mod batch;
 pub mod compare;
 pub mod decode;
 pub mod diagnostics;
