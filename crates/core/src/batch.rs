@@ -23,7 +23,8 @@ use crate::error::Error;
 use crate::fit::FitSummary;
 use crate::inhibition::{analyse_inhibition, InhibitionRequest};
 use crate::intervals::{BootstrapSettings, IntervalMethod};
-use crate::models::{model_input, ModelInput};
+use crate::model::Dimension;
+use crate::models::{model_input, model_with_options, ModelInput, ModelOptions};
 use crate::rates::{analyse_rates, normalise_name, RateRequest, CAUTION};
 use crate::table::{detect_separator, is_comment_line, parse_heading, split_line, InputProblem, Separator};
 use crate::units::ConcentrationUnit;
@@ -81,8 +82,9 @@ pub struct BatchRequest {
 #[serde(default)]
 pub struct FlagSettings {
     /// A fitted constant whose standard error exceeds this multiple of its
-    /// absolute value (or has none) is not determined by the data.
-    /// Default 1 (a relative standard error above 100 %).
+    /// absolute value (or has none) is not determined by the data; for a
+    /// response level (a plateau, Vmax) the larger of its value and the
+    /// fitted response span is the scale. Default 1 (100 %).
     pub max_relative_se: f64,
     /// The plausible range of the logistic's Hill slope (`ic50`).
     /// Default 0.5 to 3.
@@ -94,9 +96,11 @@ pub struct FlagSettings {
     /// A fitted plateau further from its control than this share of the
     /// control window |high − low| is flagged. Default 0.2.
     pub plateau_tolerance: f64,
-    /// A used point whose residual exceeds this share of the fitted
+    /// A used point whose residual exceeds this share of the control
+    /// window (when control levels are known) or else of the fitted
     /// response span (largest minus smallest fitted value over the used
-    /// points) is flagged. Default 0.2.
+    /// points) is flagged. Default 0.15 (five times a noise SD of 3 % of
+    /// the window).
     pub max_residual_share: f64,
 }
 
@@ -107,7 +111,7 @@ impl Default for FlagSettings {
             hill_slope_range: (0.5, 3.0),
             control_levels: None,
             plateau_tolerance: 0.2,
-            max_residual_share: 0.2,
+            max_residual_share: 0.15,
         }
     }
 }
@@ -328,7 +332,7 @@ pub fn fit_curve(request: &BatchRequest, curve: &CurveInput) -> CurveResult {
         .map(|a| {
             let used: Vec<(f64, f64, f64)> = a.points.iter().filter(|p| !p.excluded).map(|p| (p.i, p.y, p.fitted)).collect();
             let pic50 = if model == "ic50" { pic50(&a.fit, a.inhibitor_unit.as_deref()) } else { None };
-            Fitted { fit: a.fit, used, problems: a.problems, notes: a.notes, pic50 }
+            Fitted { fit: a.fit, used, problems: a.problems, notes: a.notes, pic50, dimensions: Vec::new() }
         }),
         Some(ModelInput::SubstrateAndInhibitor) => analyse_inhibition(&InhibitionRequest {
             text: curve.text.clone(),
@@ -344,7 +348,7 @@ pub fn fit_curve(request: &BatchRequest, curve: &CurveInput) -> CurveResult {
         })
         .map(|mut a| {
             let used = a.points.iter().filter(|p| !p.excluded).map(|p| (p.s, p.v, p.fitted)).collect();
-            Fitted { fit: a.fits.swap_remove(0), used, problems: a.problems, notes: a.notes, pic50: None }
+            Fitted { fit: a.fits.swap_remove(0), used, problems: a.problems, notes: a.notes, pic50: None, dimensions: Vec::new() }
         }),
         _ => analyse_rates(&RateRequest {
             text: curve.text.clone(),
@@ -360,11 +364,15 @@ pub fn fit_curve(request: &BatchRequest, curve: &CurveInput) -> CurveResult {
         })
         .map(|a| {
             let used = a.points.iter().filter(|p| !p.excluded).map(|p| (p.s, p.v, p.fitted)).collect();
-            Fitted { fit: a.fit, used, problems: a.problems, notes: a.notes, pic50: None }
+            Fitted { fit: a.fit, used, problems: a.problems, notes: a.notes, pic50: None, dimensions: Vec::new() }
         }),
     };
     match outcome {
-        Ok(fitted) => {
+        Ok(mut fitted) => {
+            let options = ModelOptions { enzyme: request.enzyme, fixed_top: request.fixed_top, fixed_bottom: request.fixed_bottom };
+            if let Ok(m) = model_with_options(&model, &options) {
+                fitted.dimensions = m.parameters().iter().map(|p| p.dimension).collect();
+            }
             let percent = response_is_percent(&curve.text);
             let flags = flags(&fitted, &model, &request.flags, percent);
             let problems = fitted.problems.iter().map(|p| to_batch(p, curve)).collect();
@@ -398,6 +406,8 @@ struct Fitted {
     problems: Vec<InputProblem>,
     notes: Vec<String>,
     pic50: Option<PIc50>,
+    /// The dimensions of the fitted (not derived) parameters.
+    dimensions: Vec<Dimension>,
 }
 
 /// A problem of the curve table at the batch table's line and column.
@@ -446,15 +456,24 @@ fn flags(fitted: &Fitted, model: &str, settings: &FlagSettings, percent: bool) -
     if !fit.converged {
         out.push(flag("not-converged", format!("the minimiser did not converge: {}", fit.termination_text)));
     }
+    // A plateau's standard error is judged against the fitted response
+    // span, not its own value, which may be near zero.
+    let fitted_values = fitted.used.iter().map(|u| u.2).filter(|f| f.is_finite());
+    let span = fitted_values.clone().fold(f64::NEG_INFINITY, f64::max) - fitted_values.fold(f64::INFINITY, f64::min);
     let mut undetermined = Vec::new();
-    for p in fit.parameters.iter().filter(|p| !p.derived) {
+    for (p, dimension) in fit.parameters.iter().filter(|p| !p.derived).zip(&fitted.dimensions) {
+        let scale = match dimension {
+            Dimension::Response if span.is_finite() => p.value.abs().max(span),
+            _ => p.value.abs(),
+        };
         match p.std_error {
-            Some(se) if se.is_finite() && se <= settings.max_relative_se * p.value.abs() => {}
+            Some(se) if se.is_finite() && se <= settings.max_relative_se * scale => {}
             Some(se) if se.is_finite() => undetermined.push(format!(
-                "{} (standard error {} is {:.0} % of the value)",
+                "{} (standard error {} is {:.0} % of {})",
                 p.name,
                 short(se),
-                100.0 * se / p.value.abs()
+                100.0 * se / scale,
+                if scale == p.value.abs() { "the value" } else { "the fitted span" }
             )),
             _ => undetermined.push(format!("{} (no standard error: the data cannot fix it)", p.name)),
         }
@@ -469,6 +488,7 @@ fn flags(fitted: &Fitted, model: &str, settings: &FlagSettings, percent: bool) -
             ),
         ));
     }
+    let controls = settings.control_levels.or(if percent { Some((100.0, 0.0)) } else { None });
     let value = |name: &str| fit.parameters.iter().find(|p| p.name == name).map(|p| p.value);
     if model == "ic50" {
         if let Some(ic50) = value("IC50") {
@@ -496,7 +516,6 @@ fn flags(fitted: &Fitted, model: &str, settings: &FlagSettings, percent: bool) -
                 ));
             }
         }
-        let controls = settings.control_levels.or(if percent { Some((100.0, 0.0)) } else { None });
         if let Some((high, low)) = controls {
             let window = (high - low).abs();
             let mut far = Vec::new();
@@ -525,9 +544,14 @@ fn flags(fitted: &Fitted, model: &str, settings: &FlagSettings, percent: bool) -
             }
         }
     }
-    let fitted_values = fitted.used.iter().map(|u| u.2).filter(|f| f.is_finite());
-    let span = fitted_values.clone().fold(f64::NEG_INFINITY, f64::max) - fitted_values.fold(f64::INFINITY, f64::min);
-    if span.is_finite() && span > 0.0 {
+    // Residuals are judged against the control window when it is known (a
+    // flat curve has a small fitted span and ordinary noise), else against
+    // the fitted span.
+    let (scale, scale_name) = match controls {
+        Some((high, low)) => ((high - low).abs(), "the control window"),
+        None => (span, "the fitted span"),
+    };
+    if scale.is_finite() && scale > 0.0 {
         let worst = fitted.used.iter().map(|u| (u.0, u.1 - u.2)).filter(|(_, r)| r.is_finite()).fold(None, |best: Option<(f64, f64)>, (x, r)| {
             match best {
                 Some((_, b)) if b.abs() >= r.abs() => best,
@@ -535,15 +559,15 @@ fn flags(fitted: &Fitted, model: &str, settings: &FlagSettings, percent: bool) -
             }
         });
         if let Some((x, r)) = worst {
-            if r.abs() > settings.max_residual_share * span {
+            if r.abs() > settings.max_residual_share * scale {
                 out.push(flag(
                     "large-residuals",
                     format!(
-                        "the residual {} at x = {} is more than {:.0} % of the fitted span {} (common practice, no source)",
+                        "the residual {} at x = {} is more than {:.0} % of {scale_name} {} (common practice, no source)",
                         short(r),
                         short(x),
                         100.0 * settings.max_residual_share,
-                        short(span)
+                        short(scale)
                     ),
                 ));
             }
