@@ -14,7 +14,7 @@ use rayon::prelude::*;
 use serde::Serialize;
 use std::io::{BufWriter, Write};
 use std::process::ExitCode;
-use turnover_core::batch::{check_request, fit_curve, split_curves, BatchRequest, CurveFlag, CurveResult, PIc50};
+use turnover_core::batch::{fit_curve, prepare_batch, BatchRequest, CurveFlag, CurveResult, PIc50};
 use turnover_core::fit::FitSummary;
 use turnover_core::models::{model_with_options, ModelOptions};
 use turnover_core::rates::CAUTION;
@@ -57,7 +57,7 @@ struct CurveJson<'a> {
     notes: &'a [String],
 }
 
-pub(crate) fn run(args: Prepared, model: String, group_by: String, format: Format, threads: Option<usize>) -> Result<ExitCode, Failure> {
+pub(crate) fn run(args: Prepared, model: String, group_by: String, format: Format, threads: Option<usize>, normalise: bool) -> Result<ExitCode, Failure> {
     if args.points {
         return Err(usage("fit", "--points applies to one-curve fits; a batch writes no per-point arrays"));
     }
@@ -79,9 +79,14 @@ pub(crate) fn run(args: Prepared, model: String, group_by: String, format: Forma
         interval_method: args.request.interval_method,
         bootstrap: args.request.bootstrap,
         flags: Default::default(),
+        normalise,
     };
-    check_request(&request).map_err(|e| Failure::Input(e.message))?;
-    let split = split_curves(&request.text, &request.group_by).map_err(|e| Failure::Input(e.message))?;
+    let (split, plates) = prepare_batch(&request).map_err(|e| Failure::Input(e.message))?;
+    for plate in &plates {
+        if let Some(flag) = &plate.flag {
+            warn(&format!("{}: plate '{}': {flag}", args.file, plate.plate));
+        }
+    }
     for problem in &split.problems {
         warn(&format!("{}: {problem}", args.file));
     }
@@ -99,7 +104,11 @@ pub(crate) fn run(args: Prepared, model: String, group_by: String, format: Forma
     let stdout = std::io::stdout();
     let mut out = BufWriter::with_capacity(64 * 1024, stdout.lock());
     match format {
-        Format::Json => write!(out, "{{\"group_by\":{},\"curves\":[", serde_json::to_string(&split.group_by).expect("a string"))?,
+        Format::Json => {
+            write!(out, "{{\"group_by\":{},\"plates\":", serde_json::to_string(&split.group_by).expect("a string"))?;
+            serde_json::to_writer(&mut out, &plates).map_err(std::io::Error::from)?;
+            out.write_all(b",\"curves\":[")?;
+        }
         Format::Csv | Format::Tsv => writeln!(out, "{}", header(&names, &split.group_by, format))?,
     }
     let (mut all_converged, mut problems) = (true, split.problems.len());

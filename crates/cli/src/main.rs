@@ -128,6 +128,11 @@ struct FitOptions {
     /// RAYON_NUM_THREADS]
     #[arg(long, value_name = "N")]
     threads: Option<usize>,
+    /// With --group-by: turn each plate's signals into % activity by its
+    /// control wells (a role column: high, low, sample; an optional plate
+    /// column), and report each plate's Z′ and signal window
+    #[arg(long)]
+    normalise: bool,
 }
 
 /// Options that only some models use; each is refused where it does not apply.
@@ -458,7 +463,7 @@ struct Envelope<'a, P: Serialize, U: Serialize> {
 fn fit(options: FitOptions) -> Result<ExitCode, Failure> {
     let model = options.model.clone().unwrap_or_else(|| "mm".to_string());
     let Some(group_by) = options.group_by else {
-        for (given, name) in [(options.format.is_some(), "--format"), (options.threads.is_some(), "--threads")] {
+        for (given, name) in [(options.format.is_some(), "--format"), (options.threads.is_some(), "--threads"), (options.normalise, "--normalise")] {
             if given {
                 return Err(usage("fit", format!("{name} applies to batch fits only; add --group-by COLUMN or leave it out")));
             }
@@ -472,7 +477,7 @@ fn fit(options: FitOptions) -> Result<ExitCode, Failure> {
         (None, false) => batch::Format::Tsv,
     };
     let args = prepare("fit", options.data, options.extra, &model)?;
-    batch::run(args, model, group_by, format, options.threads)
+    batch::run(args, model, group_by, format, options.threads, options.normalise)
 }
 
 fn fit_one(data: DataOptions, extra: ModelExtras, model: String) -> Result<ExitCode, Failure> {

@@ -231,3 +231,48 @@ fn simulated_screen_is_flagged_where_the_truth_says() {
     assert!(clean_flagged as f64 <= 0.05 * clean as f64, "{clean_flagged} of {clean}");
     assert!(bias.abs() < 0.02, "{bias}");
 }
+
+/// `--normalise`: one invented plate, raw signals with four high (no
+/// inhibitor) and four low (no enzyme) control wells. Hand computation:
+/// high 990, 1010, 1000, 1000 have mean 1000 and SD sqrt(200/3) =
+/// 8.164966; low 95, 105, 100, 100 have mean 100 and SD sqrt(50/3) =
+/// 4.082483; Z′ = 1 − 3(σ_high + σ_low)/|μ_high − μ_low| (Zhang, Chung &
+/// Oldenburg 1999) = 1 − 36.742346/900 = 0.959175. Each sample's %
+/// activity is 100·(x − 100)/900, and the curve's record equals the
+/// one-curve fit of a table of those % values written here, bit for bit;
+/// the same with the plateaus fixed at 100 and 0.
+#[test]
+fn normalised_plate_gives_hand_computed_z_prime_and_percent_activity() {
+    let mut text = String::from("# invented plate\nplate\trole\tcompound\t[I] (µM)\tsignal\n");
+    for (role, x) in [("high", 990.0), ("high", 1010.0), ("low", 95.0), ("low", 105.0), ("high", 1000.0), ("low", 100.0), ("high", 1000.0), ("low", 100.0)] {
+        text.push_str(&format!("A\t{role}\t\t0\t{x}\n"));
+    }
+    let mut alone = String::from("[I] (µM)\t% activity\n");
+    for (k, i) in doses().iter().enumerate() {
+        let x = 100.0 + 900.0 / (1.0 + i / 2.0) + [4.0, -3.0, 2.0, -5.0, 1.0, 3.0, -2.0, 0.5, -1.0, 2.5][k];
+        text.push_str(&format!("A\tsample\tc1\t{i}\t{x}\n"));
+        alone.push_str(&format!("{i}\t{}\n", 100.0 * (x - 100.0) / (1000.0 - 100.0)));
+    }
+    let batch = write("plate-a.tsv", &text);
+    let single = write("plate-a-c1.tsv", &alone);
+    for fixed in [&[][..], &["--top", "100", "--bottom", "0"][..]] {
+        let args = [&["fit", batch.to_str().unwrap(), "--group-by", "compound", "--model", "ic50", "--normalise", "--json"][..], fixed].concat();
+        let (code, out, err) = turnover(&args, &[]);
+        assert_eq!(code, 0, "{err}");
+        let parsed: Value = serde_json::from_str(&out).unwrap();
+        let plate = &parsed["plates"][0];
+        assert_eq!(plate["plate"], "A");
+        assert!((plate["high"]["mean"].as_f64().unwrap() - 1000.0).abs() < 1e-12);
+        assert!((plate["high"]["sd"].as_f64().unwrap() - 8.164966).abs() < 1e-6);
+        assert!((plate["low"]["sd"].as_f64().unwrap() - 4.082483).abs() < 1e-6);
+        assert!((plate["z_prime"].as_f64().unwrap() - 0.959175).abs() < 1e-6);
+        assert!(plate["flag"].is_null());
+        let records = parsed["curves"].as_array().unwrap();
+        assert_eq!(records.len(), 1);
+        let args = [&["fit", single.to_str().unwrap(), "--model", "ic50", "--json"][..], fixed].concat();
+        let (_, out, err) = turnover(&args, &[]);
+        let one: Value = serde_json::from_str(&out).unwrap_or_else(|_| panic!("{err}"));
+        assert_eq!(fit_fields(&records[0]), fit_fields(&one));
+        assert_eq!(records[0]["parameters"].as_array().unwrap().len(), 4 - fixed.len() / 2);
+    }
+}

@@ -25,6 +25,7 @@ use crate::inhibition::{analyse_inhibition, InhibitionRequest};
 use crate::intervals::{BootstrapSettings, IntervalMethod};
 use crate::model::Dimension;
 use crate::models::{model_input, model_with_options, ModelInput, ModelOptions};
+use crate::plate::{normalise_plates, PlateQuality};
 use crate::rates::{analyse_rates, normalise_name, RateRequest, CAUTION};
 use crate::table::{detect_separator, is_comment_line, parse_heading, split_line, InputProblem, Separator};
 use crate::units::ConcentrationUnit;
@@ -73,6 +74,9 @@ pub struct BatchRequest {
     pub bootstrap: BootstrapSettings,
     /// The thresholds of the flags.
     pub flags: FlagSettings,
+    /// Turn each plate's signals into % activity by its control wells
+    /// (a `role` column; see [`crate::plate`]) before fitting.
+    pub normalise: bool,
 }
 
 /// Thresholds of the per-curve flags. None of them has a published source:
@@ -194,6 +198,8 @@ pub struct BatchAnalysis {
     pub group_by: String,
     /// One record per curve, in the order the names first appear.
     pub curves: Vec<CurveResult>,
+    /// Each plate's controls, Z′ and signal window, when normalised.
+    pub plates: Vec<PlateQuality>,
     /// Rows that belong to no curve.
     pub problems: Vec<InputProblem>,
     /// The standing caution.
@@ -202,10 +208,21 @@ pub struct BatchAnalysis {
 
 /// Fits every curve of the table, one after the other.
 pub fn analyse_batch(request: &BatchRequest) -> Result<BatchAnalysis, Error> {
-    check_request(request)?;
-    let split = split_curves(&request.text, &request.group_by)?;
+    let (split, plates) = prepare_batch(request)?;
     let curves = split.curves.iter().map(|c| fit_curve(request, c)).collect();
-    Ok(BatchAnalysis { group_by: split.group_by, curves, problems: split.problems, caution: CAUTION.to_string() })
+    Ok(BatchAnalysis { group_by: split.group_by, curves, plates, problems: split.problems, caution: CAUTION.to_string() })
+}
+
+/// Checks the request, normalises the plates when asked and cuts the table
+/// into curves: everything before the per-curve fits.
+pub fn prepare_batch(request: &BatchRequest) -> Result<(CurveSplit, Vec<PlateQuality>), Error> {
+    check_request(request)?;
+    if request.normalise {
+        let normalised = normalise_plates(&request.text)?;
+        Ok((split_curves(&normalised.text, &request.group_by)?, normalised.plates))
+    } else {
+        Ok((split_curves(&request.text, &request.group_by)?, Vec::new()))
+    }
 }
 
 /// Refuses a model name no one-curve fit knows.

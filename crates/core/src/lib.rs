@@ -34,6 +34,8 @@
 //! - [`dose`]: inhibitor series (IC50 logistic, Morrison tight binding).
 //! - [`batch`]: many curves in one table, grouped by a column, each fitted
 //!   alone and flagged.
+//! - [`plate`]: % activity from each plate's control wells, Z′ and the
+//!   signal window.
 //! - [`compare`]: AICc ranking, Akaike weights, F tests, verdict.
 //!
 //! ```
@@ -64,6 +66,7 @@ pub mod intervals;
 pub mod lambert;
 pub mod model;
 pub mod models;
+pub mod plate;
 pub mod plots;
 pub mod progress;
 pub mod random;
