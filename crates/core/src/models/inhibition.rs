@@ -15,7 +15,7 @@
 //! sense) the case Kic = Kiu = Ki. The predictors are `x = [S, I]`.
 
 use super::michaelis_menten::MichaelisMenten;
-use super::start::{log_grid, positive_range, scaled_rss};
+use super::start::{log_grid, positive_range, scaled_rss_in};
 use crate::error::Error;
 use crate::model::{Dimension, Model, Observations, ParameterSpec};
 
@@ -172,16 +172,19 @@ impl Model for Inhibition {
             .or_else(|_| MichaelisMenten.initial_guess(&Observations::single(&data.predictor_column(0), data.y())?))?;
         let grid = log_grid(i_low / 30.0, i_high * 30.0, 25);
         let km_factors = [0.5, 0.7, 1.0, 1.4, 2.0];
+        // The candidates live in a fixed array and the shape values in one
+        // reused buffer: the 3,125 candidates of the mixed grid allocate
+        // nothing (same candidates, order and arithmetic as before).
         let mut best: Option<(f64, Vec<f64>)> = None;
-        let mut consider = |p: Vec<f64>| {
-            let shape = |x: &[f64]| {
-                let mut unit = p.clone();
-                unit[0] = 1.0;
-                self.value(x, &unit)
-            };
-            if let Some((scale, rss)) = scaled_rss(data, &shape) {
+        let mut shapes = Vec::with_capacity(data.len());
+        let len = self.parameters().len();
+        let mut consider = |p: [f64; 4]| {
+            let mut unit = p;
+            unit[0] = 1.0;
+            let shape = |x: &[f64]| self.value(x, &unit[..len]);
+            if let Some((scale, rss)) = scaled_rss_in(data, &shape, &mut shapes) {
                 if scale > 0.0 && best.as_ref().is_none_or(|(b, _)| rss < *b) {
-                    let mut p = p.clone();
+                    let mut p = p[..len].to_vec();
                     p[0] = scale;
                     best = Some((rss, p));
                 }
@@ -193,10 +196,10 @@ impl Model for Inhibition {
                 match self.mechanism {
                     Mechanism::Mixed => {
                         for &k2 in &grid {
-                            consider(vec![1.0, km, k1, k2]);
+                            consider([1.0, km, k1, k2]);
                         }
                     }
-                    _ => consider(vec![1.0, km, k1]),
+                    _ => consider([1.0, km, k1, 0.0]),
                 }
             }
         }
