@@ -403,15 +403,24 @@ pub fn fit_curve(request: &BatchRequest, curve: &CurveInput) -> CurveResult {
                 notes: fitted.notes,
             }
         }
-        Err(e) => CurveResult {
-            curve: curve.name.clone(),
-            fit: None,
-            error: Some(e.message.clone()),
-            pic50: None,
-            flags: vec![CurveFlag { code: "no-fit".into(), reason: e.message }],
-            problems: Vec::new(),
-            notes: Vec::new(),
-        },
+        Err(e) => {
+            // The one-curve analysis counts the lines of the curve's own
+            // table; say so rather than let them pass for the batch's.
+            let message = if e.message.contains("line ") {
+                format!("{} (line numbers here count the lines of this curve's own table, its header being line 1)", e.message)
+            } else {
+                e.message
+            };
+            CurveResult {
+                curve: curve.name.clone(),
+                fit: None,
+                error: Some(message.clone()),
+                pic50: None,
+                flags: vec![CurveFlag { code: "no-fit".into(), reason: message }],
+                problems: Vec::new(),
+                notes: Vec::new(),
+            }
+        }
     }
 }
 
@@ -625,5 +634,36 @@ mod tests {
         assert_eq!(split.curves[0].text, "[S] (mM);v\n0,5;1,25\n1;2\n");
         let text = "curve,[S],note\nk1,1,\"a,b\"\n";
         assert_eq!(split_curves(text, "").unwrap().curves[0].text, "[S],note\n1,\"a,b\"\n");
+    }
+
+    /// `analyse_batch` gives each curve the fit of its own table (compared
+    /// through `Debug`, which writes every f64 exactly), and a curve too
+    /// short to fit becomes a `no-fit` record, not an error of the batch.
+    /// The series are invented.
+    #[test]
+    fn batch_equals_each_curve_alone_and_keeps_failures_as_records() {
+        let a = [(0.1, 97.0), (0.3, 90.0), (1.0, 70.0), (3.0, 41.0), (10.0, 17.0), (30.0, 6.0), (100.0, 2.0)];
+        let b = [(0.1, 99.0), (0.3, 95.0), (1.0, 88.0), (3.0, 72.0), (10.0, 45.0), (30.0, 22.0), (100.0, 9.0)];
+        let mut text = String::from("[I] (µM)\tsample\t% activity\n");
+        let mut alone = [String::from("[I] (µM)\t% activity\n"), String::from("[I] (µM)\t% activity\n")];
+        for k in 0..a.len() {
+            for (c, series) in [a, b].iter().enumerate() {
+                text.push_str(&format!("{}\t{}\t{}\n", series[k].0, ["s-a", "s-b"][c], series[k].1));
+                alone[c].push_str(&format!("{}\t{}\n", series[k].0, series[k].1));
+            }
+        }
+        text.push_str("1\ts-c\t50\n");
+        let request = BatchRequest { text, model: "ic50".into(), ..Default::default() };
+        let batch = analyse_batch(&request).unwrap();
+        assert_eq!(batch.group_by, "sample");
+        assert_eq!(batch.curves.len(), 3);
+        for c in 0..2 {
+            let one = analyse_dose(&DoseRequest { text: alone[c].clone(), model: "ic50".into(), ..Default::default() }).unwrap();
+            assert_eq!(format!("{:?}", batch.curves[c].fit.as_ref().unwrap()), format!("{:?}", one.fit));
+            assert!(batch.curves[c].pic50.is_some());
+        }
+        let failed = &batch.curves[2];
+        assert!(failed.fit.is_none() && failed.error.is_some());
+        assert_eq!(failed.flags[0].code, "no-fit");
     }
 }
