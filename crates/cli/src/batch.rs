@@ -147,7 +147,7 @@ pub(crate) fn run(args: Prepared, model: String, group_by: String, format: Forma
     if format == Format::Json {
         out.write_all(b"\n],\"problems\":")?;
         serde_json::to_writer(&mut out, &split.problems).map_err(std::io::Error::from)?;
-        write!(out, ",\"caution\":{}}}\n", serde_json::to_string(CAUTION).expect("a string"))?;
+        writeln!(out, ",\"caution\":{}}}", serde_json::to_string(CAUTION).expect("a string"))?;
     }
     out.flush()?;
     if problems > 0 && !args.lenient {

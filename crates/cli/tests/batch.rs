@@ -276,3 +276,25 @@ fn normalised_plate_gives_hand_computed_z_prime_and_percent_activity() {
         assert_eq!(records[0]["parameters"].as_array().unwrap().len(), 4 - fixed.len() / 2);
     }
 }
+
+/// Batch options without --group-by, and one-curve options with it, are
+/// refused with the reason; a named column that is not there is an error.
+#[test]
+fn options_that_do_not_apply_are_refused() {
+    let curves: Vec<Simulated> = screen().into_iter().take(2).collect();
+    let path = write("batch-2.csv", &batch_table(&curves));
+    let file = path.to_str().unwrap();
+    let cases: [(&[&str], &str); 6] = [
+        (&["fit", file, "--model", "ic50", "--format", "csv"], "--format applies to batch fits only"),
+        (&["fit", file, "--model", "ic50", "--threads", "2"], "--threads applies to batch fits only"),
+        (&["fit", file, "--model", "ic50", "--normalise"], "--normalise applies to batch fits only"),
+        (&["fit", file, "--group-by", "compound", "--model", "ic50", "--json", "--format", "csv"], "disagree"),
+        (&["fit", file, "--group-by", "compound", "--model", "ic50", "--json", "--points"], "--points applies to one-curve fits"),
+        (&["fit", file, "--group-by", "plate", "--model", "ic50"], "no column 'plate'"),
+    ];
+    for (args, expected) in cases {
+        let (code, _, err) = turnover(args, &[]);
+        assert_eq!(code, 2, "{args:?}");
+        assert!(err.contains(expected), "{args:?}: {err}");
+    }
+}

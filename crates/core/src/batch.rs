@@ -521,7 +521,7 @@ fn flags(fitted: &Fitted, model: &str, settings: &FlagSettings, percent: bool) -
             let tested: Vec<f64> = fitted.used.iter().map(|u| u.0).filter(|i| *i > 0.0).collect();
             let low = tested.iter().copied().fold(f64::INFINITY, f64::min);
             let high = tested.iter().copied().fold(0.0, f64::max);
-            if !tested.is_empty() && !(ic50 >= low && ic50 <= high) {
+            if !(tested.is_empty() || (low..=high).contains(&ic50)) {
                 out.push(flag(
                     "ic50-outside-range",
                     format!("IC50 = {} lies outside the tested concentrations ({} to {}); it is an extrapolation", short(ic50), short(low), short(high)),
@@ -657,8 +657,8 @@ mod tests {
         let batch = analyse_batch(&request).unwrap();
         assert_eq!(batch.group_by, "sample");
         assert_eq!(batch.curves.len(), 3);
-        for c in 0..2 {
-            let one = analyse_dose(&DoseRequest { text: alone[c].clone(), model: "ic50".into(), ..Default::default() }).unwrap();
+        for (c, table) in alone.iter().enumerate() {
+            let one = analyse_dose(&DoseRequest { text: table.clone(), model: "ic50".into(), ..Default::default() }).unwrap();
             assert_eq!(format!("{:?}", batch.curves[c].fit.as_ref().unwrap()), format!("{:?}", one.fit));
             assert!(batch.curves[c].pic50.is_some());
         }
