@@ -146,6 +146,9 @@ case "${1:-build}" in
   test)
     run_tests
     ;;
+  bench)
+    "$ROOT/tests/bench/run.sh"
+    ;;
   *)
     echo "usage: ./build.sh [test]" >&2
     exit 2

@@ -8,6 +8,7 @@
 //! (its numbers are still printed, marked as such). A closed pipe ends the
 //! run quietly with 0.
 
+mod batch;
 mod output;
 mod traces;
 
@@ -115,6 +116,23 @@ struct FitOptions {
     model: Option<String>,
     #[command(flatten)]
     extra: ModelExtras,
+    /// Fit one curve per name in this column (such as curve, compound,
+    /// sample or well), each as if its rows were a table alone
+    #[arg(long, value_name = "COLUMN")]
+    group_by: Option<String>,
+    /// With --group-by: one JSON object, or one CSV or TSV row per curve
+    /// [default: json with --json, else tsv]
+    #[arg(long, value_name = "FORMAT", value_parser = ["json", "csv", "tsv"])]
+    format: Option<String>,
+    /// With --group-by: worker threads [default: one per core, or
+    /// RAYON_NUM_THREADS]
+    #[arg(long, value_name = "N")]
+    threads: Option<usize>,
+    /// With --group-by: turn each plate's signals into % activity by its
+    /// control wells (a role column: high, low, sample; an optional plate
+    /// column), and report each plate's Z′ and signal window
+    #[arg(long)]
+    normalise: bool,
 }
 
 /// Options that only some models use; each is refused where it does not apply.
@@ -238,7 +256,7 @@ fn main() -> ExitCode {
 }
 
 /// The rate request, models and options of a fit or comparison.
-struct Prepared {
+pub(crate) struct Prepared {
     file: String,
     json: bool,
     points: bool,
@@ -444,7 +462,26 @@ struct Envelope<'a, P: Serialize, U: Serialize> {
 
 fn fit(options: FitOptions) -> Result<ExitCode, Failure> {
     let model = options.model.clone().unwrap_or_else(|| "mm".to_string());
-    let mut args = prepare("fit", options.data, options.extra, &model)?;
+    let Some(group_by) = options.group_by else {
+        for (given, name) in [(options.format.is_some(), "--format"), (options.threads.is_some(), "--threads"), (options.normalise, "--normalise")] {
+            if given {
+                return Err(usage("fit", format!("{name} applies to batch fits only; add --group-by COLUMN or leave it out")));
+            }
+        }
+        return fit_one(options.data, options.extra, model);
+    };
+    let format = match (options.format.as_deref(), options.data.json) {
+        (Some(f), true) if f != "json" => return Err(usage("fit", format!("--json and --format {f} disagree; give one of them"))),
+        (Some(f), _) => batch::Format::from_name(f),
+        (None, true) => batch::Format::Json,
+        (None, false) => batch::Format::Tsv,
+    };
+    let args = prepare("fit", options.data, options.extra, &model)?;
+    batch::run(args, model, group_by, format, options.threads, options.normalise)
+}
+
+fn fit_one(data: DataOptions, extra: ModelExtras, model: String) -> Result<ExitCode, Failure> {
+    let mut args = prepare("fit", data, extra, &model)?;
     args.request.text = read_input(&args.file)?;
     let mut out = Output::new();
     let code = match model_input(&model) {

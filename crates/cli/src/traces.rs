@@ -104,6 +104,7 @@ fn prepare(command: &'static str, options: TraceOptions) -> Result<Prepared, Fai
     request.linear_limit = options.linear_limit;
     request.max_conversion = options.max_conversion;
     request.excluded = options.exclude;
+    request.fit_v0 = options.v0;
     for text in &options.window {
         let bad = || usage(command, format!("--window: '{text}' is not NAME=START:END, such as A1=0:5"));
         let (name, range) = text.split_once('=').ok_or_else(bad)?;
@@ -112,7 +113,6 @@ fn prepare(command: &'static str, options: TraceOptions) -> Result<Prepared, Fai
         let end = option_number(b).map_err(|m| usage(command, format!("--window {text}: {m}")))?;
         if !(end > start) {
             return Err(usage(command, format!("--window {text}: the end must come after the start")));
-    request.fit_v0 = options.v0;
         }
         request.windows.push(WindowOverride { trace: name.trim().to_string(), start, end });
     }

@@ -340,11 +340,28 @@ pub fn bootstrap(model: &dyn Model, data: &Observations, fit: &Fit, settings: &B
     let mut estimates = Vec::with_capacity(settings.resamples);
     let mut covariances = Vec::with_capacity(settings.resamples);
     let mut failures = 0;
+    // The residual scheme changes only the responses: one set of
+    // observations and one response buffer serve every resample (the same
+    // draws in the same order as building each set anew).
+    let mut reused = data.clone();
+    let mut y = vec![0.0; n];
     for _ in 0..settings.resamples {
         let resampled = match settings.scheme {
             BootstrapScheme::Residual => {
-                let y: Vec<f64> = (0..n).map(|i| fitted[i] + residuals[rng.below(n)] / sqrt_w[i]).collect();
-                Observations::new(predictors, (0..n).flat_map(|i| data.x(i).to_vec()).collect(), y, Some(data.weights().to_vec()))
+                for (i, value) in y.iter_mut().enumerate() {
+                    *value = fitted[i] + residuals[rng.below(n)] / sqrt_w[i];
+                }
+                if reused.set_responses(&y).is_err() {
+                    failures += 1;
+                    continue;
+                }
+                let report = minimise(model, &reused, best, &SolverSettings::default());
+                if report.converged {
+                    estimates.push(report.parameters);
+                } else {
+                    failures += 1;
+                }
+                continue;
             }
             BootstrapScheme::Case => {
                 let rows: Vec<usize> = (0..n).map(|_| rng.below(n)).collect();

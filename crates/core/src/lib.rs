@@ -34,6 +34,10 @@
 //! - [`inhibition`]: rates at several [S] and [I], every reversible
 //!   mechanism fitted globally, compared and plotted.
 //! - [`dose`]: inhibitor series (IC50 logistic, Morrison tight binding).
+//! - [`batch`]: many curves in one table, grouped by a column, each fitted
+//!   alone and flagged.
+//! - [`plate`]: % activity from each plate's control wells, Z′ and the
+//!   signal window.
 //! - [`compare`]: AICc ranking, Akaike weights, F tests, verdict.
 //! - [`errors`]: the error structure (constant, Poisson-like or relative)
 //!   and the weighting it suggests.
@@ -54,6 +58,7 @@
 
 #![deny(missing_docs)]
 
+pub mod batch;
 pub mod compare;
 pub mod decode;
 pub mod early;
@@ -68,6 +73,7 @@ pub mod intervals;
 pub mod lambert;
 pub mod model;
 pub mod models;
+pub mod plate;
 pub mod plots;
 pub mod progress;
 pub mod random;

@@ -73,6 +73,21 @@ impl Observations {
         Ok(Observations { predictors, x, y, weights })
     }
 
+    /// Replaces the responses by `y`, keeping the predictors and weights,
+    /// with the check [`Observations::new`] makes (one finite value per
+    /// observation); on an error nothing is changed. Lets a resampling loop
+    /// reuse one set of observations instead of building a new one.
+    pub fn set_responses(&mut self, y: &[f64]) -> Result<(), Error> {
+        if y.len() != self.y.len() {
+            return Err(Error::invalid_data("there must be one response per observation"));
+        }
+        if y.iter().any(|v| !v.is_finite()) {
+            return Err(Error::invalid_data("every value must be a finite number"));
+        }
+        self.y.copy_from_slice(y);
+        Ok(())
+    }
+
     /// Convenience for the common one-predictor case.
     pub fn single(x: &[f64], y: &[f64]) -> Result<Self, Error> {
         Observations::new(1, x.to_vec(), y.to_vec(), None)

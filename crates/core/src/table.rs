@@ -257,7 +257,9 @@ pub(crate) fn outside_quotes(line: &str) -> Cow<'_, str> {
     Cow::Owned(out)
 }
 
-fn detect_separator<'a>(lines: impl Iterator<Item = &'a str> + Clone) -> Separator {
+/// The separator of a table's lines: tab, then semicolon, then comma (or
+/// whitespace when that reads more cells as numbers), found outside quotes.
+pub fn detect_separator<'a>(lines: impl Iterator<Item = &'a str> + Clone) -> Separator {
     if lines.clone().any(|line| outside_quotes(line).contains('\t')) {
         Separator::Tab
     } else if lines.clone().any(|line| outside_quotes(line).contains(';')) {

@@ -15,7 +15,7 @@
 //! sense) the case Kic = Kiu = Ki. The predictors are `x = [S, I]`.
 
 use super::michaelis_menten::MichaelisMenten;
-use super::start::{log_grid, positive_range, scaled_rss};
+use super::start::{log_grid, positive_range, scaled_rss_in};
 use crate::error::Error;
 use crate::model::{Dimension, Model, Observations, ParameterSpec};
 
@@ -153,8 +153,9 @@ impl Model for Inhibition {
     /// Starting values: Vmax and Km from the Michaelis-Menten rule applied
     /// to the rows at the lowest [I] (normally [I] = 0); then the inhibition
     /// constants, and Km within a factor of two, from a logarithmic grid
-    /// (from 1/30 of the smallest to 30 times the largest [I] > 0), with
-    /// Vmax by linear least squares at each grid point.
+    /// (from 1/30 of the smallest to 30 times the largest [I] > 0; for the
+    /// two constants of mixed inhibition a coarse grid refined around its
+    /// best point), with Vmax by linear least squares at each grid point.
     fn initial_guess(&self, data: &Observations) -> Result<Vec<f64>, Error> {
         let (i_low, i_high) = positive_range(data, 1).ok_or_else(|| {
             Error::invalid_data("an inhibition model needs rows with an inhibitor concentration [I] above zero")
@@ -170,37 +171,60 @@ impl Model for Inhibition {
         let base = Observations::single(&s_low, &v_low)
             .and_then(|o| MichaelisMenten.initial_guess(&o))
             .or_else(|_| MichaelisMenten.initial_guess(&Observations::single(&data.predictor_column(0), data.y())?))?;
-        let grid = log_grid(i_low / 30.0, i_high * 30.0, 25);
-        let km_factors = [0.5, 0.7, 1.0, 1.4, 2.0];
-        let mut best: Option<(f64, Vec<f64>)> = None;
-        let mut consider = |p: Vec<f64>| {
-            let shape = |x: &[f64]| {
-                let mut unit = p.clone();
-                unit[0] = 1.0;
-                self.value(x, &unit)
-            };
-            if let Some((scale, rss)) = scaled_rss(data, &shape) {
+        // The candidates live in a fixed array and the shape values in one
+        // reused buffer, so the grid allocates nothing per candidate.
+        let mut best: Option<(f64, [f64; 4])> = None;
+        let mut shapes = Vec::with_capacity(data.len());
+        let len = self.parameters().len();
+        let mut consider = |p: [f64; 4], best: &mut Option<(f64, [f64; 4])>| {
+            let mut unit = p;
+            unit[0] = 1.0;
+            let shape = |x: &[f64]| self.value(x, &unit[..len]);
+            if let Some((scale, rss)) = scaled_rss_in(data, &shape, &mut shapes) {
                 if scale > 0.0 && best.as_ref().is_none_or(|(b, _)| rss < *b) {
-                    let mut p = p.clone();
+                    let mut p = p;
                     p[0] = scale;
-                    best = Some((rss, p));
+                    *best = Some((rss, p));
                 }
             }
         };
-        for factor in km_factors {
-            let km = base[1] * factor;
-            for &k1 in &grid {
-                match self.mechanism {
-                    Mechanism::Mixed => {
-                        for &k2 in &grid {
-                            consider(vec![1.0, km, k1, k2]);
+        match self.mechanism {
+            Mechanism::Mixed => {
+                // Two constants: a coarse grid (9 × 9, Km × 0.5, 1, 2),
+                // then a finer one (5 × 5 at half the coarse step, Km ×
+                // 0.7, 1, 1.4) around the best coarse point: 318
+                // candidates where the full 25 × 25 × 5 grid had 3,125.
+                let coarse = log_grid(i_low / 30.0, i_high * 30.0, 9);
+                for factor in [0.5, 1.0, 2.0] {
+                    for &k1 in &coarse {
+                        for &k2 in &coarse {
+                            consider([1.0, base[1] * factor, k1, k2], &mut best);
                         }
                     }
-                    _ => consider(vec![1.0, km, k1]),
+                }
+                if let Some((_, centre)) = best {
+                    let half_step = (coarse[1] / coarse[0]).sqrt();
+                    for factor in [0.7, 1.0, 1.4] {
+                        for a in -2..=2 {
+                            for b in -2..=2 {
+                                let k1 = centre[2] * half_step.powi(a);
+                                let k2 = centre[3] * half_step.powi(b);
+                                consider([1.0, centre[1] * factor, k1, k2], &mut best);
+                            }
+                        }
+                    }
+                }
+            }
+            _ => {
+                let grid = log_grid(i_low / 30.0, i_high * 30.0, 25);
+                for factor in [0.5, 0.7, 1.0, 1.4, 2.0] {
+                    for &k1 in &grid {
+                        consider([1.0, base[1] * factor, k1, 0.0], &mut best);
+                    }
                 }
             }
         }
-        best.map(|(_, p)| p).ok_or_else(|| Error::numerical("no starting values could be formed for the inhibition model"))
+        best.map(|(_, p)| p[..len].to_vec()).ok_or_else(|| Error::numerical("no starting values could be formed for the inhibition model"))
     }
 }
 

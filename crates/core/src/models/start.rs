@@ -18,9 +18,17 @@ pub(crate) fn log_grid(low: f64, high: f64, n: usize) -> Vec<f64> {
 /// residual sum of squares it leaves. `None` when the shape is zero or not
 /// finite everywhere.
 pub(crate) fn scaled_rss(data: &Observations, shape: &dyn Fn(&[f64]) -> f64) -> Option<(f64, f64)> {
+    scaled_rss_in(data, shape, &mut Vec::with_capacity(data.len()))
+}
+
+/// [`scaled_rss`] with the shape values kept in `shapes`, a buffer the
+/// caller reuses across many candidates (a grid search then allocates
+/// nothing per candidate). The arithmetic is the same, so is the result.
+pub(crate) fn scaled_rss_in(data: &Observations, shape: &dyn Fn(&[f64]) -> f64, shapes: &mut Vec<f64>) -> Option<(f64, f64)> {
     let mut sgy = 0.0;
     let mut sgg = 0.0;
-    let shapes: Vec<f64> = (0..data.len()).map(|i| shape(data.x(i))).collect();
+    shapes.clear();
+    shapes.extend((0..data.len()).map(|i| shape(data.x(i))));
     if shapes.iter().any(|g| !g.is_finite()) {
         return None;
     }

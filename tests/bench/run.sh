@@ -1,0 +1,9 @@
+#!/usr/bin/env bash
+# Benchmark, not a test: builds the release `turnover` and runs
+# tests/bench/bench.py, which times Turnover and SciPy's curve_fit on the
+# same invented data in the same run and prints their ratios.
+set -euo pipefail
+ROOT="$(cd "$(dirname "$0")/../.." && pwd)"
+cd "$ROOT"
+cargo build --release -p turnover-cli
+TURNOVER_BIN="$ROOT/target/release/turnover" python3 tests/bench/bench.py
