@@ -182,6 +182,14 @@ function formatted(p) {
   return wasm_bindgen.formatEstimate(p.value, num(p.std_error), interval ? num(p.ci_low) : undefined, interval ? num(p.ci_high) : undefined);
 }
 
+// What the core's flags on a constant mean, in a few words beside it.
+const FLAG_WORDS = {
+  not_determined: '(not determined by these data)',
+  not_bounded_above: '(no upper limit from these data)',
+  not_bounded_below: '(no lower limit from these data)',
+  asymptotic_crosses_zero: '(asymptotic interval reaches below zero: see the profile interval)',
+};
+
 /** "value ± SE" by the same rule, for a sentence. */
 function estimateText(value, se) {
   const num = (x) => (x === null || x === undefined || !Number.isFinite(x) ? null : x);
@@ -198,8 +206,13 @@ function parameterRow(p) {
   if (p.derived) row.classList.add('derived');
   const f = formatted(p);
   const end = (text) => text ?? 'open';
+  const name = element('td', {}, p.name);
+  if (p.flag) {
+    row.dataset.flag = p.flag;
+    name.append(element('span', { class: 'param-flag', title: 'See the warnings below' }, ` ${FLAG_WORDS[p.flag] ?? p.flag}`));
+  }
   row.append(
-    element('td', {}, p.name),
+    name,
     element('td', { class: 'num value' }, f.value),
     element('td', { class: 'num se' }, f.se ?? '—'),
     element('td', { class: 'num ci', title: `interval: ${p.ci_method}` },
@@ -306,6 +319,7 @@ function showChecks(result) {
   list.replaceChildren();
   const add = (term, text) => list.append(element('dt', {}, term), element('dd', {}, text));
   const d = result.diagnostics;
+  if (result.error_structure) add('Error structure', result.error_structure.text);
   if (d.runs) {
     add('Runs of residual signs', `${d.runs.runs} runs (${d.runs.expected.toFixed(1)} expected for random signs); P(this few or fewer) = ${d.runs.p_too_few.toFixed(3)}`);
   } else {
@@ -448,9 +462,11 @@ const POINTS_SHOWN = 400;
 
 const WEIGHT_WORDS = {
   uniform: 'equal weights (constant absolute error)',
-  relative: 'weights 1/v² (constant relative error)',
-  poisson: 'weights 1/v (variance proportional to v)',
+  relative: 'weights 1/v² with v from the fitted curve, iterated until they settle (constant relative error)',
+  poisson: 'weights 1/v with v from the fitted curve, iterated until they settle (variance proportional to v)',
   sd: 'weights 1/sd² from the sd column',
+  relative_measured: 'weights 1/v² on the measured rates (constant relative error; as Turnover 0.1 weighted)',
+  poisson_measured: 'weights 1/v on the measured rates (as Turnover 0.1 weighted)',
 };
 const INTERVAL_WORDS = {
   asymptotic: 'estimate ± t(0.975, n − p)·SE',

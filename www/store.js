@@ -35,7 +35,7 @@ const DEFAULTS = {
   },
   traces: {
     text: '', layout: '', conversion: 'epsilon', preset: '', epsilon: '', path: '', volume: '', diameter: '',
-    direction: 'rises', limit: '', max_conversion: '10', standard: '', windows: {}, excluded: [], whole_curve: false,
+    direction: 'rises', limit: '', max_conversion: '10', standard: '', windows: {}, excluded: [], whole_curve: false, fit_v0: false,
   },
 };
 
@@ -294,7 +294,13 @@ export function migrateSavedState(saved, classify = null) {
   if (r.enzyme === -1) notes.push('the saved [E]t could not be read by the version that saved it; enter it again');
   else doc = setPath(doc, 'rates.enzyme', text(r.enzyme));
   if (r.enzyme_unit) doc = setPath(doc, 'rates.enzyme_unit', String(r.enzyme_unit));
-  if (r.weighting) doc = setPath(doc, 'rates.weighting', String(r.weighting));
+  if (r.weighting) {
+    // 0.1 computed relative and Poisson weights from the measured rates;
+    // they are kept so that the saved numbers come back, with a note.
+    const legacy = { relative: 'relative_measured', poisson: 'poisson_measured' }[r.weighting];
+    doc = setPath(doc, 'rates.weighting', legacy ?? String(r.weighting));
+    if (legacy) notes.push(`it weighted by the measured rates (${r.weighting === 'relative' ? '1/v²' : '1/v'}), which is kept so that its numbers come back; weights from the fitted curve, now the default for that choice, are less biased when rates are noisy`);
+  }
   if (r.interval_method) doc = setPath(doc, 'rates.interval_method', String(r.interval_method));
   if (r.bootstrap) {
     doc = setPath(doc, 'rates.resamples', text(r.bootstrap.resamples ?? 2000));
@@ -335,7 +341,7 @@ export function migrateSavedState(saved, classify = null) {
   const demo = [];
   for (const section of TABLE_SECTIONS) if (doc[section].text.startsWith('# Demo (invented data)')) demo.push(section);
   if (doc.traces.text.startsWith('Demo plate (simulated)')) demo.push('traces');
-  doc = { ...doc, demo, notes: notes.length ? `Opened from an earlier saved page: ${notes.join('; ')}.` : '' };
+  doc = { ...doc, demo, notes: notes.length ? `Opened from a page saved by Turnover 0.1: ${notes.join('; ')}.` : '' };
   // Check the result against the current shape, as for any document.
   const checked = validateDocument(doc);
   return checked.error ? { error: `the saved page could not be read: ${checked.error}` } : { document: checked.document, migrated: true };

@@ -111,6 +111,7 @@ function traceRequest(doc) {
     max_conversion: number(t.max_conversion, 'conversion limit'),
     windows: Object.entries(t.windows).map(([trace, [start, end]]) => ({ trace, start, end })),
     excluded: [...t.excluded],
+    fit_v0: t.fit_v0,
   };
   if (problems.length) return { request, problem: problems.join(' ') };
   request.max_conversion = (request.max_conversion ?? 10) / 100;
@@ -460,6 +461,7 @@ function drawDetail() {
     ['Trace', `${trace.name} (${trace.role})`],
     ['[S]₀', trace.s === null ? '—' : `${fmt(trace.s, 4)} ${r.substrate_unit ?? ''}`],
     ['Rate', trace.rate === null ? '—' : `${page.ui.estimateText(trace.rate, trace.rate_se)} ${r.rate_unit}`],
+    ['v0 (whole early trace)', trace.v0 === null || trace.v0 === undefined ? 'not fitted (tick “curvature-aware v0” to fit it)' : `${page.ui.estimateText(trace.v0, trace.v0_se)} ${r.rate_unit}${trace.v0_ci_low !== null ? `, 95% interval ${fmt(trace.v0_ci_low, 4)} to ${fmt(trace.v0_ci_high, 4)}` : ''}`],
     ['Window', trace.window_start === null ? '—' : `${fmt(trace.window_start)}–${fmt(trace.window_end)} ${r.time_unit}, ${trace.window_points} points, ${trace.manual_window ? 'set by hand' : 'automatic'}`],
     ['Used', trace.fraction_converted === null ? '—' : `${(100 * trace.fraction_converted).toFixed(1)} % of [S]₀`],
     ['Blank', trace.blanks_subtracted.length ? trace.blanks_subtracted.join(', ') : 'none'],
@@ -721,6 +723,7 @@ function wire() {
     page.bindField(id, `traces.${key}`);
   }
   page.bindField('tr-preset', 'traces.preset');
+  page.bindField('tr-fit-v0', 'traces.fit_v0');
   $('tr-well-path').addEventListener('click', () => {
     const t = page.doc().traces;
     const volume = page.ui.readTyped(t.volume).value;

@@ -155,7 +155,8 @@ test('a page saved by Turnover 0.1 migrates to the current document', () => {
   const saved = JSON.parse(/<script type="application\/json" id="turnover-saved-state">([\s\S]*?)<\/script>/.exec(page)[1]);
   assert.equal(doc.rates.text, saved.request.text);
   assert.deepEqual(doc.rates.excluded_lines, saved.request.excluded_lines);
-  assert.equal(doc.rates.weighting, saved.request.weighting);
+  assert.equal(doc.rates.weighting, `${saved.request.weighting}_measured`, 'the saved weighting, on the measured rates as 0.1 computed it');
+  assert.match(doc.notes, /weighted by the measured rates/);
   assert.equal(doc.rates.interval_method, saved.request.interval_method);
   assert.equal(doc.rates.enzyme, '12.5');
   assert.equal(doc.rates.enzyme_unit, 'nM');

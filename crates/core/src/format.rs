@@ -258,6 +258,7 @@ mod tests {
             unit: unit.map(String::from),
             derived: false,
             ci_method: "asymptotic".into(),
+            flag: None,
         };
         let text = constants_text(&[
             p("Vmax", 212.68, Some(6.947), Some("µM/min")),

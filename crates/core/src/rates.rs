@@ -876,4 +876,28 @@ mod tests {
         }
         assert!(c.first.notes.iter().any(|n| n.contains("used unchanged for every rate law")), "{:?}", c.first.notes);
     }
+
+    /// Weights 1/v² on the measured rates (Turnover 0.1's `relative`, kept
+    /// for analyses saved then) are fixed weights: the same fit, to the last
+    /// bit of every constant, as weighting by an sd column equal to v
+    /// (1/sd² = 1/v²), and different from weights taken from the curve.
+    #[test]
+    fn weights_on_measured_rates_are_fixed_weights() {
+        let rows = [(0.1, 1.9), (0.2, 3.1), (0.5, 5.3), (1.0, 6.4), (2.0, 7.4), (5.0, 8.4), (10.0, 8.9)];
+        let plain: String = std::iter::once("S\tv\n".to_string()).chain(rows.iter().map(|(s, v)| format!("{s}\t{v}\n"))).collect();
+        let with_sd: String = std::iter::once("S\tv\tsd\n".to_string()).chain(rows.iter().map(|(s, v)| format!("{s}\t{v}\t{v}\n"))).collect();
+        let mut measured = request(&plain);
+        measured.weighting = Weighting::RelativeMeasured;
+        let mut sd = request(&with_sd);
+        sd.weighting = Weighting::Sd;
+        let mut fitted = request(&plain);
+        fitted.weighting = Weighting::Relative;
+        let (a, b, c) = (analyse_rates(&measured).unwrap(), analyse_rates(&sd).unwrap(), analyse_rates(&fitted).unwrap());
+        for (p, q) in a.fit.parameters.iter().zip(&b.fit.parameters) {
+            assert_eq!(p.value, q.value, "{}", p.name);
+            assert_eq!(p.std_error, q.std_error, "{}", p.name);
+        }
+        assert_ne!(a.fit.parameters[0].value, c.fit.parameters[0].value);
+        assert_eq!(a.fit.weighting, "relative_measured");
+    }
 }

@@ -39,11 +39,20 @@ pub enum Weighting {
     Poisson,
     /// Weight 1/sd² from a standard-deviation column.
     Sd,
+    /// Weight 1/v² on the measured rates, fixed: the convention of weights
+    /// given as data (R `nls(weights=)`, SciPy `curve_fit(sigma=)` with
+    /// sigma from the measured values) and what Turnover 0.1 computed for
+    /// `relative`. Kept so that analyses saved then reopen with the same
+    /// numbers; it is biased when the rates are noisy (see above).
+    RelativeMeasured,
+    /// Weight 1/v on the measured rates, fixed (Turnover 0.1's `poisson`).
+    PoissonMeasured,
 }
 
 impl Weighting {
     /// Every choice, for menus and help.
-    pub const ALL: [Weighting; 4] = [Weighting::Uniform, Weighting::Relative, Weighting::Poisson, Weighting::Sd];
+    pub const ALL: [Weighting; 6] =
+        [Weighting::Uniform, Weighting::Relative, Weighting::Poisson, Weighting::Sd, Weighting::RelativeMeasured, Weighting::PoissonMeasured];
 
     /// The name the CLI and page use.
     pub fn name(self) -> &'static str {
@@ -52,13 +61,15 @@ impl Weighting {
             Weighting::Relative => "relative",
             Weighting::Poisson => "poisson",
             Weighting::Sd => "sd",
+            Weighting::RelativeMeasured => "relative_measured",
+            Weighting::PoissonMeasured => "poisson_measured",
         }
     }
 
     /// Reads a weighting by [`Weighting::name`].
     pub fn from_name(name: &str) -> Result<Weighting, String> {
         Weighting::ALL.into_iter().find(|w| w.name() == name.trim()).ok_or_else(|| {
-            format!("unknown weighting '{}'; expected uniform, relative, poisson or sd", name.trim())
+            format!("unknown weighting '{}'; expected uniform, relative, poisson, sd, relative_measured or poisson_measured", name.trim())
         })
     }
 
@@ -72,6 +83,8 @@ impl Weighting {
             Weighting::Relative => "proportional",
             Weighting::Poisson => "sqrt",
             Weighting::Sd => "sd",
+            Weighting::RelativeMeasured => "proportional-measured",
+            Weighting::PoissonMeasured => "sqrt-measured",
         }
     }
 
@@ -103,6 +116,8 @@ impl Weighting {
             Weighting::Relative => "weights 1/v² from the fitted curve (constant relative error)",
             Weighting::Poisson => "weights 1/v from the fitted curve (variance proportional to v)",
             Weighting::Sd => "weights 1/sd² from the sd column",
+            Weighting::RelativeMeasured => "weights 1/v² on the measured rates (constant relative error; biased when rates are noisy)",
+            Weighting::PoissonMeasured => "weights 1/v on the measured rates (variance proportional to v; biased when rates are noisy)",
         }
     }
 
@@ -149,14 +164,14 @@ impl Weighting {
     pub fn weight(self, v: f64, sd: Option<f64>) -> Result<f64, String> {
         match self {
             Weighting::Uniform => Ok(1.0),
-            Weighting::Relative => {
+            Weighting::Relative | Weighting::RelativeMeasured => {
                 if v == 0.0 {
                     Err("a rate of 0 cannot have weight 1/v²".to_string())
                 } else {
                     Ok(1.0 / (v * v))
                 }
             }
-            Weighting::Poisson => {
+            Weighting::Poisson | Weighting::PoissonMeasured => {
                 if v > 0.0 {
                     Ok(1.0 / v)
                 } else {
