@@ -1,0 +1,9 @@
+//! The reading layer shared by the analyses: how a table's columns are
+//! understood, independent of what is fitted afterwards.
+//!
+//! - [`replicates`]: a concentration column followed by replicate
+//!   measurement columns (`rep 1`, `v1`, `replicate A`, repeated headings,
+//!   or unlabelled numbers), and the per-concentration mean, SD, SEM and
+//!   count every analysis reports.
+
+pub mod replicates;
