@@ -108,22 +108,24 @@ pub fn replicate_columns(
     if !(labelled || repeated) {
         return Ok(None);
     }
-    Ok(Some(MeasurementColumns { concentration: 0, measurements: (1..headings.len()).collect(), unit: common_unit(rest, 1)? }))
+    let measurements: Vec<usize> = (1..headings.len()).collect();
+    let unit = common_unit(headings, &measurements)?;
+    Ok(Some(MeasurementColumns { concentration: 0, measurements, unit }))
 }
 
-/// The one unit written in `headings` (the first at 0-based column
-/// `offset`), or a sentence naming the columns that disagree.
-fn common_unit(headings: &[ColumnHeading], offset: usize) -> Result<Option<String>, String> {
+/// The one unit written in the headings of `columns` (0-based), or a
+/// sentence naming the columns that disagree.
+pub fn common_unit(headings: &[ColumnHeading], columns: &[usize]) -> Result<Option<String>, String> {
     let mut unit: Option<(usize, &str)> = None;
-    for (k, heading) in headings.iter().enumerate() {
-        let Some(this) = heading.unit.as_deref().map(str::trim) else { continue };
+    for &k in columns {
+        let Some(this) = headings.get(k).and_then(|h| h.unit.as_deref()).map(str::trim) else { continue };
         match unit {
-            None => unit = Some((k + offset, this)),
+            None => unit = Some((k, this)),
             Some((column, first)) if first != this => {
                 return Err(format!(
                     "the replicate columns give different units: '{first}' in column {} and '{this}' in column {}; give every replicate the same unit",
                     column + 1,
-                    k + offset + 1
+                    k + 1
                 ))
             }
             Some(_) => {}
@@ -148,7 +150,7 @@ pub fn problems_without_empty_replicates(table: &Table, columns: &MeasurementCol
         let row = table.rows.iter().find(|r| r.line == problem.line);
         let short_row = problem.column.is_none()
             && problem.message.starts_with("expected")
-            && row.is_some_and(|r| r.cells.len() < table.width && r.cells.len() > columns.concentration + 1);
+            && row.is_some_and(|r| r.cells.len() < table.width && r.cells.len() > columns.measurements[0]);
         if empty_cell {
             empty += 1;
         } else if short_row {
