@@ -102,6 +102,11 @@ struct DataOptions {
     /// Input line numbers to leave out of the fit, such as 4,9
     #[arg(long, value_name = "LIST", value_delimiter = ',')]
     exclude_lines: Vec<String>,
+    /// Single values to leave out, as LINE:COLUMN (both from 1), such as
+    /// 4:3,9:2: one replicate of a table with replicates in columns, or one
+    /// cell of an inhibition matrix
+    #[arg(long, value_name = "LIST", value_delimiter = ',')]
+    exclude_cells: Vec<String>,
 }
 
 #[derive(Args)]
@@ -284,6 +289,13 @@ fn prepare(command: &'static str, data: DataOptions, extra: ModelExtras, model: 
             .map_err(|_| usage(command, format!("--exclude-lines: '{part}' is not a line number")))?;
         request.excluded_lines.push(line);
     }
+    for part in data.exclude_cells.iter().map(|p| p.trim()).filter(|p| !p.is_empty()) {
+        let cell = part.split_once(':').and_then(|(l, c)| Some((l.trim().parse::<usize>().ok()?, c.trim().parse::<usize>().ok()?)));
+        match cell {
+            Some((line, column)) if line > 0 && column > 0 => request.excluded_cells.push((line, column)),
+            _ => return Err(usage(command, format!("--exclude-cells: '{part}' is not LINE:COLUMN (two numbers from 1, such as 4:3)"))),
+        }
+    }
     let input = model_input(model);
     if let Some(text) = &extra.enzyme {
         let (number, unit) = turnover_core::table::read_quantity(text)
@@ -429,6 +441,14 @@ struct FitJson<'a, E: Serialize> {
     extra: E,
 }
 
+/// An envelope with the per-concentration replicate summaries beside it.
+#[derive(Serialize)]
+struct WithReplicates<E: Serialize, R: Serialize> {
+    #[serde(flatten)]
+    envelope: E,
+    replicates: R,
+}
+
 /// What a JSON fit carries beside the fit record.
 #[derive(Serialize)]
 struct Envelope<'a, P: Serialize, U: Serialize> {
@@ -463,6 +483,7 @@ fn fit(options: FitOptions) -> Result<ExitCode, Failure> {
                     points_omitted,
                     caution: &analysis.caution,
                 };
+                let extra = WithReplicates { envelope: extra, replicates: &analysis.replicates };
                 out.json(&FitJson { fit, extra })?;
             } else {
                 out.text(&fit_table(fit, "", &analysis.notes, &analysis.caution))?;
@@ -477,6 +498,7 @@ fn fit(options: FitOptions) -> Result<ExitCode, Failure> {
                 fixed_top: args.top,
                 fixed_bottom: args.bottom,
                 excluded_lines: args.request.excluded_lines.clone(),
+                excluded_cells: args.request.excluded_cells.clone(),
                 interval_method: args.request.interval_method,
                 bootstrap: args.request.bootstrap,
                 weighting: args.request.weighting,
@@ -498,6 +520,7 @@ fn fit(options: FitOptions) -> Result<ExitCode, Failure> {
                     points_omitted,
                     caution: &analysis.caution,
                 };
+                let extra = WithReplicates { envelope: extra, replicates: &analysis.replicates };
                 out.json(&FitJson { fit: &analysis.fit, extra })?;
             } else {
                 out.text(&fit_table(&analysis.fit, "", &analysis.notes, &analysis.caution))?;
@@ -533,7 +556,7 @@ fn inhibition_request(args: &Prepared, models: Vec<String>) -> InhibitionRequest
         text: args.request.text.clone(),
         models,
         excluded_lines: args.request.excluded_lines.clone(),
-        excluded_cells: Vec::new(),
+        excluded_cells: args.request.excluded_cells.clone(),
         substrate_unit: args.request.substrate_unit.clone(),
         inhibitor_unit: None,
         rate_unit: args.request.rate_unit.clone(),
@@ -657,6 +680,7 @@ fn write_rate_json(out: &mut Output, analysis: &RateAnalysis, all_points: bool) 
         diagnostics: Diagnostics<'a>,
         direct_linear: &'a turnover_core::robust::DirectLinearEstimate,
         bootstrap: &'a Option<turnover_core::rates::BootstrapReport>,
+        replicates: &'a [turnover_core::read::replicates::ReplicateSummary],
     }
     /// The residual diagnostics, their per-point array under the same rule
     /// as the points.
@@ -688,6 +712,7 @@ fn write_rate_json(out: &mut Output, analysis: &RateAnalysis, all_points: bool) 
         diagnostics,
         direct_linear: &analysis.direct_linear,
         bootstrap: &analysis.bootstrap,
+        replicates: &analysis.replicates,
     };
     out.json(&FitJson { fit: &analysis.fit, extra })
 }
