@@ -20,7 +20,9 @@ pub struct TraceOptions {
     /// standard input)
     #[arg(value_name = "TRACES")]
     file: String,
-    /// A table saying what each trace is (trace, S, I, E, role, blank)
+    /// A table saying what each trace is (trace, S, I, E, role, blank), or a
+    /// plate map: one grid per property (a title such as S (µM), a row of
+    /// column numbers 1, 2, ..., rows lettered A, B, ...)
     #[arg(long, value_name = "FILE")]
     layout: String,
     /// Print one JSON object

@@ -103,3 +103,18 @@ fn dose_and_inhibition_fits_read_replicate_columns() {
     same_constants(&a, &json(&["fit", &long, "--model", "competitive", "--json"]));
     assert_eq!(a["replicates"][1]["by_substrate"][0]["count"], 2);
 }
+
+/// `turnover rates --layout` with a plate map gives the same JSON rates as
+/// with the list it stands for (an invented plate: two substrate
+/// concentrations and a blank).
+#[test]
+fn rates_read_a_plate_map_layout() {
+    let traces = file("pm-traces.tsv", "time (min)\tA1\tA2\tA3\n0\t0.10\t0.20\t0.05\n1\t0.21\t0.26\t0.05\n2\t0.30\t0.33\t0.05\n3\t0.41\t0.39\t0.05\n4\t0.50\t0.46\t0.05\n");
+    let list = file("pm-list.tsv", "trace\tS (mM)\trole\nA1\t2\tsample\nA2\t0.5\tsample\nA3\t\tblank\n");
+    let plate = file("pm-plate.tsv", "S (mM)\n\t1\t2\t3\nA\t2\t0.5\n\nrole\n\t1\t2\t3\nA\tsample\tsample\tblank\n");
+    let a = json(&["rates", &traces, "--layout", &list, "--json"]);
+    let b = json(&["rates", &traces, "--layout", &plate, "--json"]);
+    assert_eq!(a["traces"], b["traces"]);
+    assert_eq!(a["rate_table"], b["rate_table"]);
+    assert!(a["traces"][0]["rate"].as_f64().is_some());
+}

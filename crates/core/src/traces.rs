@@ -673,29 +673,38 @@ struct Layout {
 }
 
 fn read_layout(text: &str, problems: &mut Vec<InputProblem>, notes: &mut Vec<String>) -> Result<Layout, Error> {
-    let lines: Vec<(usize, &str)> = text
-        .split('\n')
-        .enumerate()
-        .map(|(i, l)| (i + 1, l.strip_suffix('\r').unwrap_or(l)))
-        .filter(|(_, l)| !l.trim().is_empty() && !is_comment_line(l))
-        .collect();
-    let Some(&(header_line, _)) = lines.first() else {
-        return Err(Error::invalid_data("the layout table is empty; it needs a header such as 'trace\\tS (µM)\\trole'"));
-    };
-    let sep = detect_separator(&lines.iter().map(|(_, l)| *l).collect::<Vec<_>>());
-    let owned = split_all(&lines, sep, problems);
-    let headings: Vec<ColumnHeading> = owned[0].1.iter().map(|c| parse_heading(c)).collect();
+    // The list and the plate map are read to the same placed cells
+    // (crate::read::layout); every problem names the cell's own line and
+    // column.
+    let layout = crate::read::layout::read_layout_cells(text, problems)?;
+    if layout.plate_map {
+        notes.push(format!(
+            "The layout is a plate map: {} well(s) from the grids {}.",
+            layout.entries.len(),
+            layout.headings.iter().map(|h| format!("'{}'", h.name)).collect::<Vec<_>>().join(", ")
+        ));
+    }
+    let headings = &layout.headings;
     let find = |names: &[&str]| headings.iter().position(|h| names.contains(&normalise_name(&h.name).as_str()));
-    let trace_col = find(&["trace", "well", "name", "label", "column"]).ok_or_else(|| {
-        Error::invalid_data(format!("line {header_line}: the layout needs a 'trace' (or 'well') column naming each trace"))
-    })?;
     let s_col = find(&["s", "s0", "substrate"]);
     let i_col = find(&["i", "inhibitor"]);
     let e_col = find(&["e", "e0", "et", "enzyme"]);
     let role_col = find(&["role", "type", "kind"]);
     let blank_col = find(&["blank", "reference"]);
+    if layout.plate_map {
+        for (k, heading) in headings.iter().enumerate() {
+            if ![s_col, i_col, e_col, role_col, blank_col].contains(&Some(k)) {
+                notes.push(format!(
+                    "The plate map's grid '{}' (line {}) is not used by the time-course analysis; it reads S, I, E, role and blank.",
+                    heading.name, layout.heading_lines[k]
+                ));
+            }
+        }
+    }
     let s_unit = match s_col.and_then(|c| headings[c].unit.as_deref()) {
-        Some(u) => Some(ConcentrationUnit::parse(u).map_err(|m| Error::invalid_data(format!("line {header_line}: {m}")))?),
+        Some(u) => Some(
+            ConcentrationUnit::parse(u).map_err(|m| Error::invalid_data(format!("line {}: {m}", layout.heading_lines[s_col.unwrap_or(0)])))?,
+        ),
         None => {
             if s_col.is_some() {
                 notes.push("The layout's [S] column has no unit; rates and conversions are shown without units.".to_string());
@@ -706,29 +715,32 @@ fn read_layout(text: &str, problems: &mut Vec<InputProblem>, notes: &mut Vec<Str
     if s_col.is_none() {
         notes.push("The layout has no S column: fractions converted cannot be computed.".to_string());
     }
-    let all = as_slices(&owned[1..]);
-    let styles = column_styles(&all);
     let mut rows: Vec<(String, LayoutRow)> = Vec::new();
-    for (line, cells) in &all {
-        let name = cells.get(trace_col).map(|c| c.trim()).unwrap_or("");
+    for entry in &layout.entries {
+        let name = entry.name.text.as_str();
         if name.is_empty() {
-            problems.push(InputProblem { line: *line, column: Some(trace_col + 1), message: "expected a trace name".to_string() });
+            problems.push(InputProblem { line: entry.line, column: Some(entry.name.column), message: "expected a trace name".to_string() });
             continue;
         }
+        let cell = |col: Option<usize>| col.and_then(|c| entry.cells[c].as_ref());
         let number = |col: Option<usize>, problems: &mut Vec<InputProblem>| -> Option<f64> {
             let c = col?;
-            let cell = cells.get(c).map(|c| c.trim()).unwrap_or("");
-            if cell.is_empty() || cell == "-" {
+            let placed = entry.cells[c].as_ref()?;
+            if placed.text == "-" {
                 return None;
             }
-            match read_number(cell, style_of(&styles, c)) {
+            match read_number(&placed.text, layout.styles[c]) {
                 Ok(v) if v >= 0.0 => Some(v),
                 Ok(v) => {
-                    problems.push(InputProblem { line: *line, column: Some(c + 1), message: format!("a concentration cannot be negative ({v})") });
+                    problems.push(InputProblem {
+                        line: placed.line,
+                        column: Some(placed.column),
+                        message: format!("a concentration cannot be negative ({v})"),
+                    });
                     None
                 }
                 Err(message) => {
-                    problems.push(InputProblem { line: *line, column: Some(c + 1), message });
+                    problems.push(InputProblem { line: placed.line, column: Some(placed.column), message });
                     None
                 }
             }
@@ -736,23 +748,29 @@ fn read_layout(text: &str, problems: &mut Vec<InputProblem>, notes: &mut Vec<Str
         let s = number(s_col, problems);
         let i = number(i_col, problems);
         let e = number(e_col, problems);
-        let role_text = role_col.and_then(|c| cells.get(c)).map(|c| c.trim().to_ascii_lowercase()).unwrap_or_default();
+        let role_cell = cell(role_col);
+        let role_text = role_cell.map(|c| c.text.to_ascii_lowercase()).unwrap_or_default();
         let role = match normalise_name(&role_text).as_str() {
             "" | "sample" | "assay" => Role::Sample,
             "blank" | "buffer" | "background" => Role::Blank,
             "noenzyme" | "noenz" | "control" => Role::NoEnzyme,
             _ => {
+                let placed = role_cell.expect("a role was written");
                 problems.push(InputProblem {
-                    line: *line,
-                    column: role_col.map(|c| c + 1),
+                    line: placed.line,
+                    column: Some(placed.column),
                     message: format!("unknown role '{role_text}'; expected sample, blank or no-enzyme (read as sample)"),
                 });
                 Role::Sample
             }
         };
-        let blank = blank_col.and_then(|c| cells.get(c)).map(|c| c.trim().to_string()).filter(|c| !c.is_empty() && c != "-");
+        let blank = cell(blank_col).map(|c| c.text.clone()).filter(|c| c != "-");
         if rows.iter().any(|(n, _)| n == name) {
-            problems.push(InputProblem { line: *line, column: Some(trace_col + 1), message: format!("the trace '{name}' is listed twice; the first entry is used") });
+            problems.push(InputProblem {
+                line: entry.line,
+                column: Some(entry.name.column),
+                message: format!("the trace '{name}' is listed twice; the first entry is used"),
+            });
             continue;
         }
         rows.push((name.to_string(), LayoutRow { role, s, i, e, blank }));
@@ -1641,5 +1659,35 @@ mod tests {
         assert_eq!(result.rate_unit, "mM/min");
         assert!((result.traces[0].rate.unwrap() - 0.001).abs() < 1e-12);
         assert!(result.rate_table.starts_with("[S] (mM)\tv (mM/min)\n1\t"));
+    }
+
+    /// A plate-map layout (invented, not from any instrument) and the list
+    /// layout it stands for give identical traces, rates and rate table;
+    /// a bad grid cell is a problem at its own line and column.
+    #[test]
+    fn plate_map_layout_reads_as_the_list() {
+        let mut traces = String::from("Time (s)\tA1\tA2\tA3\tB1\tB2\tB3\n");
+        for k in 0..8 {
+            let t = 30.0 * k as f64;
+            let cells: Vec<String> = [0.004, 0.0025, 0.0, 0.0032, 0.0018, 0.0001]
+                .iter()
+                .enumerate()
+                .map(|(w, slope)| format!("{:.4}", 0.1 + w as f64 * 0.01 + slope * t / 30.0 + if k % 2 == 0 { 0.0002 } else { -0.0002 }))
+                .collect();
+            traces.push_str(&format!("{t}\t{}\n", cells.join("\t")));
+        }
+        let list = "trace\tS (µM)\tI (nM)\tE (nM)\trole\tblank\nA1\t200\t0\t5\tsample\tA3\nA2\t50\t0\t5\tsample\tA3\nA3\t\t\t\tblank\t\nB1\t200\t10\t5\tsample\tA3\nB2\t50\t10\t5\tsample\tA3\nB3\t200\t\t\tno-enzyme\t\n";
+        let plate = "# invented plate map\nS (µM)\n\t1\t2\t3\nA\t200\t50\t\nB\t200\t50\t200\n\nI (nM)\t1\t2\t3\nA\t0\t0\nB\t10\t10\n\nE (nM)\n\t1\t2\t3\nA\t5\t5\nB\t5\t5\n\nrole\n\t1\t2\t3\nA\tsample\tsample\tblank\nB\tsample\tsample\tno-enzyme\n\nblank\n\t1\t2\t3\nA\tA3\tA3\nB\tA3\tA3\n";
+        let from_list = analyse_traces(&request(&traces, list)).unwrap();
+        let from_plate = analyse_traces(&request(&traces, plate)).unwrap();
+        assert!(from_list.problems.is_empty() && from_plate.problems.is_empty(), "{:?} {:?}", from_list.problems, from_plate.problems);
+        assert_eq!(from_plate.traces, from_list.traces);
+        assert_eq!(from_plate.rate_table, from_list.rate_table);
+        assert_eq!((&from_plate.substrate_unit, &from_plate.inhibitor_unit, &from_plate.enzyme_unit), (&from_list.substrate_unit, &from_list.inhibitor_unit, &from_list.enzyme_unit));
+        assert!(from_plate.notes.iter().any(|n| n.starts_with("The layout is a plate map: 6 well(s)")), "{:?}", from_plate.notes);
+        assert!(from_list.traces.iter().any(|t| t.rate.is_some()));
+        let bad = plate.replace("B\t10\t10\n", "B\t10\tten\n");
+        let result = analyse_traces(&request(&traces, &bad)).unwrap();
+        assert_eq!(result.problems.iter().map(ToString::to_string).collect::<Vec<_>>(), ["line 9, column 3: layout: expected a number, found 'ten'"]);
     }
 }

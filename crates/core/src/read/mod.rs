@@ -1,9 +1,12 @@
 //! The reading layer shared by the analyses: how a table's columns are
 //! understood, independent of what is fitted afterwards.
 //!
+//! - [`layout`]: a plate layout as a list or as plate-map grids, read to
+//!   the same placed cells.
 //! - [`replicates`]: a concentration column followed by replicate
 //!   measurement columns (`rep 1`, `v1`, `replicate A`, repeated headings,
 //!   or unlabelled numbers), and the per-concentration mean, SD, SEM and
 //!   count every analysis reports.
 
+pub mod layout;
 pub mod replicates;
