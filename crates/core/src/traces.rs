@@ -40,6 +40,7 @@ use crate::table::{
     is_comment_line, looks_like_number, outside_quotes, parse_heading, read_number, split_line, ColumnHeading, InputProblem,
     NumberStyle, Separator, StyleVotes,
 };
+use crate::read::blocks::{describe, find_blocks, CellKinds, KineticBlock};
 use std::borrow::Cow;
 use crate::units::{ConcentrationUnit, TimeUnit};
 use serde::{Deserialize, Serialize};
@@ -159,6 +160,10 @@ pub struct TraceRequest {
     pub windows: Vec<WindowOverride>,
     /// Traces to leave out of the rate table and the fits.
     pub excluded: Vec<String>,
+    /// Which kinetic table of the text to read, counting from 1, when it
+    /// holds several (two wavelengths, two reads); `None` reads the first
+    /// and lists them all in [`TraceAnalysis::blocks`].
+    pub block: Option<usize>,
 }
 
 impl Default for TraceRequest {
@@ -175,6 +180,7 @@ impl Default for TraceRequest {
             max_conversion: 0.10,
             windows: Vec::new(),
             excluded: Vec::new(),
+            block: None,
         }
     }
 }
@@ -321,6 +327,9 @@ pub struct RateLink {
 /// Everything [`analyse_traces`] found.
 #[derive(Clone, Debug, PartialEq, Serialize)]
 pub struct TraceAnalysis {
+    /// The kinetic tables found in the text (one for a plain table), to
+    /// choose from with [`TraceRequest::block`].
+    pub blocks: Vec<KineticBlock>,
     /// Time unit of the table.
     pub time_unit: String,
     /// Unit of the trace values after conversion (a concentration, or
@@ -471,11 +480,26 @@ struct RawTraces {
     lines: Vec<usize>,
     values: Vec<Vec<Option<f64>>>,
     cells: Vec<Vec<CellState>>,
+    blocks: Vec<KineticBlock>,
+}
+
+/// `1–3, 9, 12–14` for the sorted `lines`.
+fn line_ranges(lines: &[usize]) -> String {
+    let mut parts: Vec<String> = Vec::new();
+    let mut start = 0;
+    for k in 1..=lines.len() {
+        if k == lines.len() || lines[k] != lines[k - 1] + 1 {
+            parts.push(if k - 1 == start { lines[start].to_string() } else { format!("{}–{}", lines[start], lines[k - 1]) });
+            start = k;
+        }
+    }
+    parts.join(", ")
 }
 
 fn read_traces(
     text: &str,
     time_unit_option: Option<&str>,
+    block: Option<usize>,
     problems: &mut Vec<InputProblem>,
     notes: &mut Vec<String>,
 ) -> Result<RawTraces, Error> {
@@ -493,30 +517,56 @@ fn read_traces(
     let owned = split_all(&lines, sep, problems);
     let split_lines = as_slices(&owned);
 
-    // The header is the first line whose first cell names time; failing
-    // that, the last non-numeric line before the first row of numbers.
-    let first_numeric = |cells: &[&str]| {
-        cells.len() >= 2 && (looks_like_number(cells[0]) || parse_clock(cells[0]).is_some())
-    };
-    let header_index = split_lines
-        .iter()
-        .position(|(_, c)| c.len() >= 2 && is_time_name(&parse_heading(c[0]).name))
-        .or_else(|| {
-            let data = split_lines.iter().position(|(_, c)| first_numeric(c))?;
-            data.checked_sub(1)
-        })
-        .ok_or_else(|| {
-            Error::invalid_data(
-                "no header found in the time-course table; the table needs a header line such as 'time (min)\\tA1\\tA2' above the numbers",
+    // The tables of the text (crate::read::blocks): run information above
+    // and between them is skipped; the chosen one is read.
+    let kinds = CellKinds { is_time_name: &|c: &str| is_time_name(&parse_heading(c).name), is_number: &looks_like_number, is_clock: &|c: &str| parse_clock(c).is_some() };
+    let (spans, rejected) = find_blocks(&split_lines, &kinds);
+    let blocks = describe(&split_lines, &spans);
+    if spans.is_empty() {
+        let tried = if rejected.is_empty() {
+            String::new()
+        } else {
+            format!(
+                " Lines tried as the header: {}.",
+                rejected.iter().map(|(line, reason)| format!("line {line} was not, because {reason}")).collect::<Vec<_>>().join("; ")
             )
-        })?;
-    if header_index > 0 {
+        };
+        return Err(Error::invalid_data(format!(
+            "no header found in the time-course table; the table needs a header line such as 'time (min)\\tA1\\tA2' above the numbers.{tried}"
+        )));
+    }
+    let chosen = match block {
+        Some(n) if n >= 1 && n <= spans.len() => n - 1,
+        Some(n) => {
+            return Err(Error::invalid_option(format!(
+                "block {n} was chosen, but the text holds {} kinetic table(s) (numbered from 1)",
+                spans.len()
+            )))
+        }
+        None => 0,
+    };
+    if spans.len() > 1 {
         notes.push(format!(
-            "Lines {}–{} above the header were read as metadata and not used.",
-            split_lines[0].0,
-            split_lines[header_index - 1].0
+            "The text holds {} kinetic tables: {}. Table {} is read; choose another by its number.",
+            spans.len(),
+            blocks
+                .iter()
+                .map(|b| format!("{} (lines {}–{}{})", b.number, b.header_line, b.last_line, b.title.as_ref().map_or(String::new(), |t| format!(", after '{t}'"))))
+                .collect::<Vec<_>>()
+                .join(", "),
+            chosen + 1
         ));
     }
+    let span = spans[chosen];
+    let header_index = span.header;
+    let skipped: Vec<usize> = split_lines.iter().enumerate().filter(|(i, _)| *i < span.header || *i >= span.end).map(|(_, (line, _))| *line).collect();
+    if !skipped.is_empty() {
+        notes.push(format!(
+            "Lines {} outside the table were read as metadata (run information) and not used.",
+            line_ranges(&skipped)
+        ));
+    }
+    let split_lines = &split_lines[..span.end];
     let (header_line, header_cells) = &split_lines[header_index];
     let merged;
     let header_cells = if sep == ' ' {
@@ -652,7 +702,7 @@ fn read_traces(
     if times.is_empty() {
         return Err(Error::invalid_data("the time-course table has a header but no rows of numbers"));
     }
-    Ok(RawTraces { time_unit, names: names.into_iter().map(|(n, c)| (n, c + 1)).collect(), times, lines: row_lines, values, cells })
+    Ok(RawTraces { time_unit, names: names.into_iter().map(|(n, c)| (n, c + 1)).collect(), times, lines: row_lines, values, cells, blocks })
 }
 
 /// One layout row.
@@ -1067,7 +1117,7 @@ pub fn analyse_traces_with(request: &TraceRequest, progress: &mut dyn FnMut(usiz
     if !(request.max_conversion > 0.0 && request.max_conversion < 1.0) {
         return Err(Error::invalid_option("the conversion limit must be a fraction between 0 and 1, such as 0.1"));
     }
-    let raw = read_traces(&request.traces, request.time_unit.as_deref(), &mut problems, &mut notes)?;
+    let raw = read_traces(&request.traces, request.time_unit.as_deref(), request.block, &mut problems, &mut notes)?;
     notes.extend(unmatched_overrides(request, &raw.names));
     let mut layout_problems = Vec::new();
     let layout = if request.layout.trim().is_empty() {
@@ -1306,6 +1356,7 @@ pub fn analyse_traces_with(request: &TraceRequest, progress: &mut dyn FnMut(usiz
     problems.sort_by_key(|p| (p.line, p.column));
 
     Ok(TraceAnalysis {
+        blocks: raw.blocks.clone(),
         time_unit: time_symbol.to_string(),
         value_unit: value_unit.clone(),
         rate_unit,
@@ -1689,5 +1740,55 @@ mod tests {
         let bad = plate.replace("B\t10\t10\n", "B\t10\tten\n");
         let result = analyse_traces(&request(&traces, &bad)).unwrap();
         assert_eq!(result.problems.iter().map(ToString::to_string).collect::<Vec<_>>(), ["line 9, column 3: layout: expected a number, found 'ten'"]);
+    }
+
+    /// Invented exports (written for these tests, not copied from any
+    /// instrument), each with the clean table it must read as: run
+    /// information above, between and below the table, clock times, two
+    /// reads in one file. Each case is (what it shows, export, block,
+    /// clean table).
+    #[test]
+    fn exports_read_as_their_clean_tables() {
+        let clean_340 = "time (s)\tA1\tA2\tA3\n0\t0.100\t0.200\t0.050\n30\t0.112\t0.209\t0.050\n60\t0.121\t0.221\t0.051\n90\t0.133\t0.230\t0.050\n120\t0.142\t0.241\t0.050\n";
+        let clean_405 = "time (s)\tA1\tA2\tA3\n0\t0.300\t0.400\t0.060\n30\t0.322\t0.413\t0.060\n60\t0.341\t0.431\t0.061\n90\t0.363\t0.440\t0.060\n120\t0.382\t0.461\t0.060\n";
+        let clock = |clean: &str, format: fn(u32) -> String| -> String {
+            clean.lines().map(|l| match l.split_once('\t') {
+                Some((t, rest)) => match t.parse::<u32>() {
+                    Ok(seconds) => format!("{}\t{rest}\n", format(seconds)),
+                    Err(_) => format!("Time\t{rest}\n"),
+                },
+                None => format!("{l}\n"),
+            }).collect()
+        };
+        let hms = clock(clean_340, |s| format!("{}:{:02}:{:02}", s / 3600, s / 60 % 60, s % 60));
+        let ms = clock(clean_340, |s| format!("{:02}:{:02}", s / 60, s % 60));
+        let cases: Vec<(&str, String, Option<usize>, &str)> = vec![
+            ("run information above", format!("Invented plate reader export\nDate\t2026-03-14\nTime\t14:22:05\nTemperature\t25.0\nOperator: nobody\nWavelength\t340 nm\n\n{clean_340}"), None, clean_340),
+            ("run information below", format!("{clean_340}\nEnd time\t14:31:00\nNote: invented\n"), None, clean_340),
+            ("h:mm:ss times", format!("Kinetic read\nStart\t14:22:05\n{hms}"), None, clean_340),
+            ("mm:ss times", ms, None, clean_340),
+            ("two reads, first", format!("Read 1\tWavelength 340 nm\n{clean_340}\nRead 2\tWavelength 405 nm\n{clean_405}"), None, clean_340),
+            ("two reads, second", format!("Read 1\tWavelength 340 nm\n{clean_340}\nRead 2\tWavelength 405 nm\n{clean_405}"), Some(2), clean_405),
+        ];
+        let plain = |traces: &str, block: Option<usize>| TraceRequest { traces: traces.into(), layout: "trace\tS (µM)\nA1\t100\nA2\t50\nA3\t10\n".into(), block, ..TraceRequest::default() };
+        for (what, export, block, clean) in &cases {
+            let expected = analyse_traces(&plain(clean, None)).unwrap();
+            let found = analyse_traces(&plain(export, *block)).unwrap_or_else(|e| panic!("{what}: {}", e.message));
+            assert!(found.problems.is_empty(), "{what}: {:?}", found.problems);
+            assert_eq!(found.traces, expected.traces, "{what}");
+            assert_eq!(found.rate_table, expected.rate_table, "{what}");
+            assert!(found.traces.iter().all(|t| t.rate.is_some()), "{what}");
+        }
+        let two = analyse_traces(&plain(&cases[4].1, None)).unwrap();
+        assert_eq!(two.blocks.iter().map(|b| (b.number, b.header_line, b.last_line, b.title.as_deref(), b.rows)).collect::<Vec<_>>(), [
+            (1, 2, 7, Some("Read 1 Wavelength 340 nm")),
+            (2, 10, 15, Some("Read 2 Wavelength 405 nm")),
+        ].map(|(n, h, l, t)| (n, h, l, t, 5)));
+        assert!(two.notes.iter().any(|n| n.starts_with("The text holds 2 kinetic tables: 1 (lines 2–7, after 'Read 1 Wavelength 340 nm'), 2 (lines 10–15")), "{:?}", two.notes);
+        let error = analyse_traces(&plain(&cases[4].1, Some(3))).unwrap_err();
+        assert_eq!(error.message, "block 3 was chosen, but the text holds 2 kinetic table(s) (numbered from 1)");
+        // No header: the message names the line tried and why it failed.
+        let error = analyse_traces(&plain("Time\t14:22:05\n0\t0.1\t0.2\n30\t0.2\t0.3\n", None)).unwrap_err();
+        assert!(error.message.contains("line 1 was not, because a cell after the first is a clock time or a date"), "{}", error.message);
     }
 }

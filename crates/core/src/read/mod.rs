@@ -1,6 +1,8 @@
 //! The reading layer shared by the analyses: how a table's columns are
 //! understood, independent of what is fitted afterwards.
 //!
+//! - [`blocks`]: where the kinetic tables of an export are, among run
+//!   information, as rules kept as data.
 //! - [`layout`]: a plate layout as a list or as plate-map grids, read to
 //!   the same placed cells.
 //! - [`replicates`]: a concentration column followed by replicate
@@ -8,5 +10,6 @@
 //!   or unlabelled numbers), and the per-concentration mean, SD, SEM and
 //!   count every analysis reports.
 
+pub mod blocks;
 pub mod layout;
 pub mod replicates;
