@@ -28,6 +28,10 @@ pub struct TraceOptions {
     /// Print one JSON object
     #[arg(long)]
     json: bool,
+    /// Which kinetic table of the file to read, counting from 1, when it
+    /// holds several (two wavelengths, two reads) [default: the first]
+    #[arg(long, value_name = "N")]
+    block: Option<usize>,
     /// Molar absorption coefficient ε, M⁻¹ cm⁻¹
     #[arg(long, value_name = "E", value_parser = option_number)]
     epsilon: Option<f64>,
@@ -103,6 +107,7 @@ fn prepare(command: &'static str, options: TraceOptions) -> Result<Prepared, Fai
     request.linear_limit = options.linear_limit;
     request.max_conversion = options.max_conversion;
     request.excluded = options.exclude;
+    request.block = options.block;
     for text in &options.window {
         let bad = || usage(command, format!("--window: '{text}' is not NAME=START:END, such as A1=0:5"));
         let (name, range) = text.split_once('=').ok_or_else(bad)?;
@@ -174,6 +179,7 @@ pub fn rates(options: TraceOptions) -> Result<ExitCode, Failure> {
         }
         #[derive(Serialize)]
         struct RatesJson<'a> {
+            blocks: &'a [turnover_core::read::blocks::KineticBlock],
             time_unit: &'a str,
             value_unit: &'a str,
             rate_unit: &'a str,
@@ -209,6 +215,7 @@ pub fn rates(options: TraceOptions) -> Result<ExitCode, Failure> {
             })
             .collect();
         out.json(&RatesJson {
+            blocks: &analysis.blocks,
             time_unit: &analysis.time_unit,
             value_unit: &analysis.value_unit,
             rate_unit: &analysis.rate_unit,

@@ -118,3 +118,19 @@ fn rates_read_a_plate_map_layout() {
     assert_eq!(a["rate_table"], b["rate_table"]);
     assert!(a["traces"][0]["rate"].as_f64().is_some());
 }
+
+/// An invented export with two reads: `--block 2` reads the second, with
+/// the same rates as the second table alone; the JSON lists both tables.
+#[test]
+fn rates_choose_a_kinetic_table() {
+    let second = "time (min)\tA1\n0\t0.30\n1\t0.41\n2\t0.50\n3\t0.61\n4\t0.70\n";
+    let export = format!("Read 1\t340 nm\ntime (min)\tA1\n0\t0.10\n1\t0.21\n2\t0.30\n3\t0.41\n4\t0.50\n\nRead 2\t405 nm\n{second}");
+    let (export, second) = (file("blocks-export.tsv", &export), file("blocks-second.tsv", second));
+    let layout = file("blocks-layout.tsv", "trace\tS (mM)\nA1\t1\n");
+    let a = json(&["rates", &export, "--layout", &layout, "--json", "--block", "2"]);
+    let b = json(&["rates", &second, "--layout", &layout, "--json"]);
+    assert_eq!(a["traces"], b["traces"]);
+    assert_eq!(a["blocks"].as_array().unwrap().len(), 2);
+    assert_eq!(a["blocks"][1]["title"], "Read 2 405 nm");
+    assert_eq!(b["blocks"].as_array().unwrap().len(), 1);
+}
