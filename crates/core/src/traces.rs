@@ -40,7 +40,7 @@ use crate::table::{
     is_comment_line, looks_like_number, outside_quotes, parse_heading, read_number, split_line, ColumnHeading, InputProblem,
     NumberStyle, Separator, StyleVotes,
 };
-use crate::read::blocks::{describe, find_blocks, CellKinds, KineticBlock};
+use crate::read::blocks::{describe, find_blocks, transposed, CellKinds, KineticBlock, Transposed};
 use std::borrow::Cow;
 use crate::units::{ConcentrationUnit, TimeUnit};
 use serde::{Deserialize, Serialize};
@@ -237,7 +237,9 @@ pub struct StandardCurve {
 pub struct TraceResult {
     /// Name from the header (a well such as `B3`, or any label).
     pub name: String,
-    /// Column in the time-course table, counting from 1.
+    /// Column in the time-course table, counting from 1 (in a transposed
+    /// export, where the trace would stand with the times down the first
+    /// column: its row among the trace rows, plus one).
     pub column: usize,
     /// Role from the layout.
     pub role: Role,
@@ -481,6 +483,18 @@ struct RawTraces {
     values: Vec<Vec<Option<f64>>>,
     cells: Vec<Vec<CellState>>,
     blocks: Vec<KineticBlock>,
+    /// How a transposed export's cells map back to it.
+    transposed: Option<Transposed>,
+}
+
+impl RawTraces {
+    /// Where a cell of the table read stands in the text given.
+    fn place(&self, line: usize, column: usize) -> (usize, Option<usize>) {
+        match &self.transposed {
+            Some(t) => t.place(line, Some(column)),
+            None => (line, Some(column)),
+        }
+    }
 }
 
 /// `1–3, 9, 12–14` for the sorted `lines`.
@@ -523,6 +537,22 @@ fn read_traces(
     let (spans, rejected) = find_blocks(&split_lines, &kinds);
     let blocks = describe(&split_lines, &spans);
     if spans.is_empty() {
+        if let Some(turned) = transposed(&split_lines, &kinds) {
+            let mut inner = Vec::new();
+            let mut raw = read_traces(&turned.text, time_unit_option, block, &mut inner, notes)?;
+            problems.extend(inner.into_iter().map(|p| {
+                let (line, column) = turned.place(p.line, p.column);
+                InputProblem { line, column, message: p.message }
+            }));
+            notes.push(format!(
+                "The table is transposed: line {} holds the times and lines {}–{} one trace each; it was read with the times down the first column.",
+                turned.source_lines[0],
+                turned.source_lines[1],
+                turned.source_lines[turned.source_lines.len() - 1]
+            ));
+            raw.transposed = Some(turned);
+            return Ok(raw);
+        }
         let tried = if rejected.is_empty() {
             String::new()
         } else {
@@ -702,7 +732,7 @@ fn read_traces(
     if times.is_empty() {
         return Err(Error::invalid_data("the time-course table has a header but no rows of numbers"));
     }
-    Ok(RawTraces { time_unit, names: names.into_iter().map(|(n, c)| (n, c + 1)).collect(), times, lines: row_lines, values, cells, blocks })
+    Ok(RawTraces { time_unit, names: names.into_iter().map(|(n, c)| (n, c + 1)).collect(), times, lines: row_lines, values, cells, blocks, transposed: None })
 }
 
 /// One layout row.
@@ -1203,9 +1233,10 @@ pub fn analyse_traces_with(request: &TraceRequest, progress: &mut dyn FnMut(usiz
             for (j, v) in trace.iter().enumerate() {
                 if v.is_some_and(|v| v > limit) {
                     cells[k][j] = CellState::OverRange;
+                    let (line, column) = raw.place(raw.lines[j], raw.names[k].1);
                     problems.push(InputProblem {
-                        line: raw.lines[j],
-                        column: Some(raw.names[k].1),
+                        line,
+                        column,
                         message: format!("{} is above the detector's linear limit {limit}; it and later points are not used for the rate", v.unwrap()),
                     });
                 }
@@ -1762,11 +1793,29 @@ mod tests {
         };
         let hms = clock(clean_340, |s| format!("{}:{:02}:{:02}", s / 3600, s / 60 % 60, s % 60));
         let ms = clock(clean_340, |s| format!("{:02}:{:02}", s / 60, s % 60));
+        // Rows become columns: the corner cell, then the times across.
+        let transpose = |table: &str, corner: &str| -> String {
+            let rows: Vec<Vec<&str>> = table.lines().map(|l| l.split('\t').collect()).collect();
+            let mut out = format!("Invented export, traces in rows\n{corner}");
+            for row in &rows[1..] {
+                out.push_str(&format!("\t{}", row[0]));
+            }
+            for column in 1..rows[0].len() {
+                out.push_str(&format!("\n{}", rows[0][column]));
+                for row in &rows[1..] {
+                    out.push_str(&format!("\t{}", row[column]));
+                }
+            }
+            out.push('\n');
+            out
+        };
         let cases: Vec<(&str, String, Option<usize>, &str)> = vec![
             ("run information above", format!("Invented plate reader export\nDate\t2026-03-14\nTime\t14:22:05\nTemperature\t25.0\nOperator: nobody\nWavelength\t340 nm\n\n{clean_340}"), None, clean_340),
             ("run information below", format!("{clean_340}\nEnd time\t14:31:00\nNote: invented\n"), None, clean_340),
             ("h:mm:ss times", format!("Kinetic read\nStart\t14:22:05\n{hms}"), None, clean_340),
             ("mm:ss times", ms, None, clean_340),
+            ("transposed, time heading in the corner", transpose(clean_340, "time (s)"), None, clean_340),
+            ("transposed, wells in the corner, clock times", transpose(&hms, "Well"), None, clean_340),
             ("two reads, first", format!("Read 1\tWavelength 340 nm\n{clean_340}\nRead 2\tWavelength 405 nm\n{clean_405}"), None, clean_340),
             ("two reads, second", format!("Read 1\tWavelength 340 nm\n{clean_340}\nRead 2\tWavelength 405 nm\n{clean_405}"), Some(2), clean_405),
         ];
@@ -1779,13 +1828,18 @@ mod tests {
             assert_eq!(found.rate_table, expected.rate_table, "{what}");
             assert!(found.traces.iter().all(|t| t.rate.is_some()), "{what}");
         }
-        let two = analyse_traces(&plain(&cases[4].1, None)).unwrap();
+        // A bad cell of a transposed export is named where it stands.
+        let bad = cases[4].1.replace("0.221", "n/a");
+        let found = analyse_traces(&plain(&bad, None)).unwrap();
+        assert_eq!(found.problems.iter().map(ToString::to_string).collect::<Vec<_>>(), ["line 4, column 4: expected a number, found 'n/a'"]);
+        assert!(found.notes.iter().any(|n| n.starts_with("The table is transposed: line 2 holds the times and lines 3–5 one trace each")), "{:?}", found.notes);
+        let two = analyse_traces(&plain(&cases[6].1, None)).unwrap();
         assert_eq!(two.blocks.iter().map(|b| (b.number, b.header_line, b.last_line, b.title.as_deref(), b.rows)).collect::<Vec<_>>(), [
             (1, 2, 7, Some("Read 1 Wavelength 340 nm")),
             (2, 10, 15, Some("Read 2 Wavelength 405 nm")),
         ].map(|(n, h, l, t)| (n, h, l, t, 5)));
         assert!(two.notes.iter().any(|n| n.starts_with("The text holds 2 kinetic tables: 1 (lines 2–7, after 'Read 1 Wavelength 340 nm'), 2 (lines 10–15")), "{:?}", two.notes);
-        let error = analyse_traces(&plain(&cases[4].1, Some(3))).unwrap_err();
+        let error = analyse_traces(&plain(&cases[6].1, Some(3))).unwrap_err();
         assert_eq!(error.message, "block 3 was chosen, but the text holds 2 kinetic table(s) (numbered from 1)");
         // No header: the message names the line tried and why it failed.
         let error = analyse_traces(&plain("Time\t14:22:05\n0\t0.1\t0.2\n30\t0.2\t0.3\n", None)).unwrap_err();

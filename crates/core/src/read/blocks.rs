@@ -167,6 +167,74 @@ pub fn describe(lines: &[(usize, Vec<&str>)], blocks: &[BlockSpan]) -> Vec<Kinet
         .collect()
 }
 
+/// A transposed export (rows are traces, columns are times) rewritten as
+/// a table with the time down the first column, and the way back from its
+/// cells to the export's.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Transposed {
+    /// The table with time in rows: tab-separated, one line per time.
+    pub text: String,
+    /// The export's line of the time row (row 1 of `text`), then of each
+    /// trace row (column 2, 3, ... of `text`).
+    pub source_lines: Vec<usize>,
+}
+
+impl Transposed {
+    /// Where the cell at `line`, `column` (1-based) of [`Transposed::text`]
+    /// stands in the export; a whole line of the text (`column` `None`)
+    /// is one time, a column of the export's time row.
+    pub fn place(&self, line: usize, column: Option<usize>) -> (usize, Option<usize>) {
+        match column {
+            Some(c) => (self.source_lines.get(c - 1).copied().unwrap_or(self.source_lines[0]), Some(line)),
+            None => (self.source_lines[0], Some(line)),
+        }
+    }
+}
+
+/// Names of the first cell of a transposed export's time row when it does
+/// not name the time itself.
+const TRACE_WORDS: &[&str] = &["well", "wells", "trace", "traces", "sample", "name", "well/time", "trace/time"];
+
+/// A transposed export in `lines`: a time row (a first cell naming the
+/// time with its unit, or the wells, then two or more numbers or clock
+/// times) followed by rows whose first cell is a trace name. `None` when
+/// the lines are not in that shape.
+pub fn transposed(lines: &[(usize, Vec<&str>)], kinds: &CellKinds) -> Option<Transposed> {
+    let start = lines.iter().position(|(_, cells)| {
+        let word = cells.first().map(|c| c.trim().to_lowercase()).unwrap_or_default();
+        cells.len() >= 3
+            && ((kinds.is_time_name)(cells[0]) || TRACE_WORDS.contains(&word.as_str()))
+            && cells[1..].iter().all(|c| (kinds.is_number)(c) || (kinds.is_clock)(c))
+    })?;
+    let width = lines[start].1.len();
+    let rows: Vec<&(usize, Vec<&str>)> = lines[start + 1..]
+        .iter()
+        .take_while(|(_, cells)| cells.len() >= 2 && !(kinds.is_number)(cells[0]) && !(kinds.is_clock)(cells[0]) && cells.len() <= width)
+        .collect();
+    if rows.is_empty() {
+        return None;
+    }
+    let first = lines[start].1[0].trim();
+    let time_heading = if (kinds.is_time_name)(first) { first.to_string() } else { "time".to_string() };
+    let mut text = time_heading;
+    for (_, cells) in &rows {
+        text.push('\t');
+        text.push_str(cells[0].trim());
+    }
+    text.push('\n');
+    for column in 1..width {
+        text.push_str(lines[start].1[column].trim());
+        for (_, cells) in &rows {
+            text.push('\t');
+            text.push_str(cells.get(column).map_or("", |c| c.trim()));
+        }
+        text.push('\n');
+    }
+    let mut source_lines = vec![lines[start].0];
+    source_lines.extend(rows.iter().map(|(line, _)| *line));
+    Some(Transposed { text, source_lines })
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
