@@ -8,14 +8,14 @@
 
 use crate::error::Error;
 use crate::fit::{fit_model, FitSettings, FitSummary};
-use crate::inhibition::is_inhibitor_name;
 use crate::model::{Dimension, Observations};
 use crate::fit::{Fit, ParameterEstimate};
 use crate::intervals::IntervalMethod;
 use crate::models::{cheng_prusoff, model_with_options, DoseResponse, Mechanism, ModelOptions};
 use crate::plots::family::{dose_response_plot, morrison_plot, short_number, DosePoint};
 use crate::plots::PlotData;
-use crate::rates::{is_rate_name, is_substrate_name, normalise_name, CAUTION};
+use crate::rates::CAUTION;
+use crate::read::columns::{is_bare_concentration_name, is_inhibitor_name, is_response_name, is_signal_name, is_substrate_only_name};
 use crate::read::replicates::{layout_note, problems_without_empty_replicates, replicate_columns, summarise, MeasurementColumns, ReplicateSummary};
 use crate::table::{parse_table, shortage_reasons, InputProblem};
 use crate::units::ConcentrationUnit;
@@ -133,15 +133,6 @@ pub struct DoseAnalysis {
     pub caution: String,
 }
 
-/// Response names that are not also rate names.
-fn is_signal_name(name: &str) -> bool {
-    matches!(normalise_name(name).as_str(), "response" | "activity" | "signal" | "y" | "%activity" | "percentactivity" | "%" | "%control")
-}
-
-fn is_response_name(name: &str) -> bool {
-    is_rate_name(name) || is_signal_name(name)
-}
-
 /// The ([I], response) columns named by a header, if it names them: an
 /// inhibitor column (`I`, `[I]`, `inhibitor`, ...) with any response
 /// column (`response`, `activity`, `signal`, `% activity`, `v`), or a
@@ -149,8 +140,7 @@ fn is_response_name(name: &str) -> bool {
 /// `conc`, `v` table is a Michaelis-Menten table, whose concentration is
 /// [S]). A header that also names [S] is not an inhibitor series.
 fn named_columns(headings: &[crate::table::ColumnHeading]) -> Option<(usize, usize)> {
-    let substrate_only = |n: &str| matches!(normalise_name(n).as_str(), "s" | "s0" | "substrate" | "substrateconcentration");
-    if headings.iter().any(|h| substrate_only(&h.name)) {
+    if headings.iter().any(|h| is_substrate_only_name(&h.name)) {
         return None;
     }
     let y_any = headings.iter().position(|h| is_response_name(&h.name));
@@ -158,7 +148,7 @@ fn named_columns(headings: &[crate::table::ColumnHeading]) -> Option<(usize, usi
     if let (Some(i), Some(y)) = (headings.iter().position(|h| is_inhibitor_name(&h.name)), y_any) {
         return Some((i, y));
     }
-    let conc = headings.iter().position(|h| matches!(normalise_name(&h.name).as_str(), "conc" | "concentration"));
+    let conc = headings.iter().position(|h| is_bare_concentration_name(&h.name));
     match (conc, y_signal) {
         (Some(i), Some(y)) => Some((i, y)),
         _ => None,
@@ -178,7 +168,7 @@ pub fn is_dose_table(text: &str) -> bool {
 /// replicate responses (`rep 1`, `response 2`, `% activity A`, a repeated
 /// response heading; see [`crate::read::replicates`]).
 fn dose_replicates(table: &crate::table::Table) -> Result<Option<MeasurementColumns>, String> {
-    let is_concentration = |n: &str| is_inhibitor_name(n) || matches!(normalise_name(n).as_str(), "conc" | "concentration");
+    let is_concentration = |n: &str| is_inhibitor_name(n) || is_bare_concentration_name(n);
     replicate_columns(table, &is_concentration, &is_response_name)
 }
 
@@ -225,7 +215,7 @@ pub fn analyse_dose(request: &DoseRequest) -> Result<DoseAnalysis, Error> {
         let (ci, cy) = match &table.headings {
             Some(h) => match named_columns(h) {
                 Some((i, y)) => (i, y),
-                None if h.iter().any(|c| is_substrate_name(&c.name) && !matches!(normalise_name(&c.name).as_str(), "conc" | "concentration")) => {
+                None if h.iter().any(|c| is_substrate_only_name(&c.name)) => {
                     return Err(Error::invalid_data(
                         "the header names an [S] column; an inhibitor series has [I] and a response only (fit rates at several [S] and [I] with an inhibition mechanism instead)",
                     ))

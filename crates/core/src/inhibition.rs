@@ -23,7 +23,8 @@ use crate::models::{Inhibition, Mechanism, MichaelisMenten};
 use crate::plots::family::{inhibition_plots, short_number, FamilyPoint, FamilyUnits, GlobalFit};
 use crate::plots::PlotData;
 use crate::read::replicates::{common_unit, problems_without_empty_replicates, replicate_label, summarise, MeasurementColumns, ReplicateSummary};
-use crate::rates::{is_rate_name, is_substrate_name, normalise_name, CAUTION};
+use crate::rates::CAUTION;
+use crate::read::columns::{is_inhibitor_name, is_rate_name, is_substrate_name, normalise_name};
 use crate::table::{parse_table, shortage_reasons, ColumnHeading, InputProblem, Table};
 use crate::units::{ConcentrationUnit, RateUnit};
 use serde::{Deserialize, Serialize};
@@ -140,10 +141,6 @@ pub struct InhibitionAnalysis {
     pub plots: Vec<PlotData>,
     /// The standing caution.
     pub caution: String,
-}
-
-pub(crate) fn is_inhibitor_name(name: &str) -> bool {
-    matches!(normalise_name(name).as_str(), "i" | "i0" | "inhibitor" | "inh" | "inhibitorconcentration")
 }
 
 /// Reads `5 µM`, `5µM`, `5`, `[I] = 5 µM` or `5 (µM)` as a concentration

@@ -12,6 +12,7 @@ use crate::model::{Dimension, Model, Observations};
 use crate::models::{model_by_name, MichaelisMentenSpecificity};
 use crate::plots::{diagnostic_plots, rate_plots, AxisUnits, PlotData, RatePoint};
 use crate::read::replicates::{layout_note, problems_without_empty_replicates, replicate_columns, summarise, ReplicateSummary};
+use crate::read::columns::{is_rate_name, is_sd_name, is_substrate_name};
 use crate::robust::{direct_linear, DirectLinearEstimate};
 use crate::table::{parse_table, shortage_reasons, ColumnHeading, InputProblem, Table};
 use crate::units::{kcat_per_second, ConcentrationUnit, RateUnit};
@@ -148,28 +149,6 @@ struct Roles {
     /// The heading the rate unit is read from.
     rate_heading: Option<ColumnHeading>,
     sd: Option<usize>,
-}
-
-pub(crate) fn normalise_name(name: &str) -> String {
-    name.chars()
-        .filter(|c| !matches!(c, '[' | ']' | ' ' | '_' | '-' | '.'))
-        .flat_map(char::to_lowercase)
-        .collect()
-}
-
-pub(crate) fn is_substrate_name(name: &str) -> bool {
-    matches!(normalise_name(name).as_str(), "s" | "s0" | "substrate" | "conc" | "concentration" | "substrateconcentration")
-}
-
-pub(crate) fn is_rate_name(name: &str) -> bool {
-    matches!(
-        normalise_name(name).as_str(),
-        "v" | "v0" | "vi" | "rate" | "velocity" | "initialrate" | "initialvelocity"
-    )
-}
-
-fn is_sd_name(name: &str) -> bool {
-    matches!(normalise_name(name).as_str(), "sd" | "sigma" | "stdev" | "stddev" | "error" | "sdv" | "standarddeviation")
 }
 
 fn find_roles(table: &Table, notes: &mut Vec<String>) -> Result<(Roles, Vec<InputProblem>), Error> {

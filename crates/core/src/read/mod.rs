@@ -3,6 +3,8 @@
 //!
 //! - [`blocks`]: where the kinetic tables of an export are, among run
 //!   information, as rules kept as data.
+//! - [`columns`]: the column vocabulary ([S], [I], rate, response, sd)
+//!   every analysis reads headers with.
 //! - [`layout`]: a plate layout as a list or as plate-map grids, read to
 //!   the same placed cells.
 //! - [`replicates`]: a concentration column followed by replicate
@@ -11,5 +13,6 @@
 //!   count every analysis reports.
 
 pub mod blocks;
+pub mod columns;
 pub mod layout;
 pub mod replicates;

@@ -103,8 +103,8 @@ pub fn replicate_columns(
     }
     let rest = &headings[1..];
     let labelled = rest.iter().all(|h| replicate_label(&h.name, is_measure).is_some());
-    let first = crate::rates::normalise_name(&rest[0].name);
-    let repeated = is_measure(&rest[0].name) && rest.iter().all(|h| crate::rates::normalise_name(&h.name) == first);
+    let first = crate::read::columns::normalise_name(&rest[0].name);
+    let repeated = is_measure(&rest[0].name) && rest.iter().all(|h| crate::read::columns::normalise_name(&h.name) == first);
     if !(labelled || repeated) {
         return Ok(None);
     }
@@ -218,7 +218,7 @@ pub fn summarise(points: &[(f64, f64)]) -> Vec<ReplicateSummary> {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::rates::is_rate_name;
+    use crate::read::columns::is_rate_name;
     use crate::table::parse_table;
 
     #[test]
@@ -247,7 +247,7 @@ mod tests {
 
     #[test]
     fn layouts() {
-        let is_s = |n: &str| crate::rates::is_substrate_name(n);
+        let is_s = |n: &str| crate::read::columns::is_substrate_name(n);
         let check = |text: &str, expected: Option<(Vec<usize>, Option<&str>)>| {
             let table = parse_table(text);
             let found = replicate_columns(&table, &is_s, &is_rate_name).unwrap();
