@@ -84,6 +84,10 @@ struct DataOptions {
     /// Unit of v, a concentration per time (µM/min, nM/s, ...); default: from the header
     #[arg(long, value_name = "UNIT")]
     rate_unit: Option<String>,
+    /// Report rates (v, Vmax) per second, minute or hour, converted from
+    /// the unit of v (the [S]–v models only)
+    #[arg(long, value_name = "TIME", value_parser = ["s", "min", "h"])]
+    rates_per: Option<String>,
     /// What the weighting assumes about the error of a rate
     #[arg(long, value_name = "ERROR", value_parser = weighting_names(), default_value = "constant")]
     weighting: String,
@@ -258,6 +262,10 @@ fn prepare(command: &'static str, data: DataOptions, extra: ModelExtras, model: 
     let mut request = RateRequest { model: model.to_string(), ..RateRequest::default() };
     request.substrate_unit = data.substrate_unit;
     request.rate_unit = data.rate_unit;
+    if data.rates_per.is_some() && model_input(model).is_some_and(|input| input != ModelInput::Substrate) {
+        return Err(usage(command, format!("--rates-per applies to the [S]–v models (mm, substrate-inhibition, hill), not to {model}")));
+    }
+    request.rate_time = data.rates_per;
     let (weighting, note) = Weighting::from_option_name(&data.weighting).map_err(|m| usage(command, m))?;
     if let Some(note) = note {
         warn(&format!("turnover: note: {note}"));

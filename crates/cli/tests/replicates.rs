@@ -134,3 +134,20 @@ fn rates_choose_a_kinetic_table() {
     assert_eq!(a["blocks"][1]["title"], "Read 2 405 nm");
     assert_eq!(b["blocks"].as_array().unwrap().len(), 1);
 }
+
+/// `--rates-per s` reports Vmax per second: the per-minute Vmax over 60
+/// (1e-9: the solver works on numbers 60 times apart), Km unchanged; and
+/// the option is refused for a model it does not apply to.
+#[test]
+fn rates_per_second() {
+    let rates = file("per-min.tsv", "[S] (µM)\tv (µM/min)\n1\t0.99\n2\t1.66\n5\t2.86\n10\t3.33\n20\t3.64\n50\t3.85\n");
+    let per_min = json(&["fit", &rates, "--json"]);
+    let per_s = json(&["fit", &rates, "--json", "--rates-per", "s"]);
+    let value = |r: &serde_json::Value, k: usize| r["parameters"][k]["value"].as_f64().unwrap();
+    assert!((value(&per_s, 0) - value(&per_min, 0) / 60.0).abs() <= 1e-9 * value(&per_s, 0));
+    assert!((value(&per_s, 1) - value(&per_min, 1)).abs() <= 1e-9 * value(&per_s, 1));
+    assert_eq!(per_s["units"]["rate"], "µM/s");
+    let out = Command::new(env!("CARGO_BIN_EXE_turnover")).args(["fit", &rates, "--model", "ic50", "--rates-per", "s"]).output().unwrap();
+    assert_eq!(out.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&out.stderr).contains("--rates-per applies to the [S]–v models"));
+}

@@ -15,7 +15,7 @@ use crate::read::replicates::{layout_note, problems_without_empty_replicates, re
 use crate::read::columns::{is_rate_name, is_sd_name, is_substrate_name};
 use crate::robust::{direct_linear, DirectLinearEstimate};
 use crate::table::{parse_table, shortage_reasons, ColumnHeading, InputProblem, Table};
-use crate::units::{kcat_per_second, ConcentrationUnit, RateUnit};
+use crate::units::{kcat_per_second, ConcentrationUnit, RateUnit, TimeUnit};
 use crate::weighting::Weighting;
 use serde::{Deserialize, Serialize};
 
@@ -48,6 +48,12 @@ pub struct RateRequest {
     /// one point is a cell. `excluded_lines` leaves out every rate on a
     /// line.
     pub excluded_cells: Vec<(usize, usize)>,
+    /// The time unit to report rates in: `s`, `min` or `h` (per second,
+    /// minute or hour). `None` or empty keeps the unit of v. The rates (and
+    /// an sd column) are converted before the fit, so Vmax, the points and
+    /// the plots are all in the chosen unit; a note states the factor.
+    /// Needs the unit of v.
+    pub rate_time: Option<String>,
 }
 
 /// One data point as the analysis saw it.
@@ -247,6 +253,32 @@ pub fn analyse_rates(request: &RateRequest) -> Result<RateAnalysis, Error> {
     let substrate_unit =
         choose_unit(&request.substrate_unit, heading(roles.substrate), ConcentrationUnit::parse, "[S]", &mut notes)?;
     let rate_unit = choose_unit(&request.rate_unit, roles.rate_heading.as_ref(), RateUnit::parse, "v", &mut notes)?;
+    // Rates per the chosen time unit: v in c/T_old is v·(T_new/T_old) in
+    // c/T_new.
+    let (rate_unit, time_factor) = match request.rate_time.as_deref().map(str::trim).filter(|t| !t.is_empty()) {
+        None => (rate_unit, 1.0),
+        Some(text) => {
+            let time = TimeUnit::parse(text).map_err(Error::invalid_option)?;
+            let Some(unit) = rate_unit else {
+                return Err(Error::invalid_option(format!(
+                    "rates per {} need the unit of v (a concentration per time); choose it or write it in the header",
+                    time.symbol()
+                )));
+            };
+            let factor = time.in_seconds() / unit.time.in_seconds();
+            let converted = RateUnit { concentration: unit.concentration, time };
+            if factor != 1.0 {
+                notes.push(format!(
+                    "Rates are reported per {}: v in {} × {} = v in {} (the rates and any sd column were converted before the fit).",
+                    time.symbol(),
+                    unit.symbol(),
+                    factor,
+                    converted.symbol()
+                ));
+            }
+            (Some(converted), factor)
+        }
+    };
 
     let mut points = Vec::new();
     for row in &table.rows {
@@ -271,8 +303,9 @@ pub fn analyse_rates(request: &RateRequest) -> Result<RateAnalysis, Error> {
             });
             continue;
         }
-        let sd = roles.sd.and_then(|c| row.cells.get(c).copied().flatten());
+        let sd = roles.sd.and_then(|c| row.cells.get(c).copied().flatten()).map(|sd| sd * time_factor);
         for (column, v) in rates {
+            let v = v * time_factor;
             let weight = match request.weighting.weight(v, sd) {
                 Ok(w) => w,
                 Err(message) => {
@@ -822,5 +855,35 @@ mod tests {
         assert_eq!(bare.fit.n, 8);
         let error = analyse_rates(&request("S\tv1 (µM/s)\tv2 (µM/min)\n1\t2\t3\n")).unwrap_err();
         assert!(error.message.contains("different units"), "{}", error.message);
+    }
+
+    /// Rates per second, minute or hour: Vmax and its SE scale by the
+    /// ratio of the time units (60 for min to s), Km and kcat do not
+    /// change; the note states the factor. Agreement to 1e-9 relative (the
+    /// solver works on numbers 60 times apart).
+    #[test]
+    fn rates_are_reported_per_the_chosen_time_unit() {
+        let text = "[S] (µM)\tv (µM/min)\n1\t0.99\n2\t1.66\n5\t2.86\n10\t3.33\n20\t3.64\n50\t3.85\n";
+        let mut req = request(text);
+        req.enzyme = Some(10.0);
+        req.enzyme_unit = Some("nM".into());
+        let per_min = analyse_rates(&req).unwrap();
+        for (time, factor) in [("s", 1.0 / 60.0), ("h", 60.0), ("min", 1.0)] {
+            req.rate_time = Some(time.into());
+            let other = analyse_rates(&req).unwrap();
+            assert_eq!(other.units.rate.as_deref(), Some(format!("µM/{time}").as_str()));
+            let close = |a: f64, b: f64| (a - b).abs() <= 1e-9 * b.abs();
+            let (a, b) = (&other.fit.parameters, &per_min.fit.parameters);
+            assert!(close(a[0].value, b[0].value * factor) && close(a[0].std_error.unwrap(), b[0].std_error.unwrap() * factor), "{time} Vmax");
+            for k in 1..4 {
+                assert!(close(a[k].value, b[k].value) && close(a[k].std_error.unwrap(), b[k].std_error.unwrap()), "{time} {}", a[k].name);
+            }
+            assert_eq!(other.notes.iter().any(|n| n.starts_with(&format!("Rates are reported per {time}: v in µM/min × "))), time != "min", "{:?}", other.notes);
+        }
+        let mut bare = request("S\tv\n1\t1\n2\t1.5\n4\t2\n8\t2.2\n");
+        bare.rate_time = Some("s".into());
+        assert!(analyse_rates(&bare).unwrap_err().message.contains("need the unit of v"));
+        bare.rate_time = Some("week".into());
+        assert!(analyse_rates(&bare).is_err());
     }
 }
