@@ -161,15 +161,19 @@ fn named_columns(headings: &[crate::table::ColumnHeading]) -> Option<(usize, usi
 /// dose-response section.
 pub fn is_dose_table(text: &str) -> bool {
     let table = parse_table(text);
-    table.headings.as_deref().and_then(named_columns).is_some() || dose_replicates(&table).ok().flatten().is_some_and(|c| table.headings.is_some() && c.replicated())
+    table.headings.as_deref().and_then(named_columns).is_some() || dose_replicates(&table).ok().flatten().is_some()
 }
 
-/// The replicate layout of an inhibitor series: `[I]` (or `conc`) then
-/// replicate responses (`rep 1`, `response 2`, `% activity A`, a repeated
-/// response heading; see [`crate::read::replicates`]).
+/// The replicate layout of an inhibitor series: `[I]` then replicate
+/// responses (`rep 1`, `response 2`, `% activity A`, a repeated response
+/// heading; see [`crate::read::replicates`]). A bare `conc` first column
+/// is not enough here: `conc`, `rep 1`, `rep 2` is a rate table, whose
+/// concentration is [S].
 fn dose_replicates(table: &crate::table::Table) -> Result<Option<MeasurementColumns>, String> {
-    let is_concentration = |n: &str| is_inhibitor_name(n) || is_bare_concentration_name(n);
-    replicate_columns(table, &is_concentration, &is_response_name)
+    if table.headings.is_none() {
+        return Ok(None);
+    }
+    replicate_columns(table, &is_inhibitor_name, &is_response_name)
 }
 
 /// Reads the series and fits it.
@@ -578,6 +582,7 @@ mod tests {
             repeated.push_str(&format!("{i},{}\n", ys.join(",")));
         }
         assert!(is_dose_table(&wide) && is_dose_table(&repeated));
+        assert!(!is_dose_table("conc (µM)\trep 1\trep 2\n1\t2\t3\n") && !is_dose_table("1\t2\t3\n2\t3\t4\n"));
         for (model, enzyme) in [("ic50", None), ("morrison", Some(2.0))] {
             let reference = analyse_dose(&DoseRequest { text: long.clone(), model: model.into(), enzyme, ..Default::default() }).unwrap();
             assert_eq!(reference.fit.n, 21);
