@@ -182,6 +182,9 @@ fn read_plate(rows: &[(usize, Vec<String>)], problems: &mut Vec<InputProblem>) -
     let mut pending_title: Option<(usize, String)> = None;
     let mut in_grid = false;
     for (line, cells) in rows {
+        if cells.is_empty() {
+            continue;
+        }
         let letter = cells.first().and_then(|c| row_letter(c));
         // Inside a grid, a lettered row is data even when its cells count
         // 1, 2, 3 (a dilution series).

@@ -145,7 +145,7 @@ pub fn problems_without_empty_replicates(table: &Table, columns: &MeasurementCol
     let mut empty = 0;
     let mut problems = Vec::new();
     for problem in &table.problems {
-        let in_replicates = problem.column.is_some_and(|c| columns.measurements.contains(&(c - 1)));
+        let in_replicates = problem.column.and_then(|c| c.checked_sub(1)).is_some_and(|c| columns.measurements.contains(&c));
         let empty_cell = in_replicates && problem.message.starts_with("the cell is empty");
         let row = table.rows.iter().find(|r| r.line == problem.line);
         let short_row = problem.column.is_none()
