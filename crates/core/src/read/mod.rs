@@ -7,6 +7,8 @@
 //!   every analysis reads headers with.
 //! - [`layout`]: a plate layout as a list or as plate-map grids, read to
 //!   the same placed cells.
+//! - [`spreadsheet`]: `.xlsx` and `.ods` bytes to sheet names and a
+//!   sheet as table text (calamine).
 //! - [`replicates`]: a concentration column followed by replicate
 //!   measurement columns (`rep 1`, `v1`, `replicate A`, repeated headings,
 //!   or unlabelled numbers), and the per-concentration mean, SD, SEM and
@@ -16,3 +18,4 @@ pub mod blocks;
 pub mod columns;
 pub mod layout;
 pub mod replicates;
+pub mod spreadsheet;
