@@ -70,6 +70,9 @@ struct DataOptions {
     /// Print one JSON object instead of a table
     #[arg(long)]
     json: bool,
+    /// The sheet to read when FILE is a workbook (.xlsx, .ods) with several
+    #[arg(long, value_name = "NAME")]
+    sheet: Option<String>,
     /// In JSON, include the per-point array even when there are more than
     /// 10,000 points (fewer are always included)
     #[arg(long)]
@@ -249,6 +252,7 @@ fn main() -> ExitCode {
 /// The rate request, models and options of a fit or comparison.
 struct Prepared {
     file: String,
+    sheet: Option<String>,
     json: bool,
     points: bool,
     lenient: bool,
@@ -343,6 +347,7 @@ fn prepare(command: &'static str, data: DataOptions, extra: ModelExtras, model: 
     }
     Ok(Prepared {
         file: data.file,
+        sheet: data.sheet,
         json: data.json,
         points: data.points,
         lenient: data.lenient,
@@ -406,7 +411,46 @@ fn conversion_request(
 
 /// Reads a file (or standard input for `-`) through the core's one
 /// decoding rule; a note about the encoding goes to standard error.
+/// Whether `path` names a spreadsheet workbook by its extension.
+fn is_workbook(path: &str) -> bool {
+    let lower = path.to_ascii_lowercase();
+    [".xlsx", ".xlsm", ".ods", ".xls", ".xlsb"].iter().any(|e| lower.ends_with(e))
+}
+
+/// Reads a file (or standard input) as table text: a workbook's sheet
+/// (`sheet`, or its only sheet) through the core's spreadsheet reader,
+/// anything else through `decode_text`.
+pub(crate) fn read_table(path: &str, sheet: Option<&str>) -> Result<String, Failure> {
+    if !is_workbook(path) {
+        if sheet.is_some() {
+            return Err(Failure::Input(format!("--sheet applies to a workbook (.xlsx, .ods); '{path}' is read as text")));
+        }
+        return read_input(path);
+    }
+    let bytes = std::fs::read(path).map_err(|e| Failure::Input(format!("cannot read '{path}': {e}")))?;
+    let names = turnover_core::read::spreadsheet::sheet_names(&bytes).map_err(|e| Failure::Input(format!("{path}: {}", e.message)))?;
+    let name = match sheet {
+        Some(name) => name.to_string(),
+        None if names.len() == 1 => names[0].clone(),
+        None => {
+            return Err(Failure::Input(format!(
+                "{path} has {} sheets ({}); choose one with --sheet NAME",
+                names.len(),
+                names.iter().map(|n| format!("'{n}'")).collect::<Vec<_>>().join(", ")
+            )))
+        }
+    };
+    let read = turnover_core::read::spreadsheet::sheet_text(&bytes, &name).map_err(|e| Failure::Input(format!("{path}: {}", e.message)))?;
+    for note in &read.notes {
+        warn(&format!("turnover: {path}: note: {note}"));
+    }
+    Ok(read.text)
+}
+
 pub(crate) fn read_input(path: &str) -> Result<String, Failure> {
+    if is_workbook(path) {
+        return read_table(path, None);
+    }
     let mut bytes = Vec::new();
     if path == "-" {
         std::io::stdin()
@@ -473,7 +517,7 @@ struct Envelope<'a, P: Serialize, U: Serialize> {
 fn fit(options: FitOptions) -> Result<ExitCode, Failure> {
     let model = options.model.clone().unwrap_or_else(|| "mm".to_string());
     let mut args = prepare("fit", options.data, options.extra, &model)?;
-    args.request.text = read_input(&args.file)?;
+    args.request.text = read_table(&args.file, args.sheet.as_deref())?;
     let mut out = Output::new();
     let code = match model_input(&model) {
         Some(ModelInput::SubstrateAndInhibitor) => {
@@ -598,7 +642,7 @@ fn compare(options: CompareOptions) -> Result<ExitCode, Failure> {
         return Err(usage("compare", "--points applies to fit: the comparison's JSON holds no per-point arrays"));
     }
     let mut args = prepare("compare", options.data, options.extra, &first)?;
-    args.request.text = read_input(&args.file)?;
+    args.request.text = read_table(&args.file, args.sheet.as_deref())?;
     let inputs: Vec<Option<ModelInput>> = models.iter().map(|m| model_input(m)).collect();
     let (comparison, fits, problems, notes, caution) = if inputs.iter().all(|i| *i == Some(ModelInput::SubstrateAndInhibitor)) {
         let request = inhibition_request(&args, models);

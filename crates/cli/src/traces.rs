@@ -28,6 +28,10 @@ pub struct TraceOptions {
     /// Print one JSON object
     #[arg(long)]
     json: bool,
+    /// The sheet of TRACES to read when it is a workbook (.xlsx, .ods)
+    /// with several
+    #[arg(long, value_name = "NAME")]
+    sheet: Option<String>,
     /// Which kinetic table of the file to read, counting from 1, when it
     /// holds several (two wavelengths, two reads) [default: the first]
     #[arg(long, value_name = "N")]
@@ -123,7 +127,7 @@ fn prepare(command: &'static str, options: TraceOptions) -> Result<Prepared, Fai
     if let Some(path) = &options.standard {
         request.standard = Some(read_input(path)?);
     }
-    request.traces = read_input(&options.file)?;
+    request.traces = crate::read_table(&options.file, options.sheet.as_deref())?;
     Ok(Prepared { command, file: options.file, json: options.json, request })
 }
 

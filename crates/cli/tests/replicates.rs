@@ -151,3 +151,30 @@ fn rates_per_second() {
     assert_eq!(out.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&out.stderr).contains("--rates-per applies to the [S]–v models"));
 }
+
+/// A workbook (written by the general-purpose rust_xlsxwriter crate, with
+/// invented rates) read directly: `--sheet Rates` gives the same constants
+/// as the same table as text; without `--sheet` the sheets are listed.
+#[test]
+fn workbooks_are_read_by_sheet() {
+    let rows = [(1.0, 0.99), (2.0, 1.66), (5.0, 2.86), (10.0, 3.33), (20.0, 3.64), (50.0, 3.85)];
+    let mut workbook = rust_xlsxwriter::Workbook::new();
+    workbook.add_worksheet().set_name("Notes").unwrap().write_string(0, 0, "invented data").unwrap();
+    let sheet = workbook.add_worksheet().set_name("Rates").unwrap();
+    sheet.write_string(0, 0, "[S] (µM)").unwrap();
+    sheet.write_string(0, 1, "v (µM/min)").unwrap();
+    let mut text = String::from("[S] (µM)\tv (µM/min)\n");
+    for (k, (s, v)) in rows.iter().enumerate() {
+        sheet.write_number(k as u32 + 1, 0, *s).unwrap();
+        sheet.write_number(k as u32 + 1, 1, *v).unwrap();
+        text.push_str(&format!("{s}\t{v}\n"));
+    }
+    let path = PathBuf::from(env!("CARGO_TARGET_TMPDIR")).join("rates-book.xlsx");
+    workbook.save(&path).unwrap();
+    let path = path.to_str().unwrap();
+    let from_sheet = json(&["fit", path, "--sheet", "Rates", "--json"]);
+    same_constants(&from_sheet, &json(&["fit", &file("rates-book.tsv", &text), "--json"]));
+    let out = Command::new(env!("CARGO_BIN_EXE_turnover")).args(["fit", path]).output().unwrap();
+    assert_eq!(out.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&out.stderr).contains("has 2 sheets ('Notes', 'Rates'); choose one with --sheet NAME"), "{}", String::from_utf8_lossy(&out.stderr));
+}
