@@ -7,8 +7,9 @@
 //!   every analysis reads headers with.
 //! - [`layout`]: a plate layout as a list or as plate-map grids, read to
 //!   the same placed cells.
-//! - [`spreadsheet`]: `.xlsx` and `.ods` bytes to sheet names and a
-//!   sheet as table text (calamine).
+//! - `spreadsheet`: `.xlsx` and `.ods` bytes to sheet names and a
+//!   sheet as table text (calamine; feature `spreadsheets`, which the
+//!   command line turns on and the page leaves off).
 //! - [`replicates`]: a concentration column followed by replicate
 //!   measurement columns (`rep 1`, `v1`, `replicate A`, repeated headings,
 //!   or unlabelled numbers), and the per-concentration mean, SD, SEM and
@@ -18,4 +19,5 @@ pub mod blocks;
 pub mod columns;
 pub mod layout;
 pub mod replicates;
+#[cfg(feature = "spreadsheets")]
 pub mod spreadsheet;
