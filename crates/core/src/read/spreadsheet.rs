@@ -184,4 +184,20 @@ mod tests {
         assert_eq!((clock(0.0), clock(90.0), clock(3725.5)), ("0:00:00".into(), "0:01:30".into(), "1:02:05.5".into()));
         assert_eq!(text_cell("a\tb"), "\"a\tb\"");
     }
+
+    /// The same invented rates as an `.ods` file written by odfpy
+    /// (`tests/data/make_rates_ods.py`, committed with its output): the
+    /// same fit as the typed table; the last row's `#DIV/0!` (an error
+    /// string in an ODS cell) is a problem at its row and column.
+    #[test]
+    fn ods_sheet_reads_as_the_typed_table() {
+        let bytes = include_bytes!("../../tests/data/rates.ods");
+        assert_eq!(sheet_names(bytes).unwrap(), ["Rates"]);
+        let read = sheet_text(bytes, "Rates").unwrap();
+        let typed = "[S] (µM)\tv (µM/min)\n1\t0.99\n2\t1.66\n5\t2.86\n10\t3.33\n20\t3.64\n50\t3.85\n";
+        let request = |text: &str| RateRequest { text: text.to_string(), ..RateRequest::default() };
+        let from_sheet = analyse_rates(&request(&read.text)).unwrap();
+        assert_eq!(from_sheet.fit.parameters, analyse_rates(&request(typed)).unwrap().fit.parameters);
+        assert_eq!(from_sheet.problems.iter().map(|p| (p.line, p.column)).collect::<Vec<_>>(), [(8, Some(2))]);
+    }
 }
