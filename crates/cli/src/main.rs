@@ -71,6 +71,9 @@ struct DataOptions {
     /// Print one JSON object instead of a table
     #[arg(long)]
     json: bool,
+    /// The sheet to read when FILE is a workbook (.xlsx, .ods) with several
+    #[arg(long, value_name = "NAME")]
+    sheet: Option<String>,
     /// In JSON, include the per-point array even when there are more than
     /// 10,000 points (fewer are always included)
     #[arg(long)]
@@ -85,6 +88,10 @@ struct DataOptions {
     /// Unit of v, a concentration per time (µM/min, nM/s, ...); default: from the header
     #[arg(long, value_name = "UNIT")]
     rate_unit: Option<String>,
+    /// Report rates (v, Vmax) per second, minute or hour, converted from
+    /// the unit of v (the [S]–v models only)
+    #[arg(long, value_name = "TIME", value_parser = ["s", "min", "h"])]
+    rates_per: Option<String>,
     /// What the weighting assumes about the error of a rate
     #[arg(long, value_name = "ERROR", value_parser = weighting_names(), default_value = "constant")]
     weighting: String,
@@ -103,6 +110,11 @@ struct DataOptions {
     /// Input line numbers to leave out of the fit, such as 4,9
     #[arg(long, value_name = "LIST", value_delimiter = ',')]
     exclude_lines: Vec<String>,
+    /// Single values to leave out, as LINE:COLUMN (both from 1), such as
+    /// 4:3,9:2: one replicate of a table with replicates in columns, or one
+    /// cell of an inhibition matrix
+    #[arg(long, value_name = "LIST", value_delimiter = ',')]
+    exclude_cells: Vec<String>,
 }
 
 #[derive(Args)]
@@ -258,6 +270,7 @@ fn main() -> ExitCode {
 /// The rate request, models and options of a fit or comparison.
 pub(crate) struct Prepared {
     file: String,
+    sheet: Option<String>,
     json: bool,
     points: bool,
     lenient: bool,
@@ -271,6 +284,10 @@ fn prepare(command: &'static str, data: DataOptions, extra: ModelExtras, model: 
     let mut request = RateRequest { model: model.to_string(), ..RateRequest::default() };
     request.substrate_unit = data.substrate_unit;
     request.rate_unit = data.rate_unit;
+    if data.rates_per.is_some() && model_input(model).is_some_and(|input| input != ModelInput::Substrate) {
+        return Err(usage(command, format!("--rates-per applies to the [S]–v models (mm, substrate-inhibition, hill), not to {model}")));
+    }
+    request.rate_time = data.rates_per;
     let (weighting, note) = Weighting::from_option_name(&data.weighting).map_err(|m| usage(command, m))?;
     if let Some(note) = note {
         warn(&format!("turnover: note: {note}"));
@@ -301,6 +318,13 @@ fn prepare(command: &'static str, data: DataOptions, extra: ModelExtras, model: 
             .parse::<usize>()
             .map_err(|_| usage(command, format!("--exclude-lines: '{part}' is not a line number")))?;
         request.excluded_lines.push(line);
+    }
+    for part in data.exclude_cells.iter().map(|p| p.trim()).filter(|p| !p.is_empty()) {
+        let cell = part.split_once(':').and_then(|(l, c)| Some((l.trim().parse::<usize>().ok()?, c.trim().parse::<usize>().ok()?)));
+        match cell {
+            Some((line, column)) if line > 0 && column > 0 => request.excluded_cells.push((line, column)),
+            _ => return Err(usage(command, format!("--exclude-cells: '{part}' is not LINE:COLUMN (two numbers from 1, such as 4:3)"))),
+        }
     }
     let input = model_input(model);
     if let Some(text) = &extra.enzyme {
@@ -341,6 +365,7 @@ fn prepare(command: &'static str, data: DataOptions, extra: ModelExtras, model: 
     }
     Ok(Prepared {
         file: data.file,
+        sheet: data.sheet,
         json: data.json,
         points: data.points,
         lenient: data.lenient,
@@ -404,7 +429,46 @@ fn conversion_request(
 
 /// Reads a file (or standard input for `-`) through the core's one
 /// decoding rule; a note about the encoding goes to standard error.
+/// Whether `path` names a spreadsheet workbook by its extension.
+fn is_workbook(path: &str) -> bool {
+    let lower = path.to_ascii_lowercase();
+    [".xlsx", ".xlsm", ".ods", ".xls", ".xlsb"].iter().any(|e| lower.ends_with(e))
+}
+
+/// Reads a file (or standard input) as table text: a workbook's sheet
+/// (`sheet`, or its only sheet) through the core's spreadsheet reader,
+/// anything else through `decode_text`.
+pub(crate) fn read_table(path: &str, sheet: Option<&str>) -> Result<String, Failure> {
+    if !is_workbook(path) {
+        if sheet.is_some() {
+            return Err(Failure::Input(format!("--sheet applies to a workbook (.xlsx, .ods); '{path}' is read as text")));
+        }
+        return read_input(path);
+    }
+    let bytes = std::fs::read(path).map_err(|e| Failure::Input(format!("cannot read '{path}': {e}")))?;
+    let names = turnover_core::read::spreadsheet::sheet_names(&bytes).map_err(|e| Failure::Input(format!("{path}: {}", e.message)))?;
+    let name = match sheet {
+        Some(name) => name.to_string(),
+        None if names.len() == 1 => names[0].clone(),
+        None => {
+            return Err(Failure::Input(format!(
+                "{path} has {} sheets ({}); choose one with --sheet NAME",
+                names.len(),
+                names.iter().map(|n| format!("'{n}'")).collect::<Vec<_>>().join(", ")
+            )))
+        }
+    };
+    let read = turnover_core::read::spreadsheet::sheet_text(&bytes, &name).map_err(|e| Failure::Input(format!("{path}: {}", e.message)))?;
+    for note in &read.notes {
+        warn(&format!("turnover: {path}: note: {note}"));
+    }
+    Ok(read.text)
+}
+
 pub(crate) fn read_input(path: &str) -> Result<String, Failure> {
+    if is_workbook(path) {
+        return read_table(path, None);
+    }
     let mut bytes = Vec::new();
     if path == "-" {
         std::io::stdin()
@@ -447,6 +511,14 @@ struct FitJson<'a, E: Serialize> {
     extra: E,
 }
 
+/// An envelope with the per-concentration replicate summaries beside it.
+#[derive(Serialize)]
+struct WithReplicates<E: Serialize, R: Serialize> {
+    #[serde(flatten)]
+    envelope: E,
+    replicates: R,
+}
+
 /// What a JSON fit carries beside the fit record.
 #[derive(Serialize)]
 struct Envelope<'a, P: Serialize, U: Serialize> {
@@ -482,7 +554,7 @@ fn fit(options: FitOptions) -> Result<ExitCode, Failure> {
 
 fn fit_one(data: DataOptions, extra: ModelExtras, model: String) -> Result<ExitCode, Failure> {
     let mut args = prepare("fit", data, extra, &model)?;
-    args.request.text = read_input(&args.file)?;
+    args.request.text = read_table(&args.file, args.sheet.as_deref())?;
     let mut out = Output::new();
     let code = match model_input(&model) {
         Some(ModelInput::SubstrateAndInhibitor) => {
@@ -500,6 +572,7 @@ fn fit_one(data: DataOptions, extra: ModelExtras, model: String) -> Result<ExitC
                     points_omitted,
                     caution: &analysis.caution,
                 };
+                let extra = WithReplicates { envelope: extra, replicates: &analysis.replicates };
                 out.json(&FitJson { fit, extra })?;
             } else {
                 out.text(&fit_table(fit, "", &analysis.notes, &analysis.caution))?;
@@ -514,6 +587,7 @@ fn fit_one(data: DataOptions, extra: ModelExtras, model: String) -> Result<ExitC
                 fixed_top: args.top,
                 fixed_bottom: args.bottom,
                 excluded_lines: args.request.excluded_lines.clone(),
+                excluded_cells: args.request.excluded_cells.clone(),
                 interval_method: args.request.interval_method,
                 bootstrap: args.request.bootstrap,
                 weighting: args.request.weighting,
@@ -535,6 +609,7 @@ fn fit_one(data: DataOptions, extra: ModelExtras, model: String) -> Result<ExitC
                     points_omitted,
                     caution: &analysis.caution,
                 };
+                let extra = WithReplicates { envelope: extra, replicates: &analysis.replicates };
                 out.json(&FitJson { fit: &analysis.fit, extra })?;
             } else {
                 out.text(&fit_table(&analysis.fit, "", &analysis.notes, &analysis.caution))?;
@@ -570,7 +645,7 @@ fn inhibition_request(args: &Prepared, models: Vec<String>) -> InhibitionRequest
         text: args.request.text.clone(),
         models,
         excluded_lines: args.request.excluded_lines.clone(),
-        excluded_cells: Vec::new(),
+        excluded_cells: args.request.excluded_cells.clone(),
         substrate_unit: args.request.substrate_unit.clone(),
         inhibitor_unit: None,
         rate_unit: args.request.rate_unit.clone(),
@@ -604,7 +679,7 @@ fn compare(options: CompareOptions) -> Result<ExitCode, Failure> {
         return Err(usage("compare", "--points applies to fit: the comparison's JSON holds no per-point arrays"));
     }
     let mut args = prepare("compare", options.data, options.extra, &first)?;
-    args.request.text = read_input(&args.file)?;
+    args.request.text = read_table(&args.file, args.sheet.as_deref())?;
     let inputs: Vec<Option<ModelInput>> = models.iter().map(|m| model_input(m)).collect();
     let (comparison, fits, problems, notes, caution) = if inputs.iter().all(|i| *i == Some(ModelInput::SubstrateAndInhibitor)) {
         let request = inhibition_request(&args, models);
@@ -697,6 +772,7 @@ fn write_rate_json(out: &mut Output, analysis: &RateAnalysis, all_points: bool) 
         direct_linear: &'a turnover_core::robust::DirectLinearEstimate,
         bootstrap: &'a Option<turnover_core::rates::BootstrapReport>,
         error_structure: &'a Option<turnover_core::errors::ErrorStructure>,
+        replicates: &'a [turnover_core::read::replicates::ReplicateSummary],
     }
     /// The residual diagnostics, their per-point array under the same rule
     /// as the points.
@@ -729,6 +805,7 @@ fn write_rate_json(out: &mut Output, analysis: &RateAnalysis, all_points: bool) 
         direct_linear: &analysis.direct_linear,
         bootstrap: &analysis.bootstrap,
         error_structure: &analysis.error_structure,
+        replicates: &analysis.replicates,
     };
     out.json(&FitJson { fit: &analysis.fit, extra })
 }

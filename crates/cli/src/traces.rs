@@ -20,12 +20,22 @@ pub struct TraceOptions {
     /// standard input)
     #[arg(value_name = "TRACES")]
     file: String,
-    /// A table saying what each trace is (trace, S, I, E, role, blank)
+    /// A table saying what each trace is (trace, S, I, E, role, blank), or a
+    /// plate map: one grid per property (a title such as S (µM), a row of
+    /// column numbers 1, 2, ..., rows lettered A, B, ...)
     #[arg(long, value_name = "FILE")]
     layout: String,
     /// Print one JSON object
     #[arg(long)]
     json: bool,
+    /// The sheet of TRACES to read when it is a workbook (.xlsx, .ods)
+    /// with several
+    #[arg(long, value_name = "NAME")]
+    sheet: Option<String>,
+    /// Which kinetic table of the file to read, counting from 1, when it
+    /// holds several (two wavelengths, two reads) [default: the first]
+    #[arg(long, value_name = "N")]
+    block: Option<usize>,
     /// Molar absorption coefficient ε, M⁻¹ cm⁻¹
     #[arg(long, value_name = "E", value_parser = option_number)]
     epsilon: Option<f64>,
@@ -105,6 +115,7 @@ fn prepare(command: &'static str, options: TraceOptions) -> Result<Prepared, Fai
     request.max_conversion = options.max_conversion;
     request.excluded = options.exclude;
     request.fit_v0 = options.v0;
+    request.block = options.block;
     for text in &options.window {
         let bad = || usage(command, format!("--window: '{text}' is not NAME=START:END, such as A1=0:5"));
         let (name, range) = text.split_once('=').ok_or_else(bad)?;
@@ -120,7 +131,7 @@ fn prepare(command: &'static str, options: TraceOptions) -> Result<Prepared, Fai
     if let Some(path) = &options.standard {
         request.standard = Some(read_input(path)?);
     }
-    request.traces = read_input(&options.file)?;
+    request.traces = crate::read_table(&options.file, options.sheet.as_deref())?;
     Ok(Prepared { command, file: options.file, json: options.json, request })
 }
 
@@ -184,6 +195,7 @@ pub fn rates(options: TraceOptions) -> Result<ExitCode, Failure> {
         }
         #[derive(Serialize)]
         struct RatesJson<'a> {
+            blocks: &'a [turnover_core::read::blocks::KineticBlock],
             time_unit: &'a str,
             value_unit: &'a str,
             rate_unit: &'a str,
@@ -227,6 +239,7 @@ pub fn rates(options: TraceOptions) -> Result<ExitCode, Failure> {
             })
             .collect();
         out.json(&RatesJson {
+            blocks: &analysis.blocks,
             time_unit: &analysis.time_unit,
             value_unit: &analysis.value_unit,
             rate_unit: &analysis.rate_unit,

@@ -26,7 +26,8 @@ use crate::intervals::{BootstrapSettings, IntervalMethod};
 use crate::model::Dimension;
 use crate::models::{model_input, model_with_options, ModelInput, ModelOptions};
 use crate::plate::{normalise_plates, PlateQuality};
-use crate::rates::{analyse_rates, normalise_name, RateRequest, CAUTION};
+use crate::rates::{analyse_rates, RateRequest, CAUTION};
+use crate::read::columns::normalise_name;
 use crate::table::{detect_separator, is_comment_line, parse_heading, split_line, InputProblem, Separator};
 use crate::units::ConcentrationUnit;
 use crate::weighting::Weighting;
@@ -341,6 +342,7 @@ pub fn fit_curve(request: &BatchRequest, curve: &CurveInput) -> CurveResult {
             fixed_top: request.fixed_top,
             fixed_bottom: request.fixed_bottom,
             excluded_lines: excluded,
+            excluded_cells: Vec::new(),
             interval_method: request.interval_method,
             weighting: request.weighting,
             bootstrap: request.bootstrap,
@@ -375,6 +377,8 @@ pub fn fit_curve(request: &BatchRequest, curve: &CurveInput) -> CurveResult {
             enzyme: request.enzyme,
             enzyme_unit: request.enzyme_unit.clone(),
             excluded_lines: excluded,
+            excluded_cells: Vec::new(),
+            rate_time: None,
             weighting: request.weighting,
             interval_method: request.interval_method,
             bootstrap: request.bootstrap,

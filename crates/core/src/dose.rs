@@ -8,14 +8,15 @@
 
 use crate::error::Error;
 use crate::fit::{FitSettings, FitSummary};
-use crate::inhibition::is_inhibitor_name;
 use crate::model::{Dimension, Observations};
 use crate::fit::{Fit, ParameterEstimate};
 use crate::intervals::IntervalMethod;
 use crate::models::{cheng_prusoff, model_with_options, DoseResponse, Mechanism, ModelOptions};
 use crate::plots::family::{dose_response_plot, morrison_plot, short_number, DosePoint};
 use crate::plots::PlotData;
-use crate::rates::{is_rate_name, is_substrate_name, normalise_name, CAUTION};
+use crate::rates::CAUTION;
+use crate::read::columns::{is_bare_concentration_name, is_inhibitor_name, is_response_name, is_signal_name, is_substrate_only_name};
+use crate::read::replicates::{layout_note, problems_without_empty_replicates, replicate_columns, summarise, MeasurementColumns, ReplicateSummary};
 use crate::table::{parse_table, shortage_reasons, InputProblem};
 use crate::units::ConcentrationUnit;
 use serde::{Deserialize, Serialize};
@@ -34,8 +35,11 @@ pub struct DoseRequest {
     pub fixed_top: Option<f64>,
     /// A fixed bottom plateau (`ic50`).
     pub fixed_bottom: Option<f64>,
-    /// Input line numbers to leave out.
+    /// Input line numbers to leave out (every response on the line).
     pub excluded_lines: Vec<usize>,
+    /// Single responses to leave out, as (input line, input column), both
+    /// 1-based: with replicates in columns a line holds several responses.
+    pub excluded_cells: Vec<(usize, usize)>,
     /// How intervals are computed. Default asymptotic.
     pub interval_method: crate::intervals::IntervalMethod,
     /// How the responses are weighted: uniform, relative or poisson.
@@ -94,6 +98,9 @@ pub struct DoseRecord {
     pub row: usize,
     /// Input line.
     pub line: usize,
+    /// Input column of the response, counting from 1 (with replicates in
+    /// columns, which replicate this is).
+    pub column: usize,
     /// Inhibitor concentration.
     pub i: f64,
     /// Response.
@@ -117,19 +124,13 @@ pub struct DoseAnalysis {
     pub notes: Vec<String>,
     /// Unit of [I], when known.
     pub inhibitor_unit: Option<String>,
+    /// The responses used in the fit, by [I]: count, mean, SD and SEM (for
+    /// a table and error bars; the fit itself uses every response).
+    pub replicates: Vec<ReplicateSummary>,
     /// The plot (dose-response or Morrison).
     pub plots: Vec<PlotData>,
     /// The standing caution.
     pub caution: String,
-}
-
-/// Response names that are not also rate names.
-fn is_signal_name(name: &str) -> bool {
-    matches!(normalise_name(name).as_str(), "response" | "activity" | "signal" | "y" | "%activity" | "percentactivity" | "%" | "%control")
-}
-
-fn is_response_name(name: &str) -> bool {
-    is_rate_name(name) || is_signal_name(name)
 }
 
 /// The ([I], response) columns named by a header, if it names them: an
@@ -139,8 +140,7 @@ fn is_response_name(name: &str) -> bool {
 /// `conc`, `v` table is a Michaelis-Menten table, whose concentration is
 /// [S]). A header that also names [S] is not an inhibitor series.
 fn named_columns(headings: &[crate::table::ColumnHeading]) -> Option<(usize, usize)> {
-    let substrate_only = |n: &str| matches!(normalise_name(n).as_str(), "s" | "s0" | "substrate" | "substrateconcentration");
-    if headings.iter().any(|h| substrate_only(&h.name)) {
+    if headings.iter().any(|h| is_substrate_only_name(&h.name)) {
         return None;
     }
     let y_any = headings.iter().position(|h| is_response_name(&h.name));
@@ -148,7 +148,7 @@ fn named_columns(headings: &[crate::table::ColumnHeading]) -> Option<(usize, usi
     if let (Some(i), Some(y)) = (headings.iter().position(|h| is_inhibitor_name(&h.name)), y_any) {
         return Some((i, y));
     }
-    let conc = headings.iter().position(|h| matches!(normalise_name(&h.name).as_str(), "conc" | "concentration"));
+    let conc = headings.iter().position(|h| is_bare_concentration_name(&h.name));
     match (conc, y_signal) {
         (Some(i), Some(y)) => Some((i, y)),
         _ => None,
@@ -161,7 +161,19 @@ fn named_columns(headings: &[crate::table::ColumnHeading]) -> Option<(usize, usi
 /// dose-response section.
 pub fn is_dose_table(text: &str) -> bool {
     let table = parse_table(text);
-    table.headings.as_deref().and_then(named_columns).is_some()
+    table.headings.as_deref().and_then(named_columns).is_some() || dose_replicates(&table).ok().flatten().is_some()
+}
+
+/// The replicate layout of an inhibitor series: `[I]` then replicate
+/// responses (`rep 1`, `response 2`, `% activity A`, a repeated response
+/// heading; see [`crate::read::replicates`]). A bare `conc` first column
+/// is not enough here: `conc`, `rep 1`, `rep 2` is a rate table, whose
+/// concentration is [S].
+fn dose_replicates(table: &crate::table::Table) -> Result<Option<MeasurementColumns>, String> {
+    if table.headings.is_none() {
+        return Ok(None);
+    }
+    replicate_columns(table, &is_inhibitor_name, &is_response_name)
 }
 
 /// Reads the series and fits it.
@@ -195,48 +207,70 @@ pub fn analyse_dose(request: &DoseRequest) -> Result<DoseAnalysis, Error> {
     if table.rows.is_empty() {
         return Err(Error::invalid_data("no data rows found; paste a table with [I] in the first column and the response in the second"));
     }
-    let (ci, cy) = match &table.headings {
-        Some(h) => match named_columns(h) {
-            Some((i, y)) => (i, y),
-            None if h.iter().any(|c| is_substrate_name(&c.name) && !matches!(normalise_name(&c.name).as_str(), "conc" | "concentration")) => {
-                return Err(Error::invalid_data(
-                    "the header names an [S] column; an inhibitor series has [I] and a response only (fit rates at several [S] and [I] with an inhibition mechanism instead)",
-                ))
-            }
-            _ if h.len() >= 2 => {
-                notes.push(format!("Column 1 ('{}') is read as [I] and column 2 ('{}') as the response.", h[0].name, h[1].name));
+    let replicated = dose_replicates(&table).map_err(Error::invalid_data)?;
+    let mut problems;
+    let (ci, responses_at) = if let Some(columns) = replicated {
+        let (kept, empty) = problems_without_empty_replicates(&table, &columns);
+        problems = kept;
+        notes.push(layout_note(&columns, table.headings.as_deref(), "the response", empty));
+        (columns.concentration, columns)
+    } else {
+        problems = table.problems.clone();
+        let (ci, cy) = match &table.headings {
+            Some(h) => match named_columns(h) {
+                Some((i, y)) => (i, y),
+                None if h.iter().any(|c| is_substrate_only_name(&c.name)) => {
+                    return Err(Error::invalid_data(
+                        "the header names an [S] column; an inhibitor series has [I] and a response only (fit rates at several [S] and [I] with an inhibition mechanism instead)",
+                    ))
+                }
+                _ if h.len() >= 2 => {
+                    notes.push(format!("Column 1 ('{}') is read as [I] and column 2 ('{}') as the response.", h[0].name, h[1].name));
+                    (0, 1)
+                }
+                _ => return Err(Error::invalid_data("the table needs two columns: [I] then the response")),
+            },
+            None if table.width >= 2 => {
+                notes.push("No header row: column 1 is read as [I] and column 2 as the response.".to_string());
                 (0, 1)
             }
-            _ => return Err(Error::invalid_data("the table needs two columns: [I] then the response")),
-        },
-        None if table.width >= 2 => {
-            notes.push("No header row: column 1 is read as [I] and column 2 as the response.".to_string());
-            (0, 1)
-        }
-        None => return Err(Error::invalid_data("the table needs two columns: [I] then the response")),
+            None => return Err(Error::invalid_data("the table needs two columns: [I] then the response")),
+        };
+        let unit = table.headings.as_ref().and_then(|h| h.get(cy)).and_then(|h| h.unit.clone());
+        (ci, MeasurementColumns { concentration: ci, measurements: vec![cy], unit })
     };
+    let cy = responses_at.measurements[0];
     let heading = |c: usize| table.headings.as_ref().and_then(|h| h.get(c));
     let inhibitor_unit = heading(ci).and_then(|h| h.unit.as_deref()).and_then(|u| ConcentrationUnit::parse(u).ok());
-    let response_unit = heading(cy).and_then(|h| h.unit.clone());
-    let response_label = match (heading(cy), &response_unit) {
-        (Some(h), Some(u)) => format!("{} ({u})", h.name),
-        (Some(h), None) => h.name.clone(),
-        _ => "response".to_string(),
+    let response_unit = responses_at.unit.clone();
+    let response_name = match heading(cy) {
+        Some(_) if responses_at.replicated() => "response".to_string(),
+        Some(h) => h.name.clone(),
+        None => "response".to_string(),
     };
-    let mut problems = table.problems.clone();
+    let response_label = match &response_unit {
+        Some(u) => format!("{response_name} ({u})"),
+        None => response_name,
+    };
     let mut points = Vec::new();
     for row in &table.rows {
-        let (Some(Some(i)), Some(Some(y))) = (row.cells.get(ci), row.cells.get(cy)) else {
+        let i = row.cells.get(ci).copied().flatten();
+        let ys: Vec<(usize, f64)> =
+            responses_at.measurements.iter().filter_map(|&c| row.cells.get(c).copied().flatten().map(|y| (c, y))).collect();
+        let (Some(i), false) = (i, ys.is_empty()) else {
             if !problems.iter().any(|p| p.line == row.line) {
                 problems.push(InputProblem { line: row.line, column: None, message: "the row has no [I] or no response".into() });
             }
             continue;
         };
-        if *i < 0.0 {
+        if i < 0.0 {
             problems.push(InputProblem { line: row.line, column: Some(ci + 1), message: "a concentration cannot be negative".into() });
             continue;
         }
-        points.push(DoseRecord { row: points.len(), line: row.line, i: *i, y: *y, excluded: request.excluded_lines.contains(&row.line), fitted: f64::NAN });
+        for (column, y) in ys {
+            let excluded = request.excluded_lines.contains(&row.line) || request.excluded_cells.contains(&(row.line, column + 1));
+            points.push(DoseRecord { row: points.len(), line: row.line, column: column + 1, i, y, excluded, fitted: f64::NAN });
+        }
     }
     problems.sort_by_key(|p| (p.line, p.column));
     let used: Vec<DoseRecord> = points.iter().filter(|p| !p.excluded).cloned().collect();
@@ -317,7 +351,8 @@ pub fn analyse_dose(request: &DoseRequest) -> Result<DoseAnalysis, Error> {
         }
         dose_response_plot(&dose_points, &curve, full[2], &unit_text, &response_label)
     };
-    Ok(DoseAnalysis { fit: summary, points, problems, notes, inhibitor_unit: i_symbol, plots: vec![plot], caution: CAUTION.to_string() })
+    let replicates = summarise(&used.iter().map(|p| (p.i, p.y)).collect::<Vec<_>>());
+    Ok(DoseAnalysis { fit: summary, points, problems, notes, inhibitor_unit: i_symbol, replicates, plots: vec![plot], caution: CAUTION.to_string() })
 }
 
 /// Checks the numbers of a conversion request and reads its mechanism.
@@ -529,5 +564,61 @@ mod tests {
         assert!(!is_dose_table("[S] (mM)\tv\n1\t2\n"));
         let e = analyse_dose(&DoseRequest { text: "[S]\tv\n1\t2\n2\t3\n".into(), model: "ic50".into(), ..Default::default() }).unwrap_err();
         assert!(e.message.contains("names an [S] column"), "{}", e.message);
+    }
+
+    /// An inhibitor series with replicate responses in columns (invented
+    /// data, stated as such) against the same responses one per line in
+    /// the same order: identical constants to 1e-12 for both models, and
+    /// the per-[I] summary.
+    #[test]
+    fn replicate_columns_read_as_the_long_layout() {
+        let rows = [
+            ("0", ["98.1", "101.5", "99.2"]),
+            ("1", ["93.0", "95.8", "91.7"]),
+            ("3", ["80.2", "77.9", "82.4"]),
+            ("10", ["52.3", "49.0", "54.1"]),
+            ("30", ["24.8", "27.1", "22.9"]),
+            ("100", ["9.6", "8.1", "10.4"]),
+            ("300", ["3.9", "2.7", "4.2"]),
+        ];
+        let mut long = String::from("[I] (nM)\t% activity\n");
+        let mut wide = String::from("[I] (nM)\trep 1\trep 2\trep 3\n");
+        let mut repeated = String::from("Inhibitor (nM),response,response,response\n");
+        for (i, ys) in rows {
+            for y in ys {
+                long.push_str(&format!("{i}\t{y}\n"));
+            }
+            wide.push_str(&format!("{i}\t{}\n", ys.join("\t")));
+            repeated.push_str(&format!("{i},{}\n", ys.join(",")));
+        }
+        assert!(is_dose_table(&wide) && is_dose_table(&repeated));
+        assert!(!is_dose_table("conc (µM)\trep 1\trep 2\n1\t2\t3\n") && !is_dose_table("1\t2\t3\n2\t3\t4\n"));
+        for (model, enzyme) in [("ic50", None), ("morrison", Some(2.0))] {
+            let reference = analyse_dose(&DoseRequest { text: long.clone(), model: model.into(), enzyme, ..Default::default() }).unwrap();
+            assert_eq!(reference.fit.n, 21);
+            for text in [&wide, &repeated] {
+                let result = analyse_dose(&DoseRequest { text: text.clone(), model: model.into(), enzyme, ..Default::default() }).unwrap();
+                assert!(result.problems.is_empty(), "{:?}", result.problems);
+                assert_eq!(result.fit.n, 21);
+                for (a, b) in result.fit.parameters.iter().zip(&reference.fit.parameters) {
+                    assert!((a.value - b.value).abs() <= 1e-12 * b.value.abs(), "{model} {}: {} {}", a.name, a.value, b.value);
+                    let (sa, sb) = (a.std_error.unwrap(), b.std_error.unwrap());
+                    assert!((sa - sb).abs() <= 1e-12 * sb, "{model} {} SE: {sa} {sb}", a.name);
+                }
+                assert_eq!(result.replicates, reference.replicates);
+                assert_eq!(result.inhibitor_unit.as_deref(), Some("nM"));
+            }
+        }
+        let reference = analyse_dose(&DoseRequest { text: long, model: "ic50".into(), ..Default::default() }).unwrap();
+        let at_ten = &reference.replicates[3];
+        assert_eq!((at_ten.concentration, at_ten.count), (10.0, 3));
+        assert!((at_ten.mean - (52.3 + 49.0 + 54.1) / 3.0).abs() < 1e-12);
+        let mut request = DoseRequest { text: wide, model: "ic50".into(), excluded_cells: vec![(5, 3)], ..Default::default() };
+        let fewer = analyse_dose(&request).unwrap();
+        assert_eq!(fewer.fit.n, 20);
+        assert!(fewer.points.iter().filter(|p| p.excluded).map(|p| (p.line, p.column, p.y)).eq([(5, 3, 49.0)]));
+        request.excluded_cells.clear();
+        request.excluded_lines = vec![5];
+        assert_eq!(analyse_dose(&request).unwrap().fit.n, 18);
     }
 }

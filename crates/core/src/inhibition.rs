@@ -22,7 +22,9 @@ use crate::model::{Dimension, Model, Observations};
 use crate::models::{Inhibition, Mechanism, MichaelisMenten};
 use crate::plots::family::{inhibition_plots, short_number, FamilyPoint, FamilyUnits, GlobalFit};
 use crate::plots::PlotData;
-use crate::rates::{is_rate_name, is_substrate_name, normalise_name, CAUTION};
+use crate::read::replicates::{common_unit, problems_without_empty_replicates, replicate_label, summarise, MeasurementColumns, ReplicateSummary};
+use crate::rates::CAUTION;
+use crate::read::columns::{is_inhibitor_name, is_rate_name, is_substrate_name, normalise_name};
 use crate::table::{parse_table, shortage_reasons, ColumnHeading, InputProblem, Table};
 use crate::units::{ConcentrationUnit, RateUnit};
 use serde::{Deserialize, Serialize};
@@ -90,6 +92,15 @@ pub struct InhibitionPoint {
     pub fitted: f64,
 }
 
+/// The replicates at one inhibitor concentration, by [S].
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct InhibitorReplicates {
+    /// The inhibitor concentration.
+    pub inhibitor: f64,
+    /// One summary per [S] (its `concentration` is [S]).
+    pub by_substrate: Vec<ReplicateSummary>,
+}
+
 /// Units used, as symbols.
 #[derive(Clone, Debug, Default, PartialEq, Serialize)]
 pub struct InhibitionUnits {
@@ -115,6 +126,9 @@ pub struct InhibitionAnalysis {
     pub shown: String,
     /// The distinct inhibitor concentrations.
     pub inhibitor_levels: Vec<f64>,
+    /// The rates used in the fits, by [I] and then [S]: count, mean, SD
+    /// and SEM (for a table and error bars; the fits use every rate).
+    pub replicates: Vec<InhibitorReplicates>,
     /// Every measurement.
     pub points: Vec<InhibitionPoint>,
     /// Problems with the input.
@@ -136,10 +150,6 @@ pub struct InhibitionAnalysis {
 fn capitalise(text: &str) -> String {
     let mut chars = text.chars();
     chars.next().map(|c| c.to_uppercase().chain(chars).collect()).unwrap_or_default()
-}
-
-pub(crate) fn is_inhibitor_name(name: &str) -> bool {
-    matches!(normalise_name(name).as_str(), "i" | "i0" | "inhibitor" | "inh" | "inhibitorconcentration")
 }
 
 /// Reads `5 µM`, `5µM`, `5`, `[I] = 5 µM` or `5 (µM)` as a concentration
@@ -164,7 +174,9 @@ fn heading_concentration(heading: &ColumnHeading) -> Option<(f64, Option<String>
 }
 
 enum Layout {
-    Long { s: usize, i: usize, v: usize },
+    /// `v` holds one column, or several with replicates in columns; `unit`
+    /// is the rate unit their headings give.
+    Long { s: usize, i: usize, v: Vec<usize>, unit: Option<String> },
     Matrix { levels: Vec<(usize, f64)>, unit: Option<ConcentrationUnit> },
 }
 
@@ -173,17 +185,27 @@ fn find_layout(table: &Table, notes: &mut Vec<String>) -> Result<Option<Layout>,
     if let Some(i) = headings.iter().position(|h| is_inhibitor_name(&h.name)) {
         let s = headings.iter().position(|h| is_substrate_name(&h.name));
         let v = headings.iter().position(|h| is_rate_name(&h.name));
+        // Replicate rates in columns: every other column a replicate
+        // heading (`v1`, `rep 2`), or the rate heading repeated.
+        let others: Vec<usize> = (0..headings.len()).filter(|k| Some(*k) != s && *k != i).collect();
+        let labelled = others.len() >= 2 && others.iter().all(|&k| replicate_label(&headings[k].name, &is_rate_name).is_some());
+        let v = match v {
+            _ if labelled => Some(others),
+            Some(v) => Some(others.into_iter().filter(|&k| normalise_name(&headings[k].name) == normalise_name(&headings[v].name)).collect()),
+            None => None,
+        };
         let (Some(s), Some(v)) = (s, v) else {
             return Err(Error::invalid_data(
-                "the header names an inhibitor column but not both [S] (S, [S], substrate) and v (v, rate, velocity)",
+                "the header names an inhibitor column but not both [S] (S, [S], substrate) and v (v, rate, velocity, or replicate columns such as rep 1, rep 2)",
             ));
         };
         for (index, heading) in headings.iter().enumerate() {
-            if ![s, i, v].contains(&index) {
+            if index != s && index != i && !v.contains(&index) {
                 notes.push(format!("Column {} ('{}') is not used.", index + 1, heading.name));
             }
         }
-        return Ok(Some(Layout::Long { s, i, v }));
+        let unit = common_unit(headings, &v).map_err(Error::invalid_data)?;
+        return Ok(Some(Layout::Long { s, i, v, unit }));
     }
     if headings.len() < 3 {
         return Ok(None);
@@ -275,11 +297,22 @@ fn read(text: &str, excluded_lines: &[usize], excluded_cells: &[(usize, usize)])
         points.push(InhibitionPoint { row: points.len(), line, column, s, i, v, excluded: excluded_lines.contains(&line) || excluded_cells.contains(&(line, column)), fitted: f64::NAN });
     };
     match &layout {
-        Layout::Long { s, i, v } => {
-            problems = table.problems.clone();
+        Layout::Long { s, i, v, unit } => {
+            let columns = MeasurementColumns { concentration: *s, measurements: v.clone(), unit: unit.clone() };
+            let (kept, empty) = problems_without_empty_replicates(&table, &columns);
+            problems = kept;
+            if columns.replicated() {
+                notes.push(format!(
+                    "Replicates in columns: columns {} hold {} replicate rates at each [S] and [I]; every replicate is fitted, not their mean.{}",
+                    v.iter().map(|c| (c + 1).to_string()).collect::<Vec<_>>().join(", "),
+                    v.len(),
+                    if empty > 0 { format!(" {empty} empty replicate cell(s) are read as measurements not made.") } else { String::new() }
+                ));
+            }
             for row in &table.rows {
                 let cell = |c: usize| row.cells.get(c).copied().flatten();
-                let (Some(sv), Some(iv), Some(vv)) = (cell(*s), cell(*i), cell(*v)) else {
+                let rates: Vec<(usize, f64)> = v.iter().filter_map(|&c| cell(c).map(|x| (c, x))).collect();
+                let (Some(sv), Some(iv), false) = (cell(*s), cell(*i), rates.is_empty()) else {
                     if !problems.iter().any(|p| p.line == row.line) {
                         problems.push(InputProblem { line: row.line, column: None, message: "the row has no [S], [I] or v value".into() });
                     }
@@ -290,7 +323,9 @@ fn read(text: &str, excluded_lines: &[usize], excluded_cells: &[(usize, usize)])
                     problems.push(InputProblem { line: row.line, column: Some(column), message: "a concentration cannot be negative".into() });
                     continue;
                 }
-                push(row.line, v + 1, sv, iv, vv);
+                for (column, vv) in rates {
+                    push(row.line, column + 1, sv, iv, vv);
+                }
             }
         }
         Layout::Matrix { levels, .. } => {
@@ -326,11 +361,11 @@ fn read(text: &str, excluded_lines: &[usize], excluded_cells: &[(usize, usize)])
     }
     problems.sort_by_key(|p| (p.line, p.column));
     let (units, layout_kind) = match &layout {
-        Layout::Long { s, i, v } => (
+        Layout::Long { s, i, unit, .. } => (
             (
                 unit_from(headings.get(*s), ConcentrationUnit::parse, "[S]", &mut notes),
                 unit_from(headings.get(*i), ConcentrationUnit::parse, "[I]", &mut notes),
-                unit_from(headings.get(*v), RateUnit::parse, "v", &mut notes),
+                unit_from(unit.as_ref().map(|u| ColumnHeading { name: "v".into(), unit: Some(u.clone()) }).as_ref(), RateUnit::parse, "v", &mut notes),
             ),
             TableLayout::Long,
         ),
@@ -591,6 +626,14 @@ pub fn analyse_inhibition(request: &InhibitionRequest) -> Result<InhibitionAnaly
         fits,
         comparison,
         shown,
+        replicates: inhibitor_levels
+            .iter()
+            .map(|&level| InhibitorReplicates {
+                inhibitor: level,
+                by_substrate: summarise(&used.iter().filter(|p| p.i == level).map(|p| (p.s, p.v)).collect::<Vec<_>>()),
+            })
+            .filter(|r| !r.by_substrate.is_empty())
+            .collect(),
         inhibitor_levels,
         points,
         problems,
@@ -661,5 +704,60 @@ mod tests {
         assert_eq!(out, [(3, 3)]);
         let line = read(MATRIX, &[3], &[]).unwrap();
         assert_eq!(line.points.iter().filter(|p| p.excluded).count(), 3, "three [I] columns");
+    }
+
+    /// Replicate rates in columns, in the long layout (`rep 1`, `rep 2`)
+    /// and in the matrix (each [I] heading repeated), against the same
+    /// rates one per line in the same order (invented data, stated as
+    /// such): every mechanism's constants and SEs agree to 1e-12.
+    #[test]
+    fn replicate_columns_read_as_the_long_layout() {
+        let levels = ["0", "5", "10"];
+        let rows: [(&str, [[&str; 2]; 3]); 4] = [
+            ("0.2", [["2.9", "3.0"], ["1.6", "1.7"], ["1.2", "1.1"]]),
+            ("0.5", [["5.1", "4.9"], ["3.3", "3.2"], ["2.4", "2.5"]]),
+            ("1", [["6.6", "6.8"], ["4.9", "4.7"], ["3.9", "3.8"]]),
+            ("3", [["8.6", "8.4"], ["7.4", "7.6"], ["6.5", "6.3"]]),
+        ];
+        let mut long_by_level = String::from("[S] (mM)\t[I] (µM)\tv (µM/min)\n");
+        let mut wide = String::from("[S] (mM)\t[I] (µM)\tv rep 1 (µM/min)\tv rep 2\n");
+        let mut long_by_row = long_by_level.clone();
+        let mut matrix = String::from("[S] (mM)\t0\t0\t5 µM\t5 µM\t10 µM\t10 µM\n");
+        for (k, level) in levels.iter().enumerate() {
+            for (s, rates) in &rows {
+                for v in rates[k] {
+                    long_by_level.push_str(&format!("{s}\t{level}\t{v}\n"));
+                }
+                wide.push_str(&format!("{s}\t{level}\t{}\t{}\n", rates[k][0], rates[k][1]));
+            }
+        }
+        for (s, rates) in &rows {
+            matrix.push_str(s);
+            for (k, level) in levels.iter().enumerate() {
+                for v in rates[k] {
+                    long_by_row.push_str(&format!("{s}\t{level}\t{v}\n"));
+                    matrix.push_str(&format!("\t{v}"));
+                }
+            }
+            matrix.push('\n');
+        }
+        for (replicated, long) in [(&wide, &long_by_level), (&matrix, &long_by_row)] {
+            let request = |text: &str| InhibitionRequest { text: text.into(), rate_unit: Some("µM/min".into()), ..Default::default() };
+            let reference = analyse_inhibition(&request(long)).unwrap();
+            let result = analyse_inhibition(&request(replicated)).unwrap();
+            assert!(result.problems.is_empty(), "{:?}", result.problems);
+            assert_eq!(result.points.len(), 24);
+            for (a, b) in result.fits.iter().zip(&reference.fits) {
+                for (pa, pb) in a.parameters.iter().zip(&b.parameters) {
+                    assert!((pa.value - pb.value).abs() <= 1e-12 * pb.value.abs(), "{} {}: {} {}", a.model, pa.name, pa.value, pb.value);
+                    if let (Some(sa), Some(sb)) = (pa.std_error, pb.std_error) {
+                        assert!((sa - sb).abs() <= 1e-12 * sb, "{} {} SE: {sa} {sb}", a.model, pa.name);
+                    }
+                }
+            }
+            assert_eq!(result.replicates, reference.replicates);
+            assert_eq!(result.replicates.len(), 3);
+            assert!(result.replicates.iter().all(|r| r.by_substrate.len() == 4 && r.by_substrate.iter().all(|g| g.count == 2)));
+        }
     }
 }

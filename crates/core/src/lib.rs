@@ -78,6 +78,7 @@ pub mod plots;
 pub mod progress;
 pub mod random;
 pub mod rates;
+pub mod read;
 pub mod robust;
 pub mod solver;
 pub mod table;

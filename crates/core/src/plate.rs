@@ -23,8 +23,8 @@
 //! was, so the batch fit reports problems at the original lines.
 
 use crate::error::Error;
-use crate::inhibition::is_inhibitor_name;
-use crate::rates::normalise_name;
+use crate::read::columns::is_inhibitor_name;
+use crate::read::columns::normalise_name;
 use crate::table::{detect_separator, is_comment_line, parse_heading, parse_table, split_line, Separator};
 use serde::Serialize;
 

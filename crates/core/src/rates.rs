@@ -11,10 +11,12 @@ use crate::intervals::{apply_interval_method, apply_profile_intervals, bootstrap
 use crate::model::{Dimension, Model, Observations};
 use crate::models::{model_by_name, MichaelisMentenSpecificity};
 use crate::plots::{diagnostic_plots, rate_plots, AxisUnits, PlotData, RatePoint};
+use crate::read::replicates::{layout_note, problems_without_empty_replicates, replicate_columns, summarise, ReplicateSummary};
+use crate::read::columns::{is_rate_name, is_sd_name, is_substrate_name};
 use crate::robust::{direct_linear, DirectLinearEstimate};
 use crate::solver::Termination;
 use crate::table::{parse_table, shortage_reasons, ColumnHeading, InputProblem, Table};
-use crate::units::{kcat_per_second, ConcentrationUnit, RateUnit};
+use crate::units::{kcat_per_second, ConcentrationUnit, RateUnit, TimeUnit};
 use crate::weighting::Weighting;
 use nalgebra::DMatrix;
 use serde::{Deserialize, Serialize};
@@ -43,6 +45,17 @@ pub struct RateRequest {
     pub interval_method: IntervalMethod,
     /// Bootstrap settings, used when `interval_method` is bootstrap.
     pub bootstrap: BootstrapSettings,
+    /// Single rates to leave out, as (input line, input column), both
+    /// 1-based: with replicates in columns a line holds several rates, so
+    /// one point is a cell. `excluded_lines` leaves out every rate on a
+    /// line.
+    pub excluded_cells: Vec<(usize, usize)>,
+    /// The time unit to report rates in: `s`, `min` or `h` (per second,
+    /// minute or hour). `None` or empty keeps the unit of v. The rates (and
+    /// an sd column) are converted before the fit, so Vmax, the points and
+    /// the plots are all in the chosen unit; a note states the factor.
+    /// Needs the unit of v.
+    pub rate_time: Option<String>,
 }
 
 /// One data point as the analysis saw it.
@@ -52,6 +65,9 @@ pub struct PointRecord {
     pub row: usize,
     /// Input line number, counting from 1.
     pub line: usize,
+    /// Input column of the rate, counting from 1 (with replicates in
+    /// columns, which replicate this is).
+    pub column: usize,
     /// Substrate concentration.
     pub s: f64,
     /// Measured rate.
@@ -118,6 +134,9 @@ pub struct RateAnalysis {
     pub units: UnitsUsed,
     /// Residual diagnostics (runs test, lack of fit, leverage).
     pub diagnostics: ResidualDiagnostics,
+    /// The rates used in the fit, by [S]: count, mean, SD and SEM (for a
+    /// table and error bars; the fit itself uses every rate).
+    pub replicates: Vec<ReplicateSummary>,
     /// The direct linear plot's median estimates, an independent check.
     pub direct_linear: DirectLinearEstimate,
     /// The check of the error structure (constant, Poisson-like or
@@ -141,68 +160,53 @@ pub const CAUTION: &str = "These constants are statistical estimates from one da
 /// Column roles found from the header.
 struct Roles {
     substrate: usize,
-    rate: usize,
+    /// One column in the long layout; two or more with replicates in
+    /// columns.
+    rates: Vec<usize>,
+    /// The heading the rate unit is read from.
+    rate_heading: Option<ColumnHeading>,
     sd: Option<usize>,
 }
 
-pub(crate) fn normalise_name(name: &str) -> String {
-    name.chars()
-        .filter(|c| !matches!(c, '[' | ']' | ' ' | '_' | '-' | '.'))
-        .flat_map(char::to_lowercase)
-        .collect()
-}
-
-pub(crate) fn is_substrate_name(name: &str) -> bool {
-    matches!(normalise_name(name).as_str(), "s" | "s0" | "substrate" | "conc" | "concentration" | "substrateconcentration")
-}
-
-pub(crate) fn is_rate_name(name: &str) -> bool {
-    matches!(
-        normalise_name(name).as_str(),
-        "v" | "v0" | "vi" | "rate" | "velocity" | "initialrate" | "initialvelocity"
-    )
-}
-
-fn is_sd_name(name: &str) -> bool {
-    matches!(normalise_name(name).as_str(), "sd" | "sigma" | "stdev" | "stddev" | "error" | "sdv" | "standarddeviation")
-}
-
-fn find_roles(table: &Table, notes: &mut Vec<String>) -> Result<Roles, Error> {
+fn find_roles(table: &Table, notes: &mut Vec<String>) -> Result<(Roles, Vec<InputProblem>), Error> {
+    if let Some(columns) = replicate_columns(table, &is_substrate_name, &is_rate_name).map_err(Error::invalid_data)? {
+        let (problems, empty) = problems_without_empty_replicates(table, &columns);
+        notes.push(layout_note(&columns, table.headings.as_deref(), "v", empty));
+        let rate_heading = columns.unit.clone().map(|unit| ColumnHeading { name: "v".to_string(), unit: Some(unit) });
+        return Ok((Roles { substrate: columns.concentration, rates: columns.measurements, rate_heading, sd: None }, problems));
+    }
     let Some(headings) = &table.headings else {
         if table.width < 2 {
             return Err(Error::invalid_data("the table needs two columns: [S] then v"));
         }
         notes.push("No header row: column 1 is read as [S] and column 2 as v.".to_string());
-        if table.width > 2 {
-            notes.push(format!("Columns 3 to {} are not used.", table.width));
-        }
-        return Ok(Roles { substrate: 0, rate: 1, sd: None });
+        return Ok((Roles { substrate: 0, rates: vec![1], rate_heading: None, sd: None }, table.problems.clone()));
     };
     let sd = headings.iter().position(|h| is_sd_name(&h.name));
     let substrate = headings.iter().position(|h| is_substrate_name(&h.name));
     let rate = headings.iter().position(|h| is_rate_name(&h.name));
     let roles = match (substrate, rate) {
-        (Some(s), Some(v)) => Roles { substrate: s, rate: v, sd },
+        (Some(s), Some(v)) => Roles { substrate: s, rates: vec![v], rate_heading: Some(headings[v].clone()), sd },
         _ if headings.len() == 2 => {
             notes.push(format!(
                 "The header names '{}' and '{}' are not ones Turnover knows; column 1 is read as [S] and column 2 as v.",
                 headings[0].name, headings[1].name
             ));
-            Roles { substrate: 0, rate: 1, sd: None }
+            Roles { substrate: 0, rates: vec![1], rate_heading: Some(headings[1].clone()), sd: None }
         }
         _ => {
             return Err(Error::invalid_data(format!(
-                "cannot tell which columns hold [S] and v from the header ({}); name them S, [S] or substrate, and v, rate or velocity",
+                "cannot tell which columns hold [S] and v from the header ({}); name them S, [S] or substrate, and v, rate or velocity; replicate rates may follow [S] in columns headed rep 1, rep 2 (or v1, v2, or the same rate heading repeated)",
                 headings.iter().map(|h| format!("'{}'", h.name)).collect::<Vec<_>>().join(", ")
             )))
         }
     };
     for (index, heading) in headings.iter().enumerate() {
-        if index != roles.substrate && index != roles.rate && Some(index) != roles.sd {
+        if index != roles.substrate && !roles.rates.contains(&index) && Some(index) != roles.sd {
             notes.push(format!("Column {} ('{}') is not used.", index + 1, heading.name));
         }
     }
-    Ok(roles)
+    Ok((roles, table.problems.clone()))
 }
 
 fn choose_unit<T>(
@@ -254,7 +258,7 @@ fn analyse_rates_with(request: &RateRequest, fixed_weights: Option<&[f64]>) -> R
             "no data rows found; paste a table with [S] in the first column and v in the second",
         ));
     }
-    let roles = find_roles(&table, &mut notes)?;
+    let (roles, mut problems) = find_roles(&table, &mut notes)?;
     if request.weighting == Weighting::Sd && roles.sd.is_none() {
         return Err(Error::invalid_option(
             "weighting by sd needs a column of standard deviations headed sd (or sigma, stdev)",
@@ -266,12 +270,40 @@ fn analyse_rates_with(request: &RateRequest, fixed_weights: Option<&[f64]>) -> R
     let heading = |i: usize| table.headings.as_ref().and_then(|h| h.get(i));
     let substrate_unit =
         choose_unit(&request.substrate_unit, heading(roles.substrate), ConcentrationUnit::parse, "[S]", &mut notes)?;
-    let rate_unit = choose_unit(&request.rate_unit, heading(roles.rate), RateUnit::parse, "v", &mut notes)?;
+    let rate_unit = choose_unit(&request.rate_unit, roles.rate_heading.as_ref(), RateUnit::parse, "v", &mut notes)?;
+    // Rates per the chosen time unit: v in c/T_old is v·(T_new/T_old) in
+    // c/T_new.
+    let (rate_unit, time_factor) = match request.rate_time.as_deref().map(str::trim).filter(|t| !t.is_empty()) {
+        None => (rate_unit, 1.0),
+        Some(text) => {
+            let time = TimeUnit::parse(text).map_err(Error::invalid_option)?;
+            let Some(unit) = rate_unit else {
+                return Err(Error::invalid_option(format!(
+                    "rates per {} need the unit of v (a concentration per time); choose it or write it in the header",
+                    time.symbol()
+                )));
+            };
+            let factor = time.in_seconds() / unit.time.in_seconds();
+            let converted = RateUnit { concentration: unit.concentration, time };
+            if factor != 1.0 {
+                notes.push(format!(
+                    "Rates are reported per {}: v in {} × {} = v in {} (the rates and any sd column were converted before the fit).",
+                    time.symbol(),
+                    unit.symbol(),
+                    factor,
+                    converted.symbol()
+                ));
+            }
+            (Some(converted), factor)
+        }
+    };
 
-    let mut problems = table.problems.clone();
     let mut points = Vec::new();
     for row in &table.rows {
-        let (Some(Some(s)), Some(Some(v))) = (row.cells.get(roles.substrate), row.cells.get(roles.rate)) else {
+        let s = row.cells.get(roles.substrate).copied().flatten();
+        let rates: Vec<(usize, f64)> =
+            roles.rates.iter().filter_map(|&c| row.cells.get(c).copied().flatten().map(|v| (c, v))).collect();
+        let (Some(s), false) = (s, rates.is_empty()) else {
             if !problems.iter().any(|p| p.line == row.line) {
                 problems.push(InputProblem {
                     line: row.line,
@@ -281,7 +313,7 @@ fn analyse_rates_with(request: &RateRequest, fixed_weights: Option<&[f64]>) -> R
             }
             continue;
         };
-        if *s < 0.0 {
+        if s < 0.0 {
             problems.push(InputProblem {
                 line: row.line,
                 column: Some(roles.substrate + 1),
@@ -289,35 +321,35 @@ fn analyse_rates_with(request: &RateRequest, fixed_weights: Option<&[f64]>) -> R
             });
             continue;
         }
-        let sd = roles.sd.and_then(|c| row.cells.get(c).copied().flatten());
-        let weight = match request.weighting.weight(*v, sd) {
-            Ok(w) => w,
-            Err(message) => {
-                let column = if request.weighting == Weighting::Sd { roles.sd } else { Some(roles.rate) };
-                problems.push(InputProblem { line: row.line, column: column.map(|c| c + 1), message });
-                continue;
-            }
-        };
-        let excluded = request.excluded_lines.contains(&row.line);
-        points.push(PointRecord {
-            row: points.len(),
-            line: row.line,
-            s: *s,
-            v: *v,
-            excluded,
-            fitted: f64::NAN,
-            residual: f64::NAN,
-            sd,
-            weight: if excluded { 0.0 } else { weight },
-            leverage: None,
-            studentised: None,
-            flagged: false,
-        });
-        if excluded {
-            // Keep the weight the point would have, for the residual plot.
-            if let Some(last) = points.last_mut() {
-                last.weight = weight;
-            }
+        let sd = roles.sd.and_then(|c| row.cells.get(c).copied().flatten()).map(|sd| sd * time_factor);
+        for (column, v) in rates {
+            let v = v * time_factor;
+            let weight = match request.weighting.weight(v, sd) {
+                Ok(w) => w,
+                Err(message) => {
+                    let column = if request.weighting == Weighting::Sd { roles.sd } else { Some(column) };
+                    problems.push(InputProblem { line: row.line, column: column.map(|c| c + 1), message });
+                    continue;
+                }
+            };
+            let excluded = request.excluded_lines.contains(&row.line) || request.excluded_cells.contains(&(row.line, column + 1));
+            // An excluded point keeps the weight it would have, for the
+            // residual plot.
+            points.push(PointRecord {
+                row: points.len(),
+                line: row.line,
+                column: column + 1,
+                s,
+                v,
+                excluded,
+                fitted: f64::NAN,
+                residual: f64::NAN,
+                sd,
+                weight,
+                leverage: None,
+                studentised: None,
+                flagged: false,
+            });
         }
     }
     problems.sort_by_key(|p| (p.line, p.column));
@@ -521,6 +553,7 @@ fn analyse_rates_with(request: &RateRequest, fixed_weights: Option<&[f64]>) -> R
             enzyme: enzyme_symbol,
         },
         diagnostics,
+        replicates: summarise(&used.iter().map(|p| (p.s, p.v)).collect::<Vec<_>>()),
         direct_linear: robust,
         error_structure,
         bootstrap: bootstrap_report,
@@ -899,5 +932,109 @@ mod tests {
         }
         assert_ne!(a.fit.parameters[0].value, c.fit.parameters[0].value);
         assert_eq!(a.fit.weighting, "relative_measured");
+    }
+
+    /// Replicates in columns (invented data, stated as such) and the same
+    /// rates written one per line in the same order: the fit, the
+    /// lack-of-fit test and the per-[S] summary must agree to 1e-12.
+    #[test]
+    fn replicate_columns_read_as_the_long_layout() {
+        let wide = [
+            "Substrate (µM)\trate rep 1 (µM/min)\trep 2\trep 3\n1\t0.98\t1.04\t0.95\n2\t1.70\t1.62\t1.66\n5\t2.80\t2.93\t2.86\n10\t3.31\t3.40\t3.22\n20\t3.70\t3.58\t3.66\n50\t3.83\t3.90\t3.81\n",
+            "[S] (µM)\tv1 (µM/min)\tv2 (µM/min)\tv3\n1\t0.98\t1.04\t0.95\n2\t1.70\t1.62\t1.66\n5\t2.80\t2.93\t2.86\n10\t3.31\t3.40\t3.22\n20\t3.70\t3.58\t3.66\n50\t3.83\t3.90\t3.81\n",
+            "S (µM),replicate A (µM/min),replicate B,replicate C\n1,0.98,1.04,0.95\n2,1.70,1.62,1.66\n5,2.80,2.93,2.86\n10,3.31,3.40,3.22\n20,3.70,3.58,3.66\n50,3.83,3.90,3.81\n",
+        ];
+        let mut long = String::from("S (µM)\tv (µM/min)\n");
+        for row in ["1\t0.98\t1.04\t0.95", "2\t1.70\t1.62\t1.66", "5\t2.80\t2.93\t2.86", "10\t3.31\t3.40\t3.22", "20\t3.70\t3.58\t3.66", "50\t3.83\t3.90\t3.81"] {
+            let cells: Vec<&str> = row.split('\t').collect();
+            for v in &cells[1..] {
+                long.push_str(&format!("{}\t{v}\n", cells[0]));
+            }
+        }
+        let mut req = request(&long);
+        req.enzyme = Some(10.0);
+        req.enzyme_unit = Some("nM".into());
+        let reference = analyse_rates(&req).unwrap();
+        assert_eq!(reference.fit.n, 18);
+        let lof = reference.diagnostics.lack_of_fit.as_ref().expect("replicates give a lack-of-fit test");
+        for text in wide {
+            req.text = text.to_string();
+            let result = analyse_rates(&req).unwrap();
+            assert!(result.problems.is_empty(), "{text}: {:?}", result.problems);
+            assert_eq!(result.units.rate.as_deref(), Some("µM/min"), "{text}");
+            assert_eq!(result.fit.n, 18, "{text}");
+            for (a, b) in result.fit.parameters.iter().zip(&reference.fit.parameters) {
+                assert_eq!(a.name, b.name);
+                assert!((a.value - b.value).abs() <= 1e-12 * b.value.abs(), "{text}: {} {} {}", a.name, a.value, b.value);
+                let (sa, sb) = (a.std_error.unwrap(), b.std_error.unwrap());
+                assert!((sa - sb).abs() <= 1e-12 * sb, "{text}: {} SE {sa} {sb}", a.name);
+            }
+            let other = result.diagnostics.lack_of_fit.as_ref().expect("lack of fit from replicate columns");
+            assert_eq!((other.lack_of_fit_dof, lof.lack_of_fit_dof), (4, 4));
+            assert!((other.lack_of_fit_ss - lof.lack_of_fit_ss).abs() <= 1e-12 * lof.lack_of_fit_ss.max(1e-300));
+            assert_eq!(result.replicates, reference.replicates);
+            assert!(result.notes.iter().any(|n| n.starts_with("Replicates in columns: column 1 is the concentration; columns 2 to 4 are 3 replicate(s)")), "{:?}", result.notes);
+        }
+        // Mean, SD and SEM of the first [S], worked by hand.
+        let first = &reference.replicates[0];
+        let mean = (0.98 + 1.04 + 0.95) / 3.0;
+        let sd = (((0.98f64 - mean).powi(2) + (1.04f64 - mean).powi(2) + (0.95f64 - mean).powi(2)) / 2.0).sqrt();
+        assert_eq!((first.concentration, first.count), (1.0, 3));
+        assert!((first.mean - mean).abs() < 1e-15 && (first.sd.unwrap() - sd).abs() < 1e-15);
+        assert!((first.sem.unwrap() - sd / 3f64.sqrt()).abs() < 1e-15);
+    }
+
+    /// An empty replicate cell is a measurement not made (counted in a
+    /// note); one cell can be left out on its own; unlabelled numbers are
+    /// replicates; a bad cell is still a problem at its line and column.
+    #[test]
+    fn replicate_cells() {
+        let text = "S\tv\tv\tv\n1\t0.98\t\t0.95\n2\t1.70\t1.62\t1.66\n5\t2.80\tabc\t2.86\n10\t3.31\t3.40\n20\t3.70\t3.58\t3.66\n";
+        let result = analyse_rates(&request(text)).unwrap();
+        assert_eq!(result.fit.n, 12);
+        assert_eq!(result.problems.iter().map(ToString::to_string).collect::<Vec<_>>(), ["line 4, column 3: expected a number, found 'abc'"]);
+        assert!(result.notes.iter().any(|n| n.contains("2 empty replicate cell(s) are read as measurements not made")), "{:?}", result.notes);
+        let mut req = request(text);
+        req.excluded_cells = vec![(3, 3)];
+        let fewer = analyse_rates(&req).unwrap();
+        assert_eq!(fewer.fit.n, 11);
+        assert!(fewer.points.iter().filter(|p| p.excluded).map(|p| (p.line, p.column)).eq([(3, 3)]));
+        req.excluded_cells.clear();
+        req.excluded_lines = vec![3];
+        assert_eq!(analyse_rates(&req).unwrap().fit.n, 9);
+        let bare = analyse_rates(&request("1\t0.98\t0.95\n2\t1.70\t1.62\n5\t2.80\t2.86\n10\t3.31\t3.40\n")).unwrap();
+        assert_eq!(bare.fit.n, 8);
+        let error = analyse_rates(&request("S\tv1 (µM/s)\tv2 (µM/min)\n1\t2\t3\n")).unwrap_err();
+        assert!(error.message.contains("different units"), "{}", error.message);
+    }
+
+    /// Rates per second, minute or hour: Vmax and its SE scale by the
+    /// ratio of the time units (60 for min to s), Km and kcat do not
+    /// change; the note states the factor. Agreement to 1e-9 relative (the
+    /// solver works on numbers 60 times apart).
+    #[test]
+    fn rates_are_reported_per_the_chosen_time_unit() {
+        let text = "[S] (µM)\tv (µM/min)\n1\t0.99\n2\t1.66\n5\t2.86\n10\t3.33\n20\t3.64\n50\t3.85\n";
+        let mut req = request(text);
+        req.enzyme = Some(10.0);
+        req.enzyme_unit = Some("nM".into());
+        let per_min = analyse_rates(&req).unwrap();
+        for (time, factor) in [("s", 1.0 / 60.0), ("h", 60.0), ("min", 1.0)] {
+            req.rate_time = Some(time.into());
+            let other = analyse_rates(&req).unwrap();
+            assert_eq!(other.units.rate.as_deref(), Some(format!("µM/{time}").as_str()));
+            let close = |a: f64, b: f64| (a - b).abs() <= 1e-9 * b.abs();
+            let (a, b) = (&other.fit.parameters, &per_min.fit.parameters);
+            assert!(close(a[0].value, b[0].value * factor) && close(a[0].std_error.unwrap(), b[0].std_error.unwrap() * factor), "{time} Vmax");
+            for k in 1..4 {
+                assert!(close(a[k].value, b[k].value) && close(a[k].std_error.unwrap(), b[k].std_error.unwrap()), "{time} {}", a[k].name);
+            }
+            assert_eq!(other.notes.iter().any(|n| n.starts_with(&format!("Rates are reported per {time}: v in µM/min × "))), time != "min", "{:?}", other.notes);
+        }
+        let mut bare = request("S\tv\n1\t1\n2\t1.5\n4\t2\n8\t2.2\n");
+        bare.rate_time = Some("s".into());
+        assert!(analyse_rates(&bare).unwrap_err().message.contains("need the unit of v"));
+        bare.rate_time = Some("week".into());
+        assert!(analyse_rates(&bare).is_err());
     }
 }

@@ -40,6 +40,7 @@ use crate::table::{
     is_comment_line, looks_like_number, outside_quotes, parse_heading, read_number, split_line, ColumnHeading, InputProblem,
     NumberStyle, Separator, StyleVotes,
 };
+use crate::read::blocks::{describe, find_blocks, transposed, CellKinds, KineticBlock, Transposed};
 use std::borrow::Cow;
 use crate::units::{ConcentrationUnit, TimeUnit};
 use serde::{Deserialize, Serialize};
@@ -165,6 +166,10 @@ pub struct TraceRequest {
     /// 0.1 s per 100-point trace natively, so a plate reader's 384 wells
     /// take most of a minute; ask for it where it is shown or used.
     pub fit_v0: bool,
+    /// Which kinetic table of the text to read, counting from 1, when it
+    /// holds several (two wavelengths, two reads); `None` reads the first
+    /// and lists them all in [`TraceAnalysis::blocks`].
+    pub block: Option<usize>,
 }
 
 impl Default for TraceRequest {
@@ -182,6 +187,7 @@ impl Default for TraceRequest {
             windows: Vec::new(),
             excluded: Vec::new(),
             fit_v0: false,
+            block: None,
         }
     }
 }
@@ -238,7 +244,9 @@ pub struct StandardCurve {
 pub struct TraceResult {
     /// Name from the header (a well such as `B3`, or any label).
     pub name: String,
-    /// Column in the time-course table, counting from 1.
+    /// Column in the time-course table, counting from 1 (in a transposed
+    /// export, where the trace would stand with the times down the first
+    /// column: its row among the trace rows, plus one).
     pub column: usize,
     /// Role from the layout.
     pub role: Role,
@@ -354,6 +362,9 @@ pub struct RateLink {
 /// Everything [`analyse_traces`] found.
 #[derive(Clone, Debug, PartialEq, Serialize)]
 pub struct TraceAnalysis {
+    /// The kinetic tables found in the text (one for a plain table), to
+    /// choose from with [`TraceRequest::block`].
+    pub blocks: Vec<KineticBlock>,
     /// Time unit of the table.
     pub time_unit: String,
     /// Unit of the trace values after conversion (a concentration, or
@@ -504,11 +515,38 @@ struct RawTraces {
     lines: Vec<usize>,
     values: Vec<Vec<Option<f64>>>,
     cells: Vec<Vec<CellState>>,
+    blocks: Vec<KineticBlock>,
+    /// How a transposed export's cells map back to it.
+    transposed: Option<Transposed>,
+}
+
+impl RawTraces {
+    /// Where a cell of the table read stands in the text given.
+    fn place(&self, line: usize, column: usize) -> (usize, Option<usize>) {
+        match &self.transposed {
+            Some(t) => t.place(line, Some(column)),
+            None => (line, Some(column)),
+        }
+    }
+}
+
+/// `1–3, 9, 12–14` for the sorted `lines`.
+fn line_ranges(lines: &[usize]) -> String {
+    let mut parts: Vec<String> = Vec::new();
+    let mut start = 0;
+    for k in 1..=lines.len() {
+        if k == lines.len() || lines[k] != lines[k - 1] + 1 {
+            parts.push(if k - 1 == start { lines[start].to_string() } else { format!("{}–{}", lines[start], lines[k - 1]) });
+            start = k;
+        }
+    }
+    parts.join(", ")
 }
 
 fn read_traces(
     text: &str,
     time_unit_option: Option<&str>,
+    block: Option<usize>,
     problems: &mut Vec<InputProblem>,
     notes: &mut Vec<String>,
 ) -> Result<RawTraces, Error> {
@@ -526,30 +564,72 @@ fn read_traces(
     let owned = split_all(&lines, sep, problems);
     let split_lines = as_slices(&owned);
 
-    // The header is the first line whose first cell names time; failing
-    // that, the last non-numeric line before the first row of numbers.
-    let first_numeric = |cells: &[&str]| {
-        cells.len() >= 2 && (looks_like_number(cells[0]) || parse_clock(cells[0]).is_some())
-    };
-    let header_index = split_lines
-        .iter()
-        .position(|(_, c)| c.len() >= 2 && is_time_name(&parse_heading(c[0]).name))
-        .or_else(|| {
-            let data = split_lines.iter().position(|(_, c)| first_numeric(c))?;
-            data.checked_sub(1)
-        })
-        .ok_or_else(|| {
-            Error::invalid_data(
-                "no header found in the time-course table; the table needs a header line such as 'time (min)\\tA1\\tA2' above the numbers",
+    // The tables of the text (crate::read::blocks): run information above
+    // and between them is skipped; the chosen one is read.
+    let kinds = CellKinds { is_time_name: &|c: &str| is_time_name(&parse_heading(c).name), is_number: &looks_like_number, is_clock: &|c: &str| parse_clock(c).is_some() };
+    let (spans, rejected) = find_blocks(&split_lines, &kinds);
+    let blocks = describe(&split_lines, &spans);
+    if spans.is_empty() {
+        if let Some(turned) = transposed(&split_lines, &kinds) {
+            let mut inner = Vec::new();
+            let mut raw = read_traces(&turned.text, time_unit_option, block, &mut inner, notes)?;
+            problems.extend(inner.into_iter().map(|p| {
+                let (line, column) = turned.place(p.line, p.column);
+                InputProblem { line, column, message: p.message }
+            }));
+            notes.push(format!(
+                "The table is transposed: line {} holds the times and lines {}–{} one trace each; it was read with the times down the first column.",
+                turned.source_lines[0],
+                turned.source_lines[1],
+                turned.source_lines[turned.source_lines.len() - 1]
+            ));
+            raw.transposed = Some(turned);
+            return Ok(raw);
+        }
+        let tried = if rejected.is_empty() {
+            String::new()
+        } else {
+            format!(
+                " Lines tried as the header: {}.",
+                rejected.iter().map(|(line, reason)| format!("line {line} was not, because {reason}")).collect::<Vec<_>>().join("; ")
             )
-        })?;
-    if header_index > 0 {
+        };
+        return Err(Error::invalid_data(format!(
+            "no header found in the time-course table; the table needs a header line such as 'time (min)\\tA1\\tA2' above the numbers.{tried}"
+        )));
+    }
+    let chosen = match block {
+        Some(n) if n >= 1 && n <= spans.len() => n - 1,
+        Some(n) => {
+            return Err(Error::invalid_option(format!(
+                "block {n} was chosen, but the text holds {} kinetic table(s) (numbered from 1)",
+                spans.len()
+            )))
+        }
+        None => 0,
+    };
+    if spans.len() > 1 {
         notes.push(format!(
-            "Lines {}–{} above the header were read as metadata and not used.",
-            split_lines[0].0,
-            split_lines[header_index - 1].0
+            "The text holds {} kinetic tables: {}. Table {} is read; choose another by its number.",
+            spans.len(),
+            blocks
+                .iter()
+                .map(|b| format!("{} (lines {}–{}{})", b.number, b.header_line, b.last_line, b.title.as_ref().map_or(String::new(), |t| format!(", after '{t}'"))))
+                .collect::<Vec<_>>()
+                .join(", "),
+            chosen + 1
         ));
     }
+    let span = spans[chosen];
+    let header_index = span.header;
+    let skipped: Vec<usize> = split_lines.iter().enumerate().filter(|(i, _)| *i < span.header || *i >= span.end).map(|(_, (line, _))| *line).collect();
+    if !skipped.is_empty() {
+        notes.push(format!(
+            "Lines {} outside the table were read as metadata (run information) and not used.",
+            line_ranges(&skipped)
+        ));
+    }
+    let split_lines = &split_lines[..span.end];
     let (header_line, header_cells) = &split_lines[header_index];
     let merged;
     let header_cells = if sep == ' ' {
@@ -685,7 +765,7 @@ fn read_traces(
     if times.is_empty() {
         return Err(Error::invalid_data("the time-course table has a header but no rows of numbers"));
     }
-    Ok(RawTraces { time_unit, names: names.into_iter().map(|(n, c)| (n, c + 1)).collect(), times, lines: row_lines, values, cells })
+    Ok(RawTraces { time_unit, names: names.into_iter().map(|(n, c)| (n, c + 1)).collect(), times, lines: row_lines, values, cells, blocks, transposed: None })
 }
 
 /// One layout row.
@@ -706,29 +786,38 @@ struct Layout {
 }
 
 fn read_layout(text: &str, problems: &mut Vec<InputProblem>, notes: &mut Vec<String>) -> Result<Layout, Error> {
-    let lines: Vec<(usize, &str)> = text
-        .split('\n')
-        .enumerate()
-        .map(|(i, l)| (i + 1, l.strip_suffix('\r').unwrap_or(l)))
-        .filter(|(_, l)| !l.trim().is_empty() && !is_comment_line(l))
-        .collect();
-    let Some(&(header_line, _)) = lines.first() else {
-        return Err(Error::invalid_data("the layout table is empty; it needs a header such as 'trace\\tS (µM)\\trole'"));
-    };
-    let sep = detect_separator(&lines.iter().map(|(_, l)| *l).collect::<Vec<_>>());
-    let owned = split_all(&lines, sep, problems);
-    let headings: Vec<ColumnHeading> = owned[0].1.iter().map(|c| parse_heading(c)).collect();
+    // The list and the plate map are read to the same placed cells
+    // (crate::read::layout); every problem names the cell's own line and
+    // column.
+    let layout = crate::read::layout::read_layout_cells(text, problems)?;
+    if layout.plate_map {
+        notes.push(format!(
+            "The layout is a plate map: {} well(s) from the grids {}.",
+            layout.entries.len(),
+            layout.headings.iter().map(|h| format!("'{}'", h.name)).collect::<Vec<_>>().join(", ")
+        ));
+    }
+    let headings = &layout.headings;
     let find = |names: &[&str]| headings.iter().position(|h| names.contains(&normalise_name(&h.name).as_str()));
-    let trace_col = find(&["trace", "well", "name", "label", "column"]).ok_or_else(|| {
-        Error::invalid_data(format!("line {header_line}: the layout needs a 'trace' (or 'well') column naming each trace"))
-    })?;
     let s_col = find(&["s", "s0", "substrate"]);
     let i_col = find(&["i", "inhibitor"]);
     let e_col = find(&["e", "e0", "et", "enzyme"]);
     let role_col = find(&["role", "type", "kind"]);
     let blank_col = find(&["blank", "reference"]);
+    if layout.plate_map {
+        for (k, heading) in headings.iter().enumerate() {
+            if ![s_col, i_col, e_col, role_col, blank_col].contains(&Some(k)) {
+                notes.push(format!(
+                    "The plate map's grid '{}' (line {}) is not used by the time-course analysis; it reads S, I, E, role and blank.",
+                    heading.name, layout.heading_lines[k]
+                ));
+            }
+        }
+    }
     let s_unit = match s_col.and_then(|c| headings[c].unit.as_deref()) {
-        Some(u) => Some(ConcentrationUnit::parse(u).map_err(|m| Error::invalid_data(format!("line {header_line}: {m}")))?),
+        Some(u) => Some(
+            ConcentrationUnit::parse(u).map_err(|m| Error::invalid_data(format!("line {}: {m}", layout.heading_lines[s_col.unwrap_or(0)])))?,
+        ),
         None => {
             if s_col.is_some() {
                 notes.push("The layout's [S] column has no unit; rates and conversions are shown without units.".to_string());
@@ -739,29 +828,32 @@ fn read_layout(text: &str, problems: &mut Vec<InputProblem>, notes: &mut Vec<Str
     if s_col.is_none() {
         notes.push("The layout has no S column: fractions converted cannot be computed.".to_string());
     }
-    let all = as_slices(&owned[1..]);
-    let styles = column_styles(&all);
     let mut rows: Vec<(String, LayoutRow)> = Vec::new();
-    for (line, cells) in &all {
-        let name = cells.get(trace_col).map(|c| c.trim()).unwrap_or("");
+    for entry in &layout.entries {
+        let name = entry.name.text.as_str();
         if name.is_empty() {
-            problems.push(InputProblem { line: *line, column: Some(trace_col + 1), message: "expected a trace name".to_string() });
+            problems.push(InputProblem { line: entry.line, column: Some(entry.name.column), message: "expected a trace name".to_string() });
             continue;
         }
+        let cell = |col: Option<usize>| col.and_then(|c| entry.cells[c].as_ref());
         let number = |col: Option<usize>, problems: &mut Vec<InputProblem>| -> Option<f64> {
             let c = col?;
-            let cell = cells.get(c).map(|c| c.trim()).unwrap_or("");
-            if cell.is_empty() || cell == "-" {
+            let placed = entry.cells[c].as_ref()?;
+            if placed.text == "-" {
                 return None;
             }
-            match read_number(cell, style_of(&styles, c)) {
+            match read_number(&placed.text, layout.styles[c]) {
                 Ok(v) if v >= 0.0 => Some(v),
                 Ok(v) => {
-                    problems.push(InputProblem { line: *line, column: Some(c + 1), message: format!("a concentration cannot be negative ({v})") });
+                    problems.push(InputProblem {
+                        line: placed.line,
+                        column: Some(placed.column),
+                        message: format!("a concentration cannot be negative ({v})"),
+                    });
                     None
                 }
                 Err(message) => {
-                    problems.push(InputProblem { line: *line, column: Some(c + 1), message });
+                    problems.push(InputProblem { line: placed.line, column: Some(placed.column), message });
                     None
                 }
             }
@@ -769,23 +861,29 @@ fn read_layout(text: &str, problems: &mut Vec<InputProblem>, notes: &mut Vec<Str
         let s = number(s_col, problems);
         let i = number(i_col, problems);
         let e = number(e_col, problems);
-        let role_text = role_col.and_then(|c| cells.get(c)).map(|c| c.trim().to_ascii_lowercase()).unwrap_or_default();
+        let role_cell = cell(role_col);
+        let role_text = role_cell.map(|c| c.text.to_ascii_lowercase()).unwrap_or_default();
         let role = match normalise_name(&role_text).as_str() {
             "" | "sample" | "assay" => Role::Sample,
             "blank" | "buffer" | "background" => Role::Blank,
             "noenzyme" | "noenz" | "control" => Role::NoEnzyme,
             _ => {
+                let placed = role_cell.expect("a role was written");
                 problems.push(InputProblem {
-                    line: *line,
-                    column: role_col.map(|c| c + 1),
+                    line: placed.line,
+                    column: Some(placed.column),
                     message: format!("unknown role '{role_text}'; expected sample, blank or no-enzyme (read as sample)"),
                 });
                 Role::Sample
             }
         };
-        let blank = blank_col.and_then(|c| cells.get(c)).map(|c| c.trim().to_string()).filter(|c| !c.is_empty() && c != "-");
+        let blank = cell(blank_col).map(|c| c.text.clone()).filter(|c| c != "-");
         if rows.iter().any(|(n, _)| n == name) {
-            problems.push(InputProblem { line: *line, column: Some(trace_col + 1), message: format!("the trace '{name}' is listed twice; the first entry is used") });
+            problems.push(InputProblem {
+                line: entry.line,
+                column: Some(entry.name.column),
+                message: format!("the trace '{name}' is listed twice; the first entry is used"),
+            });
             continue;
         }
         rows.push((name.to_string(), LayoutRow { role, s, i, e, blank }));
@@ -1082,7 +1180,7 @@ pub fn analyse_traces_with(request: &TraceRequest, progress: &mut dyn FnMut(usiz
     if !(request.max_conversion > 0.0 && request.max_conversion < 1.0) {
         return Err(Error::invalid_option("the conversion limit must be a fraction between 0 and 1, such as 0.1"));
     }
-    let raw = read_traces(&request.traces, request.time_unit.as_deref(), &mut problems, &mut notes)?;
+    let raw = read_traces(&request.traces, request.time_unit.as_deref(), request.block, &mut problems, &mut notes)?;
     notes.extend(unmatched_overrides(request, &raw.names));
     let mut layout_problems = Vec::new();
     let layout = if request.layout.trim().is_empty() {
@@ -1168,9 +1266,10 @@ pub fn analyse_traces_with(request: &TraceRequest, progress: &mut dyn FnMut(usiz
             for (j, v) in trace.iter().enumerate() {
                 if v.is_some_and(|v| v > limit) {
                     cells[k][j] = CellState::OverRange;
+                    let (line, column) = raw.place(raw.lines[j], raw.names[k].1);
                     problems.push(InputProblem {
-                        line: raw.lines[j],
-                        column: Some(raw.names[k].1),
+                        line,
+                        column,
                         message: format!("{} is above the detector's linear limit {limit}; it and later points are not used for the rate", v.unwrap()),
                     });
                 }
@@ -1329,6 +1428,7 @@ pub fn analyse_traces_with(request: &TraceRequest, progress: &mut dyn FnMut(usiz
     problems.sort_by_key(|p| (p.line, p.column));
 
     Ok(TraceAnalysis {
+        blocks: raw.blocks.clone(),
         time_unit: time_symbol.to_string(),
         value_unit: value_unit.clone(),
         rate_unit,
@@ -1696,5 +1796,108 @@ mod tests {
         assert_eq!(result.rate_unit, "mM/min");
         assert!((result.traces[0].rate.unwrap() - 0.001).abs() < 1e-12);
         assert!(result.rate_table.starts_with("[S] (mM)\tv (mM/min)\n1\t"));
+    }
+
+    /// A plate-map layout (invented, not from any instrument) and the list
+    /// layout it stands for give identical traces, rates and rate table;
+    /// a bad grid cell is a problem at its own line and column.
+    #[test]
+    fn plate_map_layout_reads_as_the_list() {
+        let mut traces = String::from("Time (s)\tA1\tA2\tA3\tB1\tB2\tB3\n");
+        for k in 0..8 {
+            let t = 30.0 * k as f64;
+            let cells: Vec<String> = [0.004, 0.0025, 0.0, 0.0032, 0.0018, 0.0001]
+                .iter()
+                .enumerate()
+                .map(|(w, slope)| format!("{:.4}", 0.1 + w as f64 * 0.01 + slope * t / 30.0 + if k % 2 == 0 { 0.0002 } else { -0.0002 }))
+                .collect();
+            traces.push_str(&format!("{t}\t{}\n", cells.join("\t")));
+        }
+        let list = "trace\tS (µM)\tI (nM)\tE (nM)\trole\tblank\nA1\t200\t0\t5\tsample\tA3\nA2\t50\t0\t5\tsample\tA3\nA3\t\t\t\tblank\t\nB1\t200\t10\t5\tsample\tA3\nB2\t50\t10\t5\tsample\tA3\nB3\t200\t\t\tno-enzyme\t\n";
+        let plate = "# invented plate map\nS (µM)\n\t1\t2\t3\nA\t200\t50\t\nB\t200\t50\t200\n\nI (nM)\t1\t2\t3\nA\t0\t0\nB\t10\t10\n\nE (nM)\n\t1\t2\t3\nA\t5\t5\nB\t5\t5\n\nrole\n\t1\t2\t3\nA\tsample\tsample\tblank\nB\tsample\tsample\tno-enzyme\n\nblank\n\t1\t2\t3\nA\tA3\tA3\nB\tA3\tA3\n";
+        let from_list = analyse_traces(&request(&traces, list)).unwrap();
+        let from_plate = analyse_traces(&request(&traces, plate)).unwrap();
+        assert!(from_list.problems.is_empty() && from_plate.problems.is_empty(), "{:?} {:?}", from_list.problems, from_plate.problems);
+        assert_eq!(from_plate.traces, from_list.traces);
+        assert_eq!(from_plate.rate_table, from_list.rate_table);
+        assert_eq!((&from_plate.substrate_unit, &from_plate.inhibitor_unit, &from_plate.enzyme_unit), (&from_list.substrate_unit, &from_list.inhibitor_unit, &from_list.enzyme_unit));
+        assert!(from_plate.notes.iter().any(|n| n.starts_with("The layout is a plate map: 6 well(s)")), "{:?}", from_plate.notes);
+        assert!(from_list.traces.iter().any(|t| t.rate.is_some()));
+        let bad = plate.replace("B\t10\t10\n", "B\t10\tten\n");
+        let result = analyse_traces(&request(&traces, &bad)).unwrap();
+        assert_eq!(result.problems.iter().map(ToString::to_string).collect::<Vec<_>>(), ["line 9, column 3: layout: expected a number, found 'ten'"]);
+    }
+
+    /// Invented exports (written for these tests, not copied from any
+    /// instrument), each with the clean table it must read as: run
+    /// information above, between and below the table, clock times, two
+    /// reads in one file. Each case is (what it shows, export, block,
+    /// clean table).
+    #[test]
+    fn exports_read_as_their_clean_tables() {
+        let clean_340 = "time (s)\tA1\tA2\tA3\n0\t0.100\t0.200\t0.050\n30\t0.112\t0.209\t0.050\n60\t0.121\t0.221\t0.051\n90\t0.133\t0.230\t0.050\n120\t0.142\t0.241\t0.050\n";
+        let clean_405 = "time (s)\tA1\tA2\tA3\n0\t0.300\t0.400\t0.060\n30\t0.322\t0.413\t0.060\n60\t0.341\t0.431\t0.061\n90\t0.363\t0.440\t0.060\n120\t0.382\t0.461\t0.060\n";
+        let clock = |clean: &str, format: fn(u32) -> String| -> String {
+            clean.lines().map(|l| match l.split_once('\t') {
+                Some((t, rest)) => match t.parse::<u32>() {
+                    Ok(seconds) => format!("{}\t{rest}\n", format(seconds)),
+                    Err(_) => format!("Time\t{rest}\n"),
+                },
+                None => format!("{l}\n"),
+            }).collect()
+        };
+        let hms = clock(clean_340, |s| format!("{}:{:02}:{:02}", s / 3600, s / 60 % 60, s % 60));
+        let ms = clock(clean_340, |s| format!("{:02}:{:02}", s / 60, s % 60));
+        // Rows become columns: the corner cell, then the times across.
+        let transpose = |table: &str, corner: &str| -> String {
+            let rows: Vec<Vec<&str>> = table.lines().map(|l| l.split('\t').collect()).collect();
+            let mut out = format!("Invented export, traces in rows\n{corner}");
+            for row in &rows[1..] {
+                out.push_str(&format!("\t{}", row[0]));
+            }
+            for column in 1..rows[0].len() {
+                out.push_str(&format!("\n{}", rows[0][column]));
+                for row in &rows[1..] {
+                    out.push_str(&format!("\t{}", row[column]));
+                }
+            }
+            out.push('\n');
+            out
+        };
+        let cases: Vec<(&str, String, Option<usize>, &str)> = vec![
+            ("run information above", format!("Invented plate reader export\nDate\t2026-03-14\nTime\t14:22:05\nTemperature\t25.0\nOperator: nobody\nWavelength\t340 nm\n\n{clean_340}"), None, clean_340),
+            ("run information below", format!("{clean_340}\nEnd time\t14:31:00\nNote: invented\n"), None, clean_340),
+            ("h:mm:ss times", format!("Kinetic read\nStart\t14:22:05\n{hms}"), None, clean_340),
+            ("mm:ss times", ms, None, clean_340),
+            ("transposed, time heading in the corner", transpose(clean_340, "time (s)"), None, clean_340),
+            ("transposed, wells in the corner, clock times", transpose(&hms, "Well"), None, clean_340),
+            ("two reads, first", format!("Read 1\tWavelength 340 nm\n{clean_340}\nRead 2\tWavelength 405 nm\n{clean_405}"), None, clean_340),
+            ("two reads, second", format!("Read 1\tWavelength 340 nm\n{clean_340}\nRead 2\tWavelength 405 nm\n{clean_405}"), Some(2), clean_405),
+        ];
+        let plain = |traces: &str, block: Option<usize>| TraceRequest { traces: traces.into(), layout: "trace\tS (µM)\nA1\t100\nA2\t50\nA3\t10\n".into(), block, ..TraceRequest::default() };
+        for (what, export, block, clean) in &cases {
+            let expected = analyse_traces(&plain(clean, None)).unwrap();
+            let found = analyse_traces(&plain(export, *block)).unwrap_or_else(|e| panic!("{what}: {}", e.message));
+            assert!(found.problems.is_empty(), "{what}: {:?}", found.problems);
+            assert_eq!(found.traces, expected.traces, "{what}");
+            assert_eq!(found.rate_table, expected.rate_table, "{what}");
+            assert!(found.traces.iter().all(|t| t.rate.is_some()), "{what}");
+        }
+        // A bad cell of a transposed export is named where it stands.
+        let bad = cases[4].1.replace("0.221", "n/a");
+        let found = analyse_traces(&plain(&bad, None)).unwrap();
+        assert_eq!(found.problems.iter().map(ToString::to_string).collect::<Vec<_>>(), ["line 4, column 4: expected a number, found 'n/a'"]);
+        assert!(found.notes.iter().any(|n| n.starts_with("The table is transposed: line 2 holds the times and lines 3–5 one trace each")), "{:?}", found.notes);
+        let two = analyse_traces(&plain(&cases[6].1, None)).unwrap();
+        assert_eq!(two.blocks.iter().map(|b| (b.number, b.header_line, b.last_line, b.title.as_deref(), b.rows)).collect::<Vec<_>>(), [
+            (1, 2, 7, Some("Read 1 Wavelength 340 nm")),
+            (2, 10, 15, Some("Read 2 Wavelength 405 nm")),
+        ].map(|(n, h, l, t)| (n, h, l, t, 5)));
+        assert!(two.notes.iter().any(|n| n.starts_with("The text holds 2 kinetic tables: 1 (lines 2–7, after 'Read 1 Wavelength 340 nm'), 2 (lines 10–15")), "{:?}", two.notes);
+        let error = analyse_traces(&plain(&cases[6].1, Some(3))).unwrap_err();
+        assert_eq!(error.message, "block 3 was chosen, but the text holds 2 kinetic table(s) (numbered from 1)");
+        // No header: the message names the line tried and why it failed.
+        let error = analyse_traces(&plain("Time\t14:22:05\n0\t0.1\t0.2\n30\t0.2\t0.3\n", None)).unwrap_err();
+        assert!(error.message.contains("line 1 was not, because a cell after the first is a clock time or a date"), "{}", error.message);
     }
 }

@@ -1,0 +1,79 @@
+//! The column vocabulary: which headings name [S], [I], a rate, a
+//! response, a standard deviation. Every analysis reads its headers through
+//! these functions, so one table means the same thing to each of them.
+//! The names are common practice, no source.
+
+/// A heading without brackets, spaces, `_`, `-`, `.`, in lower case:
+/// `[S]` and `s`, `Initial rate` and `initialrate` compare equal.
+pub fn normalise_name(name: &str) -> String {
+    name.chars()
+        .filter(|c| !matches!(c, '[' | ']' | ' ' | '_' | '-' | '.'))
+        .flat_map(char::to_lowercase)
+        .collect()
+}
+
+/// `S`, `[S]`, `S0`, `substrate`, `conc`, `concentration`.
+pub fn is_substrate_name(name: &str) -> bool {
+    matches!(normalise_name(name).as_str(), "s" | "s0" | "substrate" | "conc" | "concentration" | "substrateconcentration")
+}
+
+/// `S`, `[S]`, `S0`, `substrate` (not the bare `conc`, which may be [I]).
+pub fn is_substrate_only_name(name: &str) -> bool {
+    matches!(normalise_name(name).as_str(), "s" | "s0" | "substrate" | "substrateconcentration")
+}
+
+/// `conc` or `concentration`: [S] in a rate table, [I] in an inhibitor
+/// series.
+pub fn is_bare_concentration_name(name: &str) -> bool {
+    matches!(normalise_name(name).as_str(), "conc" | "concentration")
+}
+
+/// `v`, `v0`, `vi`, `rate`, `velocity`, `initial rate`, `initial velocity`.
+pub fn is_rate_name(name: &str) -> bool {
+    matches!(
+        normalise_name(name).as_str(),
+        "v" | "v0" | "vi" | "rate" | "velocity" | "initialrate" | "initialvelocity"
+    )
+}
+
+/// `sd`, `sigma`, `stdev`, `error`, `standard deviation`.
+pub fn is_sd_name(name: &str) -> bool {
+    matches!(normalise_name(name).as_str(), "sd" | "sigma" | "stdev" | "stddev" | "error" | "sdv" | "standarddeviation")
+}
+
+/// `I`, `[I]`, `I0`, `inhibitor`, `inh`.
+pub fn is_inhibitor_name(name: &str) -> bool {
+    matches!(normalise_name(name).as_str(), "i" | "i0" | "inhibitor" | "inh" | "inhibitorconcentration")
+}
+
+/// Response names that are not also rate names: `response`, `activity`,
+/// `signal`, `y`, `% activity`, `% control`.
+pub fn is_signal_name(name: &str) -> bool {
+    matches!(normalise_name(name).as_str(), "response" | "activity" | "signal" | "y" | "%activity" | "percentactivity" | "%" | "%control")
+}
+
+/// A rate or a signal: what an inhibitor series measures.
+pub fn is_response_name(name: &str) -> bool {
+    is_rate_name(name) || is_signal_name(name)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Each role with names it accepts and refuses.
+    #[test]
+    fn vocabulary() {
+        let cases: [(&str, fn(&str) -> bool, &[&str], &[&str]); 5] = [
+            ("substrate", is_substrate_name, &["[S]", "S0", "Substrate", "conc"], &["I", "v"]),
+            ("rate", is_rate_name, &["v", "V0", "Initial rate", "velocity"], &["v1", "signal"]),
+            ("sd", is_sd_name, &["SD", "sigma", "Standard deviation"], &["sem"]),
+            ("inhibitor", is_inhibitor_name, &["[I]", "Inhibitor", "inh"], &["S", "conc"]),
+            ("response", is_response_name, &["response", "% activity", "v"], &["S"]),
+        ];
+        for (role, test, yes, no) in cases {
+            assert!(yes.iter().all(|n| test(n)), "{role}: {yes:?}");
+            assert!(no.iter().all(|n| !test(n)), "{role}: {no:?}");
+        }
+    }
+}
