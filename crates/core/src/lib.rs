@@ -33,6 +33,8 @@
 //!   mechanism fitted globally, compared and plotted.
 //! - [`dose`]: inhibitor series (IC50 logistic, Morrison tight binding).
 //! - [`compare`]: AICc ranking, Akaike weights, F tests, verdict.
+//! - [`sets`]: do constants differ between data sets? Global fits with
+//!   shared or separate constants, F tests, ratios with intervals.
 //!
 //! ```
 //! use turnover_core::rates::{analyse_rates, RateRequest};
@@ -66,6 +68,7 @@ pub mod progress;
 pub mod random;
 pub mod rates;
 pub mod robust;
+pub mod sets;
 pub mod solver;
 pub mod table;
 pub mod traces;

@@ -50,6 +50,9 @@ pub enum PlotKind {
     /// Rate against [I] for a tight-binding inhibitor, with the classical
     /// hyperbola for contrast.
     Morrison,
+    /// Several data sets, each in its own colour, with the curves of the
+    /// global fit that compares them.
+    Sets,
 }
 
 impl PlotKind {
@@ -84,6 +87,7 @@ impl PlotKind {
             PlotKind::InterceptReplot => "intercept-replot",
             PlotKind::DoseResponse => "dose-response",
             PlotKind::Morrison => "morrison",
+            PlotKind::Sets => "sets",
         }
     }
 
@@ -104,7 +108,7 @@ impl PlotKind {
         PlotKind::ALL
             .into_iter()
             .chain(PlotKind::INHIBITION)
-            .chain([PlotKind::DoseResponse, PlotKind::Morrison])
+            .chain([PlotKind::DoseResponse, PlotKind::Morrison, PlotKind::Sets])
             .find(|k| k.name() == name)
     }
 }
