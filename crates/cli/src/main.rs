@@ -9,6 +9,7 @@
 //! run quietly with 0.
 
 mod output;
+mod sets;
 mod traces;
 
 use clap::builder::{PossibleValue, PossibleValuesParser};
@@ -59,6 +60,9 @@ enum Command {
     Rates(traces::TraceOptions),
     /// Integrated Michaelis-Menten fit to whole time courses
     FitProgress(traces::TraceOptions),
+    /// Do the constants differ between data sets? Global fits with each
+    /// constant shared or separate, F tests, ratios to a reference set
+    CompareSets(sets::SetsOptions),
 }
 
 /// Options every fit of a table shares.
@@ -166,7 +170,7 @@ struct CompareOptions {
 
 /// The model names, with the core's long alias `michaelis-menten` for `mm`
 /// accepted but not listed.
-fn model_names() -> PossibleValuesParser {
+pub(crate) fn model_names() -> PossibleValuesParser {
     let mut values: Vec<PossibleValue> = MODEL_NAMES.iter().map(|m| PossibleValue::new(*m)).collect();
     values.push(PossibleValue::new("michaelis-menten").hide(true));
     PossibleValuesParser::new(values)
@@ -184,7 +188,7 @@ fn weighting_names() -> PossibleValuesParser {
 
 /// Reads a number option with the tables' rule: a decimal point or comma,
 /// and a value such as `1,000` refused as ambiguous.
-fn option_number(text: &str) -> Result<f64, String> {
+pub(crate) fn option_number(text: &str) -> Result<f64, String> {
     read_lone_number(text)
 }
 
@@ -216,6 +220,7 @@ fn main() -> ExitCode {
         Command::Compare(options) => compare(options),
         Command::Rates(options) => traces::rates(options),
         Command::FitProgress(options) => traces::fit_progress_command(options),
+        Command::CompareSets(options) => sets::compare_sets_command(options),
     };
     match result {
         Ok(code) => code,

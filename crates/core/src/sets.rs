@@ -398,6 +398,12 @@ pub fn compare_sets(request: &SetsRequest) -> Result<SetsAnalysis, Error> {
     };
     let settings = FitSettings::default();
     let mut warnings = Vec::new();
+    if base.parameters().iter().any(|p| p.name == "Vmax") {
+        warnings.push(
+            "A Vmax ratio is the ratio of kcat only when every set was measured at the same enzyme concentration [E]t."
+                .to_string(),
+        );
+    }
 
     // Each set alone: its own constants, and the starting values of the global fits.
     let mut sets = Vec::with_capacity(k_sets);
