@@ -15,6 +15,7 @@
 mod dose;
 mod draw;
 mod inhibition;
+mod sets;
 mod traces;
 
 use plotters::prelude::*;
@@ -27,6 +28,7 @@ use wasm_bindgen::prelude::*;
 pub use dose::{is_dose_table, DoseBench};
 pub use draw::{draw_plot, PointPosition};
 pub use inhibition::{is_inhibition_table, InhibitionBench};
+pub use sets::{compare_sets_json, SetsBench};
 pub use traces::TraceBench;
 
 /// Holds the most recent analysis for drawing.
