@@ -33,6 +33,8 @@
 //!   mechanism fitted globally, compared and plotted.
 //! - [`dose`]: inhibitor series (IC50 logistic, Morrison tight binding).
 //! - [`compare`]: AICc ranking, Akaike weights, F tests, verdict.
+//! - [`inactivation`]: time-dependent inhibition: kobs per progress curve,
+//!   kinact and KI from kobs against [I].
 //! - [`sets`]: do constants differ between data sets? Global fits with
 //!   shared or separate constants, F tests, ratios with intervals.
 //!
@@ -58,6 +60,7 @@ pub mod diagnostics;
 pub mod dose;
 pub mod error;
 pub mod fit;
+pub mod inactivation;
 pub mod inhibition;
 pub mod intervals;
 pub mod lambert;

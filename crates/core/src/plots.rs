@@ -53,6 +53,12 @@ pub enum PlotKind {
     /// Several data sets, each in its own colour, with the curves of the
     /// global fit that compares them.
     Sets,
+    /// Progress curves with [I], each with its slow-binding fit.
+    InactivationTraces,
+    /// kobs against [I] with the hyperbola (or the line through the origin).
+    KobsReplot,
+    /// Product against [E]·t, one series per [E] (Selwyn's test).
+    Selwyn,
 }
 
 impl PlotKind {
@@ -88,6 +94,9 @@ impl PlotKind {
             PlotKind::DoseResponse => "dose-response",
             PlotKind::Morrison => "morrison",
             PlotKind::Sets => "sets",
+            PlotKind::InactivationTraces => "inactivation-traces",
+            PlotKind::KobsReplot => "kobs-replot",
+            PlotKind::Selwyn => "selwyn",
         }
     }
 
@@ -108,7 +117,14 @@ impl PlotKind {
         PlotKind::ALL
             .into_iter()
             .chain(PlotKind::INHIBITION)
-            .chain([PlotKind::DoseResponse, PlotKind::Morrison, PlotKind::Sets])
+            .chain([
+                PlotKind::DoseResponse,
+                PlotKind::Morrison,
+                PlotKind::Sets,
+                PlotKind::InactivationTraces,
+                PlotKind::KobsReplot,
+                PlotKind::Selwyn,
+            ])
             .find(|k| k.name() == name)
     }
 }
