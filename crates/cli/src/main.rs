@@ -8,6 +8,7 @@
 //! (its numbers are still printed, marked as such). A closed pipe ends the
 //! run quietly with 0.
 
+mod inactivation;
 mod output;
 mod sets;
 mod traces;
@@ -63,6 +64,9 @@ enum Command {
     /// Do the constants differ between data sets? Global fits with each
     /// constant shared or separate, F tests, ratios to a reference set
     CompareSets(sets::SetsOptions),
+    /// Time-dependent inhibition from progress curves: kobs per trace,
+    /// then kinact, KI and kinact/KI from kobs against [I]
+    Inactivation(inactivation::InactivationOptions),
 }
 
 /// Options every fit of a table shares.
@@ -221,6 +225,7 @@ fn main() -> ExitCode {
         Command::Rates(options) => traces::rates(options),
         Command::FitProgress(options) => traces::fit_progress_command(options),
         Command::CompareSets(options) => sets::compare_sets_command(options),
+        Command::Inactivation(options) => inactivation::inactivation_command(options),
     };
     match result {
         Ok(code) => code,

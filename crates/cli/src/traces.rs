@@ -62,14 +62,14 @@ fn preset_names() -> clap::builder::PossibleValuesParser {
     clap::builder::PossibleValuesParser::new(PRESETS.iter().map(|p| clap::builder::PossibleValue::new(p.key)))
 }
 
-struct Prepared {
-    command: &'static str,
-    file: String,
-    json: bool,
-    request: TraceRequest,
+pub(crate) struct Prepared {
+    pub(crate) command: &'static str,
+    pub(crate) file: String,
+    pub(crate) json: bool,
+    pub(crate) request: TraceRequest,
 }
 
-fn prepare(command: &'static str, options: TraceOptions) -> Result<Prepared, Failure> {
+pub(crate) fn prepare(command: &'static str, options: TraceOptions) -> Result<Prepared, Failure> {
     let mut request = TraceRequest::default();
     if options.falls {
         request.direction = Direction::Falls;
@@ -120,7 +120,7 @@ fn prepare(command: &'static str, options: TraceOptions) -> Result<Prepared, Fai
     Ok(Prepared { command, file: options.file, json: options.json, request })
 }
 
-fn analyse(command: &'static str, args: &Prepared) -> Result<TraceAnalysis, Failure> {
+pub(crate) fn analyse(command: &'static str, args: &Prepared) -> Result<TraceAnalysis, Failure> {
     let analysis = analyse_traces(&args.request).map_err(|e| Failure::Input(e.message))?;
     // A --window or --exclude naming no trace would do nothing; on the
     // command line that is a mistake to refuse, not a note to skim past.
