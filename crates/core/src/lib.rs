@@ -35,6 +35,8 @@
 //! - [`compare`]: AICc ranking, Akaike weights, F tests, verdict.
 //! - [`inactivation`]: time-dependent inhibition: kobs per progress curve,
 //!   kinact and KI from kobs against [I].
+//! - [`selwyn`]: Selwyn's test of enzyme stability from progress curves at
+//!   several [E].
 //! - [`sets`]: do constants differ between data sets? Global fits with
 //!   shared or separate constants, F tests, ratios with intervals.
 //!
@@ -71,6 +73,7 @@ pub mod progress;
 pub mod random;
 pub mod rates;
 pub mod robust;
+pub mod selwyn;
 pub mod sets;
 pub mod solver;
 pub mod table;

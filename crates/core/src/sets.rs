@@ -575,7 +575,8 @@ fn set_ratio(fit: &Fit, names: &[String], q: usize, j: usize, k: usize, referenc
     out
 }
 
-fn short(v: f64) -> String {
+/// Three significant figures for sentences.
+pub(crate) fn short(v: f64) -> String {
     if v == 0.0 || !v.is_finite() {
         return format!("{v}");
     }
@@ -583,7 +584,8 @@ fn short(v: f64) -> String {
     format!("{v:.digits$}")
 }
 
-fn p_text(p: f64) -> String {
+/// A p value for sentences (`p < 0.0001` below that).
+pub(crate) fn p_text(p: f64) -> String {
     if p < 0.0001 {
         "p < 0.0001".into()
     } else {
