@@ -28,7 +28,7 @@ use wasm_bindgen::prelude::*;
 pub use dose::{is_dose_table, DoseBench};
 pub use draw::{draw_plot, PointPosition};
 pub use inhibition::{is_inhibition_table, InhibitionBench};
-pub use sets::{compare_sets_json, SetsBench};
+pub use sets::{compare_sets_json, inactivation_json, SetsBench};
 pub use traces::TraceBench;
 
 /// Holds the most recent analysis for drawing.

@@ -39,6 +39,24 @@ pub fn compare_sets_json(request_json: &str) -> Result<String, JsError> {
     Ok(json_call(request_json, |r: &SetsRequest| compare_sets(r))?.0)
 }
 
+/// Time-dependent inhibition from progress curves. `requestJson` is a JSON
+/// object `{traces: <TraceRequest>, substrate: number|null, km:
+/// number|null}` (the `TraceRequest` fields as for `TraceBench.analyseJson`;
+/// `substrate` and `km` in one unit, both or neither). Returns the
+/// `InactivationAnalysis` as JSON: `time_unit`, `inhibitor_unit`, `traces`
+/// (per trace `trace`, `i`, `e`, `kobs`, `kobs_se`, `v0`, `vs`, `n`,
+/// `sigma`, `converged`, `used`), `saturation`, `saturation_test`
+/// (`[F, df1, df2, p]` or null), `parameters` (`kinact`, `KI`, `kinact/KI`,
+/// or only `kinact/KI`), `competition_factor`, `warnings`, `notes`,
+/// `plots` (`inactivation-traces`, `kobs-replot`), `caution`.
+#[wasm_bindgen(js_name = inactivation)]
+pub fn inactivation_json(request_json: &str) -> Result<String, JsError> {
+    Ok(json_call(request_json, |r: &turnover_core::inactivation::InactivationRequest| {
+        turnover_core::inactivation::analyse_inactivation(r)
+    })?
+    .0)
+}
+
 /// Holds the most recent set comparison for drawing.
 #[wasm_bindgen]
 #[derive(Default)]
