@@ -1,7 +1,8 @@
 //! The `turnover` command: glue between files and `turnover-core`.
 //!
 //! Every number printed here comes from the core (`analyse_rates`,
-//! `analyse_inhibition`, `analyse_dose`, `analyse_traces`, `fit_progress`),
+//! `analyse_inhibition`, `analyse_dose`, `analyse_traces`, `fit_progress`,
+//! `compare_sets`, `inactivation_from_traces`),
 //! the same functions the page calls. Arguments are read by clap (derive).
 //! Exit codes are decided in one place, [`main`]: 0 success, 1 the output
 //! could not be written, 2 bad input or usage, 3 the fit did not converge
