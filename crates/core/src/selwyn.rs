@@ -144,22 +144,28 @@ fn one_group(s: Option<f64>, i: Option<f64>, traces: Vec<Trace>, analysis: &Trac
     let y = DVector::from_iterator(n, traces.iter().flat_map(|t| t.y.iter().cloned()));
     // u scaled by the common end, so the cubic's columns are of one size.
     let mut shared = DMatrix::zeros(n, p_shared);
-    let mut separate = DMatrix::zeros(n, p_separate);
     let mut row = 0;
     for (kk, t) in traces.iter().enumerate() {
         for &u in &t.u {
             let x = u / common;
             shared[(row, kk)] = 1.0;
-            separate[(row, 4 * kk)] = 1.0;
             for d in 0..3 {
                 shared[(row, k + d)] = x.powi(d as i32 + 1);
-                separate[(row, 4 * kk + 1 + d)] = x.powi(d as i32 + 1);
             }
             row += 1;
         }
     }
     let (b_shared, rss_shared) = least_squares(&shared, &y)?;
-    let (b_separate, rss_separate) = least_squares(&separate, &y)?;
+    // The separate model is block diagonal: one small fit per trace, and
+    // its RSS is the sum of theirs (so a plate of many traces stays cheap).
+    let mut b_separate = Vec::with_capacity(p_separate);
+    let mut rss_separate = 0.0;
+    for t in &traces {
+        let x = DMatrix::from_fn(t.u.len(), 4, |r, c| (t.u[r] / common).powi(c as i32));
+        let (b, rss) = least_squares(&x, &DVector::from_column_slice(&t.y))?;
+        b_separate.extend(b.iter().cloned());
+        rss_separate += rss;
+    }
     let df = (p_separate - p_shared, n - p_separate);
     let f = ((rss_shared - rss_separate) / df.0 as f64) / (rss_separate / df.1 as f64);
     let f = if f.is_finite() { f.max(0.0) } else { 0.0 };
