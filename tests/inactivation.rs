@@ -47,7 +47,10 @@ fn request(d: &Design, rng: &mut SplitMix64) -> InactivationRequest {
     for (k, i) in d.inhibitor.iter().enumerate() {
         layout.push_str(&format!("T{}\t100\t{i}\t10\n", k + 1));
     }
-    InactivationRequest { traces: TraceRequest { traces, layout, ..TraceRequest::default() }, ..InactivationRequest::default() }
+    InactivationRequest {
+        traces: TraceRequest { traces, layout, ..TraceRequest::default() },
+        ..InactivationRequest::default()
+    }
 }
 
 fn parameter(a: &InactivationAnalysis, name: &str) -> Option<(f64, f64, f64)> {

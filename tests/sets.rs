@@ -13,7 +13,7 @@
 
 use turnover_core::models::{model_by_name, model_with_options, ModelOptions};
 use turnover_core::random::SplitMix64;
-use turnover_core::sets::{compare_sets, SetsRequest, SetsAnalysis};
+use turnover_core::sets::{compare_sets, SetsAnalysis, SetsRequest};
 
 const TRIALS: usize = 200;
 
@@ -102,7 +102,15 @@ fn two_compounds_differ_in_ic50_with_a_shared_slope() {
     let model = model_with_options("ic50", &ModelOptions::default()).unwrap();
     let names: Vec<&str> = model.parameters().iter().map(|p| p.name).collect();
     let truth = |ic50: f64| -> Vec<f64> {
-        names.iter().map(|n| match *n { "bottom" => 0.0, "top" => 100.0, "IC50" => ic50, _ => 1.0 }).collect()
+        names
+            .iter()
+            .map(|n| match *n {
+                "bottom" => 0.0,
+                "top" => 100.0,
+                "IC50" => ic50,
+                _ => 1.0,
+            })
+            .collect()
     };
     let mut rng = SplitMix64::new(99);
     let (mut found, mut slope_false) = (0usize, 0usize);
@@ -118,7 +126,9 @@ fn two_compounds_differ_in_ic50_with_a_shared_slope() {
                 }
             }
         }
-        let a = compare_sets(&SetsRequest { text, by: "compound".into(), model: "ic50".into(), ..SetsRequest::default() }).unwrap();
+        let a =
+            compare_sets(&SetsRequest { text, by: "compound".into(), model: "ic50".into(), ..SetsRequest::default() })
+                .unwrap();
         let ic50 = constant(&a, "IC50");
         found += ic50.differs as usize;
         slope_false += constant(&a, "hill_slope").differs as usize;
@@ -126,7 +136,9 @@ fn two_compounds_differ_in_ic50_with_a_shared_slope() {
     }
     ratios.sort_by(|a, b| a.partial_cmp(b).unwrap());
     let median = (ratios[TRIALS / 2 - 1] + ratios[TRIALS / 2]) / 2.0;
-    println!("IC50 difference, {TRIALS} trials: found {found}, slope false positives {slope_false}, median ratio {median:.4}");
+    println!(
+        "IC50 difference, {TRIALS} trials: found {found}, slope false positives {slope_false}, median ratio {median:.4}"
+    );
     assert!(found >= 180, "IC50 found different in only {found} of {TRIALS}");
     assert!((2..=20).contains(&slope_false), "slope reported different in {slope_false} of {TRIALS}");
     assert!((median / 4.0 - 1.0).abs() < 0.03, "median ratio {median}");

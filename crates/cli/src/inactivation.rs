@@ -31,9 +31,12 @@ const COMMAND: &str = "inactivation";
 /// [S] and Km in one unit (Km's).
 fn substrate_and_km(substrate: &str, km: &str) -> Result<(f64, f64), Failure> {
     let quantity = |text: &str, name: &str| -> Result<(f64, Option<ConcentrationUnit>), Failure> {
-        let (value, unit) = turnover_core::table::read_quantity(text)
-            .map_err(|m| usage(COMMAND, format!("{name} '{text}': {m}; give a concentration such as '50 µM' or '50'")))?;
-        let unit = unit.map(|u| ConcentrationUnit::parse(&u).map_err(|m| usage(COMMAND, format!("{name}: {m}")))).transpose()?;
+        let (value, unit) = turnover_core::table::read_quantity(text).map_err(|m| {
+            usage(COMMAND, format!("{name} '{text}': {m}; give a concentration such as '50 µM' or '50'"))
+        })?;
+        let unit = unit
+            .map(|u| ConcentrationUnit::parse(&u).map_err(|m| usage(COMMAND, format!("{name}: {m}"))))
+            .transpose()?;
         Ok((value, unit))
     };
     let (k, k_unit) = quantity(km, "--km")?;
@@ -41,7 +44,10 @@ fn substrate_and_km(substrate: &str, km: &str) -> Result<(f64, f64), Failure> {
     match (s_unit, k_unit) {
         (Some(a), Some(b)) => Ok((s * a.in_molar() / b.in_molar(), k)),
         (None, None) => Ok((s, k)),
-        _ => Err(usage(COMMAND, "--substrate and --km must both carry a unit (such as '50 µM') or both be bare numbers in one unit")),
+        _ => Err(usage(
+            COMMAND,
+            "--substrate and --km must both carry a unit (such as '50 µM') or both be bare numbers in one unit",
+        )),
     }
 }
 
@@ -52,11 +58,16 @@ pub(crate) fn inactivation_command(options: InactivationOptions) -> Result<ExitC
             (Some(s), Some(k))
         }
         (None, None) => (None, None),
-        _ => return Err(usage(COMMAND, "the substrate-competition correction needs both --substrate and --km")),
+        _ => {
+            return Err(usage(COMMAND, "the substrate-competition correction needs both --substrate and --km"));
+        }
     };
     let args = prepare(COMMAND, options.traces)?;
     if !args.request.windows.is_empty() {
-        return Err(usage(COMMAND, "--window sets initial-rate windows; the inactivation fit uses each whole curve, so leave it out"));
+        return Err(usage(
+            COMMAND,
+            "--window sets initial-rate windows; the inactivation fit uses each whole curve, so leave it out",
+        ));
     }
     let traces = analyse(COMMAND, &args)?;
     let analysis = inactivation_from_traces(&traces, substrate, km).map_err(|e| Failure::Input(e.message))?;
@@ -91,7 +102,14 @@ pub(crate) fn inactivation_command(options: InactivationOptions) -> Result<ExitC
     } else {
         let n = |v: Option<f64>| v.map_or("—".to_string(), |v| significant(v, 5));
         let unit = analysis.inhibitor_unit.clone().unwrap_or_default();
-        let mut text = format!("{:<10} {:>12} {:>14} {:>12}  (kobs per {})\n", "trace", format!("[I] {unit}"), "kobs", "SE", analysis.time_unit);
+        let mut text = format!(
+            "{:<10} {:>12} {:>14} {:>12}  (kobs per {})\n",
+            "trace",
+            format!("[I] {unit}"),
+            "kobs",
+            "SE",
+            analysis.time_unit
+        );
         for t in &analysis.traces {
             text.push_str(&format!(
                 "{:<10} {:>12} {:>14} {:>12}{}\n",

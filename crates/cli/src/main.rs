@@ -182,7 +182,7 @@ pub(crate) fn model_names() -> PossibleValuesParser {
 }
 
 /// The weighting names, the earlier ones hidden but accepted.
-fn weighting_names() -> PossibleValuesParser {
+pub(crate) fn weighting_names() -> PossibleValuesParser {
     let mut values: Vec<PossibleValue> =
         Weighting::ALL.iter().map(|w| PossibleValue::new(w.option_name()).help(w.describe())).collect();
     values.extend(

@@ -9,6 +9,7 @@ use serde::Serialize;
 use std::process::ExitCode;
 use turnover_core::sets::{compare_sets, ConstantVerdict, PatternFit, SetFit, SetsRequest};
 use turnover_core::table::InputProblem;
+use turnover_core::weighting::Weighting;
 
 #[derive(Args)]
 pub(crate) struct SetsOptions {
@@ -27,6 +28,10 @@ pub(crate) struct SetsOptions {
     /// The set the others are compared with [default: the first in the table]
     #[arg(long, value_name = "NAME")]
     reference: Option<String>,
+    /// What the weighting assumes about the error of a response (sd is
+    /// refused: the table has no sd column)
+    #[arg(long, value_name = "ERROR", value_parser = crate::weighting_names(), default_value = "constant")]
+    weighting: String,
     /// Print one JSON object instead of a table
     #[arg(long)]
     json: bool,
@@ -47,10 +52,23 @@ pub(crate) struct SetsOptions {
 pub(crate) fn compare_sets_command(options: SetsOptions) -> Result<ExitCode, Failure> {
     const COMMAND: &str = "compare-sets";
     if (options.top.is_some() || options.bottom.is_some()) && options.model != "ic50" {
-        return Err(usage(COMMAND, "--top and --bottom fix the plateaus of the ic50 model; they apply to no other model"));
+        return Err(usage(
+            COMMAND,
+            "--top and --bottom fix the plateaus of the ic50 model; they apply to no other model",
+        ));
     }
     if options.enzyme.is_some() && options.model != "morrison" {
         return Err(usage(COMMAND, "--enzyme is [E]t of the morrison model; it applies to no other model here"));
+    }
+    let (weighting, note) = Weighting::from_option_name(&options.weighting).map_err(|m| usage(COMMAND, m))?;
+    if let Some(note) = note {
+        warn(&format!("turnover: note: {note}"));
+    }
+    if weighting == Weighting::Sd {
+        return Err(usage(
+            COMMAND,
+            "--weighting sd needs an sd column, which compare-sets does not read; use constant, proportional or sqrt",
+        ));
     }
     let model = if options.model == "michaelis-menten" { "mm".to_string() } else { options.model.clone() };
     let request = SetsRequest {
@@ -61,6 +79,7 @@ pub(crate) fn compare_sets_command(options: SetsOptions) -> Result<ExitCode, Fai
         enzyme: options.enzyme,
         fixed_top: options.top,
         fixed_bottom: options.bottom,
+        weighting,
     };
     let analysis = compare_sets(&request).map_err(|e| Failure::Input(e.message))?;
     for problem in &analysis.problems {
@@ -112,7 +131,10 @@ pub(crate) fn compare_sets_command(options: SetsOptions) -> Result<ExitCode, Fai
                 .collect();
             text.push_str(&format!("{:<16} n = {:<4} {}\n", set.name, set.n, params.join(", ")));
         }
-        text.push_str(&format!("\n{:<28} {:>12} {:>5} {:>12} {:>8}  F test against all separate\n", "constants shared", "RSS", "dof", "AICc", "ΔAICc"));
+        text.push_str(&format!(
+            "\n{:<28} {:>12} {:>5} {:>12} {:>8}  F test against all separate\n",
+            "constants shared", "RSS", "dof", "AICc", "ΔAICc"
+        ));
         for m in &analysis.models {
             let test = m.f_test.as_ref().map_or(String::new(), |t| {
                 format!("F({}, {}) = {}, p = {}", t.df_extra, t.df_general, fixed(t.f, 3), n(Some(t.p_value)))

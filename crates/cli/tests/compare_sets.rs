@@ -19,13 +19,27 @@ fn table_file(name: &str, text: &str) -> PathBuf {
 
 fn turnover(args: &[&str]) -> (i32, String, String) {
     let out = Command::new(env!("CARGO_BIN_EXE_turnover")).args(args).output().unwrap();
-    (out.status.code().unwrap_or(-1), String::from_utf8_lossy(&out.stdout).into_owned(), String::from_utf8_lossy(&out.stderr).into_owned())
+    (
+        out.status.code().unwrap_or(-1),
+        String::from_utf8_lossy(&out.stdout).into_owned(),
+        String::from_utf8_lossy(&out.stderr).into_owned(),
+    )
 }
 
 #[test]
 fn json_has_sets_models_and_constants() {
     let path = table_file("sets.tsv", TABLE);
-    let (code, out, err) = turnover(&["compare-sets", path.to_str().unwrap(), "--by", "variant", "--model", "mm", "--reference", "mutant", "--json"]);
+    let (code, out, err) = turnover(&[
+        "compare-sets",
+        path.to_str().unwrap(),
+        "--by",
+        "variant",
+        "--model",
+        "mm",
+        "--reference",
+        "mutant",
+        "--json",
+    ]);
     assert_eq!(code, 0, "{err}");
     let v: serde_json::Value = serde_json::from_str(&out).unwrap();
     assert_eq!(v["reference"], "mutant");
@@ -39,7 +53,8 @@ fn json_has_sets_models_and_constants() {
     // Reference mutant: wild type / mutant is near 10 (Vmax about 10 and 1.2).
     let ratio = &vmax["ratio"][0];
     assert_eq!(ratio["set"], "wild type");
-    let (lo, r, hi) = (ratio["ci_low"].as_f64().unwrap(), ratio["value"].as_f64().unwrap(), ratio["ci_high"].as_f64().unwrap());
+    let (lo, r, hi) =
+        (ratio["ci_low"].as_f64().unwrap(), ratio["value"].as_f64().unwrap(), ratio["ci_high"].as_f64().unwrap());
     assert!(lo < r && r < hi && r > 5.0 && r < 15.0, "{lo} {r} {hi}");
     assert_eq!(v["constants"][1]["name"], "Km");
     assert_eq!(v["constants"][1]["differs"], false);

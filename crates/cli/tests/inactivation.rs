@@ -15,7 +15,11 @@ fn file(name: &str, text: &str) -> PathBuf {
 
 fn turnover(args: &[&str]) -> (i32, String, String) {
     let out = Command::new(env!("CARGO_BIN_EXE_turnover")).args(args).output().unwrap();
-    (out.status.code().unwrap_or(-1), String::from_utf8_lossy(&out.stdout).into_owned(), String::from_utf8_lossy(&out.stderr).into_owned())
+    (
+        out.status.code().unwrap_or(-1),
+        String::from_utf8_lossy(&out.stdout).into_owned(),
+        String::from_utf8_lossy(&out.stderr).into_owned(),
+    )
 }
 
 /// Slow-binding curves, kinact 0.2 /min, KI 5 µM, v0 0.02 per min, vs 0,
@@ -42,7 +46,17 @@ fn inhibited_plate() -> (PathBuf, PathBuf) {
 #[test]
 fn inactivation_json_reports_kobs_and_constants() {
     let (traces, layout) = inhibited_plate();
-    let (code, out, err) = turnover(&["inactivation", traces.to_str().unwrap(), "--layout", layout.to_str().unwrap(), "--substrate", "50 µM", "--km", "0.05 mM", "--json"]);
+    let (code, out, err) = turnover(&[
+        "inactivation",
+        traces.to_str().unwrap(),
+        "--layout",
+        layout.to_str().unwrap(),
+        "--substrate",
+        "50 µM",
+        "--km",
+        "0.05 mM",
+        "--json",
+    ]);
     assert_eq!(code, 0, "{err}");
     let v: serde_json::Value = serde_json::from_str(&out).unwrap();
     assert_eq!(v["traces"].as_array().unwrap().len(), 6);

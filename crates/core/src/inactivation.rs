@@ -106,7 +106,8 @@ impl Model for InactivationCurve {
     fn initial_guess(&self, data: &Observations) -> Result<Vec<f64>, Error> {
         let t: Vec<f64> = data.predictor_column(0);
         let y = data.y();
-        let span = t.iter().cloned().fold(f64::NEG_INFINITY, f64::max) - t.iter().cloned().fold(f64::INFINITY, f64::min);
+        let span =
+            t.iter().cloned().fold(f64::NEG_INFINITY, f64::max) - t.iter().cloned().fold(f64::INFINITY, f64::min);
         let step = smallest_step(&t).unwrap_or(span);
         if !(span > 0.0 && step > 0.0) {
             return Err(Error::invalid_data("a progress curve needs readings at two or more times"));
@@ -215,12 +216,20 @@ pub fn analyse_inactivation(request: &InactivationRequest) -> Result<Inactivatio
 }
 
 /// The analysis from traces already read.
-pub fn inactivation_from_traces(analysis: &TraceAnalysis, substrate: Option<f64>, km: Option<f64>) -> Result<InactivationAnalysis, Error> {
+pub fn inactivation_from_traces(
+    analysis: &TraceAnalysis,
+    substrate: Option<f64>,
+    km: Option<f64>,
+) -> Result<InactivationAnalysis, Error> {
     let factor = match (substrate, km) {
         (Some(s), Some(k)) if s >= 0.0 && k > 0.0 && s.is_finite() && k.is_finite() => 1.0 + s / k,
         (None, None) => 1.0,
-        (Some(_), Some(_)) => return Err(Error::invalid_option("[S] must be zero or more and Km positive")),
-        _ => return Err(Error::invalid_option("the substrate-competition correction needs both [S] and Km")),
+        (Some(_), Some(_)) => {
+            return Err(Error::invalid_option("[S] must be zero or more and Km positive"));
+        }
+        _ => {
+            return Err(Error::invalid_option("the substrate-competition correction needs both [S] and Km"));
+        }
     };
     let mut notes = Vec::new();
     let mut warnings = Vec::new();
@@ -241,7 +250,11 @@ pub fn inactivation_from_traces(analysis: &TraceAnalysis, substrate: Option<f64>
             zero += 1;
             continue;
         }
-        let end = trace.cells.iter().position(|c| matches!(c, CellState::Overflow | CellState::OverRange)).unwrap_or(trace.times.len());
+        let end = trace
+            .cells
+            .iter()
+            .position(|c| matches!(c, CellState::Overflow | CellState::OverRange))
+            .unwrap_or(trace.times.len());
         let (t, y): (Vec<f64>, Vec<f64>) =
             (0..end).filter_map(|j| trace.values[j].map(|v| (trace.times[j], v))).unzip();
         if t.len() < 6 {
@@ -319,7 +332,9 @@ pub fn inactivation_from_traces(analysis: &TraceAnalysis, substrate: Option<f64>
         ));
     }
     if results.is_empty() {
-        return Err(Error::invalid_data("no sample trace with [I] > 0 in the layout could be fitted; the layout needs an I column"));
+        return Err(Error::invalid_data(
+            "no sample trace with [I] > 0 in the layout could be fitted; the layout needs an I column",
+        ));
     }
     let used: Vec<&TraceKobs> = results.iter().filter(|r| r.used).collect();
     let x: Vec<f64> = used.iter().map(|r| r.i).collect();
@@ -378,7 +393,8 @@ pub fn inactivation_from_traces(analysis: &TraceAnalysis, substrate: Option<f64>
             }
         }
     } else {
-        reason = format!("only {} distinct [I] with a determined kobs; a hyperbola needs three or more", distinct.len());
+        reason =
+            format!("only {} distinct [I] with a determined kobs; a hyperbola needs three or more", distinct.len());
     }
     if !saturation {
         let mut r = estimate("kinact/KI", slope * factor, slope_se.map(|s| s * factor), t_line);
@@ -419,7 +435,11 @@ pub fn inactivation_from_traces(analysis: &TraceAnalysis, substrate: Option<f64>
         zero_line: false,
         segments: Vec::new(),
         spots: Vec::new(),
-        note: if saturation { "Curve: kobs = kinact·[I]/(KI_app + [I]).".into() } else { "Line: kobs = (kinact/KI_app)·[I].".into() },
+        note: if saturation {
+            "Curve: kobs = kinact·[I]/(KI_app + [I]).".into()
+        } else {
+            "Line: kobs = (kinact/KI_app)·[I].".into()
+        },
         series: Vec::new(),
         log_x: false,
         marks: Vec::new(),

@@ -23,8 +23,8 @@
 //! source). Every check carries its numbers either way.
 
 use crate::compare::SIGNIFICANCE;
-use crate::sets::{p_text, short};
 use crate::plots::{PlotData, PlotKind, PlotPoint, Series};
+use crate::sets::{p_text, short};
 use crate::traces::{CellState, Role, TraceAnalysis};
 use nalgebra::{DMatrix, DVector};
 use serde::Serialize;
@@ -94,9 +94,16 @@ pub fn selwyn_checks(analysis: &TraceAnalysis) -> Vec<SelwynCheck> {
         if trace.role != Role::Sample || trace.excluded {
             continue;
         }
-        let Some(e) = trace.e.filter(|e| *e > 0.0) else { continue };
-        let end = trace.cells.iter().position(|c| matches!(c, CellState::Overflow | CellState::OverRange)).unwrap_or(trace.times.len());
-        let (u, y): (Vec<f64>, Vec<f64>) = (0..end).filter_map(|j| trace.values[j].map(|v| (e * trace.times[j], v))).unzip();
+        let Some(e) = trace.e.filter(|e| *e > 0.0) else {
+            continue;
+        };
+        let end = trace
+            .cells
+            .iter()
+            .position(|c| matches!(c, CellState::Overflow | CellState::OverRange))
+            .unwrap_or(trace.times.len());
+        let (u, y): (Vec<f64>, Vec<f64>) =
+            (0..end).filter_map(|j| trace.values[j].map(|v| (e * trace.times[j], v))).unzip();
         let key = (trace.s, trace.i);
         let item = Trace { name: trace.name.clone(), e, u, y };
         match groups.iter_mut().find(|(k, _)| *k == key) {
@@ -120,14 +127,16 @@ pub fn selwyn_checks(analysis: &TraceAnalysis) -> Vec<SelwynCheck> {
 }
 
 fn one_group(s: Option<f64>, i: Option<f64>, traces: Vec<Trace>, analysis: &TraceAnalysis) -> Option<SelwynCheck> {
-    let common = traces.iter().map(|t| t.u.iter().cloned().fold(f64::NEG_INFINITY, f64::max)).fold(f64::INFINITY, f64::min);
+    let common =
+        traces.iter().map(|t| t.u.iter().cloned().fold(f64::NEG_INFINITY, f64::max)).fold(f64::INFINITY, f64::min);
     if !(common > 0.0 && common.is_finite()) {
         return None;
     }
     let traces: Vec<Trace> = traces
         .into_iter()
         .map(|t| {
-            let (u, y) = t.u.iter().zip(&t.y).filter(|(u, _)| **u <= common * (1.0 + 1e-12)).map(|(u, y)| (*u, *y)).unzip();
+            let (u, y) =
+                t.u.iter().zip(&t.y).filter(|(u, _)| **u <= common * (1.0 + 1e-12)).map(|(u, y)| (*u, *y)).unzip();
             Trace { u, y, ..t }
         })
         .filter(|t| t.u.len() >= 6)
@@ -199,7 +208,9 @@ fn one_group(s: Option<f64>, i: Option<f64>, traces: Vec<Trace>, analysis: &Trac
             "Selwyn's test at {condition}: the progress curves do not superimpose against [E]·t ({numbers}). The enzyme's activity changes during the assay (loss when the lowest [E] falls behind), or the rate is not proportional to [E]; initial rates from later windows will be biased."
         )
     } else {
-        format!("Selwyn's test at {condition}: the progress curves superimpose against [E]·t within the noise or within 5% ({numbers}).")
+        format!(
+            "Selwyn's test at {condition}: the progress curves superimpose against [E]·t within the noise or within 5% ({numbers})."
+        )
     };
     let series: Vec<Series> = traces
         .iter()
@@ -210,8 +221,16 @@ fn one_group(s: Option<f64>, i: Option<f64>, traces: Vec<Trace>, analysis: &Trac
             let own_offset = b_separate[4 * kk];
             Series {
                 label: format!("{}, [E] = {}", t.name, t.e),
-                points: t.u.iter().zip(&t.y).map(|(&u, &y)| PlotPoint { row: kk, x: u, y: y - offset, excluded: false }).collect(),
-                curve: (0..=60).map(|j| common * j as f64 / 60.0).map(|u| (u, own_offset - offset + cubic(&c, u / common))).collect(),
+                points: t
+                    .u
+                    .iter()
+                    .zip(&t.y)
+                    .map(|(&u, &y)| PlotPoint { row: kk, x: u, y: y - offset, excluded: false })
+                    .collect(),
+                curve: (0..=60)
+                    .map(|j| common * j as f64 / 60.0)
+                    .map(|u| (u, own_offset - offset + cubic(&c, u / common)))
+                    .collect(),
                 dashed: false,
             }
         })
@@ -232,7 +251,8 @@ fn one_group(s: Option<f64>, i: Option<f64>, traces: Vec<Trace>, analysis: &Trac
         zero_line: false,
         segments: Vec::new(),
         spots: Vec::new(),
-        note: "Each trace's offset removed (shared fit); solid: each trace's own cubic, dashed: the shared cubic.".into(),
+        note: "Each trace's offset removed (shared fit); solid: each trace's own cubic, dashed: the shared cubic."
+            .into(),
         series,
         log_x: false,
         marks: Vec::new(),

@@ -10,8 +10,8 @@
 //! The sharing patterns fitted: all separate; each constant shared in turn
 //! (the others separate); all shared; and, when it is none of these, the
 //! pattern the verdict chooses (differing constants separate, the others
-//! shared), whose curves are drawn. Every pattern is one least-squares
-//! problem on the stacked data with one residual variance, so the
+//! shared), whose curves are drawn. Every pattern is one (weighted)
+//! least-squares problem on the stacked data with one residual variance, so the
 //! extra-sum-of-squares F test applies
 //! ([`crate::compare::f_test`]; approximate for a nonlinear model).
 //!
@@ -62,6 +62,9 @@ pub struct SetsRequest {
     pub fixed_top: Option<f64>,
     /// A fixed bottom plateau for `ic50`.
     pub fixed_bottom: Option<f64>,
+    /// How the responses are weighted: uniform, relative (1/y²) or poisson
+    /// (1/y); `sd` is refused (the table has no sd column). Default uniform.
+    pub weighting: crate::weighting::Weighting,
 }
 
 impl Default for SetsRequest {
@@ -74,6 +77,7 @@ impl Default for SetsRequest {
             enzyme: None,
             fixed_top: None,
             fixed_bottom: None,
+            weighting: crate::weighting::Weighting::Uniform,
         }
     }
 }
@@ -279,6 +283,7 @@ struct SetData {
     x: Vec<Vec<f64>>,
     set: Vec<usize>,
     y: Vec<f64>,
+    w: Vec<f64>,
     line: Vec<usize>,
     x_label: String,
     y_label: String,
@@ -321,6 +326,7 @@ fn read_sets(request: &SetsRequest, predictors: usize, problems: &mut Vec<InputP
         x: Vec::new(),
         set: Vec::new(),
         y: Vec::new(),
+        w: Vec::new(),
         line: Vec::new(),
         x_label: label(data_columns[0]),
         y_label: label(data_columns[predictors]),
@@ -340,9 +346,24 @@ fn read_sets(request: &SetsRequest, predictors: usize, problems: &mut Vec<InputP
         let values: Option<Vec<f64>> = data_columns.iter().map(|&c| row.cells.get(c).copied().flatten()).collect();
         let Some(values) = values else {
             if !problems.iter().any(|p| p.line == row.line) {
-                problems.push(InputProblem { line: row.line, column: None, message: "a number is missing; the row was left out".into() });
+                problems.push(InputProblem {
+                    line: row.line,
+                    column: None,
+                    message: "a number is missing; the row was left out".into(),
+                });
             }
             continue;
+        };
+        let weight = match request.weighting.weight(values[predictors], None) {
+            Ok(w) => w,
+            Err(message) => {
+                problems.push(InputProblem {
+                    line: row.line,
+                    column: Some(data_columns[predictors] + 1),
+                    message: format!("{message}; the row was left out"),
+                });
+                continue;
+            }
         };
         let k = match data.names.iter().position(|n| *n == name) {
             Some(k) => k,
@@ -354,6 +375,7 @@ fn read_sets(request: &SetsRequest, predictors: usize, problems: &mut Vec<InputP
         data.x.push(values[..predictors].to_vec());
         data.set.push(k);
         data.y.push(values[predictors]);
+        data.w.push(weight);
         data.line.push(row.line);
     }
     problems.sort_by_key(|p| (p.line, p.column));
@@ -377,16 +399,27 @@ fn observations(data: &SetData, predictors: usize, only: Option<usize>) -> Resul
         }
     }
     let width = if only.is_none() { predictors + 1 } else { predictors };
-    Observations::new(width, x, rows.iter().map(|&i| data.y[i]).collect(), None)
+    Observations::new(
+        width,
+        x,
+        rows.iter().map(|&i| data.y[i]).collect(),
+        Some(rows.iter().map(|&i| data.w[i]).collect()),
+    )
 }
 
 /// Compares the sets of one table; see the module documentation.
 pub fn compare_sets(request: &SetsRequest) -> Result<SetsAnalysis, Error> {
-    let options = ModelOptions { enzyme: request.enzyme, fixed_top: request.fixed_top, fixed_bottom: request.fixed_bottom };
+    let options =
+        ModelOptions { enzyme: request.enzyme, fixed_top: request.fixed_top, fixed_bottom: request.fixed_bottom };
     let base = model_with_options(&request.model, &options)?;
     let base = base.as_ref();
     let m = base.predictors();
     let q = base.parameters().len();
+    if request.weighting == crate::weighting::Weighting::Sd {
+        return Err(Error::invalid_option(
+            "weighting by sd needs an sd column, which the set comparison does not read; use constant, proportional or sqrt",
+        ));
+    }
     let mut problems = Vec::new();
     let data = read_sets(request, m, &mut problems)?;
     let k_sets = data.names.len();
@@ -416,7 +449,9 @@ pub fn compare_sets(request: &SetsRequest) -> Result<SetsAnalysis, Error> {
             warnings.push(format!("The fit of set '{name}' alone did not converge."));
         }
         per_set.push(fit.values().to_vec());
-        sets.push(SetFit { name: name.clone(), n: obs.len(), fit: fit.summary });
+        let mut summary = fit.summary;
+        summary.weighting = request.weighting.name().to_string();
+        sets.push(SetFit { name: name.clone(), n: obs.len(), fit: summary });
     }
     let all = observations(&data, m, None)?;
     let names: Vec<&str> = base.parameters().iter().map(|s| s.name).collect();
@@ -437,7 +472,10 @@ pub fn compare_sets(request: &SetsRequest) -> Result<SetsAnalysis, Error> {
             let fit = fit_model(&model, &all, Some(start), &settings)?;
             let better = match &best {
                 None => true,
-                Some(b) => (fit.summary.converged && !b.summary.converged) || (fit.summary.converged == b.summary.converged && fit.summary.rss < b.summary.rss),
+                Some(b) => {
+                    (fit.summary.converged && !b.summary.converged)
+                        || (fit.summary.converged == b.summary.converged && fit.summary.rss < b.summary.rss)
+                }
             };
             if better {
                 best = Some(fit);
@@ -448,6 +486,7 @@ pub fn compare_sets(request: &SetsRequest) -> Result<SetsAnalysis, Error> {
             estimate.name = label;
         }
         fit.summary.model = name.clone();
+        fit.summary.weighting = request.weighting.name().to_string();
         let pattern = PatternFit {
             name,
             shared: names.iter().zip(shared).filter(|(_, s)| **s).map(|(n, _)| n.to_string()).collect(),
@@ -561,7 +600,13 @@ fn set_ratio(fit: &Fit, names: &[String], q: usize, j: usize, k: usize, referenc
     let a = fit.values()[j * sets + k];
     let b = fit.values()[j * sets + reference];
     let se = |g: usize| fit.covariance.as_ref().map(|c| c[(g, g)].sqrt()).filter(|v| v.is_finite());
-    let mut out = SetRatio { set: names[k].clone(), reference: names[reference].clone(), value: None, ci_low: None, ci_high: None };
+    let mut out = SetRatio {
+        set: names[k].clone(),
+        reference: names[reference].clone(),
+        value: None,
+        ci_low: None,
+        ci_high: None,
+    };
     if a == 0.0 || b == 0.0 || a.signum() != b.signum() {
         return out;
     }
@@ -601,7 +646,9 @@ fn constant_text(name: &str, differs: bool, test: Option<&FTest>, ratio: &[SetRa
     let ratios = ratio
         .iter()
         .map(|r| match (r.value, r.ci_low, r.ci_high) {
-            (Some(v), Some(lo), Some(hi)) => format!("{}/{} = {} ({}–{})", r.set, r.reference, short(v), short(lo), short(hi)),
+            (Some(v), Some(lo), Some(hi)) => {
+                format!("{}/{} = {} ({}–{})", r.set, r.reference, short(v), short(lo), short(hi))
+            }
             (Some(v), _, _) => format!("{}/{} = {}", r.set, r.reference, short(v)),
             _ => format!("{}/{}: no ratio (values of different sign or zero)", r.set, r.reference),
         })
@@ -699,7 +746,8 @@ mod tests {
     fn set_model_gradient_matches_finite_differences() {
         let base = crate::models::model_by_name("mm").unwrap();
         let model = SetModel::new(base.as_ref(), 2, &[false, true], "test".into());
-        let data = Observations::new(2, vec![1.0, 0.0, 5.0, 1.0, 20.0, 0.0, 50.0, 1.0], vec![1.0, 2.0, 3.0, 4.0], None).unwrap();
+        let data = Observations::new(2, vec![1.0, 0.0, 5.0, 1.0, 20.0, 0.0, 50.0, 1.0], vec![1.0, 2.0, 3.0, 4.0], None)
+            .unwrap();
         assert!(gradient_disagreement(&model, &data, &[10.0, 5.0, 8.0]) < 1e-6);
     }
 
@@ -726,10 +774,29 @@ mod tests {
     }
 
     #[test]
+    fn relative_weights_reach_every_fit() {
+        let request = SetsRequest {
+            text: two_sets(),
+            weighting: crate::weighting::Weighting::Relative,
+            ..SetsRequest::default()
+        };
+        let analysis = compare_sets(&request).unwrap();
+        assert_eq!(analysis.sets[0].fit.weighting, "relative");
+        assert_eq!(analysis.models[1].fit.weighting, "relative");
+        // The weighted all-separate RSS is the sum of the sets' own weighted RSS.
+        let sum: f64 = analysis.sets.iter().map(|s| s.fit.rss).sum();
+        assert!((analysis.models[0].rss - sum).abs() <= 1e-8 * sum);
+        // Relative residuals here are at most 3%, so the weighted RSS is small.
+        assert!(analysis.models[0].rss < 0.01, "{}", analysis.models[0].rss);
+        assert!(compare_sets(&SetsRequest { weighting: crate::weighting::Weighting::Sd, ..request }).is_err());
+    }
+
+    #[test]
     fn refuses_one_set_and_unknown_reference() {
         let one = "set,S,v\na,1,1\na,2,1.5\na,4,2\na,8,2.4\n";
         assert!(compare_sets(&SetsRequest { text: one.into(), ..SetsRequest::default() }).is_err());
-        let e = compare_sets(&SetsRequest { text: two_sets(), reference: Some("nope".into()), ..SetsRequest::default() });
+        let e =
+            compare_sets(&SetsRequest { text: two_sets(), reference: Some("nope".into()), ..SetsRequest::default() });
         assert!(e.unwrap_err().message.contains("no set 'nope'"));
     }
 }
