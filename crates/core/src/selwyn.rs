@@ -66,6 +66,9 @@ pub struct SelwynCheck {
     pub plot: PlotData,
 }
 
+/// [S] and [I] of a group.
+type Condition = (Option<f64>, Option<f64>);
+
 struct Trace {
     name: String,
     e: f64,
@@ -89,7 +92,7 @@ fn least_squares(x: &DMatrix<f64>, y: &DVector<f64>) -> Option<(DVector<f64>, f6
 /// two or more distinct [E]; traces with fewer than 6 readings in the
 /// common range are left out of their group.
 pub fn selwyn_checks(analysis: &TraceAnalysis) -> Vec<SelwynCheck> {
-    let mut groups: Vec<((Option<f64>, Option<f64>), Vec<Trace>)> = Vec::new();
+    let mut groups: Vec<(Condition, Vec<Trace>)> = Vec::new();
     for trace in &analysis.traces {
         if trace.role != Role::Sample || trace.excluded {
             continue;
