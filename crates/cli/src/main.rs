@@ -1,7 +1,8 @@
 //! The `turnover` command: glue between files and `turnover-core`.
 //!
 //! Every number printed here comes from the core (`analyse_rates`,
-//! `analyse_inhibition`, `analyse_dose`, `analyse_traces`, `fit_progress`),
+//! `analyse_inhibition`, `analyse_dose`, `analyse_traces`, `fit_progress`,
+//! `compare_sets`, `inactivation_from_traces`),
 //! the same functions the page calls. Arguments are read by clap (derive).
 //! Exit codes are decided in one place, [`main`]: 0 success, 1 the output
 //! could not be written, 2 bad input or usage, 3 the fit did not converge
@@ -9,7 +10,9 @@
 //! run quietly with 0.
 
 mod batch;
+mod inactivation;
 mod output;
+mod sets;
 mod traces;
 
 use clap::builder::{PossibleValue, PossibleValuesParser};
@@ -60,6 +63,12 @@ enum Command {
     Rates(traces::TraceOptions),
     /// Integrated Michaelis-Menten fit to whole time courses
     FitProgress(traces::TraceOptions),
+    /// Do the constants differ between data sets? Global fits with each
+    /// constant shared or separate, F tests, ratios to a reference set
+    CompareSets(sets::SetsOptions),
+    /// Time-dependent inhibition from progress curves: kobs per trace,
+    /// then kinact, KI and kinact/KI from kobs against [I]
+    Inactivation(inactivation::InactivationOptions),
 }
 
 /// Options every fit of a table shares.
@@ -196,14 +205,14 @@ struct CompareOptions {
 
 /// The model names, with the core's long alias `michaelis-menten` for `mm`
 /// accepted but not listed.
-fn model_names() -> PossibleValuesParser {
+pub(crate) fn model_names() -> PossibleValuesParser {
     let mut values: Vec<PossibleValue> = MODEL_NAMES.iter().map(|m| PossibleValue::new(*m)).collect();
     values.push(PossibleValue::new("michaelis-menten").hide(true));
     PossibleValuesParser::new(values)
 }
 
 /// The weighting names, the earlier ones hidden but accepted.
-fn weighting_names() -> PossibleValuesParser {
+pub(crate) fn weighting_names() -> PossibleValuesParser {
     let mut values: Vec<PossibleValue> =
         Weighting::ALL.iter().map(|w| PossibleValue::new(w.option_name()).help(w.describe())).collect();
     values.extend(
@@ -214,7 +223,7 @@ fn weighting_names() -> PossibleValuesParser {
 
 /// Reads a number option with the tables' rule: a decimal point or comma,
 /// and a value such as `1,000` refused as ambiguous.
-fn option_number(text: &str) -> Result<f64, String> {
+pub(crate) fn option_number(text: &str) -> Result<f64, String> {
     read_lone_number(text)
 }
 
@@ -246,6 +255,8 @@ fn main() -> ExitCode {
         Command::Compare(options) => compare(options),
         Command::Rates(options) => traces::rates(options),
         Command::FitProgress(options) => traces::fit_progress_command(options),
+        Command::CompareSets(options) => sets::compare_sets_command(options),
+        Command::Inactivation(options) => inactivation::inactivation_command(options),
     };
     match result {
         Ok(code) => code,

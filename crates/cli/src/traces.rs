@@ -75,14 +75,14 @@ fn preset_names() -> clap::builder::PossibleValuesParser {
     clap::builder::PossibleValuesParser::new(PRESETS.iter().map(|p| clap::builder::PossibleValue::new(p.key)))
 }
 
-struct Prepared {
-    command: &'static str,
-    file: String,
-    json: bool,
-    request: TraceRequest,
+pub(crate) struct Prepared {
+    pub(crate) command: &'static str,
+    pub(crate) file: String,
+    pub(crate) json: bool,
+    pub(crate) request: TraceRequest,
 }
 
-fn prepare(command: &'static str, options: TraceOptions) -> Result<Prepared, Failure> {
+pub(crate) fn prepare(command: &'static str, options: TraceOptions) -> Result<Prepared, Failure> {
     let mut request = TraceRequest::default();
     if options.falls {
         request.direction = Direction::Falls;
@@ -135,7 +135,7 @@ fn prepare(command: &'static str, options: TraceOptions) -> Result<Prepared, Fai
     Ok(Prepared { command, file: options.file, json: options.json, request })
 }
 
-fn analyse(command: &'static str, args: &Prepared) -> Result<TraceAnalysis, Failure> {
+pub(crate) fn analyse(command: &'static str, args: &Prepared) -> Result<TraceAnalysis, Failure> {
     let analysis = analyse_traces(&args.request).map_err(|e| Failure::Input(e.message))?;
     // A --window or --exclude naming no trace would do nothing; on the
     // command line that is a mistake to refuse, not a note to skim past.
@@ -204,10 +204,43 @@ pub fn rates(options: TraceOptions) -> Result<ExitCode, Failure> {
             standard: &'a Option<turnover_core::traces::StandardCurve>,
             rate_table: &'a str,
             rate_links: &'a [turnover_core::traces::RateLink],
+            selwyn: Vec<SelwynJson<'a>>,
             problems: &'a [turnover_core::table::InputProblem],
             notes: &'a [String],
             caution: &'a str,
         }
+        /// Selwyn's test without its plot data (the page draws that).
+        #[derive(Serialize)]
+        struct SelwynJson<'a> {
+            s: Option<f64>,
+            i: Option<f64>,
+            traces: &'a [(String, f64)],
+            common_et: f64,
+            n: usize,
+            f: f64,
+            df: (usize, usize),
+            p_value: f64,
+            departure: f64,
+            flagged: bool,
+            message: &'a str,
+        }
+        let selwyn = analysis
+            .selwyn
+            .iter()
+            .map(|c| SelwynJson {
+                s: c.s,
+                i: c.i,
+                traces: &c.traces,
+                common_et: c.common_et,
+                n: c.n,
+                f: c.f,
+                df: c.df,
+                p_value: c.p_value,
+                departure: c.departure,
+                flagged: c.flagged,
+                message: &c.message,
+            })
+            .collect();
         let traces = analysis
             .traces
             .iter()
@@ -248,6 +281,7 @@ pub fn rates(options: TraceOptions) -> Result<ExitCode, Failure> {
             standard: &analysis.standard,
             rate_table: &analysis.rate_table,
             rate_links: &analysis.rate_links,
+            selwyn,
             problems: &analysis.problems,
             notes: &analysis.notes,
             caution: &analysis.caution,
@@ -281,6 +315,9 @@ pub fn rates(options: TraceOptions) -> Result<ExitCode, Failure> {
         text.push_str(&format!("\nrates in {}\n", analysis.rate_unit));
         for t in analysis.traces.iter().filter(|t| t.flags.iter().any(|f| f == "wrong-direction")) {
             text.push_str(&format!("warning ({}): {}\n", t.name, t.messages.iter().find(|m| m.contains("declared")).map_or("", String::as_str)));
+        }
+        for check in &analysis.selwyn {
+            text.push_str(&format!("{}: {}\n", if check.flagged { "warning" } else { "check" }, check.message));
         }
         for note in &analysis.notes {
             text.push_str(&format!("note: {note}\n"));

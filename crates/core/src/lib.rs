@@ -41,6 +41,12 @@
 //! - [`compare`]: AICc ranking, Akaike weights, F tests, verdict.
 //! - [`errors`]: the error structure (constant, Poisson-like or relative)
 //!   and the weighting it suggests.
+//! - [`inactivation`]: time-dependent inhibition: kobs per progress curve,
+//!   kinact and KI from kobs against [I].
+//! - [`selwyn`]: Selwyn's test of enzyme stability from progress curves at
+//!   several [E].
+//! - [`sets`]: do constants differ between data sets? Global fits with
+//!   shared or separate constants, F tests, ratios with intervals.
 //!
 //! ```
 //! use turnover_core::rates::{analyse_rates, RateRequest};
@@ -68,6 +74,7 @@ pub mod dose;
 pub mod error;
 pub mod fit;
 pub mod format;
+pub mod inactivation;
 pub mod inhibition;
 pub mod intervals;
 pub mod lambert;
@@ -80,6 +87,8 @@ pub mod random;
 pub mod rates;
 pub mod read;
 pub mod robust;
+pub mod selwyn;
+pub mod sets;
 pub mod solver;
 pub mod table;
 pub mod traces;

@@ -58,6 +58,15 @@ pub enum PlotKind {
     /// The integrated Michaelis-Menten fit: readings and fitted curve per
     /// trace.
     ProgressCurves,
+    /// Several data sets, each in its own colour, with the curves of the
+    /// global fit that compares them.
+    Sets,
+    /// Progress curves with [I], each with its slow-binding fit.
+    InactivationTraces,
+    /// kobs against [I] with the hyperbola (or the line through the origin).
+    KobsReplot,
+    /// Product against [E]·t, one series per [E] (Selwyn's test).
+    Selwyn,
 }
 
 impl PlotKind {
@@ -95,6 +104,10 @@ impl PlotKind {
             PlotKind::TraceDetail => "trace-detail",
             PlotKind::RateAgainstEnzyme => "rate-against-enzyme",
             PlotKind::ProgressCurves => "progress-curves",
+            PlotKind::Sets => "sets",
+            PlotKind::InactivationTraces => "inactivation-traces",
+            PlotKind::KobsReplot => "kobs-replot",
+            PlotKind::Selwyn => "selwyn",
         }
     }
 
@@ -115,7 +128,14 @@ impl PlotKind {
         PlotKind::ALL
             .into_iter()
             .chain(PlotKind::INHIBITION)
-            .chain([PlotKind::DoseResponse, PlotKind::Morrison])
+            .chain([
+                PlotKind::DoseResponse,
+                PlotKind::Morrison,
+                PlotKind::Sets,
+                PlotKind::InactivationTraces,
+                PlotKind::KobsReplot,
+                PlotKind::Selwyn,
+            ])
             .chain([PlotKind::TraceDetail, PlotKind::RateAgainstEnzyme, PlotKind::ProgressCurves])
             .find(|k| k.name() == name)
     }

@@ -393,6 +393,9 @@ pub struct TraceAnalysis {
     pub rate_table: String,
     /// Where each row of the rate table came from.
     pub rate_links: Vec<RateLink>,
+    /// Selwyn's test for every [S] (and [I]) with two or more [E]
+    /// ([`crate::selwyn`]).
+    pub selwyn: Vec<crate::selwyn::SelwynCheck>,
     /// The standing caution.
     pub caution: String,
 }
@@ -1427,7 +1430,7 @@ pub fn analyse_traces_with(request: &TraceRequest, progress: &mut dyn FnMut(usiz
     }
     problems.sort_by_key(|p| (p.line, p.column));
 
-    Ok(TraceAnalysis {
+    let mut analysis = TraceAnalysis {
         blocks: raw.blocks.clone(),
         time_unit: time_symbol.to_string(),
         value_unit: value_unit.clone(),
@@ -1442,8 +1445,11 @@ pub fn analyse_traces_with(request: &TraceRequest, progress: &mut dyn FnMut(usiz
         enzyme_checks,
         rate_table,
         rate_links,
+        selwyn: Vec::new(),
         caution: CAUTION.to_string(),
-    })
+    };
+    analysis.selwyn = crate::selwyn::selwyn_checks(&analysis);
+    Ok(analysis)
 }
 
 /// Sentences for each window or left-out trace that names no trace of the

@@ -17,6 +17,7 @@ mod draw;
 mod figures;
 mod format;
 mod inhibition;
+mod sets;
 mod traces;
 
 use plotters::prelude::*;
@@ -30,6 +31,7 @@ pub use dose::{is_dose_table, DoseBench};
 pub use draw::{draw_plot, Drawn, FigureOptions, PlotArea, PointPosition};
 pub use figures::TraceFigures;
 pub use inhibition::{is_inhibition_table, InhibitionBench};
+pub use sets::{compare_sets_json, inactivation_json, SetsBench};
 pub use traces::TraceBench;
 
 /// Holds the most recent analysis for drawing.

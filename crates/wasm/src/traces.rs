@@ -71,6 +71,18 @@ impl TraceBench {
         let fit = fit_progress_with(analysis, &mut report).map_err(|e| JsError::new(&e.message))?;
         serde_json::to_string(&fit).map_err(|e| JsError::new(&format!("internal error while returning a result: {e}")))
     }
+
+    /// Time-dependent inhibition from the last analysis's traces with [I]
+    /// > 0, as the JSON text of an `InactivationAnalysis`. `substrate` and
+    /// `km` (same unit, both or neither; `undefined` for neither) apply the
+    /// substrate-competition correction KI = KI_app/(1 + [S]/Km).
+    #[wasm_bindgen(js_name = inactivationJson)]
+    pub fn inactivation_json(&self, substrate: Option<f64>, km: Option<f64>) -> Result<String, JsError> {
+        let analysis = self.last.as_ref().ok_or_else(|| JsError::new("analyse the traces first"))?;
+        let result = turnover_core::inactivation::inactivation_from_traces(analysis, substrate, km)
+            .map_err(|e| JsError::new(&e.message))?;
+        serde_json::to_string(&result).map_err(|e| JsError::new(&format!("internal error while returning a result: {e}")))
+    }
 }
 
 /// The chromophore presets with their sources.
