@@ -140,6 +140,8 @@ function rateRequest(doc) {
     enzyme,
     enzyme_unit: enzymeUnit,
     excluded_lines: [...r.excluded_lines],
+    // One replicate of a line that holds several (replicates in columns).
+    excluded_cells: r.excluded_cells.map((key) => key.split(':').map(Number)),
     weighting: r.weighting,
     interval_method: r.interval_method,
     bootstrap: {
@@ -445,7 +447,7 @@ function showPoints(result) {
     const num = (x, digits = 4) => element('td', { class: 'num' }, x === null || x === undefined ? '—' : formatNumber(x, digits));
     row.append(element('td', {}, `${p.line}${p.flagged ? ' ⚑' : ''}`), num(p.s), num(p.v), num(p.fitted), num(p.residual, 3),
       num(p.studentised, 3), num(p.leverage, 3), num(p.weight, 3), element('td', {}, p.excluded ? 'left out' : 'used'));
-    row.addEventListener('click', () => workspace.dispatch({ type: 'toggle point', section: 'rates', line: p.line }));
+    row.addEventListener('click', () => togglePoint(p));
     return row;
   });
   if (shown.length < result.points.length) {
@@ -911,7 +913,15 @@ function nearestPoint(canvas, positions, event) {
 function toggleAt(canvas, event) {
   if (!state.result || !rates.fresh()) return;
   const best = nearestPoint(canvas, state.positions[canvas.dataset.kind], event);
-  if (best) workspace.dispatch({ type: 'toggle point', section: 'rates', line: state.result.points[best.row].line });
+  if (best) togglePoint(state.result.points[best.row]);
+}
+
+/** Leaves one point out or brings it back: its line, or its cell when the
+ *  line holds several replicates. */
+function togglePoint(point) {
+  const shared = state.result.points.filter((p) => p.line === point.line).length > 1;
+  if (shared && point.column) workspace.dispatch({ type: 'toggle cell', section: 'rates', cell: `${point.line}:${point.column}` });
+  else workspace.dispatch({ type: 'toggle point', section: 'rates', line: point.line });
 }
 
 /** One fit record as tab-separated lines: a header, one row per constant,

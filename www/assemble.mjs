@@ -25,6 +25,39 @@ if (!pkgDir || !outFile) {
 }
 
 const read = (path) => readFileSync(path, 'utf8');
+// The page's own modules travel without their whole-line comments (the
+// sources in www/ keep them): a line whose first characters are `//`, or a
+// block comment that starts a line, outside any template literal. Nothing
+// else changes, so line-level behaviour is the source's.
+function withoutCommentLines(text) {
+  const kept = [];
+  let inTemplate = false;
+  let inBlock = false;
+  for (const line of text.split('\n')) {
+    const trimmed = line.trim();
+    if (!inTemplate) {
+      if (inBlock) {
+        if (trimmed.includes('*/')) {
+          inBlock = false;
+          if (!trimmed.endsWith('*/')) kept.push(line);
+        }
+        continue;
+      }
+      if (trimmed.startsWith('//')) continue;
+      if (trimmed.startsWith('/*')) {
+        if (!trimmed.includes('*/')) inBlock = true;
+        else if (!trimmed.endsWith('*/')) kept.push(line);
+        continue;
+      }
+    }
+    kept.push(line);
+    // Backticks not escaped open or close a template literal.
+    const ticks = (line.replace(/\\./g, '').match(/`/g) ?? []).length;
+    if (ticks % 2 === 1) inTemplate = !inTemplate;
+  }
+  return kept.join('\n');
+}
+
 // Text placed inside a <script> element must not close it early.
 const scriptSafe = (text) => text.replace(/<\/script/gi, '<\\/script').replace(/<!--/g, '<\\!--');
 
@@ -53,7 +86,7 @@ if (appBlock) {
     process.exit(1);
   }
   blocks.app = sources
-    .map((name) => `<script type="module">\n${scriptSafe(read(join(here, name)))}\n</script>`)
+    .map((name) => `<script type="module">\n${scriptSafe(withoutCommentLines(read(join(here, name))))}\n</script>`)
     .join('\n');
 }
 for (const [name, replacement] of Object.entries(blocks)) {

@@ -26,7 +26,7 @@ const DEFAULTS = {
   rates: {
     text: '', substrate_unit: '', rate_unit: '', enzyme: '', enzyme_unit: 'nM',
     weighting: 'uniform', interval_method: 'asymptotic', resamples: '2000', seed: '1', resample_by: 'residual',
-    compare_laws: false, excluded_lines: [],
+    compare_laws: false, excluded_lines: [], excluded_cells: [],
   },
   inhibition: { text: '', rate_unit: '', excluded_lines: [], excluded_cells: [] },
   dose: {
@@ -44,7 +44,7 @@ const DEFAULTS = {
  *  results). Settings such as weighting are the person's choice and stay. */
 const DEMO_FIELDS = {
   assay: Object.keys(DEFAULTS.assay),
-  rates: ['text', 'substrate_unit', 'rate_unit', 'enzyme', 'enzyme_unit', 'excluded_lines'],
+  rates: ['text', 'substrate_unit', 'rate_unit', 'enzyme', 'enzyme_unit', 'excluded_lines', 'excluded_cells'],
   inhibition: ['text', 'rate_unit', 'excluded_lines', 'excluded_cells'],
   dose: ['text', 'enzyme', 'cp_mechanism', 'cp_substrate', 'cp_km', 'cp_km_se', 'excluded_lines'],
   traces: Object.keys(DEFAULTS.traces),
@@ -121,7 +121,7 @@ function withoutDemo(doc) {
 
 /** Exclusions name lines of a section's table; a new table clears them. */
 function clearExclusions(doc, section) {
-  if (section === 'inhibition') return setPath(setPath(doc, 'inhibition.excluded_lines', []), 'inhibition.excluded_cells', []);
+  if (section === 'inhibition' || section === 'rates') return setPath(setPath(doc, `${section}.excluded_lines`, []), `${section}.excluded_cells`, []);
   return setPath(doc, `${section}.excluded_lines`, []);
 }
 
@@ -151,12 +151,12 @@ export function applyEdit(doc, edit) {
     }
     case 'toggle point':
       return setPath(doc, `${edit.section}.excluded_lines`, toggled(get(doc, `${edit.section}.excluded_lines`), edit.line));
-    case 'toggle cell':
-      return setPath(doc, 'inhibition.excluded_cells', toggled(doc.inhibition.excluded_cells, edit.cell));
+    case 'toggle cell': {
+      const section = edit.section ?? 'inhibition';
+      return setPath(doc, `${section}.excluded_cells`, toggled(doc[section].excluded_cells, edit.cell));
+    }
     case 'use all points':
-      return edit.section === 'inhibition'
-        ? setPath(setPath(doc, 'inhibition.excluded_lines', []), 'inhibition.excluded_cells', [])
-        : setPath(doc, `${edit.section}.excluded_lines`, []);
+      return clearExclusions(doc, edit.section);
     case 'set window':
       return setPath(doc, 'traces.windows', { ...doc.traces.windows, [edit.trace]: [Math.min(edit.start, edit.end), Math.max(edit.start, edit.end)] });
     case 'automatic window': {
