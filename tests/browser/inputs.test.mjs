@@ -148,3 +148,51 @@ test('the inhibitor-series section shows every problem the core reports, such as
   assert.deepEqual(errors, []);
   await page.close();
 });
+
+// The awkward inputs of the command line's table (crates/cli/tests), in
+// the page: each gives a message that says what is wrong (or a fit, for
+// inputs that are fine), the text stays in the document as typed, and no
+// number shown is "NaN" or "Infinity".
+const AWKWARD = [
+  ['empty input', '', /No table yet/],
+  ['one point', 'S\tv\n1\t2\n', /only 1 usable point/],
+  ['fewer points than parameters', 'S\tv\n1\t2\n2\t3\n', /only 2 usable point/],
+  ['all [S] equal', 'S\tv\n1\t2\n1\t2.1\n1\t1.9\n', /only 1 distinct \[S\]/],
+  ['all rates equal', 'S\tv\n1\t5\n2\t5\n4\t5\n8\t5\n', /every response is 5/],
+  ['negative rates', 'S\tv\n1\t-1\n2\t-2\n3\t-2.5\n', /positive/],
+  ['NaN, Inf, n/a and dash cells', `${TABLE}300\tNaN\n400\tInf\n500\tn/a\n600\t—\n`, /line 9, column 2.*line 10, column 2.*line 11, column 2.*line 12, column 2/s],
+  ['a ragged row', `${TABLE}300\n`, /line 9: expected 2 columns, found 1/],
+  ['an unknown unit', '[S] (furlongs)\tv (µM/min)\n1\t2\n2\t3\n5\t4\n10\t4.5\n', /furlongs/],
+  ['binary garbage', '\u0000\u0001\u0002\u00ff\u00fe\n\u0007\u0008', /./],
+];
+
+test('awkward tables give a message that says what is wrong, and nothing non-finite is shown', { timeout: 120_000 }, async () => {
+  const { page, errors } = await open();
+  for (const [what, text, expected] of AWKWARD) {
+    await page.fill('#data-input', text);
+    const shown = await page.evaluate(() => {
+      window.turnover.analyse();
+      return {
+        status: document.querySelector('#status').textContent,
+        problems: document.querySelector('#input-problems').textContent,
+        params: document.querySelector('#parameters').textContent,
+        stats: document.querySelector('#fit-stats').textContent,
+        kept: window.turnover.doc().rates.text,
+      };
+    });
+    assert.match(`${shown.status} ${shown.problems}`, expected, what);
+    assert.equal(shown.kept, text, `${what}: the text is kept as typed`);
+    assert.doesNotMatch(`${shown.params} ${shown.stats}`, /NaN|Infinity/, `${what}: nothing non-finite is shown`);
+  }
+  // Values from 1e-15 to 1e15 are read and fitted (concentrations in M,
+  // rates in M/s of an invented enzyme), with nothing non-finite shown.
+  await page.fill('#data-input', '[S] (M)\tv (M/s)\n1e-15\t3.1e-16\n1e-12\t2.9e-13\n1e-9\t2.4e-10\n1e-6\t1.2e-7\n1e-3\t1.5e-4\n1\t1.5e-4\n1e3\t1.5e-4\n1e15\t1.5e-4\n');
+  const wide = await page.evaluate(() => {
+    window.turnover.analyse();
+    return { status: document.querySelector('#status').textContent, text: document.querySelector('#parameters').textContent };
+  });
+  assert.doesNotMatch(wide.text, /NaN|Infinity/);
+  assert.ok(wide.status.length > 10, wide.status);
+  assert.deepEqual(errors, []);
+  await page.close();
+});

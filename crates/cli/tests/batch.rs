@@ -121,7 +121,9 @@ fn one_table(curve: &Simulated) -> String {
 /// record's fields only.
 fn fit_fields(record: &Value) -> Value {
     let mut map = record.as_object().unwrap().clone();
-    for key in ["curve", "pic50", "flags", "problems", "notes", "error", "units", "points", "points_omitted", "caution"] {
+    // The per-concentration summary of the data (`replicates`) is not part
+    // of the fit; the one-curve JSON carries it, the batch record does not.
+    for key in ["curve", "pic50", "flags", "problems", "notes", "error", "units", "points", "points_omitted", "caution", "replicates"] {
         map.remove(key);
     }
     Value::Object(map)

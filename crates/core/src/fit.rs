@@ -191,6 +191,17 @@ pub fn fit_model(model: &dyn Model, data: &Observations, start: Option<&[f64]>, 
             n_params + 1
         )));
     }
+    // Responses that are all the same carry no information about a
+    // curve's shape: a least-squares "fit" then reports constants at the
+    // edge of their range with a zero standard error, a false certainty.
+    let y = data.y();
+    if y.iter().all(|v| *v == y[0]) {
+        return Err(Error::invalid_data(format!(
+            "every response is {} (all {} of them): a flat line says nothing about the curve's constants; check that the right column was read as the rate or response",
+            y[0],
+            y.len()
+        )));
+    }
     let start = match start {
         Some(values) => values.to_vec(),
         None => model.initial_guess(data)?,

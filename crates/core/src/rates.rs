@@ -861,8 +861,14 @@ mod tests {
     /// `table` fuzz target). Now no lack-of-fit test is reported.
     #[test]
     fn exact_replicates_give_no_lack_of_fit_test() {
-        let analysis = analyse_rates(&request("S\tv\n1\t5\n1\t5\n2\t5\n2\t5\n3\t5\n3\t5\n")).unwrap();
+        // Replicates that agree exactly but a curve that does not pass
+        // through every mean: pure error 0, lack of fit above 0.
+        let analysis = analyse_rates(&request("S\tv\n1\t5\n1\t5\n2\t7\n2\t7\n4\t8.5\n4\t8.5\n8\t8.6\n8\t8.6\n")).unwrap();
         assert!(analysis.diagnostics.lack_of_fit.is_none());
+        // All rates equal (the input the fuzz target found): no curve to fit,
+        // said in words instead of constants with a false zero error.
+        let flat = analyse_rates(&request("S\tv\n1\t5\n1\t5\n2\t5\n2\t5\n3\t5\n3\t5\n")).unwrap_err();
+        assert!(flat.message.contains("every response is 5"), "{}", flat.message);
     }
 
     /// Fatal inputs and the message each must give.
