@@ -355,8 +355,13 @@ pub fn bootstrap(model: &dyn Model, data: &Observations, fit: &Fit, settings: &B
                     failures += 1;
                     continue;
                 }
-                let report = minimise(model, &reused, best, &SolverSettings::default());
+                // The same refit (weights from the curve when the fit had
+                // them) and the same record as the case scheme below: the
+                // studentised interval needs each refit's covariance.
+                let report = refit(model, &reused, fit, best);
                 if report.converged {
+                    let variance = report.rss / (n - p) as f64;
+                    covariances.push(unscaled_covariance(&report.jacobian).map(|c| c * variance));
                     estimates.push(report.parameters);
                 } else {
                     failures += 1;
