@@ -174,7 +174,7 @@ test('awkward tables give a message that says what is wrong, and nothing non-fin
       window.turnover.analyse();
       return {
         status: document.querySelector('#status').textContent,
-        problems: document.querySelector('#input-problems').textContent,
+        problems: `${document.querySelector('#input-problems').textContent} ${document.querySelector('#notes').textContent}`,
         params: document.querySelector('#parameters').textContent,
         stats: document.querySelector('#fit-stats').textContent,
         kept: window.turnover.doc().rates.text,
