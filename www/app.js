@@ -98,6 +98,17 @@ function typedNumber(text) {
 /** The rate section's settings as the core's request, from the document
  *  alone; `problems` lists every field that could not be read as typed. */
 function rateRequest(doc) {
+  // Edits share unchanged parts, so one reading per version of `rates`
+  // serves every section's key in a render.
+  const cached = rateRequests.get(doc.rates);
+  if (cached) return cached;
+  const read = readRateRequest(doc);
+  rateRequests.set(doc.rates, read);
+  return read;
+}
+const rateRequests = new WeakMap();
+
+function readRateRequest(doc) {
   const r = doc.rates;
   const problems = [];
   // [E]t may carry its unit (`25 nM`), read as the command line reads --enzyme.

@@ -580,12 +580,6 @@ export class Workspace {
   }
 }
 
-/** Which of a document's fields changed between two versions. */
-export function changed(doc, previous, ...paths) {
-  if (!previous) return true;
-  return paths.some((path) => get(doc, path) !== get(previous, path));
-}
-
 export { get as getPath, DEFAULTS, UNTITLED, clone };
 
 // The page's other modules are inline scripts that cannot import this one;
@@ -594,6 +588,6 @@ if (typeof window !== 'undefined') {
   window.turnover = window.turnover ?? {};
   window.turnoverStore = {
     SCHEMA, FORMAT, LINK_LIMIT, TABLE_SECTIONS, blankDocument, applyEdit, validateDocument, readDocumentText, migrateSavedState,
-    Shelf, Workspace, linkFragment, fragmentText, changed, newId, getPath: get, clone, UNTITLED,
+    Shelf, Workspace, linkFragment, fragmentText, newId, getPath: get, clone, UNTITLED,
   };
 }

@@ -11,12 +11,6 @@ const COLOURS = {
   amber: '#d68a14', brick: '#b23a2e', line: '#d9d6cf', paper: '#fcfcfa',
 };
 
-// Short marks for the plate view; the full words are in the table.
-const FLAG_MARKS = {
-  depletion: 'D', nonlinear: 'C', 'over-range': 'O', 'few-points': 'F', noisy: 'N',
-  lag: 'L', burst: 'B', excluded: 'X', 'no-blank': '∅', 'wrong-direction': 'R',
-};
-
 const page = window.turnover;
 
 // What this section shows. The choices (windows, left-out traces, the
@@ -555,7 +549,17 @@ function drawAll() {
 
 // The key of what the analysis reads of the document (everything in the
 // time-course section except the whole-curve switch).
-const analysisKey = (doc) => JSON.stringify(traceRequest(doc));
+// One key per version of `doc.traces` (edits share unchanged parts), so an
+// edit elsewhere does not serialise a whole plate again.
+const analysisKeys = new WeakMap();
+function analysisKey(doc) {
+  let key = analysisKeys.get(doc.traces);
+  if (key === undefined) {
+    key = JSON.stringify(traceRequest(doc));
+    analysisKeys.set(doc.traces, key);
+  }
+  return key;
+}
 
 /** The analysis of the document as it is now: the shown one when it is
  *  current, else the one under way, else a new one. */
@@ -585,7 +589,7 @@ let pendingTimer = null;
 
 /** Renders the section from the document: re-analyses when what the
  *  analysis reads has changed, fits whole curves when asked. */
-function render(doc, typing) {
+function render(doc, previous, typing) {
   const key = analysisKey(doc);
   if (key !== traceState.resultKey && key !== running?.key) {
     if (typing) {
@@ -599,13 +603,13 @@ function render(doc, typing) {
     traceState.progress = null;
     traceState.progressKey = null;
     drawProgress();
-  } else if (traceState.result) {
-    // A change of view only (the left-out button's words, say).
+  } else if (traceState.result && previous && doc.traces.excluded !== previous.traces.excluded) {
+    // The left-out button's words follow the document.
     drawDetail();
   }
   $('traces-progress').textContent = doc.traces.whole_curve ? 'Stop fitting whole curves' : 'Fit whole curves';
   $('traces-panel').classList.toggle('no-data', !doc.traces.text.trim());
-  const preset = wasm_bindgen.tracePresets().find((p) => p.key === doc.traces.preset);
+  const preset = presets.find((p) => p.key === doc.traces.preset);
   $('tr-preset-source').textContent = preset ? `Source: ${preset.source}.` : '';
 }
 
@@ -703,8 +707,11 @@ page.addDemo('plate', {
   },
 });
 
+// The chromophore presets with their sources, read once from the core.
+let presets = [];
+
 function wire() {
-  const presets = wasm_bindgen.tracePresets();
+  presets = wasm_bindgen.tracePresets();
   const select = $('tr-preset');
   for (const p of presets) {
     const o = document.createElement('option');
@@ -850,7 +857,7 @@ function start() {
     fitting = null;
   });
   wire();
-  page.view((doc) => render(doc, page.isTyping()));
+  page.view((doc, previous) => render(doc, previous, page.isTyping()));
   // Start the worker while the page is idle, so that the first large plate
   // does not wait for it.
   setTimeout(startWorker, 200);

@@ -42,7 +42,9 @@ pub struct FormattedEstimate {
 const SMALL: f64 = 1e-3;
 const LARGE: f64 = 1e5;
 
-fn superscript(exponent: i32) -> String {
+/// Superscript digits for a power of ten (`-3` → `⁻³`), shared with the
+/// plots' tick labels.
+pub fn superscript(exponent: i32) -> String {
     exponent
         .to_string()
         .chars()

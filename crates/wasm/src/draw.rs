@@ -28,6 +28,7 @@ use plotters::prelude::*;
 use plotters::style::text_anchor::{HPos, Pos, VPos};
 use plotters::style::FontTransform;
 use serde::{Deserialize, Serialize};
+use turnover_core::format::superscript;
 use turnover_core::plots::traces::PlateView;
 use turnover_core::plots::{replicate_bars, PlotData, PlotKind, Spread};
 
@@ -204,27 +205,6 @@ pub fn nice_ticks(low: f64, high: f64, max_count: usize) -> (Vec<f64>, f64) {
     };
     let (first, last) = ((low / step + 1e-9).floor() as i64, (high / step - 1e-9).ceil() as i64);
     ((first..=last).map(|k| k as f64 * step).collect(), step)
-}
-
-/// Superscript digits for powers of ten.
-fn superscript(exponent: i32) -> String {
-    exponent
-        .to_string()
-        .chars()
-        .map(|c| match c {
-            '-' => '⁻',
-            '0' => '⁰',
-            '1' => '¹',
-            '2' => '²',
-            '3' => '³',
-            '4' => '⁴',
-            '5' => '⁵',
-            '6' => '⁶',
-            '7' => '⁷',
-            '8' => '⁸',
-            _ => '⁹',
-        })
-        .collect()
 }
 
 /// Labels for the ticks of one axis with the given step, in one notation
