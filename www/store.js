@@ -12,7 +12,7 @@
 // This module loads first. It owns no DOM beyond the analysis bar; it makes
 // no network request.
 
-export const SCHEMA = 2;
+export const SCHEMA = 3;
 export const FORMAT = 'turnover-document';
 
 // ------------------------------------------------------------ the shape
@@ -36,8 +36,16 @@ const DEFAULTS = {
   traces: {
     text: '', layout: '', conversion: 'epsilon', preset: '', epsilon: '', path: '', volume: '', diameter: '',
     direction: 'rises', limit: '', max_conversion: '10', standard: '', windows: {}, excluded: [], whole_curve: false, fit_v0: false,
+    inactivation: false, inact_substrate: '', inact_km: '',
   },
+  // The further questions: which one is shown, and each one's own table
+  // and options (schema 3).
+  further: { kind: 'sets' },
+  sets: { text: '', by: 'set', model: 'mm', reference: '', weighting: 'uniform' },
 };
+
+/** The questions the further-questions section can show. */
+export const FURTHER_KINDS = ['sets'];
 
 /** Fields a demo fills, per section: when a person's own table replaces a
  *  demo's, these leave with it (so the demo's [E]t never reaches a person's
@@ -48,10 +56,12 @@ const DEMO_FIELDS = {
   inhibition: ['text', 'rate_unit', 'excluded_lines', 'excluded_cells'],
   dose: ['text', 'enzyme', 'cp_mechanism', 'cp_substrate', 'cp_km', 'cp_km_se', 'excluded_lines'],
   traces: Object.keys(DEFAULTS.traces),
+  further: [],
+  sets: ['text', 'by', 'reference'],
 };
 
 /** Tables: editing one of these in a demo document makes it the person's own. */
-const TABLE_PATHS = new Set(['rates.text', 'inhibition.text', 'dose.text', 'traces.text', 'traces.layout', 'traces.standard']);
+const TABLE_PATHS = new Set(['rates.text', 'inhibition.text', 'dose.text', 'traces.text', 'traces.layout', 'traces.standard', 'sets.text']);
 
 /** The sections whose tables are pasted whole (each has its own input). */
 export const TABLE_SECTIONS = ['rates', 'inhibition', 'dose'];
@@ -249,6 +259,7 @@ export function validateDocument(value, { classify = null } = {}) {
 }
 
 function fieldProblem(section, key, v, fallback) {
+  if (section === 'further' && key === 'kind' && !FURTHER_KINDS.includes(v)) return `must be one of ${FURTHER_KINDS.join(', ')}`;
   if (typeof fallback === 'string') return typeof v === 'string' ? null : 'must be text';
   if (typeof fallback === 'boolean') return typeof v === 'boolean' ? null : 'must be true or false';
   if (Array.isArray(fallback)) {

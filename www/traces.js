@@ -537,12 +537,16 @@ function drawTable() {
   $('trace-table-unit').textContent = `Rates in ${r.rate_unit}, windows in ${r.time_unit}.`;
 }
 
+// Other modules that present parts of the time-course result.
+const resultHooks = [];
+
 function drawAll() {
   drawPlate();
   drawDetail();
   drawEnzymeCheck();
   drawProgress();
   drawTable();
+  for (const hook of resultHooks) hook(traceState.result);
 }
 
 // ------------------------------------------------------------ actions
@@ -886,6 +890,12 @@ page.addText('Time courses', () => {
 // For tests and for scripting from the browser console.
 window.turnoverTraces = {
   lastResult: () => traceState.result,
+  // The time-course request of a document, and its key (for other
+  // sections that read the same traces).
+  request: (doc) => traceRequest(doc),
+  requestKey: (doc) => analysisKey(doc),
+  // `hook(result)` runs whenever a time-course result is drawn.
+  onResult: (hook) => resultHooks.push(hook),
   lastProgress: () => traceState.progress,
   // True when the shown analysis is of the document's inputs as they are now.
   current: () => !running && traceState.resultKey === analysisKey(page.doc()),

@@ -33,7 +33,7 @@
 use crate::compare::{f_test, FTest, SIGNIFICANCE};
 use crate::error::Error;
 use crate::fit::{fit_model, Fit, FitSettings, FitSummary};
-use crate::model::{Model, Observations, ParameterSpec};
+use crate::model::{Dimension, Model, Observations, ParameterSpec};
 use crate::models::{model_with_options, ModelOptions};
 use crate::plots::{PlotData, PlotKind, PlotPoint, Series};
 use crate::table::{parse_table, split_line, InputProblem};
@@ -287,6 +287,23 @@ struct SetData {
     line: Vec<usize>,
     x_label: String,
     y_label: String,
+    /// The unit written in each number column's heading: the predictors'
+    /// in order, then the response's.
+    units: Vec<Option<String>>,
+}
+
+/// Puts the unit of each constant on the fit record, from its dimension and
+/// the units in the table's headings (none when the heading gives none).
+fn put_units(summary: &mut crate::fit::FitSummary, specs: &[ParameterSpec], units: &[Option<String>]) {
+    let response = units.last().cloned().flatten();
+    for (estimate, spec) in summary.parameters.iter_mut().zip(specs) {
+        estimate.unit = match spec.dimension {
+            Dimension::Response => response.clone(),
+            Dimension::Predictor(k) => units.get(k).cloned().flatten(),
+            Dimension::Dimensionless => Some(String::new()),
+            Dimension::Unspecified => None,
+        };
+    }
 }
 
 fn read_sets(request: &SetsRequest, predictors: usize, problems: &mut Vec<InputProblem>) -> Result<SetData, Error> {
@@ -330,6 +347,7 @@ fn read_sets(request: &SetsRequest, predictors: usize, problems: &mut Vec<InputP
         line: Vec::new(),
         x_label: label(data_columns[0]),
         y_label: label(data_columns[predictors]),
+        units: data_columns.iter().map(|&c| headings[c].unit.clone()).collect(),
     };
     for row in &table.rows {
         let raw = lines.get(row.line - 1).map(|l| l.strip_suffix('\r').unwrap_or(l)).unwrap_or("");
@@ -451,6 +469,7 @@ pub fn compare_sets(request: &SetsRequest) -> Result<SetsAnalysis, Error> {
         per_set.push(fit.values().to_vec());
         let mut summary = fit.summary;
         summary.weighting = request.weighting.name().to_string();
+        put_units(&mut summary, base.parameters(), &data.units);
         sets.push(SetFit { name: name.clone(), n: obs.len(), fit: summary });
     }
     let all = observations(&data, m, None)?;
@@ -487,6 +506,7 @@ pub fn compare_sets(request: &SetsRequest) -> Result<SetsAnalysis, Error> {
         }
         fit.summary.model = name.clone();
         fit.summary.weighting = request.weighting.name().to_string();
+        put_units(&mut fit.summary, &model.specs, &data.units);
         let pattern = PatternFit {
             name,
             shared: names.iter().zip(shared).filter(|(_, s)| **s).map(|(n, _)| n.to_string()).collect(),
@@ -750,6 +770,19 @@ mod tests {
         let data = Observations::new(2, vec![1.0, 0.0, 5.0, 1.0, 20.0, 0.0, 50.0, 1.0], vec![1.0, 2.0, 3.0, 4.0], None)
             .unwrap();
         assert!(gradient_disagreement(&model, &data, &[10.0, 5.0, 8.0]) < 1e-6);
+    }
+
+    #[test]
+    fn constants_carry_the_units_of_the_headings() {
+        let analysis = compare_sets(&SetsRequest { text: two_sets(), ..SetsRequest::default() }).unwrap();
+        let unit = |fit: &FitSummary, name: &str| {
+            fit.parameters.iter().find(|p| p.name == name).and_then(|p| p.unit.clone()).unwrap_or_default()
+        };
+        assert_eq!(unit(&analysis.sets[0].fit, "Vmax"), "µM/min");
+        assert_eq!(unit(&analysis.sets[0].fit, "Km"), "µM");
+        let separate = &analysis.models[0].fit;
+        assert_eq!(unit(separate, "Km[mutant]"), "µM");
+        assert_eq!(unit(separate, "Vmax[wild type]"), "µM/min");
     }
 
     #[test]

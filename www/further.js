@@ -1,0 +1,321 @@
+// Turnover page, further questions: analyses that each answer one question
+// from a table of their own (do constants differ between data sets; which
+// two-substrate mechanism; a pH-rate profile; the temperature dependence).
+// One section holds them: a chooser, the chosen question's table and
+// options (each question keeps its own in the document, so switching loses
+// nothing), and one presentation for every result: status and verdict,
+// constants tables, the model comparison, problems with their line and
+// column, plots drawn by the core's one drawing path, figure and CSV
+// exports, methods text and the caution. Every number comes from the core.
+
+/* global wasm_bindgen */
+
+const $ = (id) => document.getElementById(id);
+const page = window.turnover;
+const { cell } = page.ui;
+
+// Invented demo scenario (not measured data): the fictional esterase Est-5
+// and its variant W84A, two replicate rates at seven [S]. Made from
+// Michaelis-Menten with Km = 12 µM for both, Vmax = 3.0 (wild type) and
+// 0.9 µM/min (W84A), with 3 % seeded Gaussian scatter (Python random,
+// seed 7), so Vmax differs and Km does not.
+const SETS_DEMO = `# Demo (invented data): esterase Est-5, wild type and variant W84A
+set\t[S] (µM)\tv (µM/min)
+wild type\t2\t0.425
+wild type\t2\t0.435
+wild type\t4\t0.745
+wild type\t4\t0.743
+wild type\t8\t1.167
+wild type\t8\t1.192
+wild type\t15\t1.722
+wild type\t15\t1.688
+wild type\t30\t2.210
+wild type\t30\t2.159
+wild type\t60\t2.530
+wild type\t60\t2.514
+wild type\t120\t2.591
+wild type\t120\t2.797
+W84A\t2\t0.131
+W84A\t2\t0.130
+W84A\t4\t0.214
+W84A\t4\t0.213
+W84A\t8\t0.350
+W84A\t8\t0.355
+W84A\t15\t0.505
+W84A\t15\t0.499
+W84A\t30\t0.653
+W84A\t30\t0.630
+W84A\t60\t0.757
+W84A\t60\t0.759
+W84A\t120\t0.802
+W84A\t120\t0.860
+`;
+
+const WEIGHTS = [['uniform', 'equal (constant error)'], ['relative', '1/y² from the fitted curve (constant % error)'], ['poisson', '1/y from the fitted curve']];
+
+/** The questions, each with its document section, options, the core call
+ *  and how its result is shown. `run` returns the parsed result or throws
+ *  the core's sentence. */
+const KINDS = {
+  sets: {
+    label: 'Do constants differ between data sets?',
+    hint: 'One table with a column naming each row’s data set (headed <code>set</code>, or name the column below) and the model’s columns: <code>[S]</code> and <code>v</code> for Michaelis-Menten; <code>[S]</code>, <code>[I]</code>, <code>v</code> for an inhibition mechanism; <code>[I]</code> and a response for the logistic. The sets are fitted together with each constant shared or separate, and the extra-sum-of-squares F test says which constants differ, with each set’s ratio to the reference set.',
+    fields: [
+      { key: 'by', label: 'Set column', type: 'text', size: 10, placeholder: 'set' },
+      { key: 'model', label: 'Model', type: 'select', options: [['mm', 'Michaelis-Menten'], ['competitive', 'competitive inhibition'], ['uncompetitive', 'uncompetitive inhibition'], ['noncompetitive', 'noncompetitive inhibition'], ['mixed', 'mixed inhibition'], ['ic50', 'four-parameter logistic (IC50)']] },
+      { key: 'reference', label: 'Reference set', type: 'text', size: 12, placeholder: 'the first set' },
+      { key: 'weighting', label: 'Weights', type: 'select', options: WEIGHTS },
+    ],
+    demo: { name: 'Est-5 wild type and W84A', text: SETS_DEMO },
+    available: () => typeof wasm_bindgen.compareSets === 'function',
+    run: (d) => JSON.parse(wasm_bindgen.compareSets(JSON.stringify({
+      text: d.text, by: d.by.trim() || 'set', model: d.model, reference: d.reference.trim() || null,
+      enzyme: null, fixed_top: null, fixed_bottom: null, weighting: d.weighting,
+    }))),
+    present: (r) => ({
+      verdict: r.verdict,
+      fits: r.sets.map((s) => ({ title: `${s.name} (own fit, n = ${s.n})`, fit: s.fit })),
+      comparison: {
+        head: ['Constants', 'Shared', 'RSS', 'dof', 'AICc', 'ΔAICc', 'F test against all separate'],
+        rows: r.models.map((m) => [m.name, m.shared.length ? m.shared.join(', ') : 'none', num(m.rss), String(m.dof), num(m.aicc), num(m.delta_aicc),
+          m.f_test ? fText(m.f_test) : '—']),
+      },
+      findings: r.constants.map((c) => c.text),
+      methods: `Data sets (${r.sets.map((s) => s.name).join(', ')}) were fitted together to the ${r.model} model by weighted nonlinear least squares with each constant shared between the sets or separate; each shared constant was tested against all separate by the extra-sum-of-squares F test (p < 0.05); ratios to the reference set (${r.reference}) are from the all-separate fit with intervals exp(ln r ± t·SE(ln r)).`,
+    }),
+  },
+};
+
+const num = (x) => (x === null || x === undefined || !Number.isFinite(x) ? '—' : page.ui.format(x));
+function fText(f) {
+  const p = f.p_value < 0.0001 ? 'p < 0.0001' : `p = ${f.p_value.toFixed(4)}`;
+  return `F(${f.df_extra}, ${f.df_general}) = ${num(f.f)}, ${p}`;
+}
+
+let lastResult = null;
+let lastError = null;
+let drawnPlots = [];
+
+/** The chooser and each question's option fields, built once. */
+function build() {
+  const chooser = $('further-kind');
+  for (const [kind, spec] of Object.entries(KINDS)) chooser.append(new Option(spec.label, kind));
+  page.bindField('further-kind', 'further.kind');
+  const box = $('further-options');
+  for (const [kind, spec] of Object.entries(KINDS)) {
+    const group = cell('span', '', { 'data-kind': kind, class: 'further-fields' });
+    for (const f of spec.fields) {
+      const id = `further-${kind}-${f.key}`;
+      const label = cell('label', `${f.label} `);
+      let input;
+      if (f.type === 'select') {
+        input = document.createElement('select');
+        for (const [value, text] of f.options) input.append(new Option(text, value));
+      } else {
+        input = document.createElement('input');
+        input.type = 'text';
+        input.size = f.size ?? 8;
+        if (f.placeholder) input.placeholder = f.placeholder;
+      }
+      input.id = id;
+      label.append(input);
+      group.append(label, ' ');
+    }
+    box.append(group);
+  }
+  // Binding needs the elements in the page first.
+  for (const [kind, spec] of Object.entries(KINDS)) {
+    for (const f of spec.fields) page.bindField(`further-${kind}-${f.key}`, `${kind}.${f.key}`);
+  }
+  $('further-input').addEventListener('input', () => {
+    const kind = page.doc().further.kind;
+    page.typed({ type: 'set table', path: `${kind}.text`, value: $('further-input').value }, `${kind}.text`);
+  });
+  $('further-demo').addEventListener('click', () => page.loadDemo(`further-${page.doc().further.kind}`));
+  page.view((doc) => {
+    const kind = doc.further.kind;
+    const text = doc[kind]?.text ?? '';
+    if ($('further-input').value !== text) $('further-input').value = text;
+    for (const group of box.querySelectorAll('.further-fields')) group.hidden = group.dataset.kind !== kind;
+    $('further-hint').replaceChildren(...hintNodes(KINDS[kind]?.hint ?? ''));
+    $('further-demo').hidden = !KINDS[kind]?.demo;
+  });
+  for (const [kind, spec] of Object.entries(KINDS)) {
+    if (!spec.demo) continue;
+    page.addDemo(`further-${kind}`, {
+      name: spec.demo.name,
+      build: (doc) => ({ ...doc, demo: [...new Set([...doc.demo, kind])], further: { kind }, [kind]: { ...doc[kind], text: spec.demo.text } }),
+    });
+  }
+}
+
+/** A hint's text as nodes: `<code>…</code>` marks a column heading; all
+ *  else is plain text (the page builds no HTML from strings). */
+function hintNodes(hint) {
+  return hint.split(/<code>(.*?)<\/code>/).map((part, k) => (k % 2 ? cell('code', part) : document.createTextNode(part)));
+}
+
+function clear(message, state = 'idle') {
+  lastResult = null;
+  const status = $('further-status');
+  status.dataset.state = state;
+  status.textContent = message;
+  for (const id of ['further-verdict', 'further-fits', 'further-comparison', 'further-warnings', 'further-plots', 'further-methods', 'further-caution']) $(id).replaceChildren();
+  $('further-output').hidden = true;
+  drawnPlots = [];
+}
+
+function analyse(doc) {
+  const kind = doc.further.kind;
+  const spec = KINDS[kind];
+  const d = doc[kind];
+  lastError = null;
+  if (!spec || !d) return clear(`Turnover does not know the question “${kind}”.`, 'error');
+  if (!spec.available()) return clear('This copy of Turnover’s core cannot answer this question yet.', 'error');
+  if (!d.text.trim()) return clear('No table yet: paste one above, open a file, or load the demo.');
+  let result;
+  try {
+    result = spec.run(d);
+  } catch (error) {
+    if (page.coreFailed(error)) return;
+    lastError = error?.message ?? String(error);
+    return clear(`No result: ${lastError}`, 'error');
+  }
+  lastResult = { kind, result, shown: spec.present(result) };
+  show(lastResult);
+}
+
+function show({ kind, result, shown }) {
+  $('further-output').hidden = false;
+  const problems = (result.problems ?? []).map((p) => `${p.column ? `line ${p.line}, column ${p.column}` : `line ${p.line}`}: ${p.message} (not used)`);
+  const warnings = [...(result.warnings ?? []), ...problems, ...(result.notes ?? [])];
+  const status = $('further-status');
+  const failed = shown.fits.some((f) => !f.fit.converged);
+  status.dataset.state = failed ? 'error' : warnings.length ? 'warn' : 'ok';
+  status.textContent = failed
+    ? 'At least one fit did not converge: its numbers are not a least-squares solution (see its table).'
+    : `Fitted${warnings.length ? ': read the warnings below' : ''}.`;
+  // The verdict, or its findings one to a line when it has several.
+  const findings = shown.findings?.length ? shown.findings : [shown.verdict ?? ''];
+  $('further-verdict').replaceChildren(...findings.map((t) => cell('p', t, { class: 'verdict' })));
+  const fits = $('further-fits');
+  fits.replaceChildren();
+  for (const { title, fit } of shown.fits) {
+    const table = cell('table', '', { class: 'small-table' });
+    const head = table.createTHead().insertRow();
+    for (const h of ['Constant', 'Estimate', 'Std. error', `${Math.round(fit.confidence_level * 100)}% interval`, 'Unit']) head.append(cell('th', h));
+    const body = table.createTBody();
+    for (const p of fit.parameters) body.append(page.ui.parameterRow(p));
+    const block = cell('div', '', { class: 'further-fit', 'data-fit': title });
+    block.append(cell('h3', title), cell('p', fit.equation, { class: 'equation' }), table);
+    if (!fit.converged) block.append(cell('p', `The fit ${fit.termination_text}.`, { class: 'warn' }));
+    fits.append(block);
+  }
+  const comparison = $('further-comparison');
+  comparison.replaceChildren();
+  if (shown.comparison) {
+    const table = cell('table', '', { class: 'small-table' });
+    const head = table.createTHead().insertRow();
+    for (const h of shown.comparison.head) head.append(cell('th', h));
+    const body = table.createTBody();
+    for (const row of shown.comparison.rows) {
+      const tr = body.insertRow();
+      for (const x of row) tr.append(cell('td', x));
+    }
+    comparison.append(cell('h3', 'Models compared'), table);
+  }
+  $('further-warnings').replaceChildren(...warnings.map((w) => cell('li', w)));
+  drawPlots(result.plots ?? []);
+  $('further-methods').textContent = `${shown.methods} ${page.ui.versionText()}`;
+  $('further-caution').textContent = result.caution ?? '';
+  $('further-panel').dataset.kind = kind;
+}
+
+function drawPlots(plots) {
+  const box = $('further-plots');
+  box.replaceChildren();
+  drawnPlots = plots;
+  plots.forEach((plot, index) => {
+    const figure = document.createElement('figure');
+    const canvas = cell('canvas', '', { id: `further-plot-${index}`, width: '480', height: '340', 'data-kind': plot.kind });
+    const button = cell('button', 'Figure', { type: 'button', title: 'Download this plot as a figure (settings in the Plots section)' });
+    button.addEventListener('click', () => {
+      section.flush();
+      const current = drawnPlots[index];
+      if (current) page.ui.exportFigure(current.kind, (options) => wasm_bindgen.plotFigureSvg(JSON.stringify(current), options));
+    });
+    const caption = document.createElement('figcaption');
+    caption.append(cell('span', plot.note ?? '', { class: 'note' }), ' ', button);
+    figure.append(canvas, caption);
+    box.append(figure);
+    try {
+      wasm_bindgen.drawPlotJson(canvas.id, JSON.stringify(plot));
+      canvas.dataset.drawn = 'yes';
+    } catch (error) {
+      canvas.dataset.drawn = 'no';
+      console.warn(`further plot ${plot.kind}: ${error?.message ?? error}`);
+    }
+  });
+}
+
+function constantsRows() {
+  const rows = [['fit', ...page.ui.constantsRows([])[0]]];
+  for (const { title, fit } of lastResult.shown.fits) {
+    for (const row of page.ui.constantsRows([fit]).slice(1)) rows.push([title, ...row]);
+  }
+  return rows;
+}
+
+const section = page.derived({
+  key: (doc) => JSON.stringify([doc.further.kind, doc[doc.further.kind]]),
+  compute: (doc) => {
+    analyse(doc);
+    $('further-panel').classList.toggle('no-data', !(doc[doc.further.kind]?.text ?? '').trim());
+  },
+  stale: (on) => $('further-panel').classList.toggle('stale', on),
+});
+
+page.addText('Further question', () => {
+  if (!lastResult || !section.fresh()) return [];
+  const { kind, shown, result } = lastResult;
+  const lines = [`# Question: ${KINDS[kind].label}`];
+  if (shown.verdict) lines.push(`# verdict: ${shown.verdict}`);
+  for (const { title, fit } of shown.fits) lines.push(...page.ui.fitAsText(title, fit));
+  for (const w of result.warnings ?? []) lines.push(`# warning: ${w}`);
+  lines.push(`# methods: ${$('further-methods').textContent}`);
+  return lines;
+});
+
+$('further-csv').addEventListener('click', () => {
+  section.flush();
+  if (lastResult) page.ui.downloadCsv(`${lastResult.kind}-constants`, constantsRows());
+});
+$('further-file').addEventListener('change', async (event) => {
+  const file = event.target.files[0];
+  event.target.value = '';
+  if (!file) return;
+  const note = $('further-file-note');
+  let bytes;
+  try {
+    bytes = new Uint8Array(await file.arrayBuffer());
+  } catch {
+    note.hidden = false;
+    note.textContent = `Could not read the file ${file.name}.`;
+    return;
+  }
+  const kind = page.doc().further.kind;
+  page.dispatch({ type: 'set table', path: `${kind}.text`, value: wasm_bindgen.decodeFileText(bytes) });
+  // How the bytes were read is said whenever they were not plain UTF-8.
+  const how = wasm_bindgen.decodeFileNote(bytes);
+  note.hidden = !how;
+  note.textContent = how ? `${file.name}: ${how}.` : '';
+});
+
+page.onCoreRestart(() => { drawnPlots = []; });
+build();
+
+window.turnover.further = {
+  kinds: () => Object.keys(KINDS),
+  lastResult: () => (section.fresh() ? lastResult?.result ?? null : (section.flush(), lastResult?.result ?? null)),
+  lastError: () => lastError,
+};

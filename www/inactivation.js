@@ -1,0 +1,182 @@
+// Turnover page, two questions asked of the time courses: is the enzyme
+// stable during the assay (the check that traces at several [E] superimpose
+// against [E]·t, run by the core with every time-course analysis), and
+// time-dependent inhibition (each trace with an inhibitor fitted to the
+// approach to a steady-state rate, then kobs against [I] for kinact and
+// KI). Both read the time-course section's document and results; every
+// number comes from the core.
+
+/* global wasm_bindgen */
+
+const $ = (id) => document.getElementById(id);
+const page = window.turnover;
+const { cell } = page.ui;
+
+// Invented demo scenario (not measured data): the fictional protease Pro-2
+// with an imaginary covalent inhibitor "compound 7". Progress curves made
+// from P(t) = offset + v0(1 − e^(−kobs·t))/kobs with kobs =
+// kinact·[I]/(KI + [I]), kinact = 0.25 min⁻¹, KI = 3 µM, v0 = 0.02 per min,
+// readings every 0.5 min for 30 min, plus seeded Gaussian noise (SD 0.0008,
+// the generator below, seed 2026).
+function inactivationDemo() {
+  let seed = 2026;
+  const uniform = () => {
+    seed = (seed + 0x6d2b79f5) | 0;
+    let t = Math.imul(seed ^ (seed >>> 15), 1 | seed);
+    t = (t + Math.imul(t ^ (t >>> 7), 61 | t)) ^ t;
+    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
+  };
+  const normal = () => Math.sqrt(-2 * Math.log(1 - uniform())) * Math.cos(2 * Math.PI * uniform());
+  const doses = [0, 0.5, 1, 2, 4, 8, 16, 32];
+  const names = doses.map((_, k) => `A${k + 1}`);
+  const lines = ['Demo plate (simulated): protease Pro-2 with compound 7', 'Read: absorbance 405 nm', ''];
+  lines.push(['time (min)', ...names].join('\t'));
+  for (let j = 0; j <= 60; j++) {
+    const t = j * 0.5;
+    const cells = [t.toFixed(1)];
+    for (const i of doses) {
+      const k = (0.25 * i) / (3 + i);
+      const p = 0.05 + (k === 0 ? 0.02 * t : (0.02 * (1 - Math.exp(-k * t))) / k);
+      cells.push((p + 0.0008 * normal()).toFixed(4));
+    }
+    lines.push(cells.join('\t'));
+  }
+  const layout = ['trace\tS (µM)\tI (µM)\tE (nM)\trole', ...names.map((n, k) => `${n}\t50\t${doses[k]}\t5\tsample`)];
+  return { traces: `${lines.join('\n')}\n`, layout: `${layout.join('\n')}\n` };
+}
+
+let lastResult = null;
+let lastError = null;
+
+/** The request of the inactivation analysis, or a sentence saying which
+ *  field cannot be read. */
+function request(doc) {
+  const t = doc.traces;
+  const read = (text, label) => {
+    const { value, problem } = page.ui.readTyped(text);
+    return problem ? { problem: `${label}: ${problem}.` } : { value };
+  };
+  const s = read(t.inact_substrate, '[S] for the substrate correction');
+  const km = read(t.inact_km, 'Km for the substrate correction');
+  if (s.problem || km.problem) return { problem: s.problem ?? km.problem };
+  if ((s.value === null) !== (km.value === null)) return { problem: 'Give both [S] and Km (in one unit) for the substrate correction, or neither.' };
+  const traces = window.turnoverTraces.request(doc);
+  if (traces.problem) return { problem: traces.problem };
+  return { request: { traces: traces.request, substrate: s.value, km: km.value } };
+}
+
+function clear(message, state = 'idle') {
+  lastResult = null;
+  $('inactivation-status').dataset.state = state;
+  $('inactivation-status').textContent = message;
+  $('inactivation-output').hidden = true;
+}
+
+function analyse(doc) {
+  lastError = null;
+  $('inactivation-options').hidden = !doc.traces.inactivation;
+  if (!doc.traces.inactivation) return clear('');
+  if (!doc.traces.text.trim()) return clear('Paste progress curves above, with [I] in the layout (an I column).');
+  const asked = request(doc);
+  if (asked.problem) return clear(asked.problem, 'error');
+  let result;
+  try {
+    result = JSON.parse(wasm_bindgen.inactivation(JSON.stringify(asked.request)));
+  } catch (error) {
+    if (page.coreFailed(error)) return;
+    lastError = error?.message ?? String(error);
+    return clear(`No inactivation fit: ${lastError}`, 'error');
+  }
+  lastResult = result;
+  $('inactivation-output').hidden = false;
+  const warned = result.warnings.length > 0;
+  $('inactivation-status').dataset.state = warned ? 'warn' : 'ok';
+  const test = result.saturation_test;
+  const sat = test ? ` Saturation: F(${test[1]}, ${test[2]}) = ${page.ui.format(test[0])}, ${test[3] < 0.0001 ? 'p < 0.0001' : `p = ${test[3].toFixed(4)}`}.` : '';
+  $('inactivation-status').textContent = `${result.traces.length} traces with inhibitor fitted; ${result.saturation ? 'kobs saturates with [I]: kinact and KI reported' : 'no saturation seen: only kinact/KI is reported'}.${sat}`;
+  const body = $('inactivation-parameters').tBodies[0];
+  body.replaceChildren(...result.parameters.map((p) => page.ui.parameterRow(p)));
+  const rows = $('inactivation-traces').tBodies[0];
+  rows.replaceChildren();
+  for (const t of result.traces) {
+    const tr = rows.insertRow();
+    tr.dataset.trace = t.trace;
+    tr.dataset.kobs = String(t.kobs);
+    for (const x of [t.trace, page.ui.format(t.i), page.ui.estimateText(t.kobs, t.kobs_se), page.ui.format(t.v0), page.ui.format(t.vs), String(t.n), t.converged ? (t.used ? 'yes' : 'left out') : 'did not converge']) tr.append(cell('td', x));
+  }
+  $('inactivation-unit').textContent = `kobs in ${result.time_unit}⁻¹; [I] in ${result.inhibitor_unit ?? '(no unit given)'}.`;
+  $('inactivation-warnings').replaceChildren(...[...result.warnings, ...result.notes].map((w) => cell('li', w)));
+  drawPlots('inactivation-plots', result.plots);
+  $('inactivation-caution').textContent = result.caution;
+}
+
+function drawPlots(boxId, plots) {
+  const box = $(boxId);
+  box.replaceChildren();
+  plots.forEach((plot, index) => {
+    const figure = document.createElement('figure');
+    const canvas = cell('canvas', '', { id: `${boxId}-${index}`, width: '480', height: '320', 'data-kind': plot.kind });
+    const button = cell('button', 'Figure', { type: 'button', title: 'Download this plot as a figure (settings in the Plots section)' });
+    button.addEventListener('click', () => page.ui.exportFigure(plot.kind, (options) => wasm_bindgen.plotFigureSvg(JSON.stringify(plot), options)));
+    const caption = document.createElement('figcaption');
+    caption.append(cell('span', plot.note ?? '', { class: 'note' }), ' ', button);
+    figure.append(canvas, caption);
+    box.append(figure);
+    try {
+      wasm_bindgen.drawPlotJson(canvas.id, JSON.stringify(plot));
+      canvas.dataset.drawn = 'yes';
+    } catch (error) {
+      canvas.dataset.drawn = 'no';
+      console.warn(`${plot.kind}: ${error?.message ?? error}`);
+    }
+  });
+}
+
+/** The stability check: one finding per group of traces at one [S] and
+ *  [I] with several [E], from the shown time-course analysis. */
+function showStability(result) {
+  const checks = result?.selwyn ?? [];
+  $('stability-panel').hidden = checks.length === 0;
+  $('stability-findings').replaceChildren(...checks.map((c) => cell('li', c.message, { 'data-flagged': String(c.flagged) })));
+  drawPlots('stability-plots', checks.map((c) => c.plot));
+}
+
+const section = page.derived({
+  key: (doc) => (doc.traces.inactivation
+    ? JSON.stringify([window.turnoverTraces.requestKey(doc), doc.traces.inact_substrate, doc.traces.inact_km])
+    : 'off'),
+  compute: analyse,
+  stale: (on) => $('inactivation-block').classList.toggle('stale', on),
+});
+
+page.addText('Time-dependent inhibition', () => {
+  if (!lastResult || !section.fresh()) return [];
+  const lines = ['# Time-dependent inhibition: kobs per trace, then kobs against [I]', ['constant', 'estimate', 'std_error', 'ci_low', 'ci_high', 'ci_method', 'unit'].join('\t')];
+  for (const p of lastResult.parameters) lines.push([p.name, p.value, p.std_error ?? '', p.ci_low ?? '', p.ci_high ?? '', p.ci_method, p.unit ?? ''].join('\t'));
+  lines.push(['trace', 'i', 'kobs', 'kobs_se', 'v0', 'vs', 'n', 'converged', 'used'].join('\t'));
+  for (const t of lastResult.traces) lines.push([t.trace, t.i, t.kobs, t.kobs_se ?? '', t.v0, t.vs, t.n, t.converged, t.used].join('\t'));
+  for (const w of lastResult.warnings) lines.push(`# warning: ${w}`);
+  return lines;
+});
+
+page.bindField('tr-inactivation', 'traces.inactivation');
+page.bindField('tr-inact-substrate', 'traces.inact_substrate');
+page.bindField('tr-inact-km', 'traces.inact_km');
+window.turnoverTraces.onResult(showStability);
+page.addDemo('inactivation', {
+  name: 'Pro-2 with compound 7 (time-dependent inhibition)',
+  build: (doc) => {
+    const demo = inactivationDemo();
+    return {
+      ...doc,
+      demo: [...new Set([...doc.demo, 'traces'])],
+      traces: { ...doc.traces, text: demo.traces, layout: demo.layout, conversion: 'none', inactivation: true },
+    };
+  },
+});
+$('load-inactivation-demo').addEventListener('click', () => page.loadDemo('inactivation'));
+
+window.turnover.inactivation = {
+  lastResult: () => (section.fresh() ? lastResult : (section.flush(), lastResult)),
+  lastError: () => lastError,
+};
