@@ -38,6 +38,7 @@ const DEFAULTS = {
     direction: 'rises', limit: '', max_conversion: '10', standard: '', windows: {}, excluded: [], whole_curve: false, fit_v0: false,
     inactivation: false, inact_substrate: '', inact_km: '',
   },
+  batch: { text: '', group_by: '', model: 'ic50', weighting: 'uniform', normalise: false, fix_top: false, top: '100', fix_bottom: false, bottom: '0' },
   // The further questions: which one is shown, and each one's own table
   // and options (schema 3).
   further: { kind: 'sets' },
@@ -57,11 +58,12 @@ const DEMO_FIELDS = {
   dose: ['text', 'enzyme', 'cp_mechanism', 'cp_substrate', 'cp_km', 'cp_km_se', 'excluded_lines'],
   traces: Object.keys(DEFAULTS.traces),
   further: [],
+  batch: ['text', 'group_by', 'model'],
   sets: ['text', 'by', 'reference'],
 };
 
 /** Tables: editing one of these in a demo document makes it the person's own. */
-const TABLE_PATHS = new Set(['rates.text', 'inhibition.text', 'dose.text', 'traces.text', 'traces.layout', 'traces.standard', 'sets.text']);
+const TABLE_PATHS = new Set(['rates.text', 'inhibition.text', 'dose.text', 'traces.text', 'traces.layout', 'traces.standard', 'sets.text', 'batch.text']);
 
 /** The sections whose tables are pasted whole (each has its own input). */
 export const TABLE_SECTIONS = ['rates', 'inhibition', 'dose'];

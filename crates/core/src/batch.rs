@@ -24,6 +24,7 @@ use crate::fit::FitSummary;
 use crate::inhibition::{analyse_inhibition, InhibitionRequest};
 use crate::intervals::{BootstrapSettings, IntervalMethod};
 use crate::model::Dimension;
+use crate::plots::PlotData;
 use crate::models::{model_input, model_with_options, ModelInput, ModelOptions};
 use crate::plate::{normalise_plates, PlateQuality};
 use crate::rates::{analyse_rates, RateRequest, CAUTION};
@@ -323,9 +324,10 @@ fn quoted(cell: &str, separator: Separator) -> String {
     }
 }
 
-/// Fits one curve exactly as its table alone would be fitted, and flags it.
-pub fn fit_curve(request: &BatchRequest, curve: &CurveInput) -> CurveResult {
-    let model = if request.model.trim().is_empty() { "mm".to_string() } else { request.model.trim().to_string() };
+/// The one-curve analysis of a curve, as its input says (the logistic or
+/// Morrison for [I] tables, a mechanism for [S] and [I], a rate law
+/// otherwise), with that analysis' first plot (its direct plot).
+fn curve_analysis(request: &BatchRequest, curve: &CurveInput, model: &str) -> Result<(Fitted, Option<PlotData>), Error> {
     // The batch table's excluded lines, as the curve table's lines.
     let excluded: Vec<usize> = curve
         .lines
@@ -334,10 +336,10 @@ pub fn fit_curve(request: &BatchRequest, curve: &CurveInput) -> CurveResult {
         .filter(|(_, line)| request.excluded_lines.contains(line))
         .map(|(k, _)| k + 1)
         .collect();
-    let outcome = match model_input(&model) {
+    match model_input(model) {
         Some(ModelInput::Inhibitor) => analyse_dose(&DoseRequest {
             text: curve.text.clone(),
-            model: model.clone(),
+            model: model.to_string(),
             enzyme: request.enzyme,
             fixed_top: request.fixed_top,
             fixed_bottom: request.fixed_bottom,
@@ -351,11 +353,12 @@ pub fn fit_curve(request: &BatchRequest, curve: &CurveInput) -> CurveResult {
         .map(|a| {
             let used: Vec<(f64, f64, f64)> = a.points.iter().filter(|p| !p.excluded).map(|p| (p.i, p.y, p.fitted)).collect();
             let pic50 = if model == "ic50" { pic50(&a.fit, a.inhibitor_unit.as_deref()) } else { None };
-            Fitted { fit: a.fit, used, problems: a.problems, notes: a.notes, pic50, dimensions: Vec::new() }
+            let plot = a.plots.into_iter().next();
+            (Fitted { fit: a.fit, used, problems: a.problems, notes: a.notes, pic50, dimensions: Vec::new() }, plot)
         }),
         Some(ModelInput::SubstrateAndInhibitor) => analyse_inhibition(&InhibitionRequest {
             text: curve.text.clone(),
-            models: vec![model.clone()],
+            models: vec![model.to_string()],
             excluded_lines: excluded,
             excluded_cells: Vec::new(),
             substrate_unit: request.substrate_unit.clone(),
@@ -367,11 +370,12 @@ pub fn fit_curve(request: &BatchRequest, curve: &CurveInput) -> CurveResult {
         })
         .map(|mut a| {
             let used = a.points.iter().filter(|p| !p.excluded).map(|p| (p.s, p.v, p.fitted)).collect();
-            Fitted { fit: a.fits.swap_remove(0), used, problems: a.problems, notes: a.notes, pic50: None, dimensions: Vec::new() }
+            let plot = a.plots.into_iter().next();
+            (Fitted { fit: a.fits.swap_remove(0), used, problems: a.problems, notes: a.notes, pic50: None, dimensions: Vec::new() }, plot)
         }),
         _ => analyse_rates(&RateRequest {
             text: curve.text.clone(),
-            model: model.clone(),
+            model: model.to_string(),
             substrate_unit: request.substrate_unit.clone(),
             rate_unit: request.rate_unit.clone(),
             enzyme: request.enzyme,
@@ -385,9 +389,24 @@ pub fn fit_curve(request: &BatchRequest, curve: &CurveInput) -> CurveResult {
         })
         .map(|a| {
             let used = a.points.iter().filter(|p| !p.excluded).map(|p| (p.s, p.v, p.fitted)).collect();
-            Fitted { fit: a.fit, used, problems: a.problems, notes: a.notes, pic50: None, dimensions: Vec::new() }
+            let plot = a.plots.into_iter().next();
+            (Fitted { fit: a.fit, used, problems: a.problems, notes: a.notes, pic50: None, dimensions: Vec::new() }, plot)
         }),
-    };
+    }
+}
+
+/// The direct plot of one curve's fit (points and fitted curve), for a
+/// small picture of each curve in a results table; `None` when the curve
+/// has no fit.
+pub fn curve_plot(request: &BatchRequest, curve: &CurveInput) -> Option<PlotData> {
+    let model = if request.model.trim().is_empty() { "mm" } else { request.model.trim() };
+    curve_analysis(request, curve, model).ok().and_then(|(_, plot)| plot)
+}
+
+/// Fits one curve exactly as its table alone would be fitted, and flags it.
+pub fn fit_curve(request: &BatchRequest, curve: &CurveInput) -> CurveResult {
+    let model = if request.model.trim().is_empty() { "mm".to_string() } else { request.model.trim().to_string() };
+    let outcome = curve_analysis(request, curve, &model).map(|(fitted, _)| fitted);
     match outcome {
         Ok(mut fitted) => {
             let options = ModelOptions { enzyme: request.enzyme, fixed_top: request.fixed_top, fixed_bottom: request.fixed_bottom };
