@@ -167,7 +167,7 @@ fn parameter_names(model: &str, request: &BatchRequest) -> Vec<String> {
     }
 }
 
-fn separator(format: Format) -> char {
+pub(crate) fn separator(format: Format) -> char {
     if format == Format::Csv {
         ','
     } else {
@@ -177,7 +177,7 @@ fn separator(format: Format) -> char {
 
 /// A cell for CSV (quoted when it holds a comma, quote or line break) or
 /// TSV (tabs and line breaks become spaces).
-fn cell(text: &str, format: Format) -> String {
+pub(crate) fn cell(text: &str, format: Format) -> String {
     let text = escape_controls(text);
     match format {
         Format::Csv if text.contains([',', '"', '\n']) => format!("\"{}\"", text.replace('"', "\"\"")),
