@@ -379,6 +379,7 @@ pub fn fit_curve(request: &BatchRequest, curve: &CurveInput) -> CurveResult {
             excluded_lines: excluded,
             excluded_cells: Vec::new(),
             rate_time: None,
+            protein: None,
             weighting: request.weighting,
             interval_method: request.interval_method,
             bootstrap: request.bootstrap,
