@@ -61,6 +61,9 @@ pub(crate) fn run(args: Prepared, model: String, group_by: String, format: Forma
     if args.points {
         return Err(usage("fit", "--points applies to one-curve fits; a batch writes no per-point arrays"));
     }
+    if args.request.protein.is_some() {
+        return Err(usage("fit", "--protein and --molar-mass are not available with --group-by; fit the curve alone for its specific activity"));
+    }
     if args.cheng_prusoff.is_some() {
         return Err(usage("fit", "--cheng-prusoff is not available with --group-by; fit the curve alone to convert its IC50"));
     }

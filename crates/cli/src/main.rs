@@ -171,6 +171,16 @@ struct ModelExtras {
     /// Unit of --enzyme when CONC is a bare number
     #[arg(long, value_name = "UNIT")]
     enzyme_unit: Option<String>,
+    /// The enzyme's protein concentration in the assay, such as
+    /// '0.05 mg/mL' or '50µg/mL': adds the specific activity (µmol min⁻¹
+    /// mg⁻¹, from Vmax; the [S]–v models)
+    #[arg(long, value_name = "CONC")]
+    protein: Option<String>,
+    /// The enzyme's molar mass (per active site), such as '42 kDa' or
+    /// '42000 g/mol': with --protein, [E]t = protein / molar mass, for kcat
+    /// (instead of --enzyme)
+    #[arg(long, value_name = "MASS")]
+    molar_mass: Option<String>,
     /// Fix the top plateau of the ic50 model
     #[arg(long, value_name = "Y", value_parser = option_number, allow_hyphen_values = true)]
     top: Option<f64>,
@@ -372,6 +382,7 @@ fn prepare(command: &'static str, data: DataOptions, extra: ModelExtras, model: 
     } else if extra.enzyme_unit.is_some() {
         return Err(usage(command, "--enzyme-unit is the unit of --enzyme; give --enzyme too"));
     }
+    request.protein = protein_request(command, model, extra.protein, extra.molar_mass, request.enzyme.is_some())?;
     let cheng_prusoff = conversion_request(command, extra.cheng_prusoff, extra.substrate, extra.km, extra.km_se)?;
     if cheng_prusoff.is_some() && model != "ic50" {
         return Err(usage(command, format!("--cheng-prusoff converts the IC50 of the ic50 model; it does not apply to {model}")));
@@ -390,6 +401,51 @@ fn prepare(command: &'static str, data: DataOptions, extra: ModelExtras, model: 
         bottom: extra.bottom,
         cheng_prusoff,
     })
+}
+
+/// Reads `--protein` and `--molar-mass` (numbers by the tables' rule, each
+/// with its unit) into the core's request; refuses them for models
+/// without Vmax, a molar mass without the protein, a molar mass beside
+/// `--enzyme`, and units that are not a mass concentration or a molar
+/// mass, with a sentence.
+fn protein_request(
+    command: &'static str,
+    model: &str,
+    protein: Option<String>,
+    molar_mass: Option<String>,
+    enzyme_given: bool,
+) -> Result<Option<turnover_core::protein::ProteinRequest>, Failure> {
+    use turnover_core::protein::{grams_per_litre, grams_per_mole, ProteinRequest};
+    if protein.is_none() && molar_mass.is_none() {
+        return Ok(None);
+    }
+    if model_input(model).is_some_and(|input| input != ModelInput::Substrate) {
+        return Err(usage(command, format!("--protein and --molar-mass apply to the [S]–v models (mm, substrate-inhibition, hill), not to {model}")));
+    }
+    let Some(protein) = protein else {
+        return Err(usage(command, "--molar-mass turns --protein into [E]t; give --protein too (such as '0.05 mg/mL')"));
+    };
+    let quantity = |text: &str, name: &str, example: &str, check: fn(&str) -> Result<f64, String>| -> Result<(f64, String), Failure> {
+        let (value, unit) = turnover_core::table::read_quantity(text)
+            .map_err(|m| usage(command, format!("{name} '{text}': {m}; give it with its unit, such as '{example}'")))?;
+        let unit = unit.ok_or_else(|| usage(command, format!("{name} '{text}' has no unit; give it with its unit, such as '{example}'")))?;
+        check(&unit).map_err(|m| usage(command, format!("{name}: {m}")))?;
+        if !(value.is_finite() && value > 0.0) {
+            return Err(usage(command, format!("{name} '{text}': it must be a positive number")));
+        }
+        Ok((value, unit))
+    };
+    let (concentration, unit) = quantity(&protein, "--protein", "0.05 mg/mL", grams_per_litre)?;
+    let mass = molar_mass.map(|m| quantity(&m, "--molar-mass", "42 kDa", grams_per_mole)).transpose()?;
+    if mass.is_some() && enzyme_given {
+        return Err(usage(command, "[E]t is given twice: by --enzyme and by --protein with --molar-mass; give one of them"));
+    }
+    Ok(Some(ProteinRequest {
+        concentration,
+        unit,
+        molar_mass: mass.as_ref().map(|m| m.0),
+        molar_mass_unit: mass.map(|m| m.1),
+    }))
 }
 
 /// Reads `--cheng-prusoff`, `--substrate`, `--km` and `--km-se` into one
@@ -829,6 +885,8 @@ fn write_rate_json(out: &mut Output, analysis: &RateAnalysis, all_points: bool) 
         diagnostics: Diagnostics<'a>,
         direct_linear: &'a turnover_core::robust::DirectLinearEstimate,
         bootstrap: &'a Option<turnover_core::rates::BootstrapReport>,
+        #[serde(skip_serializing_if = "Option::is_none")]
+        enzyme_from_protein: &'a Option<turnover_core::protein::EnzymeFromProtein>,
         error_structure: &'a Option<turnover_core::errors::ErrorStructure>,
         replicates: &'a [turnover_core::read::replicates::ReplicateSummary],
     }
@@ -862,6 +920,7 @@ fn write_rate_json(out: &mut Output, analysis: &RateAnalysis, all_points: bool) 
         diagnostics,
         direct_linear: &analysis.direct_linear,
         bootstrap: &analysis.bootstrap,
+        enzyme_from_protein: &analysis.enzyme_from_protein,
         error_structure: &analysis.error_structure,
         replicates: &analysis.replicates,
     };
