@@ -452,7 +452,7 @@ fn analyse_rates_with(request: &RateRequest, fixed_weights: Option<&[f64]>) -> R
     let mut enzyme_symbol = None;
     let mut kcat_factor = None;
     let mut specificity_factor = None;
-    let (enzyme_from_protein, protein_factor, enzyme_given) =
+    let ProteinPart { report: enzyme_from_protein, factor: protein_factor, enzyme: enzyme_given } =
         enzyme_as_protein(request, substrate_unit, rate_unit, &mut notes, &mut summary.warnings)?;
     if let Some((enzyme, enzyme_unit)) = enzyme_given {
         if !(enzyme.is_finite() && enzyme > 0.0) {
@@ -482,13 +482,14 @@ fn analyse_rates_with(request: &RateRequest, fixed_weights: Option<&[f64]>) -> R
     }
     add_derived(&mut summary, &fit, kcat_factor, specificity_factor);
     add_specific_activity(&mut summary, &fit, protein_factor);
+    let derived_factors = DerivedFactors { kcat: kcat_factor, specificity: specificity_factor, activity: protein_factor };
 
     let ran_off = fit.summary.termination == Termination::NoFiniteOptimum;
     let bootstrap_report = match request.interval_method {
         // A fit that ran off has no asymptotic or bootstrap interval worth
         // the name; the profile says which side the data do bound.
         _ if ran_off => {
-            profile_intervals(&mut summary, model.as_ref(), &observations, &fit, kcat_factor, specificity_factor, protein_factor);
+            profile_intervals(&mut summary, model.as_ref(), &observations, &fit, derived_factors);
             summary.warnings.push(
                 "The intervals shown are profile intervals whatever method was chosen: with no finite optimum only the profile says which side the data bound."
                     .to_string(),
@@ -504,7 +505,7 @@ fn analyse_rates_with(request: &RateRequest, fixed_weights: Option<&[f64]>) -> R
             None
         }
         IntervalMethod::Profile => {
-            profile_intervals(&mut summary, model.as_ref(), &observations, &fit, kcat_factor, specificity_factor, protein_factor);
+            profile_intervals(&mut summary, model.as_ref(), &observations, &fit, derived_factors);
             None
         }
         IntervalMethod::Bootstrap => Some(bootstrap_intervals(
@@ -513,9 +514,7 @@ fn analyse_rates_with(request: &RateRequest, fixed_weights: Option<&[f64]>) -> R
             &observations,
             &fit,
             &request.bootstrap,
-            kcat_factor,
-            specificity_factor,
-            protein_factor,
+            derived_factors,
         )?),
     };
     summary.warnings.extend(diagnostics.findings.iter().cloned());
@@ -699,22 +698,31 @@ fn add_derived(summary: &mut FitSummary, fit: &Fit, kcat_factor: Option<f64>, sp
     }
 }
 
+/// What [`enzyme_as_protein`] makes of the request.
+struct ProteinPart {
+    /// What the result reports about the protein.
+    report: Option<EnzymeFromProtein>,
+    /// Vmax to specific activity.
+    factor: Option<f64>,
+    /// [E]t and its unit for kcat, given directly or from the protein.
+    enzyme: Option<(f64, Option<String>)>,
+}
+
 /// Reads the enzyme given as protein: returns what the result reports,
 /// the factor from Vmax to specific activity (when the unit of v is known)
 /// and [E]t with its unit for kcat (given directly, or from the protein
 /// and the molar mass). Refuses [E]t given both ways, and units that are
 /// not a mass concentration or a molar mass, with a sentence.
-#[allow(clippy::type_complexity)]
 fn enzyme_as_protein(
     request: &RateRequest,
     substrate_unit: Option<ConcentrationUnit>,
     rate_unit: Option<RateUnit>,
     notes: &mut Vec<String>,
     warnings: &mut Vec<String>,
-) -> Result<(Option<EnzymeFromProtein>, Option<f64>, Option<(f64, Option<String>)>), Error> {
+) -> Result<ProteinPart, Error> {
     let given = request.enzyme.map(|e| (e, request.enzyme_unit.clone()));
     let Some(protein) = &request.protein else {
-        return Ok((None, None, given));
+        return Ok(ProteinPart { report: None, factor: None, enzyme: given });
     };
     if !(protein.concentration.is_finite() && protein.concentration > 0.0) {
         return Err(Error::invalid_option("the protein concentration must be a positive number"));
@@ -765,7 +773,7 @@ fn enzyme_as_protein(
             None
         }
     };
-    Ok((Some(from), factor, enzyme))
+    Ok(ProteinPart { report: Some(from), factor, enzyme })
 }
 
 /// Appends specific activity: Vmax times `factor`, so its standard error
@@ -782,6 +790,16 @@ fn add_specific_activity(summary: &mut FitSummary, fit: &Fit, factor: Option<f64
     summary.parameters.push(activity);
 }
 
+/// The factors that turn the fitted constants into the derived ones, in
+/// the order they are appended: kcat = Vmax·`kcat`, kcat/Km =
+/// `specificity`·Vmax/Km, specific activity = Vmax·`activity`.
+#[derive(Clone, Copy)]
+struct DerivedFactors {
+    kcat: Option<f64>,
+    specificity: Option<f64>,
+    activity: Option<f64>,
+}
+
 /// Replaces every interval by its profile-likelihood interval. kcat's is
 /// Vmax's scaled; kcat/Km's comes from refitting the curve with Vmax/Km as
 /// a parameter and profiling that.
@@ -790,10 +808,9 @@ fn profile_intervals(
     model: &dyn Model,
     data: &Observations,
     fit: &Fit,
-    kcat_factor: Option<f64>,
-    specificity_factor: Option<f64>,
-    protein_factor: Option<f64>,
+    factors: DerivedFactors,
 ) {
+    let DerivedFactors { kcat: kcat_factor, specificity: specificity_factor, activity: protein_factor } = factors;
     let n_fitted = fit.values().len();
     let mut unbounded = Vec::new();
     // The fitted constants go through the step every analysis shares; it
@@ -856,10 +873,9 @@ fn bootstrap_intervals(
     data: &Observations,
     fit: &Fit,
     settings: &BootstrapSettings,
-    kcat_factor: Option<f64>,
-    specificity_factor: Option<f64>,
-    protein_factor: Option<f64>,
+    factors: DerivedFactors,
 ) -> Result<BootstrapReport, Error> {
+    let DerivedFactors { kcat: kcat_factor, specificity: specificity_factor, activity: protein_factor } = factors;
     // The fitted constants go through the step every analysis shares; the
     // derived ones are computed from the same resamples.
     let sample = apply_interval_method(summary, model, data, fit, IntervalMethod::Bootstrap, settings)?
