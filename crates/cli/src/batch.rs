@@ -61,6 +61,9 @@ pub(crate) fn run(args: Prepared, model: String, group_by: String, format: Forma
     if args.points {
         return Err(usage("fit", "--points applies to one-curve fits; a batch writes no per-point arrays"));
     }
+    if args.request.protein.is_some() {
+        return Err(usage("fit", "--protein and --molar-mass are not available with --group-by; fit the curve alone for its specific activity"));
+    }
     if args.cheng_prusoff.is_some() {
         return Err(usage("fit", "--cheng-prusoff is not available with --group-by; fit the curve alone to convert its IC50"));
     }
@@ -167,7 +170,7 @@ fn parameter_names(model: &str, request: &BatchRequest) -> Vec<String> {
     }
 }
 
-fn separator(format: Format) -> char {
+pub(crate) fn separator(format: Format) -> char {
     if format == Format::Csv {
         ','
     } else {
@@ -177,7 +180,7 @@ fn separator(format: Format) -> char {
 
 /// A cell for CSV (quoted when it holds a comma, quote or line break) or
 /// TSV (tabs and line breaks become spaces).
-fn cell(text: &str, format: Format) -> String {
+pub(crate) fn cell(text: &str, format: Format) -> String {
     let text = escape_controls(text);
     match format {
         Format::Csv if text.contains([',', '"', '\n']) => format!("\"{}\"", text.replace('"', "\"\"")),

@@ -111,27 +111,18 @@ pub(crate) fn inactivation_command(options: InactivationOptions) -> Result<ExitC
             analysis.time_unit
         );
         for t in &analysis.traces {
+            let (kobs, se) = crate::constants::value_and_error_columns(Some(t.kobs), t.kobs_se);
             text.push_str(&format!(
                 "{:<10} {:>12} {:>14} {:>12}{}\n",
                 t.trace,
                 n(Some(t.i)),
-                n(Some(t.kobs)),
-                n(t.kobs_se),
+                kobs,
+                se,
                 if t.used { "" } else { "  (not used)" }
             ));
         }
         text.push('\n');
-        for p in &analysis.parameters {
-            text.push_str(&format!(
-                "{:<10} = {} ± {} ({} to {}) {}\n",
-                p.name,
-                n(Some(p.value)),
-                n(p.std_error),
-                n(p.ci_low),
-                n(p.ci_high),
-                p.unit.as_deref().unwrap_or("")
-            ));
-        }
+        text.push_str(&crate::constants::constants_block(&analysis.parameters, 95.0, "asymptotic"));
         for w in &analysis.warnings {
             text.push_str(&format!("warning: {w}\n"));
         }

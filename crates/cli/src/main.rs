@@ -10,6 +10,7 @@
 //! run quietly with 0.
 
 mod batch;
+mod constants;
 mod inactivation;
 mod output;
 mod sets;
@@ -141,9 +142,13 @@ struct FitOptions {
     /// sample or well), each as if its rows were a table alone
     #[arg(long, value_name = "COLUMN")]
     group_by: Option<String>,
-    /// With --group-by: one JSON object, or one CSV or TSV row per curve
-    /// [default: json with --json, else tsv]
-    #[arg(long, value_name = "FORMAT", value_parser = ["json", "csv", "tsv"])]
+    /// What to print. One fit: text (a table for a person, numbers by the
+    /// formatting rule), json (every number at full precision; the same as
+    /// --json), or csv / tsv (one row per constant at full precision; notes,
+    /// warnings and the caution on standard error). With --group-by: json,
+    /// or one csv or tsv row per curve [default: text for one fit; with
+    /// --group-by json with --json, else tsv]
+    #[arg(long, value_name = "FORMAT", value_parser = ["text", "json", "csv", "tsv"])]
     format: Option<String>,
     /// With --group-by: worker threads [default: one per core, or
     /// RAYON_NUM_THREADS]
@@ -166,6 +171,16 @@ struct ModelExtras {
     /// Unit of --enzyme when CONC is a bare number
     #[arg(long, value_name = "UNIT")]
     enzyme_unit: Option<String>,
+    /// The enzyme's protein concentration in the assay, such as
+    /// '0.05 mg/mL' or '50µg/mL': adds the specific activity (µmol min⁻¹
+    /// mg⁻¹, from Vmax; the [S]–v models)
+    #[arg(long, value_name = "CONC")]
+    protein: Option<String>,
+    /// The enzyme's molar mass (per active site), such as '42 kDa' or
+    /// '42000 g/mol': with --protein, [E]t = protein / molar mass, for kcat
+    /// (instead of --enzyme)
+    #[arg(long, value_name = "MASS")]
+    molar_mass: Option<String>,
     /// Fix the top plateau of the ic50 model
     #[arg(long, value_name = "Y", value_parser = option_number, allow_hyphen_values = true)]
     top: Option<f64>,
@@ -367,6 +382,7 @@ fn prepare(command: &'static str, data: DataOptions, extra: ModelExtras, model: 
     } else if extra.enzyme_unit.is_some() {
         return Err(usage(command, "--enzyme-unit is the unit of --enzyme; give --enzyme too"));
     }
+    request.protein = protein_request(command, model, extra.protein, extra.molar_mass, request.enzyme.is_some())?;
     let cheng_prusoff = conversion_request(command, extra.cheng_prusoff, extra.substrate, extra.km, extra.km_se)?;
     if cheng_prusoff.is_some() && model != "ic50" {
         return Err(usage(command, format!("--cheng-prusoff converts the IC50 of the ic50 model; it does not apply to {model}")));
@@ -385,6 +401,51 @@ fn prepare(command: &'static str, data: DataOptions, extra: ModelExtras, model: 
         bottom: extra.bottom,
         cheng_prusoff,
     })
+}
+
+/// Reads `--protein` and `--molar-mass` (numbers by the tables' rule, each
+/// with its unit) into the core's request; refuses them for models
+/// without Vmax, a molar mass without the protein, a molar mass beside
+/// `--enzyme`, and units that are not a mass concentration or a molar
+/// mass, with a sentence.
+fn protein_request(
+    command: &'static str,
+    model: &str,
+    protein: Option<String>,
+    molar_mass: Option<String>,
+    enzyme_given: bool,
+) -> Result<Option<turnover_core::protein::ProteinRequest>, Failure> {
+    use turnover_core::protein::{grams_per_litre, grams_per_mole, ProteinRequest};
+    if protein.is_none() && molar_mass.is_none() {
+        return Ok(None);
+    }
+    if model_input(model).is_some_and(|input| input != ModelInput::Substrate) {
+        return Err(usage(command, format!("--protein and --molar-mass apply to the [S]–v models (mm, substrate-inhibition, hill), not to {model}")));
+    }
+    let Some(protein) = protein else {
+        return Err(usage(command, "--molar-mass turns --protein into [E]t; give --protein too (such as '0.05 mg/mL')"));
+    };
+    let quantity = |text: &str, name: &str, example: &str, check: fn(&str) -> Result<f64, String>| -> Result<(f64, String), Failure> {
+        let (value, unit) = turnover_core::table::read_quantity(text)
+            .map_err(|m| usage(command, format!("{name} '{text}': {m}; give it with its unit, such as '{example}'")))?;
+        let unit = unit.ok_or_else(|| usage(command, format!("{name} '{text}' has no unit; give it with its unit, such as '{example}'")))?;
+        check(&unit).map_err(|m| usage(command, format!("{name}: {m}")))?;
+        if !(value.is_finite() && value > 0.0) {
+            return Err(usage(command, format!("{name} '{text}': it must be a positive number")));
+        }
+        Ok((value, unit))
+    };
+    let (concentration, unit) = quantity(&protein, "--protein", "0.05 mg/mL", grams_per_litre)?;
+    let mass = molar_mass.map(|m| quantity(&m, "--molar-mass", "42 kDa", grams_per_mole)).transpose()?;
+    if mass.is_some() && enzyme_given {
+        return Err(usage(command, "[E]t is given twice: by --enzyme and by --protein with --molar-mass; give one of them"));
+    }
+    Ok(Some(ProteinRequest {
+        concentration,
+        unit,
+        molar_mass: mass.as_ref().map(|m| m.0),
+        molar_mass_unit: mass.map(|m| m.1),
+    }))
 }
 
 /// Reads `--cheng-prusoff`, `--substrate`, `--km` and `--km-se` into one
@@ -546,13 +607,29 @@ struct Envelope<'a, P: Serialize, U: Serialize> {
 fn fit(options: FitOptions) -> Result<ExitCode, Failure> {
     let model = options.model.clone().unwrap_or_else(|| "mm".to_string());
     let Some(group_by) = options.group_by else {
-        for (given, name) in [(options.format.is_some(), "--format"), (options.threads.is_some(), "--threads"), (options.normalise, "--normalise")] {
+        for (given, name) in [(options.threads.is_some(), "--threads"), (options.normalise, "--normalise")] {
             if given {
                 return Err(usage("fit", format!("{name} applies to batch fits only; add --group-by COLUMN or leave it out")));
             }
         }
-        return fit_one(options.data, options.extra, model);
+        let mut data = options.data;
+        let rows = match (options.format.as_deref(), data.json) {
+            (Some(f), true) if f != "json" => return Err(usage("fit", format!("--json and --format {f} disagree; give one of them"))),
+            (Some("json"), _) => {
+                data.json = true;
+                None
+            }
+            (Some(f @ ("csv" | "tsv")), _) => Some(batch::Format::from_name(f)),
+            _ => None,
+        };
+        if rows.is_some() && data.points {
+            return Err(usage("fit", "--points chooses what the JSON holds; csv and tsv hold one row per constant"));
+        }
+        return fit_one(data, options.extra, model, rows);
     };
+    if options.format.as_deref() == Some("text") {
+        return Err(usage("fit", "with --group-by the output is json, csv or tsv (one record or row per curve), not text"));
+    }
     let format = match (options.format.as_deref(), options.data.json) {
         (Some(f), true) if f != "json" => return Err(usage("fit", format!("--json and --format {f} disagree; give one of them"))),
         (Some(f), _) => batch::Format::from_name(f),
@@ -563,7 +640,9 @@ fn fit(options: FitOptions) -> Result<ExitCode, Failure> {
     batch::run(args, model, group_by, format, options.threads, options.normalise)
 }
 
-fn fit_one(data: DataOptions, extra: ModelExtras, model: String) -> Result<ExitCode, Failure> {
+/// One fit of the whole table; `rows` asks for CSV or TSV constants
+/// instead of text (JSON is `data.json`).
+fn fit_one(data: DataOptions, extra: ModelExtras, model: String, rows: Option<batch::Format>) -> Result<ExitCode, Failure> {
     let mut args = prepare("fit", data, extra, &model)?;
     args.request.text = read_table(&args.file, args.sheet.as_deref())?;
     let mut out = Output::new();
@@ -585,6 +664,8 @@ fn fit_one(data: DataOptions, extra: ModelExtras, model: String) -> Result<ExitC
                 };
                 let extra = WithReplicates { envelope: extra, replicates: &analysis.replicates };
                 out.json(&FitJson { fit, extra })?;
+            } else if let Some(format) = rows {
+                write_rows(&mut out, fit, &analysis.notes, &analysis.caution, format)?;
             } else {
                 out.text(&fit_table(fit, "", &analysis.notes, &analysis.caution))?;
             }
@@ -622,6 +703,8 @@ fn fit_one(data: DataOptions, extra: ModelExtras, model: String) -> Result<ExitC
                 };
                 let extra = WithReplicates { envelope: extra, replicates: &analysis.replicates };
                 out.json(&FitJson { fit: &analysis.fit, extra })?;
+            } else if let Some(format) = rows {
+                write_rows(&mut out, &analysis.fit, &analysis.notes, &analysis.caution, format)?;
             } else {
                 out.text(&fit_table(&analysis.fit, "", &analysis.notes, &analysis.caution))?;
             }
@@ -632,6 +715,8 @@ fn fit_one(data: DataOptions, extra: ModelExtras, model: String) -> Result<ExitC
             check_problems(&args, &analysis.problems)?;
             if args.json {
                 write_rate_json(&mut out, &analysis, args.points)?;
+            } else if let Some(format) = rows {
+                write_rows(&mut out, &analysis.fit, &analysis.notes, &analysis.caution, format)?;
             } else {
                 out.text(&to_table(&analysis))?;
             }
@@ -640,6 +725,24 @@ fn fit_one(data: DataOptions, extra: ModelExtras, model: String) -> Result<ExitC
     };
     out.finish()?;
     Ok(code)
+}
+
+/// The constants of `fit` as CSV or TSV rows on standard output; the
+/// notes, warnings and caution go to standard error, so that nothing is
+/// said in the text output alone.
+fn write_rows(out: &mut Output, fit: &FitSummary, notes: &[String], caution: &str, format: batch::Format) -> std::io::Result<()> {
+    out.text(&constants::constants_rows(&fit.parameters, format))?;
+    for note in notes {
+        warn(&format!("turnover: note: {note}"));
+    }
+    for warning in &fit.warnings {
+        warn(&format!("turnover: warning: {warning}"));
+    }
+    if !fit.converged {
+        warn(&format!("turnover: the fit did not converge: {}", fit.termination_text));
+    }
+    warn(&format!("turnover: {caution}"));
+    Ok(())
 }
 
 fn exit_for(fit: &FitSummary) -> ExitCode {
@@ -733,7 +836,7 @@ fn compare(options: CompareOptions) -> Result<ExitCode, Failure> {
         let mut text = String::new();
         text.push_str(&format!("{:<22} {:>12} {:>5} {:>12} {:>8}  parameters\n", "model", "RSS", "dof", "AICc", "weight"));
         for m in &comparison.models {
-            let params: Vec<String> = m.parameters.iter().map(|p| format!("{} = {}", p.name, number(Some(p.value)))).collect();
+            let params: Vec<String> = m.parameters.iter().map(constants::constant).collect();
             text.push_str(&format!(
                 "{:<22} {:>12} {:>5} {:>12} {:>8}  {}\n",
                 m.model,
@@ -782,6 +885,8 @@ fn write_rate_json(out: &mut Output, analysis: &RateAnalysis, all_points: bool) 
         diagnostics: Diagnostics<'a>,
         direct_linear: &'a turnover_core::robust::DirectLinearEstimate,
         bootstrap: &'a Option<turnover_core::rates::BootstrapReport>,
+        #[serde(skip_serializing_if = "Option::is_none")]
+        enzyme_from_protein: &'a Option<turnover_core::protein::EnzymeFromProtein>,
         error_structure: &'a Option<turnover_core::errors::ErrorStructure>,
         replicates: &'a [turnover_core::read::replicates::ReplicateSummary],
     }
@@ -815,6 +920,7 @@ fn write_rate_json(out: &mut Output, analysis: &RateAnalysis, all_points: bool) 
         diagnostics,
         direct_linear: &analysis.direct_linear,
         bootstrap: &analysis.bootstrap,
+        enzyme_from_protein: &analysis.enzyme_from_protein,
         error_structure: &analysis.error_structure,
         replicates: &analysis.replicates,
     };
@@ -852,8 +958,8 @@ fn to_table(analysis: &RateAnalysis) -> String {
         extra.push_str(&format!(
             "Direct linear plot (medians of {} intersections): Km = {}, Vmax = {}\n",
             analysis.direct_linear.intersections,
-            number(Some(km)),
-            number(Some(vmax))
+            constants::plain(Some(km)),
+            constants::plain(Some(vmax))
         ));
     }
     if let Some(b) = &analysis.bootstrap {
@@ -879,32 +985,7 @@ fn fit_table(fit: &FitSummary, extra: &str, notes: &[String], caution: &str) -> 
     let level = (fit.confidence_level * 100.0).round();
     let method = fit.parameters.first().map_or("asymptotic", |p| p.ci_method.as_str());
     out.push_str(&format!("Weighting: {}; intervals: {}\n\n", weighting_label(fit), method));
-    out.push_str(&format!(
-        "{:<10} {:>14} {:>14} {:>30}  {}\n",
-        "parameter",
-        "value",
-        "std. error",
-        format!("{level}% interval"),
-        "unit"
-    ));
-    for p in &fit.parameters {
-        let interval = match (p.ci_low, p.ci_high) {
-            (None, None) => "—".to_string(),
-            (low, high) => format!(
-                "{} to {}",
-                low.map_or("open".to_string(), |v| number(Some(v))),
-                high.map_or("open".to_string(), |v| number(Some(v)))
-            ),
-        };
-        out.push_str(&format!(
-            "{:<10} {:>14} {:>14} {:>30}  {}\n",
-            p.name,
-            number(Some(p.value)),
-            number(p.std_error),
-            interval,
-            p.unit.clone().unwrap_or_default()
-        ));
-    }
+    out.push_str(&constants::constants_block(&fit.parameters, level, method));
     out.push_str(&format!(
         "\nn = {}, degrees of freedom = {}, residual SD = {}, RSS = {}, R² = {}, AICc = {}\n",
         fit.n,

@@ -127,7 +127,7 @@ pub(crate) fn compare_sets_command(options: SetsOptions) -> Result<ExitCode, Fai
                 .fit
                 .parameters
                 .iter()
-                .map(|p| format!("{} = {} ± {}", p.name, n(Some(p.value)), n(p.std_error)))
+                .map(crate::constants::constant)
                 .collect();
             text.push_str(&format!("{:<16} n = {:<4} {}\n", set.name, set.n, params.join(", ")));
         }

@@ -287,7 +287,6 @@ pub fn rates(options: TraceOptions) -> Result<ExitCode, Failure> {
             caution: &analysis.caution,
         })?;
     } else {
-        let n = |v: Option<f64>| v.map_or("—".to_string(), |v| significant(v, 4));
         let mut text = format!(
             "{:<8} {:>12} {:>12} {:>16} {:>9}  flags\n",
             "trace",
@@ -297,6 +296,7 @@ pub fn rates(options: TraceOptions) -> Result<ExitCode, Failure> {
             "used"
         );
         for t in &analysis.traces {
+            let (rate, rate_se) = crate::constants::value_and_error_columns(t.rate, t.rate_se);
             let window = match (t.window_start, t.window_end) {
                 (Some(a), Some(b)) => format!("{}–{}", significant(a, 3), significant(b, 3)),
                 _ => "—".to_string(),
@@ -305,8 +305,8 @@ pub fn rates(options: TraceOptions) -> Result<ExitCode, Failure> {
             text.push_str(&format!(
                 "{:<8} {:>12} {:>12} {:>16} {:>9}  {}\n",
                 t.name,
-                n(t.rate),
-                n(t.rate_se),
+                rate,
+                rate_se,
                 window,
                 used,
                 t.flags.join(" ")
@@ -355,15 +355,9 @@ pub fn fit_progress_command(options: TraceOptions) -> Result<ExitCode, Failure> 
         let n = |v: Option<f64>| v.map_or("—".to_string(), |v| significant(v, 5));
         let mut text =
             format!("Model: {} ({})\nFit {} after {} evaluation(s).\n\n", s.model, s.equation, s.termination_text, s.iterations);
-        for p in &s.parameters {
-            text.push_str(&format!(
-                "{:<14} {:>14} {:>14}  {}\n",
-                p.name,
-                n(Some(p.value)),
-                n(p.std_error),
-                p.unit.clone().unwrap_or_default()
-            ));
-        }
+        let level = (s.confidence_level * 100.0).round();
+        let method = s.parameters.first().map_or("asymptotic", |p| p.ci_method.as_str());
+        text.push_str(&crate::constants::constants_block(&s.parameters, level, method));
         text.push_str(&format!("\nn = {}, dof = {}, residual SD = {}, R² = {}\n", s.n, s.dof, n(s.sigma), n(s.r_squared)));
         for w in s.warnings.iter().chain(&fit.notes) {
             text.push_str(&format!("note: {w}\n"));

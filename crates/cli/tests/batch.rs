@@ -287,7 +287,7 @@ fn options_that_do_not_apply_are_refused() {
     let path = write("batch-2.csv", &batch_table(&curves));
     let file = path.to_str().unwrap();
     let cases: [(&[&str], &str); 6] = [
-        (&["fit", file, "--model", "ic50", "--format", "csv"], "--format applies to batch fits only"),
+        (&["fit", file, "--group-by", "compound", "--model", "ic50", "--format", "text"], "with --group-by the output is json, csv or tsv"),
         (&["fit", file, "--model", "ic50", "--threads", "2"], "--threads applies to batch fits only"),
         (&["fit", file, "--model", "ic50", "--normalise"], "--normalise applies to batch fits only"),
         (&["fit", file, "--group-by", "compound", "--model", "ic50", "--json", "--format", "csv"], "disagree"),

@@ -383,6 +383,7 @@ fn curve_analysis(request: &BatchRequest, curve: &CurveInput, model: &str) -> Re
             excluded_lines: excluded,
             excluded_cells: Vec::new(),
             rate_time: None,
+            protein: None,
             weighting: request.weighting,
             interval_method: request.interval_method,
             bootstrap: request.bootstrap,

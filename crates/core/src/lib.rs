@@ -83,6 +83,7 @@ pub mod models;
 pub mod plate;
 pub mod plots;
 pub mod progress;
+pub mod protein;
 pub mod random;
 pub mod rates;
 pub mod read;

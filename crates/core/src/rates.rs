@@ -16,6 +16,7 @@ use crate::read::columns::{is_rate_name, is_sd_name, is_substrate_name};
 use crate::robust::{direct_linear, DirectLinearEstimate};
 use crate::solver::Termination;
 use crate::table::{parse_table, shortage_reasons, ColumnHeading, InputProblem, Table};
+use crate::protein::{grams_per_litre, grams_per_mole, specific_activity_factor, EnzymeFromProtein, ProteinRequest, SPECIFIC_ACTIVITY_UNIT};
 use crate::units::{kcat_per_second, ConcentrationUnit, RateUnit, TimeUnit};
 use crate::weighting::Weighting;
 use nalgebra::DMatrix;
@@ -56,6 +57,11 @@ pub struct RateRequest {
     /// the plots are all in the chosen unit; a note states the factor.
     /// Needs the unit of v.
     pub rate_time: Option<String>,
+    /// The enzyme as protein in the assay (mass concentration, optionally
+    /// the molar mass): specific activity, and [E]t for kcat when the
+    /// molar mass is given (then `enzyme` must be `None`). See
+    /// [`crate::protein`].
+    pub protein: Option<ProteinRequest>,
 }
 
 /// One data point as the analysis saw it.
@@ -145,6 +151,10 @@ pub struct RateAnalysis {
     pub error_structure: Option<crate::errors::ErrorStructure>,
     /// Details of the bootstrap, when intervals came from one.
     pub bootstrap: Option<BootstrapReport>,
+    /// The enzyme as protein, when the request gave it: the protein in
+    /// g/L, the molar mass and [E]t computed from them (`enzyme_molar`).
+    /// Specific activity is the derived parameter `specific activity`.
+    pub enzyme_from_protein: Option<EnzymeFromProtein>,
     /// Plot data, direct plot first.
     pub plots: Vec<PlotData>,
     /// The standing caution about what fitted constants mean.
@@ -442,11 +452,13 @@ fn analyse_rates_with(request: &RateRequest, fixed_weights: Option<&[f64]>) -> R
     let mut enzyme_symbol = None;
     let mut kcat_factor = None;
     let mut specificity_factor = None;
-    if let Some(enzyme) = request.enzyme {
+    let ProteinPart { report: enzyme_from_protein, factor: protein_factor, enzyme: enzyme_given } =
+        enzyme_as_protein(request, substrate_unit, rate_unit, &mut notes, &mut summary.warnings)?;
+    if let Some((enzyme, enzyme_unit)) = enzyme_given {
         if !(enzyme.is_finite() && enzyme > 0.0) {
             return Err(Error::invalid_option("the enzyme concentration [E]t must be a positive number"));
         }
-        let enzyme_unit_text = request.enzyme_unit.as_deref().map(str::trim).filter(|t| !t.is_empty()).ok_or_else(|| {
+        let enzyme_unit_text = enzyme_unit.as_deref().map(str::trim).filter(|t| !t.is_empty()).ok_or_else(|| {
             Error::invalid_option("give the unit of the enzyme concentration [E]t (for example nM)")
         })?;
         let enzyme_unit = ConcentrationUnit::parse(enzyme_unit_text).map_err(Error::invalid_option)?;
@@ -469,13 +481,15 @@ fn analyse_rates_with(request: &RateRequest, fixed_weights: Option<&[f64]>) -> R
         }
     }
     add_derived(&mut summary, &fit, kcat_factor, specificity_factor);
+    add_specific_activity(&mut summary, &fit, protein_factor);
+    let derived_factors = DerivedFactors { kcat: kcat_factor, specificity: specificity_factor, activity: protein_factor };
 
     let ran_off = fit.summary.termination == Termination::NoFiniteOptimum;
     let bootstrap_report = match request.interval_method {
         // A fit that ran off has no asymptotic or bootstrap interval worth
         // the name; the profile says which side the data do bound.
         _ if ran_off => {
-            profile_intervals(&mut summary, model.as_ref(), &observations, &fit, kcat_factor, specificity_factor);
+            profile_intervals(&mut summary, model.as_ref(), &observations, &fit, derived_factors);
             summary.warnings.push(
                 "The intervals shown are profile intervals whatever method was chosen: with no finite optimum only the profile says which side the data bound."
                     .to_string(),
@@ -491,7 +505,7 @@ fn analyse_rates_with(request: &RateRequest, fixed_weights: Option<&[f64]>) -> R
             None
         }
         IntervalMethod::Profile => {
-            profile_intervals(&mut summary, model.as_ref(), &observations, &fit, kcat_factor, specificity_factor);
+            profile_intervals(&mut summary, model.as_ref(), &observations, &fit, derived_factors);
             None
         }
         IntervalMethod::Bootstrap => Some(bootstrap_intervals(
@@ -500,8 +514,7 @@ fn analyse_rates_with(request: &RateRequest, fixed_weights: Option<&[f64]>) -> R
             &observations,
             &fit,
             &request.bootstrap,
-            kcat_factor,
-            specificity_factor,
+            derived_factors,
         )?),
     };
     summary.warnings.extend(diagnostics.findings.iter().cloned());
@@ -557,6 +570,7 @@ fn analyse_rates_with(request: &RateRequest, fixed_weights: Option<&[f64]>) -> R
         direct_linear: robust,
         error_structure,
         bootstrap: bootstrap_report,
+        enzyme_from_protein,
         plots,
         caution: CAUTION.to_string(),
     })
@@ -684,6 +698,108 @@ fn add_derived(summary: &mut FitSummary, fit: &Fit, kcat_factor: Option<f64>, sp
     }
 }
 
+/// What [`enzyme_as_protein`] makes of the request.
+struct ProteinPart {
+    /// What the result reports about the protein.
+    report: Option<EnzymeFromProtein>,
+    /// Vmax to specific activity.
+    factor: Option<f64>,
+    /// [E]t and its unit for kcat, given directly or from the protein.
+    enzyme: Option<(f64, Option<String>)>,
+}
+
+/// Reads the enzyme given as protein: returns what the result reports,
+/// the factor from Vmax to specific activity (when the unit of v is known)
+/// and [E]t with its unit for kcat (given directly, or from the protein
+/// and the molar mass). Refuses [E]t given both ways, and units that are
+/// not a mass concentration or a molar mass, with a sentence.
+fn enzyme_as_protein(
+    request: &RateRequest,
+    substrate_unit: Option<ConcentrationUnit>,
+    rate_unit: Option<RateUnit>,
+    notes: &mut Vec<String>,
+    warnings: &mut Vec<String>,
+) -> Result<ProteinPart, Error> {
+    let given = request.enzyme.map(|e| (e, request.enzyme_unit.clone()));
+    let Some(protein) = &request.protein else {
+        return Ok(ProteinPart { report: None, factor: None, enzyme: given });
+    };
+    if !(protein.concentration.is_finite() && protein.concentration > 0.0) {
+        return Err(Error::invalid_option("the protein concentration must be a positive number"));
+    }
+    let g_per_l = protein.concentration * grams_per_litre(&protein.unit).map_err(Error::invalid_option)?;
+    let mass_unit = protein.molar_mass_unit.as_deref().map(str::trim).filter(|t| !t.is_empty());
+    let molar_mass = match (protein.molar_mass, mass_unit) {
+        (None, None) => None,
+        (Some(m), Some(unit)) if m.is_finite() && m > 0.0 => Some(m * grams_per_mole(unit).map_err(Error::invalid_option)?),
+        (Some(_), Some(_)) => return Err(Error::invalid_option("the molar mass must be a positive number")),
+        (Some(_), None) => return Err(Error::invalid_option("give the unit of the molar mass (kDa, Da or g/mol)")),
+        (None, Some(_)) => return Err(Error::invalid_option("a molar mass unit was given without a molar mass")),
+    };
+    let four = |v: f64| crate::format::format_estimate(Some(v), None, None).value;
+    let mut from = EnzymeFromProtein { protein_g_per_l: g_per_l, molar_mass_g_per_mol: molar_mass, enzyme_molar: None, enzyme_unit: None };
+    let mut enzyme = given;
+    if let Some(mass) = molar_mass {
+        if request.enzyme.is_some() {
+            return Err(Error::invalid_option(
+                "[E]t is given twice, as a molar concentration and as protein with a molar mass; give one of them",
+            ));
+        }
+        let unit = substrate_unit.unwrap_or(ConcentrationUnit::Molar);
+        let value = g_per_l / mass / unit.in_molar();
+        notes.push(format!(
+            "[E]t from the protein: {} g/L ÷ {} g/mol = {} {} (this takes the protein to be the enzyme alone, every molecule active, one active site per molar mass).",
+            four(g_per_l),
+            four(mass),
+            four(value),
+            unit.symbol()
+        ));
+        from.enzyme_molar = Some(value);
+        from.enzyme_unit = Some(unit.symbol().to_string());
+        enzyme = Some((value, Some(unit.symbol().to_string())));
+    }
+    let factor = match rate_unit {
+        Some(rate) => {
+            notes.push(format!(
+                "Specific activity = Vmax ÷ protein ({} mg/L) in {SPECIFIC_ACTIVITY_UNIT} (U/mg); the protein concentration is taken as exact, so its standard error and interval are Vmax's scaled.",
+                four(g_per_l * 1e3)
+            ));
+            Some(specific_activity_factor(rate.in_molar_per_second(), g_per_l))
+        }
+        None => {
+            warnings.push(
+                "Specific activity needs the unit of v (a concentration per time); choose it or write it in the header.".to_string(),
+            );
+            None
+        }
+    };
+    Ok(ProteinPart { report: Some(from), factor, enzyme })
+}
+
+/// Appends specific activity: Vmax times `factor`, so its standard error
+/// is SE(Vmax) times `factor` (the delta method, exact for a linear map;
+/// the protein concentration taken as exact) and its interval Vmax's
+/// scaled.
+fn add_specific_activity(summary: &mut FitSummary, fit: &Fit, factor: Option<f64>) {
+    let Some(factor) = factor else { return };
+    let se = summary.parameters[0].std_error.map(|se| se * factor);
+    let mut activity = estimate("specific activity", fit.values()[0] * factor, se, fit.t_quantile);
+    activity.unit = Some(SPECIFIC_ACTIVITY_UNIT.to_string());
+    activity.derived = true;
+    activity.ci_method = "delta".to_string();
+    summary.parameters.push(activity);
+}
+
+/// The factors that turn the fitted constants into the derived ones, in
+/// the order they are appended: kcat = Vmax·`kcat`, kcat/Km =
+/// `specificity`·Vmax/Km, specific activity = Vmax·`activity`.
+#[derive(Clone, Copy)]
+struct DerivedFactors {
+    kcat: Option<f64>,
+    specificity: Option<f64>,
+    activity: Option<f64>,
+}
+
 /// Replaces every interval by its profile-likelihood interval. kcat's is
 /// Vmax's scaled; kcat/Km's comes from refitting the curve with Vmax/Km as
 /// a parameter and profiling that.
@@ -692,9 +808,9 @@ fn profile_intervals(
     model: &dyn Model,
     data: &Observations,
     fit: &Fit,
-    kcat_factor: Option<f64>,
-    specificity_factor: Option<f64>,
+    factors: DerivedFactors,
 ) {
+    let DerivedFactors { kcat: kcat_factor, specificity: specificity_factor, activity: protein_factor } = factors;
     let n_fitted = fit.values().len();
     let mut unbounded = Vec::new();
     // The fitted constants go through the step every analysis shares; it
@@ -732,6 +848,14 @@ fn profile_intervals(
             unbounded.push("kcat/Km".to_string());
         }
         specificity.ci_method = "profile".to_string();
+        next += 1;
+    }
+    if let Some(factor) = protein_factor {
+        let (low, high) = (summary.parameters[0].ci_low, summary.parameters[0].ci_high);
+        let activity = &mut summary.parameters[next];
+        activity.ci_low = low.map(|v| v * factor);
+        activity.ci_high = high.map(|v| v * factor);
+        activity.ci_method = "profile".to_string();
     }
     if !unbounded.is_empty() {
         summary.warnings.push(format!(
@@ -749,9 +873,9 @@ fn bootstrap_intervals(
     data: &Observations,
     fit: &Fit,
     settings: &BootstrapSettings,
-    kcat_factor: Option<f64>,
-    specificity_factor: Option<f64>,
+    factors: DerivedFactors,
 ) -> Result<BootstrapReport, Error> {
+    let DerivedFactors { kcat: kcat_factor, specificity: specificity_factor, activity: protein_factor } = factors;
     // The fitted constants go through the step every analysis shares; the
     // derived ones are computed from the same resamples.
     let sample = apply_interval_method(summary, model, data, fit, IntervalMethod::Bootstrap, settings)?
@@ -774,6 +898,9 @@ fn bootstrap_intervals(
                 (dv * dv * c[(0, 0)] + dk * dk * c[(1, 1)] + 2.0 * dv * dk * c[(0, 1)]).sqrt()
             }),
         ));
+    }
+    if let Some(factor) = protein_factor {
+        derived.push((column(&|p| p[0] * factor), se_column(&|_, c| c[(0, 0)].sqrt() * factor)));
     }
     let n_fitted = fit.values().len();
     for (estimate, (values, ses)) in summary.parameters[n_fitted..].iter_mut().zip(&derived) {

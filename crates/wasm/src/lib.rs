@@ -87,7 +87,8 @@ impl Workbench {
 
     /// Analyses a rate table. `request` is an object with the fields of
     /// `RateRequest` (`text`, `model`, `substrate_unit`, `rate_unit`,
-    /// `enzyme`, `enzyme_unit`, `excluded_lines`). Throws an `Error` whose
+    /// `enzyme`, `enzyme_unit`, `excluded_lines`, `protein`: `{concentration,
+    /// unit, molar_mass, molar_mass_unit}` or null). Throws an `Error` whose
     /// message is written for the scientist when no fit can be made; the
     /// previous analysis is then forgotten so no stale plot is drawn.
     pub fn analyse(&mut self, request: JsValue) -> Result<JsValue, JsError> {
