@@ -268,7 +268,7 @@ impl TemperatureModel {
             count += 1;
         }
         let det = sw * sxx - sx * sx;
-        if count < 2 || !(det > 0.0) {
+        if count < 2 || det.is_nan() || det <= 0.0 {
             return Err(Error::invalid_data("the starting line needs positive values at two or more temperatures"));
         }
         let slope = (sw * sxy - sx * sy) / det;
@@ -480,7 +480,7 @@ pub fn analyse_temperature(request: &TemperatureRequest) -> Result<TemperatureAn
     let mut weights = Vec::new();
     for row in &read.rows {
         let kelvin = unit.to_kelvin(row.condition);
-        if !(kelvin > 0.0) {
+        if kelvin.is_nan() || kelvin <= 0.0 {
             problems.push(InputProblem {
                 line: row.line,
                 column: Some(read.columns.condition + 1),
