@@ -2,7 +2,8 @@
 //!
 //! Every number printed here comes from the core (`analyse_rates`,
 //! `analyse_inhibition`, `analyse_dose`, `analyse_traces`, `fit_progress`,
-//! `compare_sets`, `inactivation_from_traces`),
+//! `compare_sets`, `inactivation_from_traces`, `analyse_ph`,
+//! `analyse_temperature`),
 //! the same functions the page calls. Arguments are read by clap (derive).
 //! Exit codes are decided in one place, [`main`]: 0 success, 1 the output
 //! could not be written, 2 bad input or usage, 3 the fit did not converge
@@ -13,6 +14,7 @@ mod batch;
 mod constants;
 mod inactivation;
 mod output;
+mod profiles;
 mod sets;
 mod traces;
 
@@ -70,6 +72,12 @@ enum Command {
     /// Time-dependent inhibition from progress curves: kobs per trace,
     /// then kinact, KI and kinact/KI from kobs against [I]
     Inactivation(inactivation::InactivationOptions),
+    /// A rate or rate constant against pH: one ionisation (rising or
+    /// falling limb) or two (bell), pKa values, comparison
+    Ph(profiles::PhOptions),
+    /// A rate constant against temperature: Arrhenius and Eyring fitted
+    /// directly, Ea, ΔH‡, ΔS‡, ΔG‡, a test of curvature
+    Temperature(profiles::TemperatureOptions),
 }
 
 /// Options every fit of a table shares.
@@ -272,6 +280,8 @@ fn main() -> ExitCode {
         Command::FitProgress(options) => traces::fit_progress_command(options),
         Command::CompareSets(options) => sets::compare_sets_command(options),
         Command::Inactivation(options) => inactivation::inactivation_command(options),
+        Command::Ph(options) => profiles::ph_command(options),
+        Command::Temperature(options) => profiles::temperature_command(options),
     };
     match result {
         Ok(code) => code,

@@ -44,6 +44,10 @@ pub const NESTED_PAIRS: &[(&str, &str)] = &[
     ("noncompetitive", "mixed"),
     ("mm", "substrate-inhibition"),
     ("mm", "hill"),
+    // pH profiles: each single ionisation is the bell's limit as the other
+    // pKa leaves the range (a boundary, so the test is approximate).
+    ("rising-limb", "bell"),
+    ("falling-limb", "bell"),
 ];
 
 /// One model's place in the ranking.

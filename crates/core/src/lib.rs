@@ -47,6 +47,10 @@
 //!   several [E].
 //! - [`sets`]: do constants differ between data sets? Global fits with
 //!   shared or separate constants, F tests, ratios with intervals.
+//! - [`ph`]: pH-rate profiles: one or two ionisations, pKa values,
+//!   comparison, log plot with asymptotes.
+//! - [`temperature`]: rate constants against temperature: Arrhenius and
+//!   Eyring fitted directly, ΔH‡, ΔS‡, ΔG‡, a test of curvature.
 //!
 //! ```
 //! use turnover_core::rates::{analyse_rates, RateRequest};
@@ -80,6 +84,7 @@ pub mod intervals;
 pub mod lambert;
 pub mod model;
 pub mod models;
+pub mod ph;
 pub mod plate;
 pub mod plots;
 pub mod progress;
@@ -92,6 +97,7 @@ pub mod selwyn;
 pub mod sets;
 pub mod solver;
 pub mod table;
+pub mod temperature;
 pub mod traces;
 pub mod units;
 pub mod weighting;

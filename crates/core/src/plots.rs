@@ -67,6 +67,17 @@ pub enum PlotKind {
     KobsReplot,
     /// Product against [E]·t, one series per [E] (Selwyn's test).
     Selwyn,
+    /// log10 of a rate or rate constant against pH, with the fitted
+    /// ionisation curve and its asymptotes of slope +1, 0 and −1.
+    PhLog,
+    /// A rate or rate constant against pH with the fitted curve.
+    PhDirect,
+    /// A rate constant against temperature with the Arrhenius fit.
+    TemperatureDirect,
+    /// ln k against 1/T with the direct Arrhenius fit (Arrhenius plot).
+    Arrhenius,
+    /// ln(k/T) against 1/T with the direct Eyring fit (Eyring plot).
+    Eyring,
 }
 
 impl PlotKind {
@@ -108,6 +119,11 @@ impl PlotKind {
             PlotKind::InactivationTraces => "inactivation-traces",
             PlotKind::KobsReplot => "kobs-replot",
             PlotKind::Selwyn => "selwyn",
+            PlotKind::PhLog => "ph-log",
+            PlotKind::PhDirect => "ph-direct",
+            PlotKind::TemperatureDirect => "temperature-direct",
+            PlotKind::Arrhenius => "arrhenius",
+            PlotKind::Eyring => "eyring",
         }
     }
 
@@ -137,6 +153,7 @@ impl PlotKind {
                 PlotKind::Selwyn,
             ])
             .chain([PlotKind::TraceDetail, PlotKind::RateAgainstEnzyme, PlotKind::ProgressCurves])
+            .chain([PlotKind::PhLog, PlotKind::PhDirect, PlotKind::TemperatureDirect, PlotKind::Arrhenius, PlotKind::Eyring])
             .find(|k| k.name() == name)
     }
 }

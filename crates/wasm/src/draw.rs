@@ -337,9 +337,14 @@ fn extent(plot: &PlotData, bars: &[(f64, f64, f64)]) -> ((f64, f64), (f64, f64))
         let pad = if high > low { (high - low) * 0.04 } else { low.abs().max(1.0) * 0.1 };
         (if include_zero && low == 0.0 { 0.0 } else { low - pad }, if include_zero && high == 0.0 { 0.0 } else { high + pad })
     };
-    let include_zero = !matches!(plot.kind, PlotKind::Residuals | PlotKind::NormalQuantile);
+    // pH, 1/T and logarithms have no natural zero: those plots span their data.
+    let include_zero = !matches!(
+        plot.kind,
+        PlotKind::Residuals | PlotKind::NormalQuantile | PlotKind::PhLog | PlotKind::Arrhenius | PlotKind::Eyring
+    );
     (
-        span(&mut all.iter().map(|p| p.0), include_zero && !plot.log_x),
+        // The direct pH and temperature plots keep y from zero, not x.
+        span(&mut all.iter().map(|p| p.0), include_zero && !plot.log_x && !matches!(plot.kind, PlotKind::PhDirect | PlotKind::TemperatureDirect)),
         span(&mut all.iter().map(|p| p.1), include_zero || plot.zero_line),
     )
 }

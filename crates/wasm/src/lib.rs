@@ -18,6 +18,7 @@ mod draw;
 mod figures;
 mod format;
 mod inhibition;
+mod profiles;
 mod sets;
 mod traces;
 
@@ -33,6 +34,7 @@ pub use dose::{is_dose_table, DoseBench};
 pub use draw::{draw_plot, Drawn, FigureOptions, PlotArea, PointPosition};
 pub use figures::TraceFigures;
 pub use inhibition::{is_inhibition_table, InhibitionBench};
+pub use profiles::{ph_profile_json, temperature_profile_json};
 pub use sets::{compare_sets_json, inactivation_json, SetsBench};
 pub use traces::TraceBench;
 

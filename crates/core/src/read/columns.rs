@@ -57,6 +57,29 @@ pub fn is_response_name(name: &str) -> bool {
     is_rate_name(name) || is_signal_name(name)
 }
 
+/// `pH`: the predictor of a pH-rate profile.
+pub fn is_ph_name(name: &str) -> bool {
+    normalise_name(name) == "ph"
+}
+
+/// `T`, `temp`, `temperature`: the predictor of a temperature series. Only
+/// the temperature analysis reads these (in a time course `t` is time), and
+/// it always needs the unit (°C or K) in the heading.
+pub fn is_temperature_name(name: &str) -> bool {
+    matches!(normalise_name(name).as_str(), "t" | "temp" | "temperature")
+}
+
+/// A rate or a rate constant whose dependence on pH or temperature is
+/// studied: the rate names, `k`, `kobs`, `kcat`, `kcat/Km`, `rate
+/// constant`, `specificity constant`.
+pub fn is_rate_constant_name(name: &str) -> bool {
+    is_rate_name(name)
+        || matches!(
+            normalise_name(name).as_str(),
+            "k" | "kobs" | "kcat" | "kcat/km" | "kcatkm" | "rateconstant" | "specificityconstant"
+        )
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -64,12 +87,15 @@ mod tests {
     /// Each role with names it accepts and refuses.
     #[test]
     fn vocabulary() {
-        let cases: [(&str, fn(&str) -> bool, &[&str], &[&str]); 5] = [
+        let cases: [(&str, fn(&str) -> bool, &[&str], &[&str]); 8] = [
             ("substrate", is_substrate_name, &["[S]", "S0", "Substrate", "conc"], &["I", "v"]),
             ("rate", is_rate_name, &["v", "V0", "Initial rate", "velocity"], &["v1", "signal"]),
             ("sd", is_sd_name, &["SD", "sigma", "Standard deviation"], &["sem"]),
             ("inhibitor", is_inhibitor_name, &["[I]", "Inhibitor", "inh"], &["S", "conc"]),
             ("response", is_response_name, &["response", "% activity", "v"], &["S"]),
+            ("pH", is_ph_name, &["pH", "PH", "p.H."], &["pKa", "H"]),
+            ("temperature", is_temperature_name, &["T", "Temperature", "temp"], &["time", "T1"]),
+            ("rate constant", is_rate_constant_name, &["kcat", "kcat/Km", "k", "k_obs", "v", "Rate constant"], &["pH", "Km"]),
         ];
         for (role, test, yes, no) in cases {
             assert!(yes.iter().all(|n| test(n)), "{role}: {yes:?}");

@@ -5,6 +5,8 @@
 //!   information, as rules kept as data.
 //! - [`columns`]: the column vocabulary ([S], [I], rate, response, sd)
 //!   every analysis reads headers with.
+//! - [`profile`]: a condition column (pH, temperature) and a value
+//!   column (a rate or rate constant) by name, for the profile analyses.
 //! - [`layout`]: a plate layout as a list or as plate-map grids, read to
 //!   the same placed cells.
 //! - `spreadsheet`: `.xlsx` and `.ods` bytes to sheet names and a
@@ -18,6 +20,7 @@
 pub mod blocks;
 pub mod columns;
 pub mod layout;
+pub mod profile;
 pub mod replicates;
 #[cfg(feature = "spreadsheets")]
 pub mod spreadsheet;
