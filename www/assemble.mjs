@@ -25,10 +25,11 @@ if (!pkgDir || !outFile) {
 }
 
 const read = (path) => readFileSync(path, 'utf8');
-// The page's own modules travel without their whole-line comments (the
-// sources in www/ keep them): a line whose first characters are `//`, or a
-// block comment that starts a line, outside any template literal. Nothing
-// else changes, so line-level behaviour is the source's.
+// The page's own modules and the wasm-bindgen glue travel without their
+// whole-line comments and indentation (the sources keep them): a line whose
+// first characters are `//`, or a block comment that starts a line, outside
+// any template literal, and the leading white space of every line outside
+// one. Lines stay lines, so line-level behaviour is the source's.
 function withoutCommentLines(text) {
   const kept = [];
   let inTemplate = false;
@@ -50,7 +51,9 @@ function withoutCommentLines(text) {
         continue;
       }
     }
-    kept.push(line);
+    // Indentation is dropped too, except inside a template literal, where
+    // it is part of the text.
+    kept.push(inTemplate ? line : line.trimStart());
     // Backticks not escaped open or close a template literal.
     const ticks = (line.replace(/\\./g, '').match(/`/g) ?? []).length;
     if (ticks % 2 === 1) inTemplate = !inTemplate;
@@ -74,7 +77,7 @@ const blocks = {
   // Worker's source (a Blob URL), so the glue is in the page only once.
   // `var`, not `let`: the page starts a fresh core after an internal error
   // by running this same script again, which a `let` would refuse.
-  bindings: `<script id="turnover-bindings">\n${scriptSafe(read(join(pkgDir, 'turnover_wasm.js')).replace(/^let wasm_bindgen = /m, 'var wasm_bindgen = '))}\n</script>`,
+  bindings: `<script id="turnover-bindings">\n${scriptSafe(withoutCommentLines(read(join(pkgDir, 'turnover_wasm.js'))).replace(/^let wasm_bindgen = /m, 'var wasm_bindgen = '))}\n</script>`,
 };
 // The app block holds one or more <script type="module" src="NAME.js">
 // tags; each becomes an inline module with that file's text, in order.

@@ -51,6 +51,24 @@ W84A\t120\t0.802
 W84A\t120\t0.860
 `;
 
+// Invented demo scenario (not measured data): kcat/Km of the fictional
+// esterase Est-5 across pH, made from the two-ionisation bell with a
+// pH-independent value 2.0×10⁵ M⁻¹ s⁻¹, pKa1 = 6.2 and pKa2 = 8.9, with 4 %
+// seeded Gaussian scatter (Python random, seed 3).
+const PH_DEMO = `# Demo (invented data): esterase Est-5, kcat/Km against pH
+pH\tkcat/Km (M-1 s-1)
+${[[5, 11920], [5.5, 34930], [6, 74450], [6.5, 138150], [7, 169010], [7.5, 181580], [8, 188480], [8.5, 143440], [9, 88320], [9.5, 41320], [10, 15380]].map((r) => r.join('\t')).join('\n')}
+`;
+
+// Invented demo scenario (not measured data): kcat of the fictional
+// esterase Est-5 from 10 to 40 °C, made from the Eyring equation with
+// ΔH‡ = 55 kJ/mol and ΔS‡ = −60 J/(mol·K), with 3 % seeded Gaussian
+// scatter (Python random, seed 5).
+const TEMPERATURE_DEMO = `# Demo (invented data): esterase Est-5, kcat against temperature
+T (°C)\tkcat (s-1)
+${[[10, 0.2986], [15, 0.4563], [20, 0.7254], [25, 0.9833], [30, 1.541], [35, 2.09], [40, 3.316]].map((r) => r.join('\t')).join('\n')}
+`;
+
 const WEIGHTS = [['uniform', 'equal (constant error)'], ['relative', '1/y² from the fitted curve (constant % error)'], ['poisson', '1/y from the fitted curve']];
 
 /** The questions, each with its document section, options, the core call
@@ -84,7 +102,53 @@ const KINDS = {
       methods: `Data sets (${r.sets.map((s) => s.name).join(', ')}) were fitted together to the ${r.model} model by weighted nonlinear least squares with each constant shared between the sets or separate; each shared constant was tested against all separate by the extra-sum-of-squares F test (p < 0.05); ratios to the reference set (${r.reference}) are from the all-separate fit with intervals exp(ln r ± t·SE(ln r)).`,
     }),
   },
+  ph: {
+    label: 'pH-rate profile: pKa values',
+    hint: 'A <code>pH</code> column and a rate or rate constant (<code>kcat</code>, <code>kcat/Km</code>, <code>k</code> or <code>v</code>, with its unit in the heading). One ionisation (a rising or a falling limb) and the bell-shaped two-ionisation model are fitted directly to the values (not to their logarithms) and compared; plotted as log10 of the value against pH with the slope +1, 0 and −1 asymptotes.',
+    fields: [
+      { key: 'column', label: 'Value column', type: 'text', size: 10, placeholder: 'found by name' },
+      { key: 'weighting', label: 'Weights', type: 'select', options: [['relative', '1/y² from the fitted curve (constant % error)'], ['uniform', 'equal (constant error)'], ['poisson', '1/y from the fitted curve']] },
+    ],
+    demo: { name: 'Est-5 kcat/Km against pH', text: PH_DEMO },
+    available: () => typeof wasm_bindgen.phProfile === 'function',
+    run: (d) => JSON.parse(wasm_bindgen.phProfile(JSON.stringify({ text: d.text, column: d.column.trim() || null, weighting: d.weighting }))),
+    present: (r) => ({
+      verdict: r.comparison.verdict,
+      fits: r.fits.map((fit) => ({ title: fit.model === r.drawn ? `${fit.model} (drawn)` : fit.model, fit })),
+      comparison: comparisonTable(r.comparison),
+      methods: `${r.value_name} against pH was fitted by weighted nonlinear least squares to one ionisation (rising or falling limb) and to the two-ionisation bell, y = Y/(1 + 10^(pKa1 − pH) + 10^(pH − pKa2)); models were compared by AICc and the extra-sum-of-squares F test.`,
+    }),
+  },
+  temperature: {
+    label: 'Temperature: Arrhenius and Eyring',
+    hint: 'A temperature column with its unit (<code>T (°C)</code> or <code>T (K)</code>) and a rate constant (<code>k (s-1)</code>, <code>kcat (min-1)</code>, …). Arrhenius and Eyring are fitted directly to k (not to the linearised plots, which are drawn beside the direct fit), with errors of Ea, ΔH‡, ΔS‡ and ΔG‡ from the full covariance, and a test of curvature in the Arrhenius plot.',
+    fields: [
+      { key: 'column', label: 'Value column', type: 'text', size: 10, placeholder: 'found by name' },
+      { key: 'at', label: 'ΔG‡ at', type: 'text', size: 8, placeholder: '25 °C' },
+      { key: 'weighting', label: 'Weights', type: 'select', options: [['relative', '1/y² from the fitted curve (constant % error)'], ['uniform', 'equal (constant error)'], ['poisson', '1/y from the fitted curve']] },
+    ],
+    demo: { name: 'Est-5 kcat against temperature', text: TEMPERATURE_DEMO },
+    available: () => typeof wasm_bindgen.temperatureProfile === 'function',
+    run: (d) => JSON.parse(wasm_bindgen.temperatureProfile(JSON.stringify({ text: d.text, column: d.column.trim() || null, at: d.at.trim() || null, weighting: d.weighting }))),
+    present: (r) => ({
+      // The curvature finding is among the warnings.
+      verdict: null,
+      fits: [{ title: 'Arrhenius', fit: r.arrhenius }, ...(r.eyring ? [{ title: 'Eyring', fit: r.eyring }] : [])],
+      comparison: null,
+      methods: `Rate constants against temperature were fitted by weighted nonlinear least squares to the Arrhenius equation, k = A·exp(−Ea/RT), and the Eyring equation, k = (kB·T/h)·exp(ΔS‡/R)·exp(−ΔH‡/RT) (constants R, kB, h: CODATA 2018), with derived constants by the delta method from the full covariance; curvature of the Arrhenius plot was tested by an F test of a quadratic term in 1/T.`,
+    }),
+  },
 };
+
+/** A comparison of models (the core's record) as a table. */
+function comparisonTable(c) {
+  const tests = new Map((c.f_tests ?? []).map((f) => [f.simpler, f]));
+  return {
+    head: ['Model', 'RSS', 'dof', 'AICc', 'ΔAICc', 'Akaike weight', 'F test against the general model'],
+    rows: c.models.map((m) => [m.model, num(m.rss), String(m.dof), num(m.aicc), num(m.delta_aicc), m.akaike_weight === null ? '—' : m.akaike_weight.toFixed(3),
+      tests.has(m.model) ? fText(tests.get(m.model)) : '—']),
+  };
+}
 
 const num = (x) => (x === null || x === undefined || !Number.isFinite(x) ? '—' : page.ui.format(x));
 function fText(f) {
@@ -196,7 +260,7 @@ function show({ kind, result, shown }) {
     ? 'At least one fit did not converge: its numbers are not a least-squares solution (see its table).'
     : `Fitted${warnings.length ? ': read the warnings below' : ''}.`;
   // The verdict, or its findings one to a line when it has several.
-  const findings = shown.findings?.length ? shown.findings : [shown.verdict ?? ''];
+  const findings = shown.findings?.length ? shown.findings : shown.verdict ? [shown.verdict] : [];
   $('further-verdict').replaceChildren(...findings.map((t) => cell('p', t, { class: 'verdict' })));
   const fits = $('further-fits');
   fits.replaceChildren();

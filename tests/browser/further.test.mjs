@@ -177,3 +177,37 @@ test('enzyme stability: the demo plate’s traces at four [E] are checked for su
   assert.deepEqual(errors, []);
   await page.close();
 });
+
+test('pH-rate profile and temperature: the demos give back the constants they were made with, and every plot is drawn', async () => {
+  const { page, errors } = await openPage();
+  await choose(page, 'ph');
+  const ph = await result(page);
+  const bell = ph.fits.find((f) => f.model === 'bell');
+  // Made with pKa1 = 6.2, pKa2 = 8.9 and 4 % scatter (invented data).
+  for (const [name, truth] of [['pKa1', 6.2], ['pKa2', 8.9]]) {
+    const p = bell.parameters.find((q) => q.name === name);
+    assert.ok(p.ci_low < truth && truth < p.ci_high, `${name} ${p.ci_low}–${p.ci_high} should hold ${truth}`);
+  }
+  assert.equal(ph.comparison.preferred, 'bell');
+  let plots = await page.$$eval('#further-plots canvas', (cs) => cs.map((c) => c.dataset.drawn));
+  assert.ok(plots.length === ph.plots.length && plots.every((d) => d === 'yes'), `pH plots ${plots}`);
+  await page.selectOption('#further-kind', 'temperature');
+  await page.click('#further-demo');
+  await page.waitForFunction(() => window.turnover.doc().further.kind === 'temperature' && window.turnover.further.lastResult()?.arrhenius, null, { timeout: 30_000 });
+  const t = await result(page);
+  // Made with ΔH‡ = 55 kJ/mol and ΔS‡ = −60 J/(mol·K) and 3 % scatter.
+  for (const [name, truth] of [['ΔH‡', 55], ['ΔS‡', -60]]) {
+    const p = t.eyring.parameters.find((q) => q.name === name);
+    assert.ok(p.ci_low < truth && truth < p.ci_high, `${name} ${p.ci_low}–${p.ci_high} should hold ${truth}`);
+  }
+  plots = await page.$$eval('#further-plots canvas', (cs) => cs.map((c) => c.dataset.kind));
+  assert.deepEqual(plots, t.plots.map((p) => p.kind));
+  // A temperature without a unit is refused with the reason, never guessed.
+  await page.fill('#further-input', 'T\tkcat (s-1)\n10\t0.3\n20\t0.7\n30\t1.5\n40\t3.3\n');
+  await page.evaluate(() => window.turnover.analyse());
+  assert.equal(await result(page), null);
+  assert.match(await page.locator('#further-status').textContent(), /unit/);
+  await page.locator('#further-panel').screenshot({ path: join(shotDir, 'further-temperature-refused.png') });
+  assert.deepEqual(errors, []);
+  await page.close();
+});
