@@ -72,6 +72,7 @@ pub mod errors;
 pub mod diagnostics;
 pub mod dose;
 pub mod error;
+pub mod fastpath;
 pub mod fit;
 pub mod format;
 pub mod inactivation;
