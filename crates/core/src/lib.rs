@@ -90,6 +90,7 @@ pub mod read;
 pub mod robust;
 pub mod selwyn;
 pub mod sets;
+pub mod shared_slope;
 pub mod solver;
 pub mod table;
 pub mod traces;
