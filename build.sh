@@ -132,6 +132,7 @@ run_tests() {
   TURNOVER_BIN="$ROOT/target/release/turnover" python3 tests/scipy/rates_crosscheck.py
   TURNOVER_BIN="$ROOT/target/release/turnover" python3 tests/scipy/models_crosscheck.py
   TURNOVER_BIN="$ROOT/target/release/turnover" python3 tests/scipy/sets_crosscheck.py
+  TURNOVER_BIN="$ROOT/target/release/turnover" python3 tests/scipy/shared_slope_crosscheck.py
   TURNOVER_BIN="$ROOT/target/release/turnover" python3 tests/scipy/inactivation_crosscheck.py
   TURNOVER_BIN="$ROOT/target/release/turnover" python3 tests/scipy/profiles_crosscheck.py
   say "browser tests (headless Debian chromium, page opened from file://)"

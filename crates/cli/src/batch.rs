@@ -18,6 +18,7 @@ use turnover_core::batch::{fit_curve, prepare_batch, BatchRequest, CurveFlag, Cu
 use turnover_core::fit::FitSummary;
 use turnover_core::models::{model_with_options, ModelOptions};
 use turnover_core::rates::CAUTION;
+use turnover_core::shared_slope::analyse_shared_slope;
 use turnover_core::table::InputProblem;
 
 /// Curves per thread in one block.
@@ -153,6 +154,104 @@ pub(crate) fn run(args: Prepared, model: String, group_by: String, format: Forma
         writeln!(out, ",\"caution\":{}}}", serde_json::to_string(CAUTION).expect("a string"))?;
     }
     out.flush()?;
+    if problems > 0 && !args.lenient {
+        return Err(Failure::Input(format!(
+            "{problems} problem(s) in the input (each listed above and in its curve's record); the usable rows were fitted; fix them, or pass --lenient to accept the fits"
+        )));
+    }
+    Ok(if all_converged { ExitCode::SUCCESS } else { ExitCode::from(3) })
+}
+
+/// `fit --group-by COLUMN --model ic50 --shared-slope`: the core's
+/// [`analyse_shared_slope`] (one global fit, so no threads), written as the
+/// batch is, with the shared slope after the curves (JSON `shared`; in CSV
+/// and TSV every row carries the shared slope and its global SE).
+pub(crate) fn run_shared_slope(args: Prepared, model: String, group_by: String, format: Format, normalise: bool) -> Result<ExitCode, Failure> {
+    if args.points {
+        return Err(usage("fit", "--points applies to one-curve fits; a batch writes no per-point arrays"));
+    }
+    if args.cheng_prusoff.is_some() {
+        return Err(usage("fit", "--cheng-prusoff is not available with --group-by; fit the curve alone to convert its IC50"));
+    }
+    if model != "ic50" {
+        return Err(usage("fit", format!("--shared-slope applies to --model ic50 only, not to {model}")));
+    }
+    let request = BatchRequest {
+        text: crate::read_input(&args.file)?,
+        group_by,
+        model: model.clone(),
+        substrate_unit: args.request.substrate_unit.clone(),
+        rate_unit: args.request.rate_unit.clone(),
+        enzyme: args.request.enzyme,
+        enzyme_unit: args.request.enzyme_unit.clone(),
+        fixed_top: args.top,
+        fixed_bottom: args.bottom,
+        excluded_lines: args.request.excluded_lines.clone(),
+        weighting: args.request.weighting,
+        interval_method: args.request.interval_method,
+        bootstrap: args.request.bootstrap,
+        flags: Default::default(),
+        normalise,
+    };
+    let analysis = analyse_shared_slope(&request).map_err(|e| Failure::Input(e.message))?;
+    for plate in &analysis.plates {
+        if let Some(flag) = &plate.flag {
+            warn(&format!("{}: plate '{}': {flag}", args.file, plate.plate));
+        }
+    }
+    for problem in &analysis.problems {
+        warn(&format!("{}: {problem}", args.file));
+    }
+    let names = parameter_names(&model, &request);
+    let stdout = std::io::stdout();
+    let mut out = BufWriter::with_capacity(64 * 1024, stdout.lock());
+    let mut problems = analysis.problems.len();
+    let mut all_converged = analysis.shared.as_ref().is_some_and(|s| s.converged);
+    match format {
+        Format::Json => {
+            write!(out, "{{\"group_by\":{},\"plates\":", serde_json::to_string(&analysis.group_by).expect("a string"))?;
+            serde_json::to_writer(&mut out, &analysis.plates).map_err(std::io::Error::from)?;
+            out.write_all(b",\"curves\":[")?;
+        }
+        Format::Csv | Format::Tsv => writeln!(out, "{}", header(&names, &analysis.group_by, format))?,
+    }
+    for (k, result) in analysis.curves.iter().enumerate() {
+        all_converged &= result.fit.as_ref().is_some_and(|f| f.converged);
+        problems += result.problems.len();
+        for problem in &result.problems {
+            warn(&format!("{}: curve '{}': {problem}", args.file, result.curve));
+        }
+        match format {
+            Format::Json => {
+                out.write_all(if k == 0 { b"\n" } else { b",\n" })?;
+                let record = CurveJson {
+                    curve: &result.curve,
+                    fit: result.fit.as_ref(),
+                    error: result.error.as_deref(),
+                    pic50: result.pic50.as_ref(),
+                    flags: &result.flags,
+                    problems: &result.problems,
+                    notes: &result.notes,
+                };
+                serde_json::to_writer(&mut out, &record).map_err(std::io::Error::from)?;
+            }
+            Format::Csv | Format::Tsv => writeln!(out, "{}", row(result, &names, format))?,
+        }
+    }
+    if format == Format::Json {
+        out.write_all(b"\n],\"shared\":")?;
+        serde_json::to_writer(&mut out, &analysis.shared).map_err(std::io::Error::from)?;
+        out.write_all(b",\"problems\":")?;
+        serde_json::to_writer(&mut out, &analysis.problems).map_err(std::io::Error::from)?;
+        writeln!(out, ",\"caution\":{}}}", serde_json::to_string(CAUTION).expect("a string"))?;
+    }
+    out.flush()?;
+    if let Some(shared) = &analysis.shared {
+        if format != Format::Json {
+            let se = shared.slope.std_error.map_or("not computed".to_string(), |v| format!("{v}"));
+            warn(&format!("{}: shared Hill slope {} (SE {se}) from {} curves, {} points", args.file, shared.slope.value, shared.curves, shared.n));
+        }
+    }
     if problems > 0 && !args.lenient {
         return Err(Failure::Input(format!(
             "{problems} problem(s) in the input (each listed above and in its curve's record); the usable rows were fitted; fix them, or pass --lenient to accept the fits"

@@ -167,6 +167,10 @@ struct FitOptions {
     /// column), and report each plate's Z′ and signal window
     #[arg(long)]
     normalise: bool,
+    /// With --group-by and --model ic50: one global fit of every curve with
+    /// a single Hill slope (each curve keeps its IC50 and plateaus)
+    #[arg(long)]
+    shared_slope: bool,
 }
 
 /// Options that only some models use; each is refused where it does not apply.
@@ -617,7 +621,11 @@ struct Envelope<'a, P: Serialize, U: Serialize> {
 fn fit(options: FitOptions) -> Result<ExitCode, Failure> {
     let model = options.model.clone().unwrap_or_else(|| "mm".to_string());
     let Some(group_by) = options.group_by else {
-        for (given, name) in [(options.threads.is_some(), "--threads"), (options.normalise, "--normalise")] {
+        for (given, name) in [
+            (options.threads.is_some(), "--threads"),
+            (options.normalise, "--normalise"),
+            (options.shared_slope, "--shared-slope"),
+        ] {
             if given {
                 return Err(usage("fit", format!("{name} applies to batch fits only; add --group-by COLUMN or leave it out")));
             }
@@ -647,6 +655,9 @@ fn fit(options: FitOptions) -> Result<ExitCode, Failure> {
         (None, false) => batch::Format::Tsv,
     };
     let args = prepare("fit", options.data, options.extra, &model)?;
+    if options.shared_slope {
+        return batch::run_shared_slope(args, model, group_by, format, options.normalise);
+    }
     batch::run(args, model, group_by, format, options.threads, options.normalise)
 }
 

@@ -495,6 +495,26 @@ fn pic50(fit: &FitSummary, unit: Option<&str>) -> Option<PIc50> {
     })
 }
 
+/// pIC50 of a fit record (for [`crate::shared_slope`]).
+pub(crate) fn pic50_of(fit: &FitSummary, unit: Option<&str>) -> Option<PIc50> {
+    pic50(fit, unit)
+}
+
+/// The flags of a fit record made elsewhere (the shared-slope fit), by the
+/// same rules as a curve fitted alone: `used` holds (x, y, fitted) of the
+/// used points, `dimensions` those of the fitted parameters.
+pub(crate) fn flags_of(
+    fit: &FitSummary,
+    used: Vec<(f64, f64, f64)>,
+    dimensions: Vec<Dimension>,
+    model: &str,
+    settings: &FlagSettings,
+    text: &str,
+) -> Vec<CurveFlag> {
+    let fitted = Fitted { fit: fit.clone(), used, problems: Vec::new(), notes: Vec::new(), pic50: None, dimensions };
+    flags(&fitted, model, settings, response_is_percent(text))
+}
+
 fn flag(code: &str, reason: String) -> CurveFlag {
     CurveFlag { code: code.to_string(), reason }
 }

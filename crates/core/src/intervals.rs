@@ -71,6 +71,10 @@ struct HeldFixed<'a> {
     free_specs: Vec<ParameterSpec>,
 }
 
+/// Models with at most this many parameters are evaluated by a held-fixed
+/// profile through stack buffers; larger ones through a `Vec` per call.
+const STACK_PARAMETERS: usize = 8;
+
 impl HeldFixed<'_> {
     fn full(&self, free: &[f64]) -> Vec<f64> {
         let mut p = Vec::with_capacity(free.len() + 1);
@@ -78,6 +82,21 @@ impl HeldFixed<'_> {
         p.push(self.value);
         p.extend_from_slice(&free[self.index..]);
         p
+    }
+
+    /// Calls `f` with the full parameter vector, on the stack for small
+    /// models: the profile evaluates the model once per observation and
+    /// step, so an allocation per call would dominate.
+    fn with_full<R>(&self, free: &[f64], f: impl FnOnce(&[f64]) -> R) -> R {
+        let m = free.len() + 1;
+        if m > STACK_PARAMETERS {
+            return f(&self.full(free));
+        }
+        let mut p = [0.0; STACK_PARAMETERS];
+        p[..self.index].copy_from_slice(&free[..self.index]);
+        p[self.index] = self.value;
+        p[self.index + 1..m].copy_from_slice(&free[self.index..]);
+        f(&p[..m])
     }
 }
 
@@ -95,13 +114,21 @@ impl Model for HeldFixed<'_> {
         self.inner.predictors()
     }
     fn value(&self, x: &[f64], p: &[f64]) -> f64 {
-        self.inner.value(x, &self.full(p))
+        self.with_full(p, |full| self.inner.value(x, full))
     }
     fn gradient(&self, x: &[f64], p: &[f64], gradient: &mut [f64]) {
-        let mut full_gradient = vec![0.0; p.len() + 1];
-        self.inner.gradient(x, &self.full(p), &mut full_gradient);
-        full_gradient.remove(self.index);
-        gradient.copy_from_slice(&full_gradient);
+        let m = p.len() + 1;
+        if m > STACK_PARAMETERS {
+            let mut full_gradient = vec![0.0; m];
+            self.inner.gradient(x, &self.full(p), &mut full_gradient);
+            full_gradient.remove(self.index);
+            gradient.copy_from_slice(&full_gradient);
+            return;
+        }
+        let mut full_gradient = [0.0; STACK_PARAMETERS];
+        self.with_full(p, |full| self.inner.gradient(x, full, &mut full_gradient[..m]));
+        gradient[..self.index].copy_from_slice(&full_gradient[..self.index]);
+        gradient[self.index..].copy_from_slice(&full_gradient[self.index + 1..m]);
     }
     fn initial_guess(&self, _: &Observations) -> Result<Vec<f64>, crate::Error> {
         Err(crate::Error::numerical("a held-fixed model is started from the full fit"))

@@ -108,7 +108,24 @@ pub struct SolverReport {
 }
 
 /// Fits `model` to `data` from the starting values `start`.
+///
+/// Models with at most [`crate::fastpath::MAX_PARAMETERS`] parameters are
+/// minimised by the fixed-size, allocation-free path of
+/// [`crate::fastpath`] (the same iteration on a compressed problem); when
+/// it does not converge, or for larger models, by [`minimise_general`].
+/// The choice depends only on the number of parameters and observations
+/// and on the fast path's outcome, so it is deterministic.
 pub fn minimise(model: &dyn Model, data: &Observations, start: &[f64], settings: &SolverSettings) -> SolverReport {
+    match crate::fastpath::minimise_small(model, data, start, settings) {
+        Some(report) if report.converged => report,
+        _ => minimise_general(model, data, start, settings),
+    }
+}
+
+/// Fits `model` to `data` from `start` with the general path: the
+/// `levenberg-marquardt` crate on the n weighted residuals and the n×p
+/// Jacobian, for any number of parameters.
+pub fn minimise_general(model: &dyn Model, data: &Observations, start: &[f64], settings: &SolverSettings) -> SolverReport {
     let problem = Problem {
         model,
         data,
@@ -154,6 +171,27 @@ const PRECISION_LIMIT_COSINE: f64 = 1e-6;
 /// The residual reported for every observation at a trial point where the
 /// model is not finite (see `Problem::residuals`).
 const REJECTED_RESIDUAL: f64 = 1e100;
+
+/// The report at `parameters` (for a minimisation run elsewhere, such as
+/// the fixed-size path): residuals, weighted Jacobian, sum of squares and
+/// gradient cosine computed here, as for the general path.
+pub(crate) fn report_at(
+    model: &dyn Model,
+    data: &Observations,
+    parameters: &[f64],
+    termination: Termination,
+    jacobian_calls: usize,
+    evaluations: usize,
+) -> SolverReport {
+    let problem = Problem {
+        model,
+        data,
+        sqrt_weights: data.weights().iter().map(|w| w.sqrt()).collect(),
+        p: DVector::from_column_slice(parameters),
+        jacobian_calls: Cell::new(jacobian_calls),
+    };
+    finish(problem, termination, evaluations)
+}
 
 fn finish(problem: Problem<'_>, termination: Termination, evaluations: usize) -> SolverReport {
     let parameters: Vec<f64> = problem.p.iter().copied().collect();
