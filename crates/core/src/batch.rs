@@ -369,6 +369,22 @@ pub fn fit_curve(request: &BatchRequest, curve: &CurveInput) -> CurveResult {
             let used = a.points.iter().filter(|p| !p.excluded).map(|p| (p.s, p.v, p.fitted)).collect();
             Fitted { fit: a.fits.swap_remove(0), used, problems: a.problems, notes: a.notes, pic50: None, dimensions: Vec::new() }
         }),
+        Some(ModelInput::TwoSubstrates) => crate::bisubstrate::analyse_bisubstrate(&crate::bisubstrate::BisubstrateRequest {
+            text: curve.text.clone(),
+            models: vec![model.clone()],
+            excluded_lines: excluded,
+            rate_unit: request.rate_unit.clone(),
+            enzyme: request.enzyme,
+            enzyme_unit: request.enzyme_unit.clone(),
+            weighting: request.weighting,
+            interval_method: request.interval_method,
+            bootstrap: request.bootstrap,
+            ..Default::default()
+        })
+        .map(|mut a| {
+            let used = a.points.iter().filter(|p| !p.excluded).map(|p| (p.a, p.v, p.fitted)).collect();
+            Fitted { fit: a.fits.swap_remove(0), used, problems: a.problems, notes: a.notes, pic50: None, dimensions: Vec::new() }
+        }),
         _ => analyse_rates(&RateRequest {
             text: curve.text.clone(),
             model: model.clone(),

@@ -9,6 +9,7 @@
 
 use serde::{Deserialize, Serialize};
 
+pub mod bisubstrate;
 pub mod family;
 pub mod traces;
 
@@ -67,6 +68,16 @@ pub enum PlotKind {
     KobsReplot,
     /// Product against [E]·t, one series per [E] (Selwyn's test).
     Selwyn,
+    /// v against [A], one fitted curve per [B] from the global
+    /// two-substrate fit.
+    TwoSubstrateDirect,
+    /// 1/v against 1/[A], one line per [B] (intersecting for a ternary
+    /// complex, parallel for ping-pong).
+    TwoSubstrateDoubleReciprocal,
+    /// Slope of the double-reciprocal lines against 1/[B].
+    TwoSubstrateSlopeReplot,
+    /// Intercept of the double-reciprocal lines against 1/[B].
+    TwoSubstrateInterceptReplot,
 }
 
 impl PlotKind {
@@ -108,6 +119,10 @@ impl PlotKind {
             PlotKind::InactivationTraces => "inactivation-traces",
             PlotKind::KobsReplot => "kobs-replot",
             PlotKind::Selwyn => "selwyn",
+            PlotKind::TwoSubstrateDirect => "two-substrate-direct",
+            PlotKind::TwoSubstrateDoubleReciprocal => "two-substrate-double-reciprocal",
+            PlotKind::TwoSubstrateSlopeReplot => "two-substrate-slope-replot",
+            PlotKind::TwoSubstrateInterceptReplot => "two-substrate-intercept-replot",
         }
     }
 
@@ -121,6 +136,14 @@ impl PlotKind {
         PlotKind::CornishBowden,
         PlotKind::SlopeReplot,
         PlotKind::InterceptReplot,
+    ];
+
+    /// The plots of a two-substrate analysis, in page order.
+    pub const TWO_SUBSTRATES: [PlotKind; 4] = [
+        PlotKind::TwoSubstrateDirect,
+        PlotKind::TwoSubstrateDoubleReciprocal,
+        PlotKind::TwoSubstrateSlopeReplot,
+        PlotKind::TwoSubstrateInterceptReplot,
     ];
 
     /// Looks a plot up by [`PlotKind::name`].
@@ -137,6 +160,7 @@ impl PlotKind {
                 PlotKind::Selwyn,
             ])
             .chain([PlotKind::TraceDetail, PlotKind::RateAgainstEnzyme, PlotKind::ProgressCurves])
+            .chain(PlotKind::TWO_SUBSTRATES)
             .find(|k| k.name() == name)
     }
 }
