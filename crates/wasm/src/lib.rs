@@ -12,6 +12,7 @@
 
 #![deny(missing_docs)]
 
+mod bisubstrate;
 mod dose;
 mod draw;
 mod figures;
@@ -27,6 +28,7 @@ use turnover_core::plots::PlotKind;
 use turnover_core::rates::{analyse_rates, compare_rate_models, RateAnalysis, RateComparison, RateRequest};
 use wasm_bindgen::prelude::*;
 
+pub use bisubstrate::bisubstrate_json;
 pub use dose::{is_dose_table, DoseBench};
 pub use draw::{draw_plot, Drawn, FigureOptions, PlotArea, PointPosition};
 pub use figures::TraceFigures;
