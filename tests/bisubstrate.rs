@@ -189,8 +189,8 @@ fn long_replicate_and_matrix_layouts_give_the_same_fit() {
     let mut cells = vec![vec![[0.0; 2]; B_LEVELS.len()]; A_LEVELS.len()];
     for (i, a) in A_LEVELS.iter().enumerate() {
         for (j, b) in B_LEVELS.iter().enumerate() {
-            for r in 0..2 {
-                cells[i][j][r] = model.value(&[*a, *b], &TRUTH) * (1.0 + NOISE * rng.normal());
+            for cell in cells[i][j].iter_mut() {
+                *cell = model.value(&[*a, *b], &TRUTH) * (1.0 + NOISE * rng.normal());
             }
         }
     }
@@ -202,10 +202,10 @@ fn long_replicate_and_matrix_layouts_give_the_same_fit() {
             wide.push_str(&format!("{a}\t{b}\t{:.17e}\t{:.17e}\n", cells[i][j][0], cells[i][j][1]));
         }
     }
-    for (i, a) in A_LEVELS.iter().enumerate() {
+    for (a, row) in A_LEVELS.iter().zip(&cells) {
         matrix.push_str(&a.to_string());
-        for j in 0..B_LEVELS.len() {
-            matrix.push_str(&format!("\t{:.17e}\t{:.17e}", cells[i][j][0], cells[i][j][1]));
+        for cell in row {
+            matrix.push_str(&format!("\t{:.17e}\t{:.17e}", cell[0], cell[1]));
         }
         matrix.push('\n');
     }
