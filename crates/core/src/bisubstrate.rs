@@ -740,6 +740,7 @@ mod tests {
         assert!(is_bisubstrate_table(LONG) && is_bisubstrate_table(MATRIX));
         assert!(!is_bisubstrate_table("[S] (mM)\tv (µM/min)\n1\t2\n"));
         assert!(!is_bisubstrate_table("[S] (mM)\t0\t5 µM\n1\t2\t3\n"), "an inhibition matrix names [S], not [A]");
+        assert!(!crate::inhibition::is_inhibition_table(MATRIX), "a two-substrate matrix is not an inhibitor table");
     }
 
     /// Replicate rate columns in the long layout read as repeated rows.
