@@ -3,7 +3,7 @@
 //! Every number printed here comes from the core (`analyse_rates`,
 //! `analyse_inhibition`, `analyse_dose`, `analyse_traces`, `fit_progress`,
 //! `compare_sets`, `inactivation_from_traces`, `analyse_ph`,
-//! `analyse_temperature`),
+//! `analyse_temperature`, `analyse_bisubstrate`),
 //! the same functions the page calls. Arguments are read by clap (derive).
 //! Exit codes are decided in one place, [`main`]: 0 success, 1 the output
 //! could not be written, 2 bad input or usage, 3 the fit did not converge
@@ -12,6 +12,7 @@
 
 mod batch;
 mod constants;
+mod bisubstrate;
 mod inactivation;
 mod output;
 mod profiles;
@@ -57,7 +58,8 @@ struct Cli {
 #[derive(Subcommand)]
 enum Command {
     /// Fit one model to a table of [S] and v ([S], [I] and v for inhibition
-    /// mechanisms; [I] and a response for ic50 and morrison)
+    /// mechanisms; [I] and a response for ic50 and morrison; [A], [B] and v
+    /// for the two-substrate laws)
     Fit(FitOptions),
     /// Fit several models to the same data and rank them (AICc, Akaike
     /// weights, F tests of nested pairs, a verdict)
@@ -141,7 +143,9 @@ struct FitOptions {
     data: DataOptions,
     /// Model to fit. On [S], v: mm, substrate-inhibition, hill. On [S], [I],
     /// v (long or matrix table), fitted globally: competitive, uncompetitive,
-    /// mixed, noncompetitive. On [I], response: ic50, morrison
+    /// mixed, noncompetitive. On [I], response: ic50, morrison. On [A], [B],
+    /// v (long or matrix table), fitted globally: sequential, ordered,
+    /// ping-pong
     #[arg(long, value_name = "NAME", value_parser = model_names())]
     model: Option<String>,
     #[command(flatten)]
@@ -222,8 +226,9 @@ struct CompareOptions {
     #[command(flatten)]
     data: DataOptions,
     /// Comma-separated model names, all on the same data: inhibition
-    /// mechanisms (default: competitive,uncompetitive,mixed,noncompetitive)
-    /// or mm with substrate-inhibition and/or hill
+    /// mechanisms (default: competitive,uncompetitive,mixed,noncompetitive),
+    /// mm with substrate-inhibition and/or hill, or two-substrate laws
+    /// (default on a table naming [A] and [B]: sequential,ordered,ping-pong)
     #[arg(long, value_name = "LIST", value_delimiter = ',', value_parser = model_names())]
     models: Vec<String>,
     #[command(flatten)]
@@ -668,6 +673,7 @@ fn fit_one(data: DataOptions, extra: ModelExtras, model: String, rows: Option<ba
     args.request.text = read_table(&args.file, args.sheet.as_deref())?;
     let mut out = Output::new();
     let code = match model_input(&model) {
+        Some(ModelInput::TwoSubstrates) => bisubstrate::fit_one(&args, model, &mut out)?,
         Some(ModelInput::SubstrateAndInhibitor) => {
             let request = inhibition_request(&args, vec![model]);
             let analysis = analyse_inhibition(&request).map_err(|e| Failure::Input(e.message))?;
@@ -804,8 +810,18 @@ fn check_problems(args: &Prepared, problems: &[InputProblem]) -> Result<(), Fail
 }
 
 fn compare(options: CompareOptions) -> Result<ExitCode, Failure> {
+    // Without --models the table decides: the two-substrate laws for a
+    // table naming [A] and [B], else the inhibition mechanisms.
+    let mut text = None;
     let models = if options.models.is_empty() {
-        Mechanism::ALL.iter().map(|m| m.name().to_string()).collect()
+        let table = read_table(&options.data.file, options.data.sheet.as_deref())?;
+        let two = bisubstrate::is_table(&table);
+        text = Some(table);
+        if two {
+            bisubstrate::LAWS.iter().map(|m| m.to_string()).collect()
+        } else {
+            Mechanism::ALL.iter().map(|m| m.name().to_string()).collect()
+        }
     } else {
         options.models.clone()
     };
@@ -814,8 +830,12 @@ fn compare(options: CompareOptions) -> Result<ExitCode, Failure> {
         return Err(usage("compare", "--points applies to fit: the comparison's JSON holds no per-point arrays"));
     }
     let mut args = prepare("compare", options.data, options.extra, &first)?;
-    args.request.text = read_table(&args.file, args.sheet.as_deref())?;
+    args.request.text = match text {
+        Some(text) => text,
+        None => read_table(&args.file, args.sheet.as_deref())?,
+    };
     let inputs: Vec<Option<ModelInput>> = models.iter().map(|m| model_input(m)).collect();
+    let mut warnings = Vec::new();
     let (comparison, fits, problems, notes, caution) = if inputs.iter().all(|i| *i == Some(ModelInput::SubstrateAndInhibitor)) {
         let request = inhibition_request(&args, models);
         let a = analyse_inhibition(&request).map_err(|e| Failure::Input(e.message))?;
@@ -823,10 +843,14 @@ fn compare(options: CompareOptions) -> Result<ExitCode, Failure> {
     } else if inputs.iter().all(|i| *i == Some(ModelInput::Substrate)) {
         let c = compare_rate_models(&args.request, &models).map_err(|e| Failure::Input(e.message))?;
         (c.comparison, c.fits, c.first.problems, c.first.notes, c.first.caution)
+    } else if inputs.iter().all(|i| *i == Some(ModelInput::TwoSubstrates)) {
+        let a = bisubstrate::analyse("compare", &args, models)?;
+        warnings = a.warnings;
+        (a.comparison, a.fits, a.problems, a.notes, a.caution)
     } else {
         return Err(usage(
             "compare",
-            "compare needs models of the same data: all inhibition mechanisms, or mm with substrate-inhibition and hill",
+            "compare needs models of the same data: all inhibition mechanisms, mm with substrate-inhibition and hill, or the two-substrate laws sequential, ordered and ping-pong",
         ));
     };
     check_problems(&args, &problems)?;
@@ -841,6 +865,8 @@ fn compare(options: CompareOptions) -> Result<ExitCode, Failure> {
             verdict: &'a str,
             problems: &'a [InputProblem],
             notes: &'a [String],
+            #[serde(skip_serializing_if = "<[String]>::is_empty")]
+            warnings: &'a [String],
             caution: &'a str,
         }
         out.json(&CompareJson {
@@ -851,6 +877,7 @@ fn compare(options: CompareOptions) -> Result<ExitCode, Failure> {
             verdict: &comparison.verdict,
             problems: &problems,
             notes: &notes,
+            warnings: &warnings,
             caution: &caution,
         })?;
     } else {
@@ -883,6 +910,9 @@ fn compare(options: CompareOptions) -> Result<ExitCode, Failure> {
         text.push_str(&format!("\nVerdict: {}\n", comparison.verdict));
         for note in &notes {
             text.push_str(&format!("note: {note}\n"));
+        }
+        for w in &warnings {
+            text.push_str(&format!("warning: {w}\n"));
         }
         for fit in &fits {
             for w in &fit.warnings {

@@ -373,6 +373,23 @@ fn curve_analysis(request: &BatchRequest, curve: &CurveInput, model: &str) -> Re
             let plot = a.plots.into_iter().next();
             (Fitted { fit: a.fits.swap_remove(0), used, problems: a.problems, notes: a.notes, pic50: None, dimensions: Vec::new() }, plot)
         }),
+        Some(ModelInput::TwoSubstrates) => crate::bisubstrate::analyse_bisubstrate(&crate::bisubstrate::BisubstrateRequest {
+            text: curve.text.clone(),
+            models: vec![model.to_string()],
+            excluded_lines: excluded,
+            rate_unit: request.rate_unit.clone(),
+            enzyme: request.enzyme,
+            enzyme_unit: request.enzyme_unit.clone(),
+            weighting: request.weighting,
+            interval_method: request.interval_method,
+            bootstrap: request.bootstrap,
+            ..Default::default()
+        })
+        .map(|mut a| {
+            let used = a.points.iter().filter(|p| !p.excluded).map(|p| (p.a, p.v, p.fitted)).collect();
+            let plot = a.plots.into_iter().next();
+            (Fitted { fit: a.fits.swap_remove(0), used, problems: a.problems, notes: a.notes, pic50: None, dimensions: Vec::new() }, plot)
+        }),
         _ => analyse_rates(&RateRequest {
             text: curve.text.clone(),
             model: model.to_string(),

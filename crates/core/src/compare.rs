@@ -48,7 +48,47 @@ pub const NESTED_PAIRS: &[(&str, &str)] = &[
     // pKa leaves the range (a boundary, so the test is approximate).
     ("rising-limb", "bell"),
     ("falling-limb", "bell"),
+    // Two substrates: ordered (KmA → 0) and ping-pong (KiA → 0) inside the
+    // general ternary-complex law.
+    ("ordered", "sequential"),
+    ("ping-pong", "sequential"),
 ];
+
+/// Special cases nested in one general model, decided by the same rule:
+/// the inhibition mechanisms in mixed, and the two-substrate special cases
+/// in the ternary-complex law (ordered at KmA → 0, ping-pong at KiA → 0).
+struct Family {
+    /// The special cases.
+    singles: &'static [&'static str],
+    /// The general model that contains each of them.
+    general: &'static str,
+    /// What the general model's constants say, for the verdict.
+    describe: fn(&FitSummary) -> String,
+    /// What to measure when the data do not decide.
+    advice: &'static str,
+}
+
+const FAMILIES: [Family; 2] = [
+    Family {
+        singles: &["competitive", "uncompetitive", "noncompetitive"],
+        general: "mixed",
+        describe: ratio_text,
+        advice: "collect data at higher [I] and over a wider [S] range",
+    },
+    Family {
+        singles: &["ordered", "ping-pong"],
+        general: "sequential",
+        describe: sequential_text,
+        advice: "measure over wider ranges of [A] and [B], reaching below KmA and KmB",
+    },
+];
+
+fn sequential_text(sequential: &FitSummary) -> String {
+    match (value_of(sequential, "KiA"), value_of(sequential, "KmA")) {
+        (Some(kia), Some(kma)) if kia > 0.0 && kma > 0.0 => format!("KiA ≈ {}×KmA", short(kia / kma)),
+        _ => "constants without physical meaning (check the data)".to_string(),
+    }
+}
 
 /// One model's place in the ranking.
 #[derive(Clone, Debug, PartialEq, Serialize)]
@@ -241,104 +281,109 @@ fn decide<'a>(
     };
     let one = |name: &str| vec![Candidate { model: name.to_string(), akaike_weight: weight_of(name) }];
 
-    let singles: Vec<&FitSummary> = ["competitive", "uncompetitive", "noncompetitive"].iter().filter_map(|n| find(n)).collect();
-    if !singles.is_empty() {
-        let mut ranked = singles.clone();
-        ranked.sort_by(|a, b| a.rss.total_cmp(&b.rss));
-        let best = ranked[0];
-        let Some(mixed) = find("mixed") else {
-            // No general model to test against: AICc alone, and only a clear
-            // lead names a mechanism.
-            if let Some(second) = ranked.get(1) {
-                let gap = aicc_of(&second.model) - aicc_of(&best.model);
-                if !(gap >= AICC_TIE) {
-                    let names: Vec<String> = ranked.iter().map(|f| f.model.clone()).collect();
-                    let c = candidates_of(&names);
+    for family in &FAMILIES {
+        let general_name = family.general;
+        let singles: Vec<&FitSummary> = family.singles.iter().filter_map(|n| find(n)).collect();
+        if !singles.is_empty() {
+            let mut ranked = singles.clone();
+            ranked.sort_by(|a, b| a.rss.total_cmp(&b.rss));
+            let best = ranked[0];
+            let Some(mixed) = find(general_name) else {
+                // No general model to test against: AICc alone, and only a clear
+                // lead names a mechanism.
+                if let Some(second) = ranked.get(1) {
+                    let gap = aicc_of(&second.model) - aicc_of(&best.model);
+                    if !(gap >= AICC_TIE) {
+                        let names: Vec<String> = ranked.iter().map(|f| f.model.clone()).collect();
+                        let c = candidates_of(&names);
+                        return (
+                            None,
+                            format!("undecided: {} fit about equally well (AICc differ by {gap:.1}); {}", listed(&c), family.advice),
+                            c,
+                        );
+                    }
                     return (
-                        None,
-                        format!("undecided: {} fit about equally well (AICc differ by {gap:.1}); collect data at higher [I] and over a wider [S] range", listed(&c)),
-                        c,
+                        Some(best.model.clone()),
+                        format!("{} (AICc lower than {} by {gap:.1}; no {general_name} fit to test it against)", best.model, second.model),
+                        one(&best.model),
                     );
                 }
+                return (Some(best.model.clone()), format!("{} (the only mechanism fitted)", best.model), one(&best.model));
+            };
+            let describe = family.describe;
+            // Every single mechanism is a special case of mixed: the F test
+            // says which the data reject.
+            let standing: Vec<&FitSummary> =
+                ranked.iter().copied().filter(|f| test_of(&f.model, general_name).is_none_or(|t| t.p_value >= SIGNIFICANCE)).collect();
+            if standing.is_empty() {
+                let test = test_of(&best.model, general_name).expect("a rejected single has its test");
                 return (
-                    Some(best.model.clone()),
-                    format!("{} (AICc lower than {} by {gap:.1}; no mixed fit to test it against)", best.model, second.model),
-                    one(&best.model),
+                    Some(general_name.to_string()),
+                    format!(
+                        "{general_name}, with {} (the best single mechanism, {}, is rejected: F = {:.2}, {})",
+                        describe(mixed),
+                        best.model,
+                        test.f,
+                        p_text(test.p_value)
+                    ),
+                    one(general_name),
                 );
             }
-            return (Some(best.model.clone()), format!("{} (the only mechanism fitted)", best.model), one(&best.model));
-        };
-        // Every single mechanism is a special case of mixed: the F test
-        // says which the data reject.
-        let standing: Vec<&FitSummary> =
-            ranked.iter().copied().filter(|f| test_of(&f.model, "mixed").is_none_or(|t| t.p_value >= SIGNIFICANCE)).collect();
-        if standing.is_empty() {
-            let test = test_of(&best.model, "mixed").expect("a rejected single has its test");
-            return (
-                Some("mixed".to_string()),
+            let not_rejected = |f: &FitSummary| {
+                test_of(&f.model, general_name).map(|t| format!("F = {:.2}, {}", t.f, p_text(t.p_value))).unwrap_or_else(|| "no test".to_string())
+            };
+            let rejected: Vec<String> = ranked
+                .iter()
+                .filter(|f| !standing.iter().any(|s| s.model == f.model))
+                .filter_map(|f| test_of(&f.model, general_name).map(|t| format!("{} {}", f.model, p_text(t.p_value))))
+                .collect();
+            let rejected_text =
+                if rejected.is_empty() { String::new() } else { format!("; rejected against {general_name}: {}", rejected.join(", ")) };
+            let survivor = standing[0];
+            // Name a single mechanism only when it alone survives the F test
+            // and AICc agrees (its Akaike weight above mixed's). When the F test
+            // merely fails to reject while AICc prefers mixed, or several single
+            // mechanisms survive, the data do not decide.
+            if standing.len() == 1 && aicc_of(&survivor.model) < aicc_of(general_name) {
+                return (
+                    Some(survivor.model.clone()),
+                    format!(
+                        "{} ({general_name} adds nothing significant: {}; Akaike weights {} {:.2}, {general_name} {:.2}{rejected_text})",
+                        survivor.model,
+                        not_rejected(survivor),
+                        survivor.model,
+                        weight_of(&survivor.model).unwrap_or(f64::NAN),
+                        weight_of(general_name).unwrap_or(f64::NAN)
+                    ),
+                    one(&survivor.model),
+                );
+            }
+            let mut names: Vec<String> = standing.iter().map(|f| f.model.clone()).collect();
+            names.push(general_name.to_string());
+            let c = candidates_of(&names);
+            let why = if standing.len() > 1 {
                 format!(
-                    "mixed, with {} (the best single mechanism, {}, is rejected: F = {:.2}, {})",
-                    ratio_text(mixed),
-                    best.model,
-                    test.f,
-                    p_text(test.p_value)
-                ),
-                one("mixed"),
-            );
-        }
-        let not_rejected = |f: &FitSummary| {
-            test_of(&f.model, "mixed").map(|t| format!("F = {:.2}, {}", t.f, p_text(t.p_value))).unwrap_or_else(|| "no test".to_string())
-        };
-        let rejected: Vec<String> = ranked
-            .iter()
-            .filter(|f| !standing.iter().any(|s| s.model == f.model))
-            .filter_map(|f| test_of(&f.model, "mixed").map(|t| format!("{} {}", f.model, p_text(t.p_value))))
-            .collect();
-        let rejected_text =
-            if rejected.is_empty() { String::new() } else { format!("; rejected against mixed: {}", rejected.join(", ")) };
-        let survivor = standing[0];
-        // Name a single mechanism only when it alone survives the F test
-        // and AICc agrees (its Akaike weight above mixed's). When the F test
-        // merely fails to reject while AICc prefers mixed, or several single
-        // mechanisms survive, the data do not decide.
-        if standing.len() == 1 && aicc_of(&survivor.model) < aicc_of("mixed") {
-            return (
-                Some(survivor.model.clone()),
+                    "the F test rejects none of {} against {general_name}",
+                    standing.iter().map(|f| format!("{} ({})", f.model, not_rejected(f))).collect::<Vec<_>>().join(", ")
+                )
+            } else {
                 format!(
-                    "{} (mixed adds nothing significant: {}; Akaike weights {} {:.2}, mixed {:.2}{rejected_text})",
+                    "the F test does not reject {} against {general_name} ({}), but AICc prefers {general_name}, with {}",
                     survivor.model,
                     not_rejected(survivor),
-                    survivor.model,
-                    weight_of(&survivor.model).unwrap_or(f64::NAN),
-                    weight_of("mixed").unwrap_or(f64::NAN)
+                    describe(mixed)
+                )
+            };
+            return (
+                None,
+                format!(
+                    "undecided between {}: {why}{rejected_text}; {}",
+                    listed(&c),
+                    family.advice
                 ),
-                one(&survivor.model),
+                c,
             );
         }
-        let mut names: Vec<String> = standing.iter().map(|f| f.model.clone()).collect();
-        names.push("mixed".to_string());
-        let c = candidates_of(&names);
-        let why = if standing.len() > 1 {
-            format!(
-                "the F test rejects none of {} against mixed",
-                standing.iter().map(|f| format!("{} ({})", f.model, not_rejected(f))).collect::<Vec<_>>().join(", ")
-            )
-        } else {
-            format!(
-                "the F test does not reject {} against mixed ({}), but AICc prefers mixed, with {}",
-                survivor.model,
-                not_rejected(survivor),
-                ratio_text(mixed)
-            )
-        };
-        return (
-            None,
-            format!(
-                "undecided between {}: {why}{rejected_text}; collect data at higher [I] and over a wider [S] range",
-                listed(&c)
-            ),
-            c,
-        );
     }
     if let Some(mm) = find("mm") {
         let mut significant: Vec<(&FitSummary, &FTest)> = f_tests

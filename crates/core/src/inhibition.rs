@@ -207,7 +207,8 @@ fn find_layout(table: &Table, notes: &mut Vec<String>) -> Result<Option<Layout>,
         let unit = common_unit(headings, &v).map_err(Error::invalid_data)?;
         return Ok(Some(Layout::Long { s, i, v, unit }));
     }
-    if headings.len() < 3 {
+    // A first column named [A] is a two-substrate matrix (crate::bisubstrate).
+    if headings.len() < 3 || crate::read::columns::is_substrate_a_name(&headings[0].name) {
         return Ok(None);
     }
     let quantities: Option<Vec<(f64, Option<String>)>> = headings[1..].iter().map(heading_concentration).collect();

@@ -33,6 +33,8 @@
 //! - [`progress`]: the integrated Michaelis-Menten fit to whole time courses.
 //! - [`inhibition`]: rates at several [S] and [I], every reversible
 //!   mechanism fitted globally, compared and plotted.
+//! - [`bisubstrate`]: rates over a grid of two substrates' concentrations,
+//!   the sequential, ordered and ping-pong laws fitted, compared, plotted.
 //! - [`dose`]: inhibitor series (IC50 logistic, Morrison tight binding).
 //! - [`batch`]: many curves in one table, grouped by a column, each fitted
 //!   alone and flagged.
@@ -69,6 +71,7 @@
 #![deny(missing_docs)]
 
 pub mod batch;
+pub mod bisubstrate;
 pub mod compare;
 pub mod decode;
 pub mod early;

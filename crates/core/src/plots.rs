@@ -9,6 +9,7 @@
 
 use serde::{Deserialize, Serialize};
 
+pub mod bisubstrate;
 pub mod family;
 pub mod traces;
 
@@ -78,6 +79,16 @@ pub enum PlotKind {
     Arrhenius,
     /// ln(k/T) against 1/T with the direct Eyring fit (Eyring plot).
     Eyring,
+    /// v against [A], one fitted curve per [B] from the global
+    /// two-substrate fit.
+    TwoSubstrateDirect,
+    /// 1/v against 1/[A], one line per [B] (intersecting for a ternary
+    /// complex, parallel for ping-pong).
+    TwoSubstrateDoubleReciprocal,
+    /// Slope of the double-reciprocal lines against 1/[B].
+    TwoSubstrateSlopeReplot,
+    /// Intercept of the double-reciprocal lines against 1/[B].
+    TwoSubstrateInterceptReplot,
 }
 
 impl PlotKind {
@@ -124,6 +135,10 @@ impl PlotKind {
             PlotKind::TemperatureDirect => "temperature-direct",
             PlotKind::Arrhenius => "arrhenius",
             PlotKind::Eyring => "eyring",
+            PlotKind::TwoSubstrateDirect => "two-substrate-direct",
+            PlotKind::TwoSubstrateDoubleReciprocal => "two-substrate-double-reciprocal",
+            PlotKind::TwoSubstrateSlopeReplot => "two-substrate-slope-replot",
+            PlotKind::TwoSubstrateInterceptReplot => "two-substrate-intercept-replot",
         }
     }
 
@@ -137,6 +152,14 @@ impl PlotKind {
         PlotKind::CornishBowden,
         PlotKind::SlopeReplot,
         PlotKind::InterceptReplot,
+    ];
+
+    /// The plots of a two-substrate analysis, in page order.
+    pub const TWO_SUBSTRATES: [PlotKind; 4] = [
+        PlotKind::TwoSubstrateDirect,
+        PlotKind::TwoSubstrateDoubleReciprocal,
+        PlotKind::TwoSubstrateSlopeReplot,
+        PlotKind::TwoSubstrateInterceptReplot,
     ];
 
     /// Looks a plot up by [`PlotKind::name`].
@@ -154,6 +177,7 @@ impl PlotKind {
             ])
             .chain([PlotKind::TraceDetail, PlotKind::RateAgainstEnzyme, PlotKind::ProgressCurves])
             .chain([PlotKind::PhLog, PlotKind::PhDirect, PlotKind::TemperatureDirect, PlotKind::Arrhenius, PlotKind::Eyring])
+            .chain(PlotKind::TWO_SUBSTRATES)
             .find(|k| k.name() == name)
     }
 }

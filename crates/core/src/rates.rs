@@ -252,6 +252,11 @@ pub fn analyse_rates(request: &RateRequest) -> Result<RateAnalysis, Error> {
 /// laws fits every law with the same weights.
 fn analyse_rates_with(request: &RateRequest, fixed_weights: Option<&[f64]>) -> Result<RateAnalysis, Error> {
     let model_name = if request.model.trim().is_empty() { "mm" } else { request.model.trim() };
+    if crate::models::model_input(model_name) == Some(crate::models::ModelInput::TwoSubstrates) {
+        return Err(Error::invalid_option(format!(
+            "the {model_name} model needs columns [A] and [B]; it is fitted by the two-substrate analysis"
+        )));
+    }
     if crate::models::model_input(model_name).is_some_and(|input| input != crate::models::ModelInput::Substrate) {
         return Err(Error::invalid_option(format!(
             "the {model_name} model needs an inhibitor column; it is fitted by the inhibition or inhibitor-series analysis"

@@ -13,6 +13,7 @@
 #![deny(missing_docs)]
 
 mod batch;
+mod bisubstrate;
 mod dose;
 mod draw;
 mod figures;
@@ -30,6 +31,7 @@ use turnover_core::rates::{analyse_rates, compare_rate_models, RateAnalysis, Rat
 use wasm_bindgen::prelude::*;
 
 pub use batch::BatchBench;
+pub use bisubstrate::bisubstrate_json;
 pub use dose::{is_dose_table, DoseBench};
 pub use draw::{draw_plot, Drawn, FigureOptions, PlotArea, PointPosition};
 pub use figures::TraceFigures;

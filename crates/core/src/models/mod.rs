@@ -5,6 +5,7 @@
 //! [`model_with_options`] builds one from its machine name, the name the CLI
 //! and the page use.
 
+mod bisubstrate;
 mod dose_response;
 mod hill;
 mod inhibition;
@@ -13,6 +14,7 @@ mod morrison;
 mod start;
 mod substrate_inhibition;
 
+pub use bisubstrate::{TwoSubstrateMechanism, TwoSubstrates};
 pub use dose_response::{cheng_prusoff, ChengPrusoff, DoseResponse};
 pub use hill::Hill;
 pub use inhibition::{Inhibition, Mechanism};
@@ -34,6 +36,9 @@ pub const MODEL_NAMES: &[&str] = &[
     "hill",
     "morrison",
     "ic50",
+    "sequential",
+    "ordered",
+    "ping-pong",
 ];
 
 /// What the data are, for a model: which predictors it reads.
@@ -45,6 +50,8 @@ pub enum ModelInput {
     SubstrateAndInhibitor,
     /// x = [I], y = a response (dose-response and tight binding).
     Inhibitor,
+    /// x = [A, B], y = v (two-substrate rate laws, fitted globally).
+    TwoSubstrates,
 }
 
 /// The input a named model reads; `None` for an unknown name.
@@ -53,6 +60,7 @@ pub fn model_input(name: &str) -> Option<ModelInput> {
         "mm" | "michaelis-menten" | "substrate-inhibition" | "hill" => Some(ModelInput::Substrate),
         "competitive" | "uncompetitive" | "mixed" | "noncompetitive" => Some(ModelInput::SubstrateAndInhibitor),
         "morrison" | "ic50" => Some(ModelInput::Inhibitor),
+        "sequential" | "ordered" | "ping-pong" => Some(ModelInput::TwoSubstrates),
         _ => None,
     }
 }
@@ -83,6 +91,9 @@ pub fn model_with_options(name: &str, options: &ModelOptions) -> Result<Box<dyn 
         "noncompetitive" => Box::new(Inhibition::new(Mechanism::Noncompetitive)),
         "substrate-inhibition" => Box::new(SubstrateInhibition),
         "hill" => Box::new(Hill),
+        "sequential" => Box::new(TwoSubstrates::new(TwoSubstrateMechanism::Sequential)),
+        "ordered" => Box::new(TwoSubstrates::new(TwoSubstrateMechanism::Ordered)),
+        "ping-pong" => Box::new(TwoSubstrates::new(TwoSubstrateMechanism::PingPong)),
         "ic50" => {
             for (value, what) in [(options.fixed_top, "top"), (options.fixed_bottom, "bottom")] {
                 if value.is_some_and(|v| !v.is_finite()) {
