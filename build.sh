@@ -14,7 +14,14 @@ set -euo pipefail
 cd "$(dirname "$0")"
 ROOT="$(pwd)"
 OUT="$ROOT/dist/turnover.html"
-SIZE_BUDGET=1000000
+# The page's size budget. It was 1,000,000 bytes until the page gained the
+# many-curves section, the further questions (set comparison, two
+# substrates, pH, temperature) and time-dependent inhibition: their core
+# code took the gzip-compressed WebAssembly from about 450 kB to 550 kB.
+# 1,200,000 bytes keeps the file small enough to e-mail and to open at
+# once (start-up is measured by `./build.sh bench`); growth past it needs
+# a decision, not a silent bump.
+SIZE_BUDGET=1200000
 
 say() { printf '\n== %s\n' "$*"; }
 

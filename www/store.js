@@ -43,12 +43,13 @@ const DEFAULTS = {
   // and options (schema 3).
   further: { kind: 'sets' },
   sets: { text: '', by: 'set', model: 'mm', reference: '', weighting: 'uniform' },
+  bisubstrate: { text: '', rate_unit: '', enzyme: '', enzyme_unit: 'nM', weighting: 'relative' },
   ph: { text: '', column: '', weighting: 'relative' },
   temperature: { text: '', column: '', at: '25 °C', weighting: 'relative' },
 };
 
 /** The questions the further-questions section can show. */
-export const FURTHER_KINDS = ['sets', 'ph', 'temperature'];
+export const FURTHER_KINDS = ['sets', 'bisubstrate', 'ph', 'temperature'];
 
 /** Fields a demo fills, per section: when a person's own table replaces a
  *  demo's, these leave with it (so the demo's [E]t never reaches a person's
@@ -62,12 +63,13 @@ const DEMO_FIELDS = {
   further: [],
   batch: ['text', 'group_by', 'model'],
   sets: ['text', 'by', 'reference'],
+  bisubstrate: ['text', 'rate_unit', 'enzyme'],
   ph: ['text', 'column'],
   temperature: ['text', 'column', 'at'],
 };
 
 /** Tables: editing one of these in a demo document makes it the person's own. */
-const TABLE_PATHS = new Set(['rates.text', 'inhibition.text', 'dose.text', 'traces.text', 'traces.layout', 'traces.standard', 'sets.text', 'batch.text', 'ph.text', 'temperature.text']);
+const TABLE_PATHS = new Set(['rates.text', 'inhibition.text', 'dose.text', 'traces.text', 'traces.layout', 'traces.standard', 'sets.text', 'batch.text', 'ph.text', 'temperature.text', 'bisubstrate.text']);
 
 /** The sections whose tables are pasted whole (each has its own input). */
 export const TABLE_SECTIONS = ['rates', 'inhibition', 'dose'];

@@ -97,7 +97,10 @@ test('compare data sets: the table and options are the document (undo, reload), 
   // Kept in this browser: a reload brings back the table and the option.
   await page.reload({ waitUntil: 'load' });
   // (The rate section is empty in this analysis, so its status stays idle.)
-  await page.waitForFunction(() => window.turnover.doc?.() && window.turnover.further.lastResult() !== null, null, { timeout: 30_000 });
+  await page.waitForFunction(() => window.turnover.doc?.() && window.turnover.further.lastResult() !== null, null, { timeout: 30_000 }).catch(async (error) => {
+    const seen = await page.evaluate(() => ({ doc: window.turnover.doc?.()?.sets, kind: window.turnover.doc?.()?.further, status: document.querySelector('#further-status').textContent, info: document.querySelector('#restore-info')?.textContent, problem: document.querySelector('#document-problem-text')?.textContent }));
+    throw new Error(`${error.message}: ${JSON.stringify(seen)}`);
+  });
   assert.equal(await page.inputValue('#further-sets-reference'), 'W84A');
   assert.equal(await page.inputValue('#further-input'), broken);
   assert.equal((await result(page)).reference, 'W84A');
@@ -208,6 +211,34 @@ test('pH-rate profile and temperature: the demos give back the constants they we
   assert.equal(await result(page), null);
   assert.match(await page.locator('#further-status').textContent(), /unit/);
   await page.locator('#further-panel').screenshot({ path: join(shotDir, 'further-temperature-refused.png') });
+  assert.deepEqual(errors, []);
+  await page.close();
+});
+
+test('two substrates: the ping-pong demo is named ping-pong, its parallel double-reciprocal lines drawn, kcat from [E]t', async () => {
+  const { page, errors } = await openPage();
+  await choose(page, 'bisubstrate');
+  const r = await result(page);
+  // Made from the ping-pong law with KmA = 10 µM, KmB = 0.5 mM (invented data, 3 % scatter).
+  assert.equal(r.comparison.preferred, 'ping-pong', r.comparison.verdict);
+  const pp = r.fits.find((f) => f.model === 'ping-pong');
+  for (const [name, truth] of [['KmA', 10], ['KmB', 0.5]]) {
+    const p = pp.parameters.find((q) => q.name === name);
+    assert.ok(p.ci_low < truth && truth < p.ci_high, `${name} ${p.ci_low}–${p.ci_high} should hold ${truth}`);
+  }
+  const kinds = await page.$$eval('#further-plots canvas', (cs) => cs.map((c) => `${c.dataset.kind}:${c.dataset.drawn}`));
+  assert.deepEqual(kinds, r.plots.map((p) => `${p.kind}:yes`));
+  await page.fill('#further-bisubstrate-enzyme', '20');
+  await page.evaluate(() => window.turnover.analyse());
+  const withKcat = await result(page);
+  const kcat = withKcat.fits.find((f) => f.model === 'ping-pong').parameters.find((p) => p.name === 'kcat');
+  const vmax = withKcat.fits.find((f) => f.model === 'ping-pong').parameters.find((p) => p.name === 'Vmax');
+  // kcat = Vmax/[E]t: µM/min over 20 nM, per second: Vmax/0.020/60.
+  assert.ok(Math.abs(kcat.value - vmax.value / 0.020 / 60) < 1e-9 * kcat.value, `kcat ${kcat.value}`);
+  await page.fill('#further-bisubstrate-enzyme', 'twenty');
+  await page.evaluate(() => window.turnover.analyse());
+  assert.equal(await result(page), null);
+  assert.match(await page.locator('#further-status').textContent(), /\[E\]t/);
   assert.deepEqual(errors, []);
   await page.close();
 });
