@@ -132,7 +132,21 @@ function readRateRequest(doc) {
     } catch (error) {
       problems.push(`[E]t: '${r.enzyme.trim()}': ${error?.message ?? error}. kcat and kcat/Km are not computed until it can be read.`);
     }
-  }  const whole = (text, label) => {
+  }
+  // Protein concentration (with the enzyme's molar mass, [E]t for kcat):
+  // specific activity, from the core's protein rule.
+  let protein = null;
+  if (r.protein.trim()) {
+    const { value, problem } = readTyped(r.protein);
+    const mass = r.molar_mass.trim() ? readTyped(r.molar_mass) : { value: null, problem: null };
+    if (problem || !(value > 0)) problems.push(`Protein: ${problem ?? `'${r.protein}' is not a positive concentration`}; specific activity is not computed until it can be read.`);
+    else if (mass.problem || (mass.value !== null && !(mass.value > 0))) problems.push(`Molar mass: ${mass.problem ?? `'${r.molar_mass}' is not a positive molar mass`}; specific activity is not computed until it can be read.`);
+    else if (mass.value !== null && enzyme !== null) problems.push('Give [E]t or the molar mass (which gives [E]t from the protein), not both; specific activity and kcat wait until one is removed.');
+    else protein = { concentration: value, unit: r.protein_unit, molar_mass: mass.value, molar_mass_unit: mass.value === null ? null : r.molar_mass_unit };
+  } else if (r.molar_mass.trim()) {
+    problems.push('A molar mass needs the protein concentration beside it.');
+  }
+  const whole = (text, label) => {
     const { value, problem } = readTyped(text);
     if (problem || value === null || !Number.isInteger(value) || value < 0) {
       problems.push(`${label}: ${problem ?? `'${text}' is not a whole number`}.`);
@@ -150,6 +164,8 @@ function readRateRequest(doc) {
     rate_unit: r.rate_unit || null,
     enzyme,
     enzyme_unit: enzymeUnit,
+    protein,
+    rate_time: r.rate_time || null,
     excluded_lines: [...r.excluded_lines],
     // One replicate of a line that holds several (replicates in columns).
     excluded_cells: r.excluded_cells.map((key) => key.split(':').map(Number)),
@@ -510,7 +526,9 @@ function rateMethods(result, doc) {
   const range = s.length ? `${formatNumber(Math.min(...s), 3)}–${formatNumber(Math.max(...s), 3)}${u.substrate ? ` ${u.substrate}` : ''}` : '';
   const parts = [fitMethods(result.fit, `Initial rates at ${levels} substrate concentrations (${range})`, result.bootstrap)];
   const kcat = result.fit.parameters.find((p) => p.name === 'kcat');
-  if (kcat) parts.push(`kcat = Vmax/[E]t with [E]t = ${doc.rates.enzyme} ${doc.rates.enzyme_unit} taken as exact; kcat/Km with its error from the full covariance.`);
+  if (kcat && result.enzyme_from_protein) parts.push(`kcat = Vmax/[E]t with [E]t from the protein concentration (${doc.rates.protein} ${doc.rates.protein_unit}) and the molar mass (${doc.rates.molar_mass} ${doc.rates.molar_mass_unit}), taking the protein as pure, fully active enzyme; kcat/Km with its error from the full covariance.`);
+  else if (kcat) parts.push(`kcat = Vmax/[E]t with [E]t = ${doc.rates.enzyme} ${doc.rates.enzyme_unit} taken as exact; kcat/Km with its error from the full covariance.`);
+  if (result.fit.parameters.some((p) => p.name === 'specific activity')) parts.push(`Specific activity = Vmax/protein with the protein concentration ${doc.rates.protein} ${doc.rates.protein_unit} taken as exact.`);
   const left = result.points.filter((p) => p.excluded).map((p) => p.line);
   if (left.length) parts.push(`${left.length} point${left.length === 1 ? ' was' : 's were'} left out of the fit (input line${left.length === 1 ? '' : 's'} ${left.join(', ')}).`);
   parts.push(versionText());
@@ -1397,6 +1415,11 @@ function wireRates() {
   bindField('rate-unit', 'rates.rate_unit');
   bindField('enzyme', 'rates.enzyme');
   bindField('enzyme-unit', 'rates.enzyme_unit');
+  bindField('protein', 'rates.protein');
+  bindField('protein-unit', 'rates.protein_unit');
+  bindField('molar-mass', 'rates.molar_mass');
+  bindField('molar-mass-unit', 'rates.molar_mass_unit');
+  bindField('rate-time', 'rates.rate_time');
   bindField('weighting', 'rates.weighting');
   bindField('interval-method', 'rates.interval_method');
   bindField('resamples', 'rates.resamples');

@@ -25,6 +25,7 @@ const DEFAULTS = {
   assay: { enzyme: '', source: '', temperature: '', ph: '', buffer: '', method: '' },
   rates: {
     text: '', substrate_unit: '', rate_unit: '', enzyme: '', enzyme_unit: 'nM',
+    protein: '', protein_unit: 'mg/mL', molar_mass: '', molar_mass_unit: 'kDa', rate_time: '',
     weighting: 'uniform', interval_method: 'asymptotic', resamples: '2000', seed: '1', resample_by: 'residual',
     compare_laws: false, excluded_lines: [], excluded_cells: [],
   },
@@ -56,7 +57,7 @@ export const FURTHER_KINDS = ['sets', 'bisubstrate', 'ph', 'temperature'];
  *  results). Settings such as weighting are the person's choice and stay. */
 const DEMO_FIELDS = {
   assay: Object.keys(DEFAULTS.assay),
-  rates: ['text', 'substrate_unit', 'rate_unit', 'enzyme', 'enzyme_unit', 'excluded_lines', 'excluded_cells'],
+  rates: ['text', 'substrate_unit', 'rate_unit', 'enzyme', 'enzyme_unit', 'protein', 'molar_mass', 'excluded_lines', 'excluded_cells'],
   inhibition: ['text', 'rate_unit', 'excluded_lines', 'excluded_cells'],
   dose: ['text', 'enzyme', 'cp_mechanism', 'cp_substrate', 'cp_km', 'cp_km_se', 'excluded_lines'],
   traces: Object.keys(DEFAULTS.traces),

@@ -196,3 +196,42 @@ test('awkward tables give a message that says what is wrong, and nothing non-fin
   assert.deepEqual(errors, []);
   await page.close();
 });
+
+test('specific activity from the protein concentration, [E]t from the molar mass, rates per second: the core’s rule, and contradictions refused', { timeout: 60_000 }, async () => {
+  const { page, errors } = await open();
+  await page.fill('#data-input', TABLE);
+  const params = (p) => page.evaluate(() => {
+    window.turnover.analyse();
+    return Object.fromEntries(window.turnover.lastResult().fit.parameters.map((q) => [q.name, q]));
+  });
+  const plain = await params(page);
+  await page.fill('#protein', '0.05');
+  let p = await params(page);
+  // 0.05 mg/mL = 50 mg/L; Vmax in µM/min is µmol L⁻¹ min⁻¹, so specific
+  // activity = Vmax/50 µmol min⁻¹ mg⁻¹, its SE and interval scaled alike
+  // (the protein taken as exact; arithmetic by hand).
+  const sa = p['specific activity'];
+  assert.ok(Math.abs(sa.value - plain.Vmax.value / 50) <= 1e-12 * sa.value, `${sa.value}`);
+  assert.ok(Math.abs(sa.std_error - plain.Vmax.std_error / 50) <= 1e-12 * sa.std_error);
+  assert.equal(p.kcat, undefined, 'no kcat without [E]t or a molar mass');
+  // With a molar mass of 42 kDa: [E]t = 50 mg/L / 42,000 g/mol = 1.190476 µM,
+  // kcat = Vmax / [E]t per minute, /60 per second.
+  await page.fill('#molar-mass', '42');
+  p = await params(page);
+  const et = 0.05 / 42000 * 1e6;
+  assert.ok(Math.abs(p.kcat.value - plain.Vmax.value / et / 60) <= 1e-9 * p.kcat.value, `kcat ${p.kcat.value}`);
+  assert.match(await page.textContent('#method'), /protein concentration \(0\.05 mg\/mL\) and the molar mass \(42 kDa\)/);
+  // [E]t typed as well as a molar mass: said, and neither used.
+  await page.fill('#enzyme', '25');
+  assert.match(await problemsText(page), /Give \[E\]t or the molar mass/);
+  p = await params(page);
+  assert.equal(p['specific activity'], undefined);
+  await page.fill('#enzyme', '');
+  await page.fill('#molar-mass', '');
+  // Rates per second: Vmax is the per-minute value divided by 60.
+  await page.selectOption('#rate-time', 's');
+  p = await params(page);
+  assert.ok(Math.abs(p.Vmax.value - plain.Vmax.value / 60) <= 1e-9 * p.Vmax.value, `Vmax ${p.Vmax.value}`);
+  assert.deepEqual(errors, []);
+  await page.close();
+});
