@@ -251,6 +251,24 @@ function parameterRow(p) {
   return row;
 }
 
+/** The replicates at each concentration (count, mean, SD, SEM, from the
+ *  core) in a folded table; hidden when no concentration has two. */
+function showReplicates(box, summaries, concentration, unit) {
+  const any = (summaries ?? []).some((r) => r.count > 1);
+  box.hidden = !any;
+  const table = box.querySelector('table');
+  const head = table.tHead.rows[0];
+  head.replaceChildren(...[concentration, 'n', withUnit('mean', unit), withUnit('SD', unit), withUnit('SEM', unit)].map((h) => element('th', {}, h)));
+  const body = table.tBodies[0];
+  body.replaceChildren();
+  if (!any) return;
+  for (const r of summaries) {
+    const tr = element('tr', { 'data-concentration': String(r.concentration), 'data-mean': String(r.mean) });
+    for (const x of [formatNumber(r.concentration), String(r.count), formatNumber(r.mean), r.sd === null ? '—' : formatNumber(r.sd, 3), r.sem === null ? '—' : formatNumber(r.sem, 3)]) tr.append(element('td', { class: 'num' }, x));
+    body.append(tr);
+  }
+}
+
 function element(tag, attributes = {}, text) {
   const node = document.createElement(tag);
   for (const [key, value] of Object.entries(attributes)) node.setAttribute(key, value);
@@ -307,9 +325,11 @@ function showResult(result) {
   for (const p of fit.parameters) body.append(parameterRow(p));
   if (fit.parameters.some((p) => p.derived)) {
     const note = element('tr', { class: 'footnote' });
-    note.append(element('td', { colspan: '5', class: 'hint' }, '† computed from Vmax, Km and [E]t ([E]t taken as exact); standard error by the delta method with the full covariance; interval by the method chosen (delta method when asymptotic; kcat/Km profiled by refitting with Vmax/Km as a parameter).'));
+    note.append(element('td', { colspan: '5', class: 'hint' }, '† computed from Vmax, Km and the inputs taken as exact ([E]t, protein); standard error by the delta method with the full covariance; interval by the method chosen (delta method when asymptotic; kcat/Km profiled by refitting with Vmax/Km as a parameter).'));
     body.append(note);
   }
+
+  showReplicates($('replicates-box'), result.replicates, withUnit('[S]', result.units.substrate), result.units.rate);
 
   const stats = $('fit-stats');
   stats.replaceChildren();
@@ -420,6 +440,7 @@ function showRateLaws() {
 }
 
 function clearResult(message) {
+  $('replicates-box').hidden = true;
   $('status').dataset.state = 'error';
   $('status').textContent = message;
   $('points-table').tBodies[0].replaceChildren();
@@ -1587,6 +1608,7 @@ Object.assign(window.turnover, {
     svgToPng,
     exportFigure,
     parameterRow,
+    showReplicates,
     estimateText,
     format: formatNumber,
     nearestPoint,

@@ -198,6 +198,7 @@ function analyseDose(doc) {
     $('dose-warnings').replaceChildren();
     showKi(null, null);
     clearPlot();
+    $('dose-replicates-box').hidden = true;
     return;
   }
   try {
@@ -222,6 +223,7 @@ function analyseDose(doc) {
     $('dose-warnings').replaceChildren();
     showKi(null, null);
     clearPlot();
+    $('dose-replicates-box').hidden = true;
     return;
   }
   const result = lastResult;
@@ -238,6 +240,7 @@ function analyseDose(doc) {
   const problems = result.problems.map((p) => `${p.column ? `line ${p.line}, column ${p.column}` : `line ${p.line}`}: ${p.message} (not used)`);
   $('dose-warnings').replaceChildren(...[...fit.warnings, ...problems, ...result.notes].map((w) => cell('li', w)));
   showKi(result, chosen.cpProblem, sent.dose.cp_mechanism);
+  page.ui.showReplicates($('dose-replicates-box'), result.replicates, page.ui.withUnit('[I]', result.inhibitor_unit), null);
   const levels = new Set(result.points.filter((p) => !p.excluded).map((p) => p.i)).size;
   let methods = page.ui.fitMethods(fit, `Responses at ${levels} inhibitor concentrations`, null);
   const cp = chosen.request?.cheng_prusoff;

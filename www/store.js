@@ -37,7 +37,7 @@ const DEFAULTS = {
   traces: {
     text: '', layout: '', conversion: 'epsilon', preset: '', epsilon: '', path: '', volume: '', diameter: '',
     direction: 'rises', limit: '', max_conversion: '10', standard: '', windows: {}, excluded: [], whole_curve: false, fit_v0: false,
-    inactivation: false, inact_substrate: '', inact_km: '',
+    inactivation: false, inact_substrate: '', inact_km: '', block: '',
   },
   batch: { text: '', group_by: '', model: 'ic50', weighting: 'uniform', normalise: false, fix_top: false, top: '100', fix_bottom: false, bottom: '0' },
   // The further questions: which one is shown, and each one's own table

@@ -106,6 +106,8 @@ function traceRequest(doc) {
     windows: Object.entries(t.windows).map(([trace, [start, end]]) => ({ trace, start, end })),
     excluded: [...t.excluded],
     fit_v0: t.fit_v0,
+    // Which kinetic table of an export with several ('' = the first).
+    block: t.block === '' ? null : Number(t.block),
   };
   if (problems.length) return { request, problem: problems.join(' ') };
   request.max_conversion = (request.max_conversion ?? 10) / 100;
@@ -546,7 +548,21 @@ function drawAll() {
   drawEnzymeCheck();
   drawProgress();
   drawTable();
+  showBlocks(traceState.result);
   for (const hook of resultHooks) hook(traceState.result);
+}
+
+/** The kinetic tables of an export with several (two wavelengths, two
+ *  reads): a choice appears, listing each with its lines and size. */
+function showBlocks(r) {
+  const blocks = r?.blocks ?? [];
+  const select = $('tr-block');
+  $('tr-block-label').hidden = blocks.length < 2;
+  const wanted = ['', ...blocks.map((b) => String(b.number))];
+  if ([...select.options].map((o) => o.value).join() !== wanted.join()) {
+    select.replaceChildren(new Option('the first', ''), ...blocks.map((b) => new Option(`${b.number}: ${b.title ?? 'untitled'} (lines ${b.header_line}–${b.last_line}, ${b.rows} readings of ${b.columns} traces)`, String(b.number))));
+  }
+  select.value = page.doc().traces.block;
 }
 
 // ------------------------------------------------------------ actions
@@ -735,6 +751,7 @@ function wire() {
   }
   page.bindField('tr-preset', 'traces.preset');
   page.bindField('tr-fit-v0', 'traces.fit_v0');
+  page.bindField('tr-block', 'traces.block');
   $('tr-well-path').addEventListener('click', () => {
     const t = page.doc().traces;
     const volume = page.ui.readTyped(t.volume).value;

@@ -235,3 +235,37 @@ test('specific activity from the protein concentration, [E]t from the molar mass
   assert.deepEqual(errors, []);
   await page.close();
 });
+
+test('an export with two kinetic tables offers the choice; the second table read gives its own rates; replicates are summarised', { timeout: 90_000 }, async () => {
+  const { page, errors } = await open();
+  // Invented readings (not measured data): three wells read at two
+  // wavelengths, the second read rising twice as fast.
+  const block = (slope) => ['Time (min)\tA1\tA2\tA3', ...[0, 0.5, 1, 1.5, 2, 2.5].map((t) => [t, ...[1, 0.5, 0.2].map((k) => (0.05 + slope * k * t).toFixed(4))].join('\t'))].join('\n');
+  const text = `Read 1\tWavelength 340 nm\n${block(0.1)}\n\nRead 2\tWavelength 405 nm\n${block(0.2)}\n`;
+  await page.fill('#traces-input', text);
+  await page.fill('#layout-input', 'trace\tS (µM)\nA1\t100\nA2\t50\nA3\t10\n');
+  await page.selectOption('#tr-conversion', 'none');
+  await page.evaluate(() => window.turnoverTraces.analyse());
+  await page.waitForFunction(() => window.turnoverTraces.current());
+  const first = await page.evaluate(() => window.turnoverTraces.lastResult());
+  assert.equal(first.blocks.length, 2);
+  assert.equal(await page.isVisible('#tr-block'), true);
+  const labels = await page.$$eval('#tr-block option', (os) => os.map((o) => o.textContent));
+  assert.match(labels[2], /^2: Read 2 Wavelength 405 nm \(lines 11–17, 6 readings of 3 traces\)/);
+  await page.selectOption('#tr-block', '2');
+  await page.evaluate(() => window.turnoverTraces.analyse());
+  await page.waitForFunction(() => window.turnoverTraces.current());
+  const second = await page.evaluate(() => window.turnoverTraces.lastResult());
+  const rate = (r, name) => r.traces.find((t) => t.name === name).rate;
+  assert.ok(Math.abs(rate(second, 'A1') / rate(first, 'A1') - 2) < 1e-9, `${rate(second, 'A1')} vs ${rate(first, 'A1')}`);
+  assert.equal(await page.evaluate(() => window.turnover.doc().traces.block), '2');
+  // Replicates in columns: the page shows each [S]'s mean, SD and SEM from the core.
+  await page.fill('#data-input', '[S] (µM)\tv rep 1 (µM/min)\tv rep 2\tv rep 3\n2\t0.90\t0.95\t0.88\n5\t1.90\t1.97\t1.95\n10\t3.1\t3.2\t3.25\n20\t4.6\t4.8\t4.7\n50\t6.5\t6.6\t6.4\n');
+  await page.evaluate(() => window.turnover.analyse());
+  const rows = await page.$$eval('#replicates-box tbody tr', (trs) => trs.map((tr) => [Number(tr.dataset.concentration), Number(tr.dataset.mean)]));
+  assert.equal(await page.isHidden('#replicates-box'), false);
+  assert.deepEqual(rows.map(([s]) => s), [2, 5, 10, 20, 50]);
+  assert.ok(Math.abs(rows[0][1] - (0.90 + 0.95 + 0.88) / 3) < 1e-12);
+  assert.deepEqual(errors, []);
+  await page.close();
+});
