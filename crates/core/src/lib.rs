@@ -47,6 +47,8 @@
 //!   several [E].
 //! - [`sets`]: do constants differ between data sets? Global fits with
 //!   shared or separate constants, F tests, ratios with intervals.
+//! - [`design`]: planning an experiment: recommended concentrations,
+//!   predicted and simulated precision, plate map and pipetting table.
 //!
 //! ```
 //! use turnover_core::rates::{analyse_rates, RateRequest};
@@ -67,6 +69,7 @@
 pub mod batch;
 pub mod compare;
 pub mod decode;
+pub mod design;
 pub mod early;
 pub mod errors;
 pub mod diagnostics;

@@ -67,6 +67,9 @@ pub enum PlotKind {
     KobsReplot,
     /// Product against [E]·t, one series per [E] (Selwyn's test).
     Selwyn,
+    /// A planned design's predicted precision (relative error, %) against
+    /// its highest concentration, one series per constant.
+    DesignPrecision,
 }
 
 impl PlotKind {
@@ -108,6 +111,7 @@ impl PlotKind {
             PlotKind::InactivationTraces => "inactivation-traces",
             PlotKind::KobsReplot => "kobs-replot",
             PlotKind::Selwyn => "selwyn",
+            PlotKind::DesignPrecision => "design-precision",
         }
     }
 
@@ -135,6 +139,7 @@ impl PlotKind {
                 PlotKind::InactivationTraces,
                 PlotKind::KobsReplot,
                 PlotKind::Selwyn,
+                PlotKind::DesignPrecision,
             ])
             .chain([PlotKind::TraceDetail, PlotKind::RateAgainstEnzyme, PlotKind::ProgressCurves])
             .find(|k| k.name() == name)
