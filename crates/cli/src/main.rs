@@ -2,7 +2,7 @@
 //!
 //! Every number printed here comes from the core (`analyse_rates`,
 //! `analyse_inhibition`, `analyse_dose`, `analyse_traces`, `fit_progress`,
-//! `compare_sets`, `inactivation_from_traces`),
+//! `compare_sets`, `inactivation_from_traces`, `design`),
 //! the same functions the page calls. Arguments are read by clap (derive).
 //! Exit codes are decided in one place, [`main`]: 0 success, 1 the output
 //! could not be written, 2 bad input or usage, 3 the fit did not converge
@@ -10,6 +10,7 @@
 //! run quietly with 0.
 
 mod batch;
+mod design;
 mod inactivation;
 mod output;
 mod sets;
@@ -69,6 +70,9 @@ enum Command {
     /// Time-dependent inhibition from progress curves: kobs per trace,
     /// then kinact, KI and kinact/KI from kobs against [I]
     Inactivation(inactivation::InactivationOptions),
+    /// Plan an experiment: concentrations and replicates for the precision
+    /// wanted, predicted and simulated, with a plate map and pipetting table
+    Design(design::DesignOptions),
 }
 
 /// Options every fit of a table shares.
@@ -257,6 +261,7 @@ fn main() -> ExitCode {
         Command::FitProgress(options) => traces::fit_progress_command(options),
         Command::CompareSets(options) => sets::compare_sets_command(options),
         Command::Inactivation(options) => inactivation::inactivation_command(options),
+        Command::Design(options) => design::design_command(options),
     };
     match result {
         Ok(code) => code,

@@ -12,6 +12,7 @@
 
 #![deny(missing_docs)]
 
+mod design;
 mod dose;
 mod draw;
 mod figures;
