@@ -12,6 +12,7 @@
 
 #![deny(missing_docs)]
 
+#[cfg(feature = "design")]
 mod design;
 mod dose;
 mod draw;

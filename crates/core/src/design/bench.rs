@@ -144,6 +144,9 @@ fn title(name: &str, unit: &Option<String>) -> String {
     }
 }
 
+/// What a well of the plate map holds: [S], [I], replicate number.
+type WellContent = (Option<f64>, Option<f64>, usize);
+
 /// The plate map of a design: `first` the varied concentrations, `second`
 /// the inhibitor concentrations of a two-compound design; `first_is_inhibitor`
 /// for a dose-response series. `Err` says why no plate map is made (more
@@ -167,7 +170,7 @@ pub fn plate_map(
         return Err(format!("No plate map: the design has {total} wells, more than a 384-well plate holds."));
     };
     // (s, i, replicate) per well, in plate order.
-    let mut placed: Vec<Option<(Option<f64>, Option<f64>, usize)>> = vec![None; rows * columns];
+    let mut placed: Vec<Option<WellContent>> = vec![None; rows * columns];
     let value = |c: f64, k: usize| -> (Option<f64>, Option<f64>) {
         if two {
             (Some(c), Some(second[k]))
@@ -208,7 +211,7 @@ pub fn plate_map(
         .collect();
     let used_rows = placed.chunks(columns).rposition(|r| r.iter().any(Option::is_some)).map_or(0, |r| r + 1);
     let mut text = String::new();
-    let mut grid = |name: String, cell: &dyn Fn(&(Option<f64>, Option<f64>, usize)) -> String| {
+    let mut grid = |name: String, cell: &dyn Fn(&WellContent) -> String| {
         if !text.is_empty() {
             text.push('\n');
         }

@@ -776,11 +776,11 @@ fn check_grid(setup: &Setup, grid: &Grid, what: &str) -> Result<(), Error> {
         v.dedup();
         v.len()
     };
-    if distinct(&grid.first) < p.min(3).max(2) {
+    if distinct(&grid.first) < p.clamp(2, 3) {
         return Err(Error::invalid_option(format!(
             "{what}: {} distinct concentration(s) cannot determine {p} constants; give at least {}",
             distinct(&grid.first),
-            p.min(3).max(2)
+            p.clamp(2, 3)
         )));
     }
     if setup.predictors() == 2 && distinct(&grid.second) < 2 {
@@ -794,7 +794,7 @@ fn check_grid(setup: &Setup, grid: &Grid, what: &str) -> Result<(), Error> {
         let x = grid.x(setup.predictors(), 1);
         for row in x.chunks(setup.predictors()) {
             let v = setup.model.value(row, &setup.truth);
-            if !(v > 0.0) {
+            if v.is_nan() || v <= 0.0 {
                 return Err(Error::invalid_option(format!(
                     "{what}: at {} the predicted rate is {}, which cannot carry a proportional error; leave that concentration out or use constant noise",
                     row.iter().map(|c| number(*c)).collect::<Vec<_>>().join(", "),
@@ -848,11 +848,14 @@ fn predict(setup: &Setup, grid: &Grid) -> Vec<PredictedPrecision> {
         .collect()
 }
 
+/// The fitted values, standard errors and interval ends of the constants
+/// of a fit that succeeded.
+type Estimates = (Vec<f64>, Vec<f64>, Vec<(f64, f64)>);
+
 /// What one simulated experiment gave.
 struct Outcome {
-    /// The fitted values, standard errors and interval ends of the
-    /// constants, when the fit succeeded.
-    fit: Option<(Vec<f64>, Vec<f64>, Vec<(f64, f64)>)>,
+    /// The estimates, when the fit succeeded.
+    fit: Option<Estimates>,
     /// The mechanism the comparison named (inhibition only): `Some(None)`
     /// for undecided.
     named: Option<Option<String>>,
@@ -860,7 +863,7 @@ struct Outcome {
 
 /// The values, standard errors and intervals of a fit that succeeded: it
 /// converged and every constant has a standard error.
-fn usable(summary: &FitSummary) -> Option<(Vec<f64>, Vec<f64>, Vec<(f64, f64)>)> {
+fn usable(summary: &FitSummary) -> Option<Estimates> {
     if !summary.converged {
         return None;
     }
@@ -951,7 +954,7 @@ fn simulate_once(setup: &Setup, x: &[f64], truth: &[f64], rng: &mut SplitMix64, 
 
 /// The relative error of a fit by the target's measure, or `None` when the
 /// fit failed.
-fn relative_error(target: &Target, index: usize, fit: &(Vec<f64>, Vec<f64>, Vec<(f64, f64)>)) -> f64 {
+fn relative_error(target: &Target, index: usize, fit: &Estimates) -> f64 {
     let value = fit.0[index].abs();
     match target.measure {
         TargetMeasure::Se => fit.1[index] / value,
@@ -1087,8 +1090,8 @@ fn simulate_over_range(setup: &Setup, grid: &Grid, n: usize, seed: u64, target: 
                 if target.is_some_and(|(t, j)| relative_error(t, j, &fit) <= t.relative) {
                     reached += 1;
                 }
-                for j in 0..p {
-                    relative[j].push(fit.1[j] / fit.0[j].abs());
+                for (j, r) in relative.iter_mut().enumerate() {
+                    r.push(fit.1[j] / fit.0[j].abs());
                 }
             }
             None => failed += 1,
@@ -1305,8 +1308,10 @@ pub fn design(request: &DesignRequest) -> Result<DesignResult, Error> {
     if let Some((t, j)) = &target {
         if let Some(r) = predicted_relative(&setup, &grid, *j, t.measure) {
             if r > t.relative {
+                // The covariance scales as 1/replicates for a fixed grid.
+                let needed = (setup.replicates as f64 * (r / t.relative).powi(2)).ceil();
                 warnings.push(format!(
-                    "The recommended design is predicted to give {} to ±{:.1}%, short of the target ±{:.1}%: add replicates or improve the assay's precision (the error falls roughly as 1/√replicates).",
+                    "The recommended design is predicted to give {} to ±{:.1}%, short of the target ±{:.1}%: about {needed} replicates of each condition would reach it (the error falls as 1/√replicates), or improve the assay's precision.",
                     t.parameter,
                     100.0 * r,
                     100.0 * t.relative
