@@ -58,3 +58,30 @@ use wasm_bindgen::prelude::*;
 pub fn design_experiment(request_json: &str) -> Result<String, JsError> {
     Ok(json_call(request_json, |r: &DesignRequest| design(r))?.0)
 }
+
+#[cfg(test)]
+mod tests {
+    use crate::draw::{figure_svg, FigureOptions};
+    use turnover_core::design::{design, DesignRequest, Guess};
+
+    /// The precision sweep draws through the one drawing path: the figure
+    /// parses as XML and carries its axis labels and one legend entry per
+    /// constant.
+    #[test]
+    fn the_precision_sweep_draws() {
+        let guess = |name: &str, value: f64| Guess { name: name.into(), value, low: None, high: None };
+        let request = DesignRequest {
+            guesses: vec![guess("Vmax", 10.0), guess("Km", 5.0)],
+            simulations: 0,
+            substrate_unit: Some("µM".into()),
+            ..DesignRequest::default()
+        };
+        let result = design(&request).unwrap();
+        let svg = figure_svg(&result.plots[0], &FigureOptions::default()).unwrap();
+        let document = roxmltree::Document::parse(&svg).unwrap();
+        let texts: Vec<String> = document.descendants().filter(|n| n.has_tag_name("text")).filter_map(|n| n.text().map(str::to_string)).collect();
+        for expected in ["highest [S] (µM)", "predicted relative standard error (%)", "Vmax", "Km"] {
+            assert!(texts.iter().any(|t| t.contains(expected)), "{expected} not in {texts:?}");
+        }
+    }
+}

@@ -1273,6 +1273,10 @@ pub fn design(request: &DesignRequest) -> Result<DesignResult, Error> {
             }
             let g = Grid { first, second: if setup.predictors() == 2 { second } else { Vec::new() } };
             check_grid(&setup, &g, "the proposed design")?;
+            let own_wells = g.conditions(setup.predictors()) * setup.replicates;
+            if let Some(limit) = request.wells.filter(|limit| own_wells > *limit) {
+                warnings.push(format!("The proposed design needs {own_wells} wells, more than the limit of {limit}."));
+            }
             if let Some(max) = request.max_concentration.filter(|m| g.first.iter().any(|c| c > m)) {
                 warnings.push(format!("The proposed design goes above the highest usable concentration ({}).", number(max)));
             }
