@@ -131,6 +131,7 @@ run_tests() {
   TURNOVER_BIN="$ROOT/target/release/turnover" python3 tests/scipy/models_crosscheck.py
   TURNOVER_BIN="$ROOT/target/release/turnover" python3 tests/scipy/sets_crosscheck.py
   TURNOVER_BIN="$ROOT/target/release/turnover" python3 tests/scipy/inactivation_crosscheck.py
+  TURNOVER_BIN="$ROOT/target/release/turnover" python3 tests/scipy/design_crosscheck.py
   say "browser tests (headless Debian chromium, page opened from file://)"
   ensure_chromium
   ensure_node_packages
