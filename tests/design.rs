@@ -396,6 +396,14 @@ fn bad_requests_are_refused_with_a_sentence() {
         "1 distinct concentration",
     );
     check(DesignRequest { target: Some(Target { parameter: "Ki".into(), relative: 0.1, measure: TargetMeasure::Se }), ..base }, "target 'Ki'");
+    // A misspelt field of the page's JSON is refused, not left at its default.
+    let error = serde_json::from_str::<DesignRequest>(r#"{"guesses": [], "simulation": 50}"#).unwrap_err();
+    assert!(error.to_string().contains("unknown field `simulation`"), "{error}");
+    let request: DesignRequest = serde_json::from_str(
+        r#"{"model": "mm", "guesses": [{"name": "Vmax", "value": 10}, {"name": "Km", "value": 5, "low": 2, "high": 20}], "noise": {"kind": "constant", "level": 0.2}, "simulations": 0}"#,
+    )
+    .unwrap();
+    assert_eq!(design(&request).unwrap().recommended.concentrations.len(), 8);
 }
 
 /// The longer study behind the figures in the report (not in the normal

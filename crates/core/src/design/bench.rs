@@ -29,7 +29,7 @@ use serde::{Deserialize, Serialize};
 
 /// Stocks and volumes for the pipetting table.
 #[derive(Clone, Debug, PartialEq, Deserialize, Serialize)]
-#[serde(default)]
+#[serde(default, deny_unknown_fields)]
 pub struct BenchRequest {
     /// Concentration of the substrate stock, in the unit of the design's
     /// [S]; needed when the design has [S].

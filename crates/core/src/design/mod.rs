@@ -51,6 +51,7 @@ pub use bench::{plate_map, pipetting_table, BenchRequest, Intermediate, Pipettin
 /// `Kic`, `IC50`, ...), a rough value and, optionally, the range it may lie
 /// in.
 #[derive(Clone, Debug, PartialEq, Deserialize, Serialize)]
+#[serde(deny_unknown_fields)]
 pub struct Guess {
     /// The model's name of the constant.
     pub name: String,
@@ -78,6 +79,7 @@ pub enum NoiseKind {
 
 /// The noise model of the simulated rates.
 #[derive(Clone, Copy, Debug, PartialEq, Deserialize, Serialize)]
+#[serde(deny_unknown_fields)]
 pub struct Noise {
     /// Constant or proportional.
     pub kind: NoiseKind,
@@ -118,6 +120,7 @@ pub enum TargetMeasure {
 
 /// The precision wanted for one constant.
 #[derive(Clone, Debug, PartialEq, Deserialize, Serialize)]
+#[serde(deny_unknown_fields)]
 pub struct Target {
     /// The constant (`Km`).
     pub parameter: String,
@@ -130,7 +133,7 @@ pub struct Target {
 
 /// A design given by the person, to compare with the recommended one.
 #[derive(Clone, Debug, Default, PartialEq, Deserialize, Serialize)]
-#[serde(default)]
+#[serde(default, deny_unknown_fields)]
 pub struct ProposedDesign {
     /// The concentrations of the varied compound: [S] for the [S]–v and
     /// inhibition models, [I] for `ic50`.
@@ -140,9 +143,10 @@ pub struct ProposedDesign {
     pub inhibitor_concentrations: Vec<f64>,
 }
 
-/// What to plan.
+/// What to plan. Unknown fields are refused, so that a misspelt setting
+/// is never silently left at its default.
 #[derive(Clone, Debug, PartialEq, Deserialize)]
-#[serde(default)]
+#[serde(default, deny_unknown_fields)]
 pub struct DesignRequest {
     /// Machine name of the model: `mm`, `substrate-inhibition`, `hill`,
     /// `competitive`, `uncompetitive`, `mixed`, `noncompetitive`, `ic50`.
