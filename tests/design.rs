@@ -387,6 +387,11 @@ fn bad_requests_are_refused_with_a_sentence() {
     check(DesignRequest { guesses: vec![guess("Vmax", 10.0), guess("Kx", 5.0)], ..base.clone() }, "'Kx' is not a constant of mm");
     check(DesignRequest { model: "morrison".into(), ..base.clone() }, "Morrison");
     check(DesignRequest { wells: Some(10), ..base.clone() }, "needs 16 wells");
+    check(DesignRequest { points: 48, replicates: 48, ..base.clone() }, "more than the 1536");
+    check(
+        DesignRequest { bench: Some(BenchRequest { substrate_stock: Some(100.0), min_volume: 200.0, well_volume: 100.0, ..BenchRequest::default() }), ..base.clone() },
+        "leaves no room",
+    );
     check(DesignRequest { noise: Noise { kind: NoiseKind::Constant, level: -1.0 }, ..base.clone() }, "noise level");
     let mut out_of_range = base.clone();
     out_of_range.guesses[1] = Guess { name: "Km".into(), value: 5.0, low: Some(10.0), high: Some(20.0) };

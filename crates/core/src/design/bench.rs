@@ -342,6 +342,12 @@ pub fn pipetting_table(bench: &BenchRequest, map: &PlateMap) -> Result<Pipetting
             bench.other_volume, bench.well_volume
         )));
     }
+    if bench.min_volume >= bench.well_volume - bench.other_volume {
+        return Err(Error::invalid_option(format!(
+            "the smallest pipetting volume ({} µL) leaves no room in a well of {} µL with {} µL of other additions",
+            bench.min_volume, bench.well_volume, bench.other_volume
+        )));
+    }
     if !(bench.extra.is_finite() && (0.0..=2.0).contains(&bench.extra)) {
         return Err(Error::invalid_option("the extra made of each dilution must be a fraction from 0 to 2"));
     }

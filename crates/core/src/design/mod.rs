@@ -220,6 +220,9 @@ impl Default for DesignRequest {
 /// Most simulated experiments per check.
 pub const MAX_SIMULATIONS: usize = 20_000;
 
+/// Most wells in one design, so that a plan's simulations stay bounded.
+pub const MAX_WELLS: usize = 1536;
+
 /// A rule behind the recommendation, and where it comes from.
 #[derive(Clone, Debug, PartialEq, Serialize)]
 pub struct DesignRule {
@@ -791,6 +794,11 @@ fn check_grid(setup: &Setup, grid: &Grid, what: &str) -> Result<(), Error> {
         return Err(Error::invalid_option(format!("{what}: an inhibition design needs at least two [I], zero included")));
     }
     let n = grid.conditions(setup.predictors()) * setup.replicates;
+    if n > MAX_WELLS {
+        return Err(Error::invalid_option(format!(
+            "{what}: {n} wells is more than the {MAX_WELLS} Turnover plans for (the wells of a 1536-well plate); use fewer points, inhibitor levels or replicates"
+        )));
+    }
     if n <= p {
         return Err(Error::invalid_option(format!("{what}: {n} wells cannot determine {p} constants with an uncertainty; at least {} are needed", p + 1)));
     }
