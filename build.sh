@@ -143,6 +143,7 @@ run_tests() {
   TURNOVER_BIN="$ROOT/target/release/turnover" python3 tests/scipy/inactivation_crosscheck.py
   TURNOVER_BIN="$ROOT/target/release/turnover" python3 tests/scipy/profiles_crosscheck.py
   TURNOVER_BIN="$ROOT/target/release/turnover" python3 tests/scipy/bisubstrate_crosscheck.py
+  TURNOVER_BIN="$ROOT/target/release/turnover" python3 tests/scipy/design_crosscheck.py
   say "browser tests (headless Debian chromium, page opened from file://)"
   ensure_chromium
   ensure_node_packages

@@ -3,7 +3,7 @@
 //! Every number printed here comes from the core (`analyse_rates`,
 //! `analyse_inhibition`, `analyse_dose`, `analyse_traces`, `fit_progress`,
 //! `compare_sets`, `inactivation_from_traces`, `analyse_ph`,
-//! `analyse_temperature`, `analyse_bisubstrate`),
+//! `analyse_temperature`, `analyse_bisubstrate`, `design`),
 //! the same functions the page calls. Arguments are read by clap (derive).
 //! Exit codes are decided in one place, [`main`]: 0 success, 1 the output
 //! could not be written, 2 bad input or usage, 3 the fit did not converge
@@ -13,6 +13,7 @@
 mod batch;
 mod constants;
 mod bisubstrate;
+mod design;
 mod inactivation;
 mod output;
 mod profiles;
@@ -80,6 +81,9 @@ enum Command {
     /// A rate constant against temperature: Arrhenius and Eyring fitted
     /// directly, Ea, ΔH‡, ΔS‡, ΔG‡, a test of curvature
     Temperature(profiles::TemperatureOptions),
+    /// Plan an experiment: concentrations and replicates for the precision
+    /// wanted, predicted and simulated, with a plate map and pipetting table
+    Design(design::DesignOptions),
 }
 
 /// Options every fit of a table shares.
@@ -291,6 +295,7 @@ fn main() -> ExitCode {
         Command::Inactivation(options) => inactivation::inactivation_command(options),
         Command::Ph(options) => profiles::ph_command(options),
         Command::Temperature(options) => profiles::temperature_command(options),
+        Command::Design(options) => design::design_command(options),
     };
     match result {
         Ok(code) => code,

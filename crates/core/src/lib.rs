@@ -53,6 +53,8 @@
 //!   comparison, log plot with asymptotes.
 //! - [`temperature`]: rate constants against temperature: Arrhenius and
 //!   Eyring fitted directly, ΔH‡, ΔS‡, ΔG‡, a test of curvature.
+//! - [`design`]: planning an experiment: recommended concentrations,
+//!   predicted and simulated precision, plate map and pipetting table.
 //!
 //! ```
 //! use turnover_core::rates::{analyse_rates, RateRequest};
@@ -74,6 +76,7 @@ pub mod batch;
 pub mod bisubstrate;
 pub mod compare;
 pub mod decode;
+pub mod design;
 pub mod early;
 pub mod errors;
 pub mod diagnostics;

@@ -89,6 +89,9 @@ pub enum PlotKind {
     TwoSubstrateSlopeReplot,
     /// Intercept of the double-reciprocal lines against 1/[B].
     TwoSubstrateInterceptReplot,
+    /// A planned design's predicted precision (relative error, %) against
+    /// its highest concentration, one series per constant.
+    DesignPrecision,
 }
 
 impl PlotKind {
@@ -139,6 +142,7 @@ impl PlotKind {
             PlotKind::TwoSubstrateDoubleReciprocal => "two-substrate-double-reciprocal",
             PlotKind::TwoSubstrateSlopeReplot => "two-substrate-slope-replot",
             PlotKind::TwoSubstrateInterceptReplot => "two-substrate-intercept-replot",
+            PlotKind::DesignPrecision => "design-precision",
         }
     }
 
@@ -174,6 +178,7 @@ impl PlotKind {
                 PlotKind::InactivationTraces,
                 PlotKind::KobsReplot,
                 PlotKind::Selwyn,
+                PlotKind::DesignPrecision,
             ])
             .chain([PlotKind::TraceDetail, PlotKind::RateAgainstEnzyme, PlotKind::ProgressCurves])
             .chain([PlotKind::PhLog, PlotKind::PhDirect, PlotKind::TemperatureDirect, PlotKind::Arrhenius, PlotKind::Eyring])

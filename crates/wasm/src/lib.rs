@@ -14,6 +14,8 @@
 
 mod batch;
 mod bisubstrate;
+#[cfg(feature = "design")]
+mod design;
 mod dose;
 mod draw;
 mod figures;
