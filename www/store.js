@@ -40,6 +40,11 @@ const DEFAULTS = {
     inactivation: false, inact_substrate: '', inact_km: '', block: '',
   },
   batch: { text: '', group_by: '', model: 'ic50', weighting: 'uniform', normalise: false, fix_top: false, top: '100', fix_bottom: false, bottom: '0' },
+  design: {
+    model: 'mm', guesses: {}, noise_kind: 'proportional', noise: '5', points: '8', inhibitor_points: '4', replicates: '2',
+    max_s: '', max_i: '', min_rate: '', target_parameter: '', target: '10', proposed: '', proposed_i: '', seed: '1', simulations: '200',
+    substrate_stock: '', inhibitor_stock: '', well_volume: '200', substrate_unit: 'µM', inhibitor_unit: 'µM', rate_unit: 'µM/min',
+  },
   // The further questions: which one is shown, and each one's own table
   // and options (schema 3).
   further: { kind: 'sets' },
@@ -62,6 +67,7 @@ const DEMO_FIELDS = {
   dose: ['text', 'enzyme', 'cp_mechanism', 'cp_substrate', 'cp_km', 'cp_km_se', 'excluded_lines'],
   traces: Object.keys(DEFAULTS.traces),
   further: [],
+  design: ['guesses', 'target_parameter', 'proposed', 'substrate_stock'],
   batch: ['text', 'group_by', 'model'],
   sets: ['text', 'by', 'reference'],
   bisubstrate: ['text', 'rate_unit', 'enzyme'],
@@ -276,6 +282,13 @@ function fieldProblem(section, key, v, fallback) {
     if (key === 'excluded_lines' && !v.every((x) => Number.isInteger(x) && x > 0)) return 'must list line numbers (whole numbers from 1)';
     if (key === 'excluded_cells' && !v.every((x) => typeof x === 'string' && /^\d+:\d+$/.test(x))) return 'must list cells as "line:column"';
     if (key === 'excluded' && !v.every((x) => typeof x === 'string')) return 'must list trace names';
+    return null;
+  }
+  if (key === 'guesses') {
+    if (v === null || typeof v !== 'object' || Array.isArray(v)) return 'must be an object of guesses';
+    for (const [name, g] of Object.entries(v)) {
+      if (!Array.isArray(g) || g.length !== 3 || !g.every((x) => typeof x === 'string')) return `has a bad guess for "${name}" (expected [value, lowest, highest] as text)`;
+    }
     return null;
   }
   if (key === 'windows') {
