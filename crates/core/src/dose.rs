@@ -349,7 +349,7 @@ pub fn analyse_dose(request: &DoseRequest) -> Result<DoseAnalysis, Error> {
         if let Some((conversion, mechanism)) = &conversion {
             add_ki(&mut summary, &fit, &request.fixed_top, &request.fixed_bottom, conversion, *mechanism, request.interval_method, &mut notes)?;
         }
-        dose_response_plot(&dose_points, &curve, full[2], &unit_text, &response_label)
+        dose_response_plot(&dose_points, &curve, full[2], summary.parameters.iter().find(|p| p.name == "IC50").and_then(|p| p.std_error), &unit_text, &response_label)
     };
     let replicates = summarise(&used.iter().map(|p| (p.i, p.y)).collect::<Vec<_>>());
     Ok(DoseAnalysis { fit: summary, points, problems, notes, inhibitor_unit: i_symbol, replicates, plots: vec![plot], caution: CAUTION.to_string() })

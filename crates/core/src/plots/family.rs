@@ -296,7 +296,7 @@ fn dose_points(points: &[DosePoint], keep: &dyn Fn(&DosePoint) -> bool) -> Vec<P
 /// The dose-response plot: responses against [I] on a logarithmic axis,
 /// the fitted logistic and a marker at the IC50. Points at [I] = 0 cannot
 /// sit on a log axis; the note says how many there are.
-pub fn dose_response_plot(points: &[DosePoint], curve: &dyn Fn(f64) -> f64, ic50: f64, inhibitor_unit: &str, response_label: &str) -> PlotData {
+pub fn dose_response_plot(points: &[DosePoint], curve: &dyn Fn(f64) -> f64, ic50: f64, ic50_se: Option<f64>, inhibitor_unit: &str, response_label: &str) -> PlotData {
     let positive: Vec<f64> = points.iter().map(|p| p.i).filter(|i| *i > 0.0).collect();
     let low = positive.iter().copied().fold(f64::INFINITY, f64::min).min(ic50) / 3.0;
     let high = positive.iter().copied().fold(0.0, f64::max).max(ic50) * 3.0;
@@ -326,7 +326,15 @@ pub fn dose_response_plot(points: &[DosePoint], curve: &dyn Fn(f64) -> f64, ic50
         series: vec![Series { label: "logistic fit".to_string(), points: shown, curve: samples, dashed: false }],
         log_x: true,
         band: None,
-        marks: vec![Mark { x: ic50, label: format!("IC50 = {}", with_unit(ic50, inhibitor_unit)) }],
+        // The label follows the one number rule (crate::format): the
+        // standard error to two significant figures, IC50 to its place.
+        marks: vec![Mark {
+            x: ic50,
+            label: {
+                let text = crate::format::format_estimate(Some(ic50), ic50_se, None).text;
+                if inhibitor_unit.is_empty() { format!("IC50 = {text}") } else { format!("IC50 = {text} {inhibitor_unit}") }
+            },
+        }],
     }
 }
 
