@@ -403,6 +403,24 @@ fn early_trace_model_recovers_v0_on_the_noise_free_plate() {
     }
 }
 
+/// With `rates_from_v0`, the rate table sent to the Michaelis-Menten fit
+/// holds each trace's v0 (the same noise-free plate as above, invented
+/// numbers), and says so in a note; without `fit_v0` it keeps the
+/// windows' rates and says why.
+#[test]
+fn the_rate_table_can_take_the_curvature_aware_v0() {
+    let exact = plate(1, 12, 61, 0.5, 20.0, 2.0, 0.0, &[5.0, 40.0, 160.0]);
+    let result = analyse_traces(&TraceRequest { fit_v0: true, rates_from_v0: true, ..request(&exact) }).unwrap();
+    let rows: Vec<f64> = result.rate_table.lines().skip(1).map(|l| l.split('\t').nth(1).unwrap().parse().unwrap()).collect();
+    let v0: Vec<f64> = result.traces.iter().filter(|t| t.s.is_some()).map(|t| t.v0.unwrap()).collect();
+    assert_eq!(rows, v0);
+    assert!(result.notes.iter().any(|n| n.contains("curvature-aware v0")), "{:?}", result.notes);
+    let windows = analyse_traces(&TraceRequest { rates_from_v0: true, ..request(&exact) }).unwrap();
+    let rows: Vec<f64> = windows.rate_table.lines().skip(1).map(|l| l.split('\t').nth(1).unwrap().parse().unwrap()).collect();
+    assert_eq!(rows, windows.traces.iter().filter(|t| t.s.is_some()).map(|t| t.rate.unwrap()).collect::<Vec<_>>());
+    assert!(windows.notes.iter().any(|n| n.contains("only when it is fitted")));
+}
+
 /// Goal (f): initial rates on simulated plates. Design (invented, the
 /// issue's): Km 20 µM, Vmax 2 µM/min, [S]0 at 5, 10, 20, 40, 80 and 160 µM
 /// (0.25–8×Km), two wells each, readings every 0.5 min for 30 min, NADH

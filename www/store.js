@@ -37,7 +37,7 @@ const DEFAULTS = {
   traces: {
     text: '', layout: '', conversion: 'epsilon', preset: '', epsilon: '', path: '', volume: '', diameter: '',
     direction: 'rises', limit: '', max_conversion: '10', standard: '', windows: {}, excluded: [], whole_curve: false, fit_v0: false,
-    inactivation: false, inact_substrate: '', inact_km: '', block: '',
+    inactivation: false, inact_substrate: '', inact_km: '', block: '', rates_from_v0: false,
   },
   batch: { text: '', group_by: '', model: 'ic50', weighting: 'uniform', normalise: false, fix_top: false, top: '100', fix_bottom: false, bottom: '0' },
   design: {

@@ -106,6 +106,7 @@ function traceRequest(doc) {
     windows: Object.entries(t.windows).map(([trace, [start, end]]) => ({ trace, start, end })),
     excluded: [...t.excluded],
     fit_v0: t.fit_v0,
+    rates_from_v0: t.rates_from_v0,
     // Which kinetic table of an export with several ('' = the first).
     block: t.block === '' ? null : Number(t.block),
   };
@@ -752,6 +753,7 @@ function wire() {
   page.bindField('tr-preset', 'traces.preset');
   page.bindField('tr-fit-v0', 'traces.fit_v0');
   page.bindField('tr-block', 'traces.block');
+  page.bindField('tr-rates-from-v0', 'traces.rates_from_v0');
   $('tr-well-path').addEventListener('click', () => {
     const t = page.doc().traces;
     const volume = page.ui.readTyped(t.volume).value;

@@ -364,8 +364,16 @@ test('a page saved by Turnover 0.1 opens with the same numbers', { timeout: TIME
   await page.setInputFiles('#session-input', fixture);
   await page.waitForFunction((text) => document.querySelector('#data-input').value === text, saved.request.text);
   const shown = await constants(page);
-  // The numbers that version computed and saved beside its data.
-  for (const p of saved.results.fit.parameters) assert.equal(Number(shown[p.name]), p.value, `${p.name} as saved by 0.1`);
+  // The numbers that version computed and saved beside its data. Since the
+  // fixed-size solver path (fastpath.rs) the last bit may differ (measured:
+  // Km 0.39086973367500677 against 0.3908697336750067, 1.4e-16 relative):
+  // the minimum is flat within rounding over about √ε·SE, so a different
+  // correct solver stops elsewhere in it. 1e-9 relative is far below any
+  // digit shown or reported.
+  for (const p of saved.results.fit.parameters) {
+    const got = Number(shown[p.name]);
+    assert.ok(Math.abs(got - p.value) <= 1e-9 * Math.abs(p.value), `${p.name}: ${got}, saved by 0.1: ${p.value}`);
+  }
   assert.match(await page.textContent('#restore-info'), /earlier version/);
   assert.equal(await page.inputValue('#tr-epsilon'), '6300');
   const a3 = (await page.evaluate(() => window.turnoverTraces.analyse())).traces.find((t) => t.name === 'A3');

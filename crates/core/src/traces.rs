@@ -166,6 +166,11 @@ pub struct TraceRequest {
     /// 0.1 s per 100-point trace natively, so a plate reader's 384 wells
     /// take most of a minute; ask for it where it is shown or used.
     pub fit_v0: bool,
+    /// Whether the rate table takes each trace's curvature-aware `v0`
+    /// (needs `fit_v0`) instead of the window's straight-line rate. A
+    /// trace without a `v0` is then left out of the table with a note,
+    /// never filled in with its window rate. Default false.
+    pub rates_from_v0: bool,
     /// Which kinetic table of the text to read, counting from 1, when it
     /// holds several (two wavelengths, two reads); `None` reads the first
     /// and lists them all in [`TraceAnalysis::blocks`].
@@ -187,6 +192,7 @@ impl Default for TraceRequest {
             windows: Vec::new(),
             excluded: Vec::new(),
             fit_v0: false,
+            rates_from_v0: false,
             block: None,
         }
     }
@@ -1413,6 +1419,11 @@ pub fn analyse_traces_with(request: &TraceRequest, progress: &mut dyn FnMut(usiz
         notes.push(format!("[E] differs between samples; the rate table holds the samples at [E] = {e}, the most common."));
     }
     let mut rate_links = Vec::new();
+    let from_v0 = request.rates_from_v0 && request.fit_v0;
+    if request.rates_from_v0 && !request.fit_v0 {
+        notes.push("The rate table takes the curvature-aware v0 only when it is fitted (fit_v0); it holds the windows' rates.".to_string());
+    }
+    let mut without_v0 = Vec::new();
     for r in &results {
         if r.role != Role::Sample || r.excluded {
             continue;
@@ -1420,13 +1431,27 @@ pub fn analyse_traces_with(request: &TraceRequest, progress: &mut dyn FnMut(usiz
         if chosen_enzyme.is_some() && !same(r.e, chosen_enzyme) {
             continue;
         }
-        let (Some(s), Some(rate), Some(start), Some(end)) = (r.s, r.rate, r.window_start, r.window_end) else { continue };
+        let rate = if from_v0 {
+            if r.v0.is_none() && r.rate.is_some() {
+                without_v0.push(r.name.clone());
+            }
+            r.v0
+        } else {
+            r.rate
+        };
+        let (Some(s), Some(rate), Some(start), Some(end)) = (r.s, rate, r.window_start, r.window_end) else { continue };
         rate_table.push_str(&format!("{s}\t{rate}"));
         if with_inhibitor {
             rate_table.push_str(&format!("\t{}", r.i.unwrap_or(0.0)));
         }
         rate_table.push('\n');
         rate_links.push(RateLink { line: rate_links.len() + 2, trace: r.name.clone(), window_start: start, window_end: end });
+    }
+    if from_v0 {
+        notes.push("The rate table holds each trace's curvature-aware v0 (the integrated rate equation fitted to its early curve), not the window's straight-line rate.".to_string());
+        if !without_v0.is_empty() {
+            notes.push(format!("No v0 could be fitted for {}; left out of the rate table (their window rates are in the trace table).", without_v0.join(", ")));
+        }
     }
     problems.sort_by_key(|p| (p.line, p.column));
 
