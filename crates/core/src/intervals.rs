@@ -130,6 +130,18 @@ impl Model for HeldFixed<'_> {
         gradient[..self.index].copy_from_slice(&full_gradient[..self.index]);
         gradient[self.index..].copy_from_slice(&full_gradient[self.index + 1..m]);
     }
+    fn value_and_gradient(&self, x: &[f64], p: &[f64], gradient: &mut [f64]) -> f64 {
+        let m = p.len() + 1;
+        if m > STACK_PARAMETERS {
+            self.gradient(x, p, gradient);
+            return self.value(x, p);
+        }
+        let mut full_gradient = [0.0; STACK_PARAMETERS];
+        let value = self.with_full(p, |full| self.inner.value_and_gradient(x, full, &mut full_gradient[..m]));
+        gradient[..self.index].copy_from_slice(&full_gradient[..self.index]);
+        gradient[self.index..].copy_from_slice(&full_gradient[self.index + 1..m]);
+        value
+    }
     fn initial_guess(&self, _: &Observations) -> Result<Vec<f64>, crate::Error> {
         Err(crate::Error::numerical("a held-fixed model is started from the full fit"))
     }
