@@ -115,12 +115,11 @@ impl<const P: usize, const M: usize> Compressed<'_, P, M> {
         for i in 0..self.data.len() {
             let x = self.data.x(i);
             let s = weights[i].sqrt();
-            let r = s * (y[i] - self.model.value(x, p));
+            let r = s * (y[i] - self.model.value_and_gradient(x, p, &mut gradient));
             if !r.is_finite() {
                 self.jacobian_usable.set(false);
                 return false;
             }
-            self.model.gradient(x, p, &mut gradient);
             for j in 0..P {
                 row[j] = -s * gradient[j];
                 gradient_finite &= row[j].is_finite();

@@ -158,6 +158,17 @@ pub trait Model {
     /// written into `gradient` (length = number of parameters).
     fn gradient(&self, x: &[f64], p: &[f64], gradient: &mut [f64]);
 
+    /// The value and the gradient at once: returns [`Model::value`] and
+    /// writes [`Model::gradient`]. By default the two methods in turn; a
+    /// model whose value and gradient share a costly term (a power, a
+    /// logarithm) computes it once here, and must return bit for bit what
+    /// the two methods give. The fixed-size minimiser calls this once per
+    /// observation and trial point.
+    fn value_and_gradient(&self, x: &[f64], p: &[f64], gradient: &mut [f64]) -> f64 {
+        self.gradient(x, p, gradient);
+        self.value(x, p)
+    }
+
     /// Starting values computed from the data.
     fn initial_guess(&self, data: &Observations) -> Result<Vec<f64>, Error>;
 

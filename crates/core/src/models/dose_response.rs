@@ -64,6 +64,12 @@ impl Model for DoseResponse {
     }
 
     fn gradient(&self, x: &[f64], p: &[f64], gradient: &mut [f64]) {
+        self.value_and_gradient(x, p, gradient);
+    }
+
+    /// One power and one logarithm for both; the value is computed as in
+    /// [`Model::value`], from the same `u`.
+    fn value_and_gradient(&self, x: &[f64], p: &[f64], gradient: &mut [f64]) -> f64 {
         let [bottom, top, ic50, h] = self.full(p);
         let i = x[0];
         let (u, log_ratio) = if i == 0.0 { (0.0, 0.0) } else { ((i / ic50).powf(h), (i / ic50).ln()) };
@@ -81,6 +87,7 @@ impl Model for DoseResponse {
         }
         gradient[k] = dy_du * (-h * u / ic50);
         gradient[k + 1] = dy_du * u * log_ratio;
+        bottom + (top - bottom) / (1.0 + u)
     }
 
     /// Starting values: the plateaus are the smallest and largest
@@ -126,6 +133,27 @@ impl Model for DoseResponse {
 mod tests {
     use super::*;
     use crate::model::gradient_disagreement;
+
+    #[test]
+    fn value_and_gradient_equal_the_two_methods_bit_for_bit() {
+        let full = [3.0, 97.0, 0.7, 1.3];
+        for (top, bottom) in [(None, None), (Some(100.0), None), (None, Some(0.0)), (Some(100.0), Some(2.0))] {
+            let model = DoseResponse::new(top, bottom);
+            let p: Vec<f64> = match (top, bottom) {
+                (None, None) => full.to_vec(),
+                (Some(_), None) => vec![full[0], full[2], full[3]],
+                (None, Some(_)) => vec![full[1], full[2], full[3]],
+                (Some(_), Some(_)) => vec![full[2], full[3]],
+            };
+            for i in [0.0, 1e-9, 0.01, 0.7, 3.0, 1e6] {
+                let (mut together, mut alone) = (vec![0.0; p.len()], vec![0.0; p.len()]);
+                let value = model.value_and_gradient(&[i], &p, &mut together);
+                model.gradient(&[i], &p, &mut alone);
+                assert_eq!(value.to_bits(), model.value(&[i], &p).to_bits(), "{i}");
+                assert_eq!(together.iter().map(|g| g.to_bits()).collect::<Vec<_>>(), alone.iter().map(|g| g.to_bits()).collect::<Vec<_>>());
+            }
+        }
+    }
 
     #[test]
     fn gradient_matches_finite_differences() {
