@@ -159,6 +159,9 @@ fn decide(fits: &[FitSummary], singles: &[&str], generals: &[&str], rule: &str) 
     }
 }
 
+/// The rule compare.rs implements (chosen in issue 16 from this study).
+const CHOSEN: &str = "bound-naive+aicc-inside";
+
 #[derive(Default)]
 struct Tally {
     right: usize,
@@ -383,16 +386,15 @@ fn choice_rules_study() {
             let wrong: usize = t.wrong.values().sum();
             println!("  {:<18} {:>6} {:>9} {:>10} {:>6}  {:?}", rule, t.right, t.standing, t.undecided, wrong, t.wrong);
         }
-        // The first rule is the one compare.rs used before issue 16: it
-        // must give compare_fits's own verdict on every trial.
-        if case.generals.len() > 0 && !case.label.starts_with("pH") {
-            let differ = case
-                .fits
-                .iter()
-                .filter(|fits| turnover_core::compare::compare_fits(fits).preferred != decide(fits, case.singles, case.generals, RULES[0]).ok())
-                .count();
-            println!("  compare_fits differs from {} in {differ} trials", RULES[0]);
-        }
+        // `CHOSEN` is the rule compare.rs uses since issue 16: it must give
+        // compare_fits's own verdict on every trial.
+        let differ = case
+            .fits
+            .iter()
+            .filter(|fits| turnover_core::compare::compare_fits(fits).preferred != decide(fits, case.singles, case.generals, CHOSEN).ok())
+            .count();
+        println!("  compare_fits differs from {CHOSEN} in {differ} trials");
+        assert_eq!(differ, 0, "{}: compare_fits is not the rule {CHOSEN}", case.label);
         println!();
     }
 }

@@ -54,6 +54,51 @@ pub const NESTED_PAIRS: &[(&str, &str)] = &[
     ("ping-pong", "sequential"),
 ];
 
+/// A special case that is its general law with one constant at the edge of
+/// the constant's physical range.
+pub struct Boundary {
+    /// The special case.
+    pub simpler: &'static str,
+    /// The general law.
+    pub general: &'static str,
+    /// The limit, in words.
+    pub limit: &'static str,
+    /// The general law's constant that must be positive, when a fit can
+    /// put it on the impossible side; `None` when no finite value of the
+    /// fit's parameters lies there (1/Kiu < 0 would need Kiu to pass
+    /// through infinity, a pKa beyond ±∞ does not exist).
+    pub positive: Option<&'static str>,
+}
+
+/// The nested pairs of [`NESTED_PAIRS`] whose special case lies at a
+/// boundary; the others (noncompetitive in mixed: Kic = Kiu; mm in hill:
+/// nH = 1) lie inside the general law's range.
+pub const BOUNDARIES: &[Boundary] = &[
+    Boundary { simpler: "competitive", general: "mixed", limit: "Kiu → ∞", positive: Some("Kiu") },
+    Boundary { simpler: "uncompetitive", general: "mixed", limit: "Kic → ∞", positive: Some("Kic") },
+    Boundary { simpler: "mm", general: "substrate-inhibition", limit: "Ksi → ∞", positive: Some("Ksi") },
+    Boundary { simpler: "rising-limb", general: "bell", limit: "pKa2 → ∞", positive: None },
+    Boundary { simpler: "falling-limb", general: "bell", limit: "pKa1 → −∞", positive: None },
+    Boundary { simpler: "ordered", general: "sequential", limit: "KmA → 0", positive: Some("KmA") },
+    Boundary { simpler: "ping-pong", general: "sequential", limit: "KiA → 0", positive: Some("KiA") },
+];
+
+fn boundary_of(simpler: &str, general: &str) -> Option<&'static Boundary> {
+    BOUNDARIES.iter().find(|b| b.simpler == simpler && b.general == general)
+}
+
+/// Marks a test of a special case at a boundary: the limit, and whether the
+/// general fit lies outside the physical range (then the test does not
+/// reject).
+fn at_boundary(mut test: FTest, general: &FitSummary) -> FTest {
+    if let Some(b) = boundary_of(&test.simpler, &test.general) {
+        test.boundary = Some(b.limit.to_string());
+        test.outside = b.positive.is_some_and(|name| value_of(general, name).is_some_and(|v| !(v > 0.0)));
+        test.rejects = test.p_value < SIGNIFICANCE && !test.outside;
+    }
+    test
+}
+
 /// Special cases nested in one general model, decided by the same rule:
 /// the inhibition mechanisms in mixed, and the two-substrate special cases
 /// in the ternary-complex law (ordered at KmA → 0, ping-pong at KiA → 0).
@@ -66,22 +111,40 @@ struct Family {
     describe: fn(&FitSummary) -> String,
     /// What to measure when the data do not decide.
     advice: &'static str,
+    /// What one special case is called in the verdict.
+    kind: &'static str,
 }
 
-const FAMILIES: [Family; 2] = [
+const FAMILIES: [Family; 3] = [
     Family {
         singles: &["competitive", "uncompetitive", "noncompetitive"],
         general: "mixed",
         describe: ratio_text,
         advice: "collect data at higher [I] and over a wider [S] range",
+        kind: "single mechanism",
     },
     Family {
         singles: &["ordered", "ping-pong"],
         general: "sequential",
         describe: sequential_text,
         advice: "measure over wider ranges of [A] and [B], reaching below KmA and KmB",
+        kind: "special case",
+    },
+    Family {
+        singles: &["rising-limb", "falling-limb"],
+        general: "bell",
+        describe: pka_text,
+        advice: "measure further into the limbs",
+        kind: "single limb",
     },
 ];
+
+fn pka_text(bell: &FitSummary) -> String {
+    match (value_of(bell, "pKa1"), value_of(bell, "pKa2")) {
+        (Some(a), Some(b)) if a.is_finite() && b.is_finite() => format!("pKa1 ≈ {a:.2}, pKa2 ≈ {b:.2}"),
+        _ => "constants without physical meaning (check the data)".to_string(),
+    }
+}
 
 fn sequential_text(sequential: &FitSummary) -> String {
     match (value_of(sequential, "KiA"), value_of(sequential, "KmA")) {
@@ -133,8 +196,21 @@ pub struct FTest {
     pub df_extra: usize,
     /// Denominator degrees of freedom (of the general model).
     pub df_general: usize,
-    /// Probability of an F this large if the simpler model is true.
+    /// Probability of an F this large if the simpler model is true (the
+    /// usual F distribution, also at a boundary; see the module
+    /// documentation).
     pub p_value: f64,
+    /// When the simpler model is the general one with a constant at the
+    /// edge of its physical range, that limit in words (`KiA → 0`);
+    /// `None` when it lies inside (an equality such as Kic = Kiu).
+    pub boundary: Option<String>,
+    /// The general fit puts that constant outside its physical range (zero
+    /// or below): the physically possible general law nearest the data is
+    /// then the simpler model itself, and the test does not reject it.
+    pub outside: bool,
+    /// Whether the verdict counts the simpler model as rejected:
+    /// `p_value` < [`SIGNIFICANCE`] and not `outside`.
+    pub rejects: bool,
 }
 
 /// The outcome of a comparison.
@@ -172,6 +248,9 @@ pub fn f_test(simpler: &FitSummary, general: &FitSummary) -> Option<FTest> {
         df_extra,
         df_general: general.dof,
         p_value,
+        boundary: None,
+        outside: false,
+        rejects: p_value < SIGNIFICANCE,
     })
 }
 
@@ -210,6 +289,19 @@ fn p_text(p: f64) -> String {
     }
 }
 
+/// One test in words: F and p, and when the general fit lies outside the
+/// physical range, what that means.
+fn test_text(t: &FTest) -> String {
+    let base = format!("F = {:.2}, {}", t.f, p_text(t.p_value));
+    match boundary_of(&t.simpler, &t.general).and_then(|b| b.positive) {
+        Some(constant) if t.outside => format!(
+            "{base}, but {} fits better only with {constant} ≤ 0, outside its physical range, so the nearest physically possible {} law is {} itself",
+            t.general, t.general, t.simpler
+        ),
+        _ => base,
+    }
+}
+
 /// Ranks `fits` (all fitted to the same observations) and decides.
 pub fn compare_fits(fits: &[FitSummary]) -> Comparison {
     let best_aicc = fits.iter().filter_map(|f| f.aicc).fold(f64::INFINITY, f64::min);
@@ -233,7 +325,7 @@ pub fn compare_fits(fits: &[FitSummary]) -> Comparison {
     let f_tests: Vec<FTest> = NESTED_PAIRS
         .iter()
         .filter_map(|(s, g)| Some((find(s)?, find(g)?)))
-        .filter_map(|(s, g)| f_test(s, g))
+        .filter_map(|(s, g)| Some(at_boundary(f_test(s, g)?, g)))
         .collect();
     let test_of = |s: &str, g: &str| f_tests.iter().find(|t| t.simpler == s && t.general == g);
 
@@ -311,16 +403,17 @@ fn decide<'a>(
                 return (Some(best.model.clone()), format!("{} (the only mechanism fitted)", best.model), one(&best.model));
             };
             let describe = family.describe;
-            // Every single mechanism is a special case of mixed: the F test
+            let kind = family.kind;
+            // Every special case is nested in the general law: the F test
             // says which the data reject.
             let standing: Vec<&FitSummary> =
-                ranked.iter().copied().filter(|f| test_of(&f.model, general_name).is_none_or(|t| t.p_value >= SIGNIFICANCE)).collect();
+                ranked.iter().copied().filter(|f| test_of(&f.model, general_name).is_none_or(|t| !t.rejects)).collect();
             if standing.is_empty() {
                 let test = test_of(&best.model, general_name).expect("a rejected single has its test");
                 return (
                     Some(general_name.to_string()),
                     format!(
-                        "{general_name}, with {} (the best single mechanism, {}, is rejected: F = {:.2}, {})",
+                        "{general_name}, with {} (the best {kind}, {}, is rejected: F = {:.2}, {})",
                         describe(mixed),
                         best.model,
                         test.f,
@@ -329,9 +422,7 @@ fn decide<'a>(
                     one(general_name),
                 );
             }
-            let not_rejected = |f: &FitSummary| {
-                test_of(&f.model, general_name).map(|t| format!("F = {:.2}, {}", t.f, p_text(t.p_value))).unwrap_or_else(|| "no test".to_string())
-            };
+            let not_rejected = |f: &FitSummary| test_of(&f.model, general_name).map_or_else(|| "no test".to_string(), test_text);
             let rejected: Vec<String> = ranked
                 .iter()
                 .filter(|f| !standing.iter().any(|s| s.model == f.model))
@@ -340,15 +431,22 @@ fn decide<'a>(
             let rejected_text =
                 if rejected.is_empty() { String::new() } else { format!("; rejected against {general_name}: {}", rejected.join(", ")) };
             let survivor = standing[0];
-            // Name a single mechanism only when it alone survives the F test
-            // and AICc agrees (its Akaike weight above mixed's). When the F test
-            // merely fails to reject while AICc prefers mixed, or several single
-            // mechanisms survive, the data do not decide.
-            if standing.len() == 1 && aicc_of(&survivor.model) < aicc_of(general_name) {
+            let limit = test_of(&survivor.model, general_name).and_then(|t| t.boundary.clone());
+            // The choice rule (module documentation): a special case that
+            // alone survives the F test is named when it lies at a boundary
+            // of the general law, and otherwise only when AICc agrees (its
+            // AICc below the general law's). When the F test merely fails to
+            // reject a special case inside the general law while AICc
+            // prefers the general law, or several special cases survive, the
+            // data do not decide.
+            if standing.len() == 1 && (limit.is_some() || aicc_of(&survivor.model) < aicc_of(general_name)) {
+                let boundary_text = limit.map_or(String::new(), |limit| {
+                    format!("; {} is {general_name} at the boundary {limit}, where the F test decides alone", survivor.model)
+                });
                 return (
                     Some(survivor.model.clone()),
                     format!(
-                        "{} ({general_name} adds nothing significant: {}; Akaike weights {} {:.2}, {general_name} {:.2}{rejected_text})",
+                        "{} ({general_name} adds nothing significant: {}{boundary_text}; Akaike weights {} {:.2}, {general_name} {:.2}{rejected_text})",
                         survivor.model,
                         not_rejected(survivor),
                         survivor.model,
@@ -374,21 +472,13 @@ fn decide<'a>(
                     describe(mixed)
                 )
             };
-            return (
-                None,
-                format!(
-                    "undecided between {}: {why}{rejected_text}; {}",
-                    listed(&c),
-                    family.advice
-                ),
-                c,
-            );
+            return (None, format!("undecided between {}: {why}{rejected_text}; {}", listed(&c), family.advice), c);
         }
     }
     if let Some(mm) = find("mm") {
         let mut significant: Vec<(&FitSummary, &FTest)> = f_tests
             .iter()
-            .filter(|t| t.simpler == "mm" && t.p_value < SIGNIFICANCE)
+            .filter(|t| t.simpler == "mm" && t.rejects)
             .filter_map(|t| Some((find(&t.general)?, t)))
             .collect();
         significant.sort_by(|a, b| a.0.aicc.unwrap_or(f64::INFINITY).total_cmp(&b.0.aicc.unwrap_or(f64::INFINITY)));
@@ -399,14 +489,16 @@ fn decide<'a>(
                 one(&general.model),
             );
         }
-        let tested: Vec<String> = f_tests
+        let tested: Vec<String> =
+            f_tests.iter().filter(|t| t.simpler == "mm").map(|t| format!("{}: {}", t.general, test_text(t))).collect();
+        // Not rejected, but named only when AICc agrees, except against a
+        // law in which Michaelis-Menten lies at a boundary (substrate
+        // inhibition, Ksi → ∞), where the F test decides alone.
+        let richer_ahead: Vec<String> = models
             .iter()
-            .filter(|t| t.simpler == "mm")
-            .map(|t| format!("{}: F = {:.2}, {}", t.general, t.f, p_text(t.p_value)))
+            .filter(|m| m.model != "mm" && boundary_of("mm", &m.model).is_none() && m.aicc.unwrap_or(f64::INFINITY) < aicc_of("mm"))
+            .map(|m| m.model.clone())
             .collect();
-        // Not rejected, but named only when AICc agrees.
-        let richer_ahead: Vec<String> =
-            models.iter().filter(|m| m.model != "mm" && m.aicc.unwrap_or(f64::INFINITY) < aicc_of("mm")).map(|m| m.model.clone()).collect();
         if !richer_ahead.is_empty() && !tested.is_empty() {
             let mut names = richer_ahead;
             names.push("mm".to_string());
