@@ -31,6 +31,12 @@
 //!   naming as in `f-alone`.
 //! - `bound-half+aicc`, `bound-naive+aicc`: the same tests with the AICc
 //!   condition of `aicc-agrees`.
+//! - `bound-naive+aicc-inside`: the `bound-naive` test; AICc must agree
+//!   only for a special case inside its general law (Kic = Kiu, nH = 1),
+//!   not at a boundary. This is the rule `compare.rs` implements (`CHOSEN`;
+//!   the study checks that `compare_fits` gives its verdict in every
+//!   trial), and the module documentation of `compare.rs` has the table of
+//!   results.
 //!
 //! Designs (invented): those of tests/bisubstrate.rs (5 × 5 grid, 5%
 //! proportional noise, relative weights, seeds 20261216–18 with the same
