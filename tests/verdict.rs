@@ -1,10 +1,12 @@
 //! How well do candidate choice rules name the model that made the data?
 //! (issue 16). A seeded simulation study, run on demand:
-//! `TURNOVER_VERDICT_STUDY=1 cargo test --release -p turnover-tests --test
-//! verdict -- --nocapture` (`TURNOVER_VERDICT_TRIALS` sets the trials per
-//! truth, default 200). Without the variable the study is skipped; the
-//! rule `compare.rs` actually uses is checked by tests/bisubstrate.rs,
-//! tests/models.rs and tests/ph.rs.
+//! `cargo test --release -p turnover-tests --test verdict -- --ignored
+//! --nocapture` (`TURNOVER_VERDICT_TRIALS` sets the trials per truth,
+//! default 200; `TURNOVER_VERDICT_AREAS` a comma-separated subset of
+//! `bisubstrate,inhibition,rates,ph`). The suite runs a short version (the
+//! first 20 trials of every truth) that checks `compare_fits` against the
+//! rule it documents; how often the rule is right is checked by
+//! tests/bisubstrate.rs, tests/models.rs and tests/ph.rs.
 //!
 //! Each trial's fits are made once by the analysis itself; every rule is
 //! then applied to the same fits, so the rules differ only in how they
@@ -98,7 +100,7 @@ fn p_value(s: &FitSummary, g: &FitSummary, rule: &str) -> f64 {
     match boundary(&s.model, &g.model) {
         None => t.p_value,
         Some(side) => {
-            if side.is_some_and(|name| !(value(g, name) > 0.0)) {
+            if side.is_some_and(|name| outside(g, name)) {
                 1.0
             } else if rule.starts_with("bound-half") {
                 t.p_value / 2.0
@@ -107,6 +109,12 @@ fn p_value(s: &FitSummary, g: &FitSummary, rule: &str) -> f64 {
             }
         }
     }
+}
+
+/// The general fit's `name` lies outside its physical range (not above 0).
+fn outside(general: &FitSummary, name: &str) -> bool {
+    let v = value(general, name);
+    v.is_nan() || v <= 0.0
 }
 
 fn aicc(fit: &FitSummary) -> f64 {
@@ -343,13 +351,7 @@ fn ph_cases(n: usize) -> Vec<Case> {
     cases
 }
 
-#[test]
-fn choice_rules_study() {
-    if std::env::var_os("TURNOVER_VERDICT_STUDY").is_none() {
-        println!("skipped: set TURNOVER_VERDICT_STUDY=1 to run the study");
-        return;
-    }
-    let n = trials();
+fn cases(n: usize) -> Vec<Case> {
     let which = std::env::var("TURNOVER_VERDICT_AREAS").unwrap_or_else(|_| "bisubstrate,inhibition,rates,ph".into());
     let mut cases = Vec::new();
     for area in which.split(',') {
@@ -361,6 +363,27 @@ fn choice_rules_study() {
             other => panic!("unknown area {other}"),
         });
     }
+    cases
+}
+
+/// `CHOSEN` applied to the same fits gives `compare_fits`'s verdict in
+/// every trial (the first 20 of every truth of the study).
+#[test]
+fn compare_fits_follows_the_documented_rule() {
+    for case in cases(20) {
+        for fits in &case.fits {
+            let c = turnover_core::compare::compare_fits(fits);
+            assert_eq!(c.preferred, decide(fits, case.singles, case.generals, CHOSEN).ok(), "{}: {}", case.label, c.verdict);
+        }
+    }
+}
+
+/// The study: every rule on every truth, printed as a table.
+#[test]
+#[ignore = "a study of 200 trials per truth (about 20 s in release); run with --ignored --nocapture"]
+fn choice_rules_study() {
+    let n = trials();
+    let mut cases = cases(n);
     println!("{n} trials per truth; right = the true model named; standing = undecided with the truth among the candidates\n");
     for case in &mut cases {
         for fits in &case.fits {
@@ -368,7 +391,7 @@ fn choice_rules_study() {
                 for g in case.generals {
                     if let Some(Some(name)) = boundary(s, g) {
                         let general = fits.iter().find(|f| f.model == *g).unwrap();
-                        if !(value(general, name) > 0.0) {
+                        if outside(general, name) {
                             *case.outside.entry(format!("{g} {name} ≤ 0")).or_default() += 1;
                         }
                     }
