@@ -350,10 +350,11 @@ fn p_text(p: f64) -> String {
 fn test_text(t: &FTest) -> String {
     let base = format!("F = {:.2}, {}", t.f, p_text(t.p_value));
     match boundary_of(&t.simpler, &t.general).and_then(|b| b.positive) {
-        Some(constant) if t.outside => format!(
+        Some(constant) if t.outside && t.p_value < SIGNIFICANCE => format!(
             "{base}, but {} fits better only with {constant} ≤ 0, outside its physical range, so the nearest physically possible {} law is {} itself",
             t.general, t.general, t.simpler
         ),
+        Some(constant) if t.outside => format!("{base}; {}'s {constant} ≤ 0, outside its physical range", t.general),
         _ => base,
     }
 }
@@ -502,8 +503,13 @@ fn decide<'a>(
                 return (
                     Some(survivor.model.clone()),
                     format!(
-                        "{} ({general_name} adds nothing significant: {}{boundary_text}; Akaike weights {} {:.2}, {general_name} {:.2}{rejected_text})",
+                        "{} ({general_name} {}: {}{boundary_text}; Akaike weights {} {:.2}, {general_name} {:.2}{rejected_text})",
                         survivor.model,
+                        if test_of(&survivor.model, general_name).is_some_and(|t| t.outside && t.p_value < SIGNIFICANCE) {
+                            "is no better within its physical range"
+                        } else {
+                            "adds nothing significant"
+                        },
                         not_rejected(survivor),
                         survivor.model,
                         weight_of(&survivor.model).unwrap_or(f64::NAN),
