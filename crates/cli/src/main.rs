@@ -911,6 +911,14 @@ fn compare(options: CompareOptions) -> Result<ExitCode, Failure> {
                 t.df_general,
                 number(Some(t.p_value))
             ));
+            if let Some(limit) = &t.boundary {
+                text.push_str(&format!(
+                    "  {} is {} at the boundary {limit}{}\n",
+                    t.simpler,
+                    t.general,
+                    if t.outside { "; the fit lies beyond it, outside the physical range, so this is no rejection" } else { "" }
+                ));
+            }
         }
         text.push_str(&format!("\nVerdict: {}\n", comparison.verdict));
         for note in &notes {

@@ -30,14 +30,15 @@
 //! asymptotic request still runs the profile to flag a side it never
 //! closes.
 //!
-//! **Comparison** ([`crate::compare`]): AICc with Akaike weights, and the
-//! extra-sum-of-squares F test of each single limb against the bell (the
-//! single limb is the bell's limit as the other pKa leaves the pH range, a
-//! boundary case, so the test is approximate). The bell is named when both
-//! limbs are rejected (p < 0.05); a single limb when it alone is not
-//! rejected and its AICc is below the bell's; otherwise the verdict is
-//! undecided and names the models still standing, and the plots show the
-//! one with the lowest AICc among them.
+//! **Comparison** ([`crate::compare`], its one choice rule): AICc with
+//! Akaike weights, and the extra-sum-of-squares F test of each single limb
+//! against the bell (the single limb is the bell's limit as the other pKa
+//! leaves the pH range, a boundary, where the usual p value is
+//! conservative). The bell is named when both limbs are rejected
+//! (p < 0.05); a single limb when it alone is not rejected (at a boundary
+//! the F test decides alone); otherwise the verdict is undecided and names
+//! the models still standing, and the plots show the one with the lowest
+//! AICc among them.
 //!
 //! **Close pKa values.** When pKa2 − pKa1 < 2 the fitted values are
 //! apparent (macroscopic) constants: they differ from the ionisation
@@ -45,7 +46,7 @@
 //! Y (at Y/(1 + 2·10^(−Δ/2)) for a gap Δ, so Y/1.2 at Δ = 2). A warning
 //! says so (the 2-unit rule is common practice, no source).
 
-use crate::compare::{compare_fits, Candidate, Comparison, SIGNIFICANCE};
+use crate::compare::{compare_fits, Comparison};
 use crate::error::Error;
 use crate::fit::{fit_model, fit_weighted, Fit, FitSettings, FitSummary};
 use crate::intervals::{apply_interval_method, apply_profile_intervals, BootstrapSettings, IntervalMethod};
@@ -54,7 +55,7 @@ use crate::plots::{Mark, PlotData, PlotKind, PlotPoint};
 use crate::rates::CAUTION;
 use crate::read::columns::{is_ph_name, is_rate_constant_name};
 use crate::read::profile::{read_profile, ProfileRoles};
-use crate::sets::{p_text, short};
+use crate::sets::short;
 use crate::solver::Termination;
 use crate::table::{shortage_reasons, InputProblem};
 use crate::weighting::Weighting;
@@ -394,8 +395,7 @@ pub fn analyse_ph(request: &PhRequest) -> Result<PhAnalysis, Error> {
         fits.push(summary);
     }
 
-    let mut comparison = compare_fits(&fits);
-    decide(&mut comparison, &fits, request.weighting);
+    let comparison = compare_fits(&fits);
     let drawn_name = comparison.preferred.clone().unwrap_or_else(|| {
         comparison
             .models
@@ -452,69 +452,6 @@ pub fn analyse_ph(request: &PhRequest) -> Result<PhAnalysis, Error> {
         plots,
         caution: CAUTION.to_string(),
     })
-}
-
-/// The choice between the limbs and the bell (see the module
-/// documentation); replaces `preferred`, `candidates` and `verdict`.
-fn decide(comparison: &mut Comparison, fits: &[FitSummary], weighting: Weighting) {
-    let weight_of = |name: &str| comparison.models.iter().find(|m| m.model == name).and_then(|m| m.akaike_weight);
-    let aicc_of = |name: &str| fits.iter().find(|f| f.model == name).and_then(|f| f.aicc).unwrap_or(f64::INFINITY);
-    let test = |name: &str| comparison.f_tests.iter().find(|t| t.simpler == name && t.general == "bell");
-    let singles: Vec<&str> = fits.iter().map(|f| f.model.as_str()).filter(|m| *m != "bell").collect();
-    let described = |name: &str| match test(name) {
-        Some(t) => format!("{name}: F({}, {}) = {}, {}", t.df_extra, t.df_general, short(t.f), p_text(t.p_value)),
-        None => format!("{name}: no test"),
-    };
-    let standing: Vec<&str> = singles.iter().copied().filter(|m| test(m).is_none_or(|t| t.p_value >= SIGNIFICANCE)).collect();
-    let candidate = |name: &str| Candidate { model: name.to_string(), akaike_weight: weight_of(name) };
-    let (preferred, verdict, candidates): (Option<String>, String, Vec<Candidate>) = if standing.is_empty() {
-        (
-            Some("bell".into()),
-            format!(
-                "bell (two ionisations): each single limb is rejected against it ({})",
-                singles.iter().map(|m| described(m)).collect::<Vec<_>>().join("; ")
-            ),
-            vec![candidate("bell")],
-        )
-    } else if standing.len() == 1 && aicc_of(standing[0]) < aicc_of("bell") {
-        let name = standing[0];
-        (
-            Some(name.to_string()),
-            format!(
-                "{name} (one ionisation; the bell adds nothing significant: {}; Akaike weights {name} {}, bell {})",
-                described(name),
-                weight_of(name).map_or("—".into(), |w| format!("{w:.2}")),
-                weight_of("bell").map_or("—".into(), |w| format!("{w:.2}"))
-            ),
-            vec![candidate(name)],
-        )
-    } else {
-        let mut names: Vec<&str> = standing.clone();
-        names.push("bell");
-        let mut c: Vec<Candidate> = names.iter().map(|n| candidate(n)).collect();
-        c.sort_by(|a, b| b.akaike_weight.unwrap_or(0.0).total_cmp(&a.akaike_weight.unwrap_or(0.0)));
-        let listed = c
-            .iter()
-            .map(|c| format!("{} (Akaike weight {})", c.model, c.akaike_weight.map_or("—".into(), |w| format!("{w:.2}"))))
-            .collect::<Vec<_>>()
-            .join(", ");
-        (
-            None,
-            format!(
-                "undecided between {listed}: the F test against the bell rejects {} ({}); measure further into the limbs",
-                if standing.len() == singles.len() { "neither limb".to_string() } else { format!("only {}", singles.iter().filter(|m| !standing.contains(m)).copied().collect::<Vec<_>>().join(", ")) },
-                singles.iter().map(|m| described(m)).collect::<Vec<_>>().join("; ")
-            ),
-            c,
-        )
-    };
-    comparison.preferred = preferred;
-    comparison.candidates = candidates;
-    comparison.verdict = if weighting.from_model() {
-        format!("{verdict} [every model fitted with the same {} weights, from the bell's curve, so the sums of squares compare]", weighting.name())
-    } else {
-        verdict
-    };
 }
 
 /// The two plots of the drawn model.
