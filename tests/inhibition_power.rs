@@ -20,7 +20,6 @@
 //! ```
 
 use turnover_core::inhibition::{analyse_inhibition, InhibitionRequest};
-use turnover_core::model::Model;
 use turnover_core::models::{model_with_options, ModelOptions};
 use turnover_core::random::SplitMix64;
 use turnover_core::weighting::Weighting;
