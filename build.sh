@@ -95,7 +95,7 @@ ensure_chromium() {
 }
 
 ensure_python_packages() {
-  if ! python3 -c 'import numpy, scipy' 2>/dev/null; then
+  if ! python3 -c 'import numpy, scipy, statsmodels' 2>/dev/null; then
     say "installing the SciPy cross-check's packages"
     python3 -m pip install --quiet -r tests/scipy/requirements.txt
   fi
@@ -144,6 +144,7 @@ run_tests() {
   TURNOVER_BIN="$ROOT/target/release/turnover" python3 tests/scipy/profiles_crosscheck.py
   TURNOVER_BIN="$ROOT/target/release/turnover" python3 tests/scipy/bisubstrate_crosscheck.py
   TURNOVER_BIN="$ROOT/target/release/turnover" python3 tests/scipy/design_crosscheck.py
+  TURNOVER_BIN="$ROOT/target/release/turnover" python3 tests/scipy/bias_study.py --sets 1000
   say "browser tests (headless Debian chromium, page opened from file://)"
   ensure_chromium
   ensure_node_packages

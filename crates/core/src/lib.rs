@@ -20,6 +20,8 @@
 //!   serialisable [`fit::FitSummary`].
 //! - [`plots`]: the data behind the direct, residual and linearised plots.
 //! - [`weighting`]: uniform, relative, Poisson-like and sd weights.
+//! - [`bias`]: the small-sample bias of a nonlinear estimate (Box 1971)
+//!   and the estimate with it removed.
 //! - [`intervals`]: profile-likelihood and seeded bootstrap intervals.
 //! - [`diagnostics`]: runs test, lack of fit, leverage, studentised residuals.
 //! - [`robust`]: the direct linear plot's median estimates.
@@ -73,6 +75,7 @@
 #![deny(missing_docs)]
 
 pub mod batch;
+pub mod bias;
 pub mod bisubstrate;
 pub mod compare;
 pub mod decode;
