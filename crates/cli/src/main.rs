@@ -537,7 +537,7 @@ pub(crate) fn read_table(path: &str, sheet: Option<&str>) -> Result<String, Fail
         return read_input(path);
     }
     let bytes = std::fs::read(path).map_err(|e| Failure::Input(format!("cannot read '{path}': {e}")))?;
-    let names = turnover_core::read::spreadsheet::sheet_names(&bytes).map_err(|e| Failure::Input(format!("{path}: {}", e.message)))?;
+    let names = turnover_core::read::sheets::sheet_names(&bytes).map_err(|e| Failure::Input(format!("{path}: {}", e.message)))?;
     let name = match sheet {
         Some(name) => name.to_string(),
         None if names.len() == 1 => names[0].clone(),
@@ -549,7 +549,7 @@ pub(crate) fn read_table(path: &str, sheet: Option<&str>) -> Result<String, Fail
             )))
         }
     };
-    let read = turnover_core::read::spreadsheet::sheet_text(&bytes, &name).map_err(|e| Failure::Input(format!("{path}: {}", e.message)))?;
+    let read = turnover_core::read::sheets::sheet_text(&bytes, &name).map_err(|e| Failure::Input(format!("{path}: {}", e.message)))?;
     for note in &read.notes {
         warn(&format!("turnover: {path}: note: {note}"));
     }
