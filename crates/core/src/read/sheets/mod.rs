@@ -282,14 +282,16 @@ fn text_cell(text: &str) -> String {
 
 /// Seconds as `h:mm:ss` (with the fraction of a second when there is one).
 fn clock(seconds: f64) -> String {
-    let whole = seconds.floor();
-    let fraction = seconds - whole;
-    let s = whole as u64;
-    let base = format!("{}:{:02}:{:02}", s / 3600, s / 60 % 60, s % 60);
-    if fraction.abs() < 1e-6 {
+    // Rounded to the millisecond first, so that 30:04:59.9999999 is
+    // 30:05:00 (the earlier rule wrote "30:04:591." for it).
+    let sign = if seconds < 0.0 { "-" } else { "" };
+    let millis = (seconds.abs() * 1000.0).round() as u64;
+    let (s, ms) = (millis / 1000, millis % 1000);
+    let base = format!("{sign}{}:{:02}:{:02}", s / 3600, s / 60 % 60, s % 60);
+    if ms == 0 {
         base
     } else {
-        format!("{base}{}", format!("{:.3}", fraction).trim_start_matches('0').trim_end_matches('0'))
+        format!("{base}.{}", format!("{ms:03}").trim_end_matches('0'))
     }
 }
 
@@ -403,6 +405,7 @@ mod tests {
         assert_eq!((column_letters(0), column_letters(25), column_letters(26), column_letters(27)), ("A".into(), "Z".into(), "AA".into(), "AB".into()));
         assert_eq!(column_letters(16_383), "XFD");
         assert_eq!((clock(0.0), clock(90.0), clock(3725.5)), ("0:00:00".into(), "0:01:30".into(), "1:02:05.5".into()));
+        assert_eq!((clock(108_299.999_999_9), clock(0.25), clock(-90.0)), ("30:05:00".into(), "0:00:00.25".into(), "-0:01:30".into()));
         assert_eq!(text_cell("a\tb"), "\"a\tb\"");
         let sheet = write_sheet(
             "S",
