@@ -520,7 +520,10 @@ fn conversion_request(
 
 /// Reads a file (or standard input for `-`) through the core's one
 /// decoding rule; a note about the encoding goes to standard error.
-/// Whether `path` names a spreadsheet workbook by its extension.
+/// Whether `path` names a spreadsheet workbook by its extension. `.xls`
+/// and `.xlsb` are listed so that the core's reader refuses them with a
+/// sentence (save as .xlsx, .ods or .csv) instead of their bytes being
+/// read as text.
 fn is_workbook(path: &str) -> bool {
     let lower = path.to_ascii_lowercase();
     [".xlsx", ".xlsm", ".ods", ".xls", ".xlsb"].iter().any(|e| lower.ends_with(e))

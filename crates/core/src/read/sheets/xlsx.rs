@@ -9,7 +9,6 @@ use super::xml::{decode, decode_into, damaged, local, Attributes, Event, Scanner
 use super::zip::Archive;
 use super::{shown_by_builtin, shown_by_format, Placed, Shown, Value, MAX_COLUMNS, MAX_ROWS};
 use crate::error::Error;
-use std::collections::HashMap;
 
 /// What is read once for the whole workbook.
 pub struct Workbook {
@@ -43,7 +42,8 @@ impl Workbook {
                 let attributes = Attributes::of(attributes);
                 let sheet_name = decode(attributes.get("name").ok_or_else(|| damaged(WORKBOOK, "a sheet without a name"))?, WORKBOOK)?;
                 let id = attributes.get_local("id").ok_or_else(|| damaged(WORKBOOK, "a sheet without its part"))?;
-                let target = relationships.get(&decode(id, WORKBOOK)?).ok_or_else(|| damaged(WORKBOOK, &format!("sheet '{sheet_name}' has no part")))?;
+                let id = decode(id, WORKBOOK)?;
+                let target = relationships.iter().rev().find(|(i, _)| *i == id).map(|(_, t)| t).ok_or_else(|| damaged(WORKBOOK, &format!("sheet '{sheet_name}' has no part")))?;
                 let path = match target.strip_prefix('/') {
                     Some(absolute) => absolute.to_string(),
                     None if target.starts_with("xl/") => target.clone(),
@@ -280,7 +280,8 @@ fn read_shared_strings(bytes: &[u8]) -> Result<Vec<String>, Error> {
 fn read_styles(bytes: &[u8]) -> Result<Vec<Shown>, Error> {
     const PART: &str = "xl/styles.xml";
     let mut scanner = Scanner::new(bytes, PART)?;
-    let mut custom: HashMap<String, Shown> = HashMap::new();
+    // Custom formats by id (a list: a workbook has a handful).
+    let mut custom: Vec<(String, Shown)> = Vec::new();
     let mut styles = Vec::new();
     let mut in_cell_formats = false;
     while let Some(event) = scanner.next()? {
@@ -289,7 +290,7 @@ fn read_styles(bytes: &[u8]) -> Result<Vec<Shown>, Error> {
                 "numFmt" => {
                     let attributes = Attributes::of(attributes);
                     if let (Some(id), Some(code)) = (attributes.get("numFmtId"), attributes.get("formatCode")) {
-                        custom.insert(id.trim().to_string(), shown_by_format(&decode(code, PART)?));
+                        custom.push((id.trim().to_string(), shown_by_format(&decode(code, PART)?)));
                     }
                 }
                 "cellXfs" if !empty => in_cell_formats = true,
@@ -297,7 +298,7 @@ fn read_styles(bytes: &[u8]) -> Result<Vec<Shown>, Error> {
                     let id = Attributes::of(attributes).get("numFmtId").map(str::trim);
                     styles.push(match id {
                         None => Shown::Number,
-                        Some(id) => custom.get(id).copied().unwrap_or_else(|| id.parse().map_or(Shown::Number, shown_by_builtin)),
+                        Some(id) => custom.iter().rev().find(|(c, _)| c == id).map(|(_, shown)| *shown).unwrap_or_else(|| id.parse().map_or(Shown::Number, shown_by_builtin)),
                     });
                 }
                 _ => {}
@@ -309,15 +310,16 @@ fn read_styles(bytes: &[u8]) -> Result<Vec<Shown>, Error> {
     Ok(styles)
 }
 
-fn read_relationships(bytes: &[u8]) -> Result<HashMap<String, String>, Error> {
+/// The workbook's relationships, `(Id, Target)`.
+fn read_relationships(bytes: &[u8]) -> Result<Vec<(String, String)>, Error> {
     let mut scanner = Scanner::new(bytes, RELATIONSHIPS)?;
-    let mut relationships = HashMap::new();
+    let mut relationships = Vec::new();
     while let Some(event) = scanner.next()? {
         if let Event::Start { name, attributes, .. } = event {
             if local(name) == "Relationship" {
                 let attributes = Attributes::of(attributes);
                 if let (Some(id), Some(target)) = (attributes.get("Id"), attributes.get("Target")) {
-                    relationships.insert(decode(id, RELATIONSHIPS)?, decode(target, RELATIONSHIPS)?);
+                    relationships.push((decode(id, RELATIONSHIPS)?, decode(target, RELATIONSHIPS)?));
                 }
             }
         }
