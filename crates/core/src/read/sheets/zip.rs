@@ -206,24 +206,19 @@ fn read_zip64_extra(mut extra: &[u8], size: &mut u64, compressed: &mut u64, loca
 }
 
 /// The CRC-32 of zip (polynomial 0xEDB88320, reflected), by a table of
-/// 256 entries computed at compile time.
+/// 256 entries made at each call (2,048 steps, nothing against inflating
+/// a part; a table kept in the binary would add a kilobyte of
+/// incompressible data to the page).
 pub fn crc32(bytes: &[u8]) -> u32 {
-    const TABLE: [u32; 256] = {
-        let mut table = [0u32; 256];
-        let mut n = 0;
-        while n < 256 {
-            let mut c = n as u32;
-            let mut k = 0;
-            while k < 8 {
-                c = if c & 1 != 0 { 0xEDB8_8320 ^ (c >> 1) } else { c >> 1 };
-                k += 1;
-            }
-            table[n] = c;
-            n += 1;
+    let mut table = [0u32; 256];
+    for (n, entry) in table.iter_mut().enumerate() {
+        let mut c = n as u32;
+        for _ in 0..8 {
+            c = if c & 1 != 0 { 0xEDB8_8320 ^ (c >> 1) } else { c >> 1 };
         }
-        table
-    };
-    !bytes.iter().fold(!0u32, |c, &b| TABLE[((c ^ u32::from(b)) & 0xFF) as usize] ^ (c >> 8))
+        *entry = c;
+    }
+    !bytes.iter().fold(!0u32, |c, &b| table[((c ^ u32::from(b)) & 0xFF) as usize] ^ (c >> 8))
 }
 
 #[cfg(test)]
