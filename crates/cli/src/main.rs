@@ -525,7 +525,10 @@ fn conversion_request(
 
 /// Reads a file (or standard input for `-`) through the core's one
 /// decoding rule; a note about the encoding goes to standard error.
-/// Whether `path` names a spreadsheet workbook by its extension.
+/// Whether `path` names a spreadsheet workbook by its extension. `.xls`
+/// and `.xlsb` are listed so that the core's reader refuses them with a
+/// sentence (save as .xlsx, .ods or .csv) instead of their bytes being
+/// read as text.
 fn is_workbook(path: &str) -> bool {
     let lower = path.to_ascii_lowercase();
     [".xlsx", ".xlsm", ".ods", ".xls", ".xlsb"].iter().any(|e| lower.ends_with(e))
@@ -542,7 +545,7 @@ pub(crate) fn read_table(path: &str, sheet: Option<&str>) -> Result<String, Fail
         return read_input(path);
     }
     let bytes = std::fs::read(path).map_err(|e| Failure::Input(format!("cannot read '{path}': {e}")))?;
-    let names = turnover_core::read::spreadsheet::sheet_names(&bytes).map_err(|e| Failure::Input(format!("{path}: {}", e.message)))?;
+    let names = turnover_core::read::sheets::sheet_names(&bytes).map_err(|e| Failure::Input(format!("{path}: {}", e.message)))?;
     let name = match sheet {
         Some(name) => name.to_string(),
         None if names.len() == 1 => names[0].clone(),
@@ -554,7 +557,7 @@ pub(crate) fn read_table(path: &str, sheet: Option<&str>) -> Result<String, Fail
             )))
         }
     };
-    let read = turnover_core::read::spreadsheet::sheet_text(&bytes, &name).map_err(|e| Failure::Input(format!("{path}: {}", e.message)))?;
+    let read = turnover_core::read::sheets::sheet_text(&bytes, &name).map_err(|e| Failure::Input(format!("{path}: {}", e.message)))?;
     for note in &read.notes {
         warn(&format!("turnover: {path}: note: {note}"));
     }

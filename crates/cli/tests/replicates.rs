@@ -178,3 +178,18 @@ fn workbooks_are_read_by_sheet() {
     assert_eq!(out.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&out.stderr).contains("has 2 sheets ('Notes', 'Rates'); choose one with --sheet NAME"), "{}", String::from_utf8_lossy(&out.stderr));
 }
+
+/// An Excel 97-2003 workbook (.xls) is refused with the sentence saying
+/// how to save it, not read as text (issue 10). The file is the compound
+/// file's signature followed by zeros: enough to be recognised.
+#[test]
+fn old_excel_workbooks_are_refused_with_a_sentence() {
+    let mut bytes = vec![0xD0, 0xCF, 0x11, 0xE0, 0xA1, 0xB1, 0x1A, 0xE1];
+    bytes.extend([0u8; 504]);
+    let path = PathBuf::from(env!("CARGO_TARGET_TMPDIR")).join("old.xls");
+    std::fs::write(&path, bytes).unwrap();
+    let out = Command::new(env!("CARGO_BIN_EXE_turnover")).args(["fit", path.to_str().unwrap()]).output().unwrap();
+    assert_eq!(out.status.code(), Some(2));
+    let stderr = String::from_utf8_lossy(&out.stderr);
+    assert!(stderr.contains("an Excel 97-2003 workbook (.xls), which Turnover does not read; open it in the spreadsheet program and save it as .xlsx or .ods"), "{stderr}");
+}

@@ -23,6 +23,7 @@ mod format;
 mod inhibition;
 mod profiles;
 mod sets;
+mod sheets;
 mod traces;
 
 use plotters::prelude::*;
@@ -40,6 +41,7 @@ pub use figures::TraceFigures;
 pub use inhibition::{is_inhibition_table, InhibitionBench};
 pub use profiles::{ph_profile_json, temperature_profile_json};
 pub use sets::{compare_sets_json, inactivation_json, SetsBench};
+pub use sheets::{sheet_names_js, sheet_read_js, sheet_text_js};
 pub use traces::TraceBench;
 
 /// Holds the most recent analysis for drawing.

@@ -9,9 +9,9 @@
 //!   column (a rate or rate constant) by name, for the profile analyses.
 //! - [`layout`]: a plate layout as a list or as plate-map grids, read to
 //!   the same placed cells.
-//! - `spreadsheet`: `.xlsx` and `.ods` bytes to sheet names and a
-//!   sheet as table text (calamine; feature `spreadsheets`, which the
-//!   command line turns on and the page leaves off).
+//! - [`sheets`]: `.xlsx` and `.ods` bytes to sheet names and a sheet as
+//!   table text (its own zip, inflate and XML reading, small enough for
+//!   the page).
 //! - [`replicates`]: a concentration column followed by replicate
 //!   measurement columns (`rep 1`, `v1`, `replicate A`, repeated headings,
 //!   or unlabelled numbers), and the per-concentration mean, SD, SEM and
@@ -22,5 +22,4 @@ pub mod columns;
 pub mod layout;
 pub mod profile;
 pub mod replicates;
-#[cfg(feature = "spreadsheets")]
-pub mod spreadsheet;
+pub mod sheets;
