@@ -1407,23 +1407,59 @@ function wireBar() {
 
 let rates = null;
 
-/** Reads a dropped or opened file with the core's one decoding rule (the
- *  command line's too): UTF-8, UTF-16 with a byte-order mark, else
- *  Windows-1252; how it was decoded is said when it was not plain UTF-8. */
-async function readFile(file) {
+const SPREADSHEET = /\.(xlsx|xlsm|ods|xls|xlsb)$/i;
+
+/** A file's table as text, by the core's rules: a spreadsheet (.xlsx,
+ *  .ods) through its one sheet reader (the command line's `--sheet`
+ *  reader), the first sheet that holds anything, with the others named;
+ *  any other file by the one decoding rule (UTF-8, UTF-16 with a
+ *  byte-order mark, else Windows-1252). `{text, note}` or `{error}`; the
+ *  note says everything not read as plain text. */
+async function tableFromFile(file) {
   let bytes;
   try {
     bytes = new Uint8Array(await file.arrayBuffer());
   } catch {
-    showProblems([], `Could not read the file ${file.name}.`);
+    return { error: `Could not read the file ${file.name}.` };
+  }
+  if (!SPREADSHEET.test(file.name)) {
+    const note = wasm_bindgen.decodeFileNote(bytes);
+    return { text: wasm_bindgen.decodeFileText(bytes), note: note ? `${file.name}: ${note}.` : '' };
+  }
+  try {
+    const names = wasm_bindgen.sheetNames(bytes);
+    let chosen = null;
+    for (const name of names) {
+      const sheet = wasm_bindgen.sheetRead(bytes, name);
+      if (sheet.text.trim()) {
+        chosen = { name, ...sheet };
+        break;
+      }
+    }
+    if (!chosen) return { error: `${file.name}: every sheet is empty.` };
+    const others = names.filter((n) => n !== chosen.name);
+    const parts = [`${file.name}: sheet “${chosen.name}” read (line N of the box is row N of the sheet)`];
+    if (others.length) parts.push(`the other sheet${others.length === 1 ? '' : 's'} (${others.map((n) => `“${n}”`).join(', ')}) not read: save the one you want first, or open it alone`);
+    parts.push(...chosen.notes);
+    return { text: chosen.text, note: `${parts.join('; ')}.` };
+  } catch (error) {
+    if (coreFailed(error)) return { error: '' };
+    return { error: `${file.name}: ${error?.message ?? error}` };
+  }
+}
+
+/** Reads a dropped or opened file into the rate section (or the section
+ *  its table belongs to). */
+async function readFile(file) {
+  const read = await tableFromFile(file);
+  if (read.error !== undefined) {
+    if (read.error) showProblems([], read.error);
     return;
   }
-  const text = wasm_bindgen.decodeFileText(bytes);
-  const note = wasm_bindgen.decodeFileNote(bytes);
-  tableEntered('rates', text, 'rates-move-note');
-  if (note) {
+  tableEntered('rates', read.text, 'rates-move-note');
+  if (read.note) {
     $('rates-move-note').hidden = false;
-    $('rates-move-note').textContent = `${file.name}: ${note}. ${$('rates-move-note').textContent}`.trim();
+    $('rates-move-note').textContent = `${read.note} ${$('rates-move-note').textContent}`.trim();
   }
 }
 
@@ -1620,6 +1656,7 @@ Object.assign(window.turnover, {
     withUnit,
     typedNumber,
     readTyped,
+    tableFromFile,
     fitAsText,
     cell(tag, text, attributes = {}) {
       const node = document.createElement(tag);

@@ -397,20 +397,12 @@ $('further-file').addEventListener('change', async (event) => {
   event.target.value = '';
   if (!file) return;
   const note = $('further-file-note');
-  let bytes;
-  try {
-    bytes = new Uint8Array(await file.arrayBuffer());
-  } catch {
-    note.hidden = false;
-    note.textContent = `Could not read the file ${file.name}.`;
-    return;
-  }
+  const read = await page.ui.tableFromFile(file);
+  note.hidden = !(read.error || read.note);
+  note.textContent = read.error ?? read.note ?? '';
+  if (read.error !== undefined) return;
   const kind = page.doc().further.kind;
-  page.dispatch({ type: 'set table', path: `${kind}.text`, value: wasm_bindgen.decodeFileText(bytes) });
-  // How the bytes were read is said whenever they were not plain UTF-8.
-  const how = wasm_bindgen.decodeFileNote(bytes);
-  note.hidden = !how;
-  note.textContent = how ? `${file.name}: ${how}.` : '';
+  page.dispatch({ type: 'set table', path: `${kind}.text`, value: read.text });
 });
 
 page.onCoreRestart(() => { drawnPlots = []; });

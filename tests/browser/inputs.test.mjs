@@ -6,10 +6,14 @@
 
 import { test, before, after } from 'node:test';
 import assert from 'node:assert/strict';
-import { writeFileSync } from 'node:fs';
-import { join } from 'node:path';
+import { writeFileSync, existsSync } from 'node:fs';
+import { join, resolve, dirname } from 'node:path';
+import { fileURLToPath } from 'node:url';
+import { execFileSync } from 'node:child_process';
 
 import { launch, pageUrl, shotDir } from './harness.mjs';
+
+const here = dirname(fileURLToPath(import.meta.url));
 
 let browser;
 
@@ -266,6 +270,31 @@ test('an export with two kinetic tables offers the choice; the second table read
   assert.equal(await page.isHidden('#replicates-box'), false);
   assert.deepEqual(rows.map(([s]) => s), [2, 5, 10, 20, 50]);
   assert.ok(Math.abs(rows[0][1] - (0.90 + 0.95 + 0.88) / 3) < 1e-12);
+  assert.deepEqual(errors, []);
+  await page.close();
+});
+
+test('a spreadsheet (.xlsx) opens in the page through the core’s sheet reader: the same constants as the command line’s --sheet, the other sheet named', { timeout: 60_000 }, async () => {
+  const { page, errors } = await open();
+  const fixture = join(here, 'fixtures', 'rates.xlsx');
+  await page.setInputFiles('#file-input', fixture);
+  await page.waitForFunction(() => document.querySelector('#data-input').value.startsWith('[S] (µM)'));
+  const shown = await constants(page);
+  assert.match(await page.textContent('#rates-move-note'), /sheet “rates” read.*“notes”.* not read/);
+  // The same table typed in gives the same constants, bit for bit.
+  await page.fill('#data-input', TABLE);
+  assert.deepEqual(await constants(page), shown);
+  const bin = resolve(process.env.TURNOVER_BIN ?? join(here, '..', '..', 'target', 'release', 'turnover'));
+  if (existsSync(bin)) {
+    const cli = JSON.parse(execFileSync(bin, ['fit', fixture, '--sheet', 'rates', '--json']).toString());
+    // The page's WebAssembly and the host's libm may differ in the last bit.
+    for (const p of cli.parameters.filter((q) => q.name in shown)) assert.ok(Math.abs(Number(shown[p.name]) - p.value) <= 1e-9 * Math.abs(p.value), `${p.name}`);
+  }
+  // A file that is not a workbook Turnover reads is refused with the reason.
+  const fake = join(shotDir, 'not-a-workbook.xlsx');
+  writeFileSync(fake, 'plain text, not a zip');
+  await page.setInputFiles('#file-input', fake);
+  await page.waitForFunction(() => /not-a-workbook\.xlsx/.test(document.querySelector('#input-problems').textContent));
   assert.deepEqual(errors, []);
   await page.close();
 });
