@@ -184,7 +184,7 @@ function comparisonTable(c) {
   return {
     head: ['Model', 'RSS', 'dof', 'AICc', 'ΔAICc', 'Akaike weight', 'F test against the general model'],
     rows: c.models.map((m) => [m.model, num(m.rss), String(m.dof), num(m.aicc), num(m.delta_aicc), m.akaike_weight === null ? '—' : m.akaike_weight.toFixed(3),
-      tests.has(m.model) ? fText(tests.get(m.model)) : '—']),
+      tests.has(m.model) ? `${fText(tests.get(m.model))}${tests.get(m.model).outside ? ' (the general law outside its physical range: not a rejection)' : ''}` : '—']),
   };
 }
 

@@ -60,7 +60,7 @@ function showRanking(result) {
       cell('td', format(m.aicc, 5)),
       cell('td', m.delta_aicc === null ? '—' : m.delta_aicc.toFixed(1)),
       cell('td', m.akaike_weight === null ? '—' : m.akaike_weight.toFixed(3)),
-      cell('td', test ? `F = ${format(test.f, 3)}, p = ${format(test.p_value, 2)}` : '—'),
+      cell('td', test ? `F = ${format(test.f, 3)}, p = ${format(test.p_value, 2)}${test.outside ? ' (mixed outside its physical range: not a rejection)' : ''}` : '—'),
     );
     body.append(row);
   }
