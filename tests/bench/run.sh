@@ -7,3 +7,6 @@ ROOT="$(cd "$(dirname "$0")/../.." && pwd)"
 cd "$ROOT"
 cargo build --release -p turnover-cli
 TURNOVER_BIN="$ROOT/target/release/turnover" python3 tests/bench/bench.py
+# The page: start-up, a 100,000-row table, the WebAssembly against native.
+"$ROOT/build.sh" >/dev/null
+node tests/bench/page.mjs "$ROOT/dist/turnover.html" "$ROOT/target/release/turnover"
