@@ -332,6 +332,35 @@ $('design-figure').addEventListener('click', () => {
   if (plot) page.ui.exportFigure('design-precision', (options) => wasm_bindgen.plotFigureSvg(JSON.stringify(plot), options));
 });
 $('load-design-demo').addEventListener('click', () => page.loadDemo('design'));
+// The noise of the rate section's current fit: its residual SD, in rate
+// units with equal weights, or as a share of the rate with weights 1/v²
+// (the fit's sigma is then the relative SD). Other weightings are refused
+// with the reason rather than converted.
+$('design-noise-from-fit').addEventListener('click', () => {
+  const result = page.lastResult();
+  const note = $('design-noise-note');
+  if (!result) {
+    note.textContent = 'The rate section has no fit to take the noise from.';
+    return;
+  }
+  const fit = result.fit;
+  const sigma = fit.sigma;
+  if (!(sigma > 0)) {
+    note.textContent = 'The rate fit has no residual SD to take.';
+    return;
+  }
+  if (fit.weighting === 'uniform') {
+    page.dispatch({ type: 'set field', path: 'design.noise_kind', value: 'constant' });
+    page.dispatch({ type: 'set field', path: 'design.noise', value: String(Number(sigma.toPrecision(3))) });
+    note.textContent = `From the rate fit (equal weights, n = ${fit.n}): constant noise, SD ${sigma.toPrecision(3)} in its rate unit.`;
+  } else if (fit.weighting === 'relative') {
+    page.dispatch({ type: 'set field', path: 'design.noise_kind', value: 'proportional' });
+    page.dispatch({ type: 'set field', path: 'design.noise', value: String(Number((100 * sigma).toPrecision(3))) });
+    note.textContent = `From the rate fit (weights 1/v², n = ${fit.n}): proportional noise, ${(100 * sigma).toPrecision(3)} % of the rate.`;
+  } else {
+    note.textContent = `The rate fit is weighted ${fit.weighting}; the plan's noise models are constant or proportional, so choose equal or 1/v² weights there first.`;
+  }
+});
 page.addDemo('design', {
   name: 'planning a Km measurement',
   build: (doc) => ({

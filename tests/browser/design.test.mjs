@@ -104,3 +104,17 @@ test('planning: the form is the document; an unreadable guess is said; an inhibi
   assert.deepEqual(errors, []);
   await page.close();
 });
+
+test('planning: the noise can be taken from the rate section’s current fit', { timeout: 60_000 }, async () => {
+  const { page, errors } = await openPage();
+  // The start demo has a rate fit with equal weights: its residual SD becomes constant noise.
+  const fit = await page.evaluate(() => window.turnover.lastResult().fit);
+  await page.click('#design-noise-from-fit');
+  const d = await page.evaluate(() => window.turnover.doc().design);
+  assert.equal(d.noise_kind, fit.weighting === 'relative' ? 'proportional' : 'constant');
+  const expected = fit.weighting === 'relative' ? 100 * fit.sigma : fit.sigma;
+  assert.ok(Math.abs(Number(d.noise) / expected - 1) < 5e-3, `${d.noise} vs ${expected}`);
+  assert.match(await page.textContent('#design-noise-note'), /From the rate fit/);
+  assert.deepEqual(errors, []);
+  await page.close();
+});
