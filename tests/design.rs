@@ -96,7 +96,7 @@ fn fisher_prediction_agrees_for_the_other_single_series_models() {
         ),
         (
             "ic50",
-            vec![guess("bottom", 0.0), guess("top", 100.0), guess("IC50", 0.3), guess("hill_slope", 1.0)],
+            vec![guess("floor", 0.0), guess("ceiling", 100.0), guess("IC50", 0.3), guess("steepness", 1.0)],
             Noise { kind: NoiseKind::Constant, level: 2.0 },
             10,
         ),
@@ -202,7 +202,7 @@ fn plate_maps_read_back_through_the_layout_reader() {
     };
     let ic50 = DesignRequest {
         model: "ic50".into(),
-        guesses: vec![guess("bottom", 0.0), guess("top", 100.0), guess("IC50", 0.3), guess("hill_slope", 1.0)],
+        guesses: vec![guess("floor", 0.0), guess("ceiling", 100.0), guess("IC50", 0.3), guess("steepness", 1.0)],
         noise: Noise { kind: NoiseKind::Constant, level: 3.0 },
         points: 10,
         simulations: 0,

@@ -250,7 +250,7 @@ fn inhibitor_series_tables_are_read_with_units() {
     let a = analyse_dose(&DoseRequest { text: text.into(), model: "ic50".into(), fixed_top: Some(100.0), ..Default::default() }).unwrap();
     assert!(a.fit.converged);
     let names: Vec<&str> = a.fit.parameters.iter().map(|p| p.name.as_str()).collect();
-    assert_eq!(names, ["bottom", "IC50", "hill_slope"]);
+    assert_eq!(names, ["floor", "IC50", "steepness"]);
     assert_eq!(a.fit.parameters[1].unit.as_deref(), Some("nM"));
     assert!(a.plots[0].log_x && a.plots[0].marks.len() == 1);
 }

@@ -105,8 +105,8 @@ fn two_compounds_differ_in_ic50_with_a_shared_slope() {
         names
             .iter()
             .map(|n| match *n {
-                "bottom" => 0.0,
-                "top" => 100.0,
+                "floor" => 0.0,
+                "ceiling" => 100.0,
                 "IC50" => ic50,
                 _ => 1.0,
             })
@@ -131,7 +131,7 @@ fn two_compounds_differ_in_ic50_with_a_shared_slope() {
                 .unwrap();
         let ic50 = constant(&a, "IC50");
         found += ic50.differs as usize;
-        slope_false += constant(&a, "hill_slope").differs as usize;
+        slope_false += constant(&a, "steepness").differs as usize;
         ratios.push(ic50.ratio[0].value.unwrap());
     }
     ratios.sort_by(|a, b| a.partial_cmp(b).unwrap());

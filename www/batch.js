@@ -55,7 +55,7 @@ const view = { sort: null, descending: false, filter: 'all', selected: null };
 function request(doc) {
   const b = doc.batch;
   const out = { text: b.text, group_by: b.group_by.trim(), model: b.model, normalise: b.normalise, fixed_top: null, fixed_bottom: null, weighting: b.weighting };
-  for (const [fixed, text, key, what] of [[b.fix_top, b.top, 'fixed_top', 'top'], [b.fix_bottom, b.bottom, 'fixed_bottom', 'bottom']]) {
+  for (const [fixed, text, key, what] of [[b.fix_top, b.top, 'fixed_top', 'ceiling'], [b.fix_bottom, b.bottom, 'fixed_bottom', 'floor']]) {
     if (!fixed) continue;
     const { value, problem } = page.ui.readTyped(text);
     if (problem || value === null) return { problem: `Fixed ${what}: ${problem ?? 'the field is empty; type the value to fix it at'}.` };

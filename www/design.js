@@ -22,7 +22,7 @@ const CONSTANTS = {
   uncompetitive: ['Vmax', 'Km', 'Kiu'],
   mixed: ['Vmax', 'Km', 'Kic', 'Kiu'],
   noncompetitive: ['Vmax', 'Km', 'Ki'],
-  ic50: ['bottom', 'top', 'IC50', 'hill_slope'],
+  ic50: ['floor', 'ceiling', 'IC50', 'steepness'],
 };
 const INHIBITION = new Set(['competitive', 'uncompetitive', 'mixed', 'noncompetitive']);
 
@@ -47,7 +47,7 @@ function request(doc) {
   const guesses = [];
   for (const name of names) {
     const [value, low, high] = d.guesses[name] ?? ['', '', ''];
-    const v = read(value, `guess of ${name}`, { positive: name !== 'bottom' });
+    const v = read(value, `guess of ${name}`, { positive: name !== 'floor' });
     if (v === null && !problems.length) problems.push(`Give a guess of ${name}`);
     const lo = read(low, `lowest ${name}`);
     const hi = read(high, `highest ${name}`);

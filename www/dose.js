@@ -63,7 +63,7 @@ function options(d) {
     out.enzyme = value;
     return { request: out };
   }
-  for (const [fixed, text, key, what] of [[d.fix_top, d.top, 'fixed_top', 'top'], [d.fix_bottom, d.bottom, 'fixed_bottom', 'bottom']]) {
+  for (const [fixed, text, key, what] of [[d.fix_top, d.top, 'fixed_top', 'ceiling'], [d.fix_bottom, d.bottom, 'fixed_bottom', 'floor']]) {
     if (!fixed) continue;
     const { value, problem } = read(text);
     if (problem || value === null) return { problem: `Fixed ${what}: ${problem ?? 'the field is empty; type the value to fix it at'}.` };

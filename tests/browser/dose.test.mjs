@@ -84,7 +84,7 @@ test('dose-response demo: IC50 with intervals and a drawn log-axis plot with the
   assert.equal(await page.isVisible('#dose-results'), true);
 
   const rows = await paramRows(page);
-  assert.deepEqual(Object.keys(rows), ['bottom', 'top', 'IC50', 'hill_slope']);
+  assert.deepEqual(Object.keys(rows), ['floor', 'ceiling', 'IC50', 'steepness']);
   // The demo was made from the Morrison equation with Ki_app = 0.5 µM and
   // [E]t = 0.2 µM, whose half-inhibition point is Ki_app + [E]t/2 = 0.6 µM
   // (Morrison 1969, the relation from memory); the logistic's IC50 must be
@@ -118,7 +118,7 @@ test('dose-response demo: IC50 with intervals and a drawn log-axis plot with the
   await page.check('#dose-fix-top');
   await page.check('#dose-fix-bottom');
   await page.waitForFunction(() => window.turnover.dose.lastResult()?.fit.parameters.length === 2, null, { timeout: 20_000 });
-  assert.deepEqual(Object.keys(await paramRows(page)), ['IC50', 'hill_slope']);
+  assert.deepEqual(Object.keys(await paramRows(page)), ['IC50', 'steepness']);
   await page.fill('#dose-top', 'abc');
   await page.waitForFunction(() => document.querySelector('#dose-status').dataset.state === 'error', null, { timeout: 10_000 });
   assert.match(await page.textContent('#dose-status'), /Fixed top: expected a number, found 'abc'/);

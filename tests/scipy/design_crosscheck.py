@@ -85,7 +85,7 @@ PLANS = [
     ("mm capped", ["--model", "mm", "--guess", "Vmax=10,Km=50", "--noise", "4%", "--max-s", "40"], mm, [10, 50], ("proportional", 0.04)),
     ("hill", ["--model", "hill", "--guess", "Vmax=10,K0.5=5,nH=2", "--noise", "3%"], hill, [10, 5, 2], ("proportional", 0.03)),
     ("substrate-inhibition", ["--model", "substrate-inhibition", "--guess", "Vmax=10,Km=5,Ksi=50", "--noise", "0.3"], substrate_inhibition, [10, 5, 50], ("constant", 0.3)),
-    ("ic50", ["--model", "ic50", "--guess", "bottom=2,top=100,IC50=0.3,hill_slope=1.2", "--noise", "2", "--points", "10"], logistic, [2, 100, 0.3, 1.2], ("constant", 2.0)),
+    ("ic50", ["--model", "ic50", "--guess", "floor=2,ceiling=100,IC50=0.3,steepness=1.2", "--noise", "2", "--points", "10"], logistic, [2, 100, 0.3, 1.2], ("constant", 2.0)),
     ("competitive", ["--model", "competitive", "--guess", "Vmax=10,Km=5,Kic=2", "--noise", "5%"], competitive, [10, 5, 2], ("proportional", 0.05)),
     ("uncompetitive", ["--model", "uncompetitive", "--guess", "Vmax=10,Km=5,Kiu=2", "--noise", "0.2"], uncompetitive, [10, 5, 2], ("constant", 0.2)),
     ("noncompetitive", ["--model", "noncompetitive", "--guess", "Vmax=10,Km=5,Ki=2", "--noise", "5%", "--inhibitor-points", "5"], noncompetitive, [10, 5, 2], ("proportional", 0.05)),

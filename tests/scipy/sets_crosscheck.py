@@ -111,7 +111,7 @@ def datasets():
         for i in np.repeat([0.0, 0.03, 0.1, 0.3, 1, 3, 10, 30, 100], 2):
             rows.append((name, [i], float(logistic([np.array(i)], *truth)) + 2.5 * rng.standard_normal()))
     out.append(dict(name="ic50, two compounds (seed 33)", model="ic50", f=logistic,
-                    names=["bottom", "top", "IC50", "hill_slope"],
+                    names=["floor", "ceiling", "IC50", "steepness"],
                     header="compound\t[I] (µM)\tactivity (%)", rows=rows, truth=truths,
                     extra=["--by", "compound"]))
     rng = np.random.default_rng(34)

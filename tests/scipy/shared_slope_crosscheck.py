@@ -9,7 +9,7 @@ code: every curve's rows in one least-squares fit of
     y = bottom_k + (top_k - bottom_k) / (1 + (I / IC50_k)^h)
 
 with bottom_k, top_k, IC50_k per curve (or bottom and top fixed at 0 and
-100 with --bottom 0 --top 100) and one slope h for all curves; one residual
+100 with --floor 0 --ceiling 100) and one slope h for all curves; one residual
 variance, covariance from curve_fit (absolute_sigma=False), t intervals
 from ``scipy.stats.t.ppf(0.975, N - P)``.
 
@@ -84,7 +84,7 @@ def run_case(name, seed, k_curves, fixed, results):
         path = out.name
     args = [str(BIN), "fit", path, "--group-by", "compound", "--model", "ic50", "--shared-slope", "--json"]
     if fixed:
-        args += ["--bottom", "0", "--top", "100"]
+        args += ["--floor", "0", "--ceiling", "100"]
     done = subprocess.run(args, capture_output=True, text=True)
     os.unlink(path)
     if done.returncode != 0:
@@ -95,7 +95,7 @@ def run_case(name, seed, k_curves, fixed, results):
     f, own = stacked(k_curves, fixed)
     x = np.vstack([[r[1] for r in rows], [int(r[0][3:]) for r in rows]])
     y = np.array([r[2] for r in rows])
-    names = ["IC50"] if fixed else ["bottom", "top", "IC50"]
+    names = ["IC50"] if fixed else ["floor", "ceiling", "IC50"]
     ours = []
     for record in result["curves"]:
         values = {p["name"]: p["value"] for p in record["parameters"]}
@@ -126,7 +126,7 @@ def run_case(name, seed, k_curves, fixed, results):
             check(f"{name} {record['curve']} {n} SE", q["std_error"], se[g], SE_TOL, results)
             check(f"{name} {record['curve']} {n} low", q["ci_low"], p[g] - t * se[g], SE_TOL, results)
             check(f"{name} {record['curve']} {n} high", q["ci_high"], p[g] + t * se[g], SE_TOL, results)
-        check(f"{name} {record['curve']} slope in record", by_name["hill_slope"]["value"], p[-1], VALUE_TOL, results)
+        check(f"{name} {record['curve']} slope in record", by_name["steepness"]["value"], p[-1], VALUE_TOL, results)
     slope = result["shared"]["slope"]
     check(f"{name} shared slope", slope["value"], p[-1], VALUE_TOL, results)
     check(f"{name} shared slope SE", slope["std_error"], se[-1], SE_TOL, results)

@@ -249,7 +249,7 @@ pub(crate) fn run_shared_slope(args: Prepared, model: String, group_by: String, 
     if let Some(shared) = &analysis.shared {
         if format != Format::Json {
             let se = shared.slope.std_error.map_or("not computed".to_string(), |v| format!("{v}"));
-            warn(&format!("{}: shared Hill slope {} (SE {se}) from {} curves, {} points", args.file, shared.slope.value, shared.curves, shared.n));
+            warn(&format!("{}: shared steepness {} (SE {se}) from {} curves, {} points", args.file, shared.slope.value, shared.curves, shared.n));
         }
     }
     if problems > 0 && !args.lenient {

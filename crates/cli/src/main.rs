@@ -176,7 +176,7 @@ struct FitOptions {
     #[arg(long)]
     normalise: bool,
     /// With --group-by and --model ic50: one global fit of every curve with
-    /// a single Hill slope (each curve keeps its IC50 and plateaus)
+    /// a single steepness (each curve keeps its IC50, floor and ceiling)
     #[arg(long)]
     shared_slope: bool,
 }
@@ -201,11 +201,11 @@ struct ModelExtras {
     /// (instead of --enzyme)
     #[arg(long, value_name = "MASS")]
     molar_mass: Option<String>,
-    /// Fix the top plateau of the ic50 model
-    #[arg(long, value_name = "Y", value_parser = option_number, allow_hyphen_values = true)]
+    /// Fix the upper plateau (ceiling) of the ic50 model
+    #[arg(long = "ceiling", value_name = "Y", value_parser = option_number, allow_hyphen_values = true)]
     top: Option<f64>,
-    /// Fix the bottom plateau of the ic50 model
-    #[arg(long, value_name = "Y", value_parser = option_number, allow_hyphen_values = true)]
+    /// Fix the lower plateau (floor) of the ic50 model
+    #[arg(long = "floor", value_name = "Y", value_parser = option_number, allow_hyphen_values = true)]
     bottom: Option<f64>,
     /// With ic50: add Ki converted from the IC50 for a competitive,
     /// uncompetitive or noncompetitive inhibitor (Cheng & Prusoff 1973);
@@ -412,7 +412,7 @@ fn prepare(command: &'static str, data: DataOptions, extra: ModelExtras, model: 
         return Err(usage(command, format!("--cheng-prusoff converts the IC50 of the ic50 model; it does not apply to {model}")));
     }
     if (extra.top.is_some() || extra.bottom.is_some()) && model != "ic50" {
-        return Err(usage(command, "--top and --bottom fix the plateaus of the ic50 model; they apply to no other model"));
+        return Err(usage(command, "--ceiling and --floor fix the plateaus of the ic50 model; they apply to no other model"));
     }
     Ok(Prepared {
         file: data.file,

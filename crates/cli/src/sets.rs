@@ -41,11 +41,11 @@ pub(crate) struct SetsOptions {
     /// For morrison: [E]t in the units of [I] (a bare number)
     #[arg(long, value_name = "CONC", value_parser = option_number)]
     enzyme: Option<f64>,
-    /// Fix the top plateau of the ic50 model in every set
-    #[arg(long, value_name = "Y", value_parser = option_number, allow_hyphen_values = true)]
+    /// Fix the upper plateau (ceiling) of the ic50 model in every set
+    #[arg(long = "ceiling", value_name = "Y", value_parser = option_number, allow_hyphen_values = true)]
     top: Option<f64>,
-    /// Fix the bottom plateau of the ic50 model in every set
-    #[arg(long, value_name = "Y", value_parser = option_number, allow_hyphen_values = true)]
+    /// Fix the lower plateau (floor) of the ic50 model in every set
+    #[arg(long = "floor", value_name = "Y", value_parser = option_number, allow_hyphen_values = true)]
     bottom: Option<f64>,
 }
 
@@ -54,7 +54,7 @@ pub(crate) fn compare_sets_command(options: SetsOptions) -> Result<ExitCode, Fai
     if (options.top.is_some() || options.bottom.is_some()) && options.model != "ic50" {
         return Err(usage(
             COMMAND,
-            "--top and --bottom fix the plateaus of the ic50 model; they apply to no other model",
+            "--ceiling and --floor fix the plateaus of the ic50 model; they apply to no other model",
         ));
     }
     if options.enzyme.is_some() && options.model != "morrison" {

@@ -75,7 +75,7 @@ fn screen() -> Vec<Simulated> {
                 }
                 3 => {
                     h = 4.0;
-                    Some(("slope 4", &["hill-slope-implausible"][..]))
+                    Some(("slope 4", &["steepness-implausible"][..]))
                 }
                 4 => {
                     bottom = 45.0;
@@ -83,7 +83,7 @@ fn screen() -> Vec<Simulated> {
                 }
                 // A 4-parameter logistic on 10 points can absorb part of an
                 // outlier by bending its slope; then the slope is flagged.
-                5 => Some(("outlier", &["large-residuals", "hill-slope-implausible"][..])),
+                5 => Some(("outlier", &["large-residuals", "steepness-implausible"][..])),
                 _ => None,
             };
             let rows = doses()
@@ -257,7 +257,7 @@ fn normalised_plate_gives_hand_computed_z_prime_and_percent_activity() {
     }
     let batch = write("plate-a.tsv", &text);
     let single = write("plate-a-c1.tsv", &alone);
-    for fixed in [&[][..], &["--top", "100", "--bottom", "0"][..]] {
+    for fixed in [&[][..], &["--ceiling", "100", "--floor", "0"][..]] {
         let args = [&["fit", batch.to_str().unwrap(), "--group-by", "compound", "--model", "ic50", "--normalise", "--json"][..], fixed].concat();
         let (code, out, err) = turnover(&args, &[]);
         assert_eq!(code, 0, "{err}");

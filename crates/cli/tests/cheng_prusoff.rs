@@ -106,7 +106,7 @@ fn options_that_do_not_apply_are_refused() {
         (vec!["--model", "ic50", "--cheng-prusoff", "competitive", "--substrate", "1 ppm", "--km", "1 µM"], "--substrate"),
         (vec!["--model", "ic50", "--cheng-prusoff", "competitive", "--substrate", "1", "--km", "0"], "Km must be a positive number"),
         (vec!["--model", "ic50", "--enzyme", "5"], "morrison model only"),
-        (vec!["--model", "mm", "--top", "100"], "--top and --bottom"),
+        (vec!["--model", "mm", "--ceiling", "100"], "--ceiling and --floor"),
     ] {
         let mut all = vec!["fit", file];
         all.extend(&args);

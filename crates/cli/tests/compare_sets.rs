@@ -79,7 +79,7 @@ fn refusals_have_reasons() {
     let (code, _, err) = turnover(&["compare-sets", p, "--by", "variant", "--reference", "other"]);
     assert_eq!(code, 2);
     assert!(err.contains("no set 'other'"), "{err}");
-    let (code, _, err) = turnover(&["compare-sets", p, "--by", "variant", "--top", "100"]);
+    let (code, _, err) = turnover(&["compare-sets", p, "--by", "variant", "--ceiling", "100"]);
     assert_eq!(code, 2);
     assert!(err.contains("ic50"), "{err}");
 }

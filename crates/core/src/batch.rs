@@ -152,7 +152,7 @@ pub struct CurveSplit {
 #[derive(Clone, Debug, PartialEq, Serialize)]
 pub struct CurveFlag {
     /// `no-fit`, `not-converged`, `undetermined`, `ic50-outside-range`,
-    /// `hill-slope-implausible`, `plateau-far-from-controls` or
+    /// `steepness-implausible`, `plateau-far-from-controls` or
     /// `large-residuals`.
     pub code: String,
     /// Why, with the numbers.
@@ -589,13 +589,13 @@ fn flags(fitted: &Fitted, model: &str, settings: &FlagSettings, percent: bool) -
                 ));
             }
         }
-        if let Some(slope) = value("hill_slope") {
+        if let Some(slope) = value("steepness") {
             let (low, high) = settings.hill_slope_range;
             if !(slope >= low && slope <= high) {
                 out.push(flag(
-                    "hill-slope-implausible",
+                    "steepness-implausible",
                     format!(
-                        "Hill slope {} is outside {} to {}, the range usual for one inhibitor binding one site (common practice, no source)",
+                        "steepness {} is outside {} to {}, the range usual for one inhibitor binding one site (common practice, no source)",
                         short(slope),
                         short(low),
                         short(high)
@@ -606,8 +606,8 @@ fn flags(fitted: &Fitted, model: &str, settings: &FlagSettings, percent: bool) -
         if let Some((high, low)) = controls {
             let window = (high - low).abs();
             let mut far = Vec::new();
-            let top = value("top");
-            let bottom = value("bottom");
+            let top = value("ceiling");
+            let bottom = value("floor");
             if let Some(top) = top {
                 if (top - high).abs() > settings.plateau_tolerance * window {
                     far.push(format!("top {} against the high control {}", short(top), short(high)));

@@ -186,7 +186,7 @@ pub fn analyse_dose(request: &DoseRequest) -> Result<DoseAnalysis, Error> {
     // ignored.
     if name == "morrison" {
         if request.fixed_top.is_some() || request.fixed_bottom.is_some() {
-            return Err(Error::invalid_option("a fixed top or bottom applies to the ic50 model only; the Morrison fit has v0 and Ki_app"));
+            return Err(Error::invalid_option("a fixed ceiling or floor applies to the ic50 model only; the Morrison fit has v0 and Ki_app"));
         }
         if request.cheng_prusoff.is_some() {
             return Err(Error::invalid_option(

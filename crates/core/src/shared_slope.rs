@@ -1,4 +1,4 @@
-//! Batch dose-response curves with one Hill slope shared by every curve.
+//! Batch dose-response curves with one steepness shared by every curve.
 //!
 //! Screening often assumes that compounds acting by one mechanism give
 //! curves of one steepness (common practice, no source): the slope is then
@@ -7,7 +7,7 @@
 //!
 //! **Method: one global least-squares fit.** The model stacks every curve's
 //! logistic, with parameters `(bottom_k, top_k, IC50_k)` for each curve `k`
-//! (those not fixed) and one `hill_slope` last; all curves' points are
+//! (those not fixed) and one `steepness` last; all curves' points are
 //! fitted at once by [`fit_model`], so the result minimises the total sum of
 //! squares over all curves jointly and the covariance is the global one,
 //! `s²(JᵀJ)⁻¹` with `s² = RSS/(N − P)` over all N points and P parameters.
@@ -41,7 +41,7 @@ pub const MAX_SHARED_CURVES: usize = 150;
 /// The shared slope and what the global fit says about itself.
 #[derive(Clone, Debug, PartialEq, Serialize)]
 pub struct SharedSlope {
-    /// The shared Hill slope with its global standard error and interval.
+    /// The shared steepness with its global standard error and interval.
     pub slope: ParameterEstimate,
     /// Curves in the global fit (those whose own fit could be made).
     pub curves: usize,
@@ -135,13 +135,13 @@ impl Model for Stacked<'_> {
     }
 }
 
-/// Fits every curve of the batch with one shared Hill slope (model `ic50`
+/// Fits every curve of the batch with one shared steepness (model `ic50`
 /// only); see the module documentation.
 pub fn analyse_shared_slope(request: &BatchRequest) -> Result<SharedSlopeAnalysis, Error> {
     let model_name = request.model.trim();
     if model_name != "ic50" {
         return Err(Error::invalid_option(format!(
-            "a shared Hill slope applies to the ic50 model only, not to '{model_name}'"
+            "a shared steepness applies to the ic50 model only, not to '{model_name}'"
         )));
     }
     if request.weighting != Weighting::Uniform {
@@ -266,7 +266,7 @@ fn global_fit(request: &BatchRequest, split: &CurveSplit, base: &dyn Model, own:
         let rss: f64 = member.points.iter().map(|&(i, response)| (response - base.value(&[i], &local)).powi(2)).sum();
         let mut warnings = summary.warnings.clone();
         warnings.push(format!(
-            "The Hill slope is shared by the {k_curves} curves of one global fit; standard errors and intervals come from its covariance (t with {} degrees of freedom) and rss is this curve's part of the total.",
+            "The steepness is shared by the {k_curves} curves of one global fit; standard errors and intervals come from its covariance (t with {} degrees of freedom) and rss is this curve's part of the total.",
             summary.dof
         ));
         let curve_summary = FitSummary {
@@ -295,7 +295,7 @@ fn global_fit(request: &BatchRequest, split: &CurveSplit, base: &dyn Model, own:
         record.flags = flags_of(&curve_summary, used, dimensions, "ic50", &request.flags, &split.curves[member.index].text);
         record.pic50 = pic50_of(&curve_summary, member.unit.as_deref());
         record.fit = Some(curve_summary);
-        record.notes.push("fitted with the Hill slope shared by every curve of the batch".into());
+        record.notes.push("fitted with the steepness shared by every curve of the batch".into());
     }
     let shared = SharedSlope {
         slope,
@@ -307,7 +307,7 @@ fn global_fit(request: &BatchRequest, split: &CurveSplit, base: &dyn Model, own:
         sigma: summary.sigma,
         converged: summary.converged,
         termination_text: summary.termination_text.clone(),
-        method: "one global least-squares fit of every curve's logistic with one Hill slope; covariance s²(JᵀJ)⁻¹ of the whole fit".into(),
+        method: "one global least-squares fit of every curve's logistic with one steepness; covariance s²(JᵀJ)⁻¹ of the whole fit".into(),
         warnings: summary.warnings.clone(),
     };
     Ok((records, Some(shared)))
@@ -339,7 +339,7 @@ mod tests {
         let shared = analysis.shared.unwrap();
         let alone = fit_curve(&request(&text), &prepare_batch(&request(&text)).unwrap().0.curves[0]);
         let alone = alone.fit.unwrap();
-        let own_slope = alone.parameters.iter().find(|p| p.name == "hill_slope").unwrap().value;
+        let own_slope = alone.parameters.iter().find(|p| p.name == "steepness").unwrap().value;
         assert!((shared.slope.value - own_slope).abs() < 1e-6 * own_slope.abs(), "{} vs {own_slope}", shared.slope.value);
         for record in &analysis.curves {
             let fit = record.fit.as_ref().unwrap();

@@ -523,7 +523,7 @@ fn setup(request: &DesignRequest) -> Result<Setup, Error> {
             continue;
         };
         let value = guess.value;
-        let must_be_positive = model.positive(j) || n == "nH" || n == "hill_slope";
+        let must_be_positive = model.positive(j) || n == "nH" || n == "steepness";
         if !value.is_finite() || (must_be_positive && value <= 0.0) {
             return Err(Error::invalid_option(format!(
                 "the guess of {n} must be a {}number, found {value}",
@@ -652,7 +652,7 @@ fn recommend(setup: &Setup, request: &DesignRequest, warnings: &mut Vec<String>)
             (0.2 * a, 5.0 * b)
         }
         "ic50" => {
-            let h = get("hill_slope").unwrap_or(1.0).abs();
+            let h = get("steepness").unwrap_or(1.0).abs();
             let f = 3.0 * 19f64.powf(1.0 / h);
             rules.push(DesignRule {
                 rule: format!(

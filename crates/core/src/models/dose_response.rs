@@ -1,5 +1,5 @@
 //! The four-parameter logistic dose-response curve,
-//! `y = bottom + (top − bottom)/(1 + ([I]/IC50)^hill_slope)`, with the option
+//! `y = floor + (ceiling − floor)/(1 + ([I]/IC50)^steepness)` (the plateaus named floor and ceiling, the exponent steepness: Turnover's own plain words), with the option
 //! of fixing the top or the bottom plateau (common practice, no source).
 
 use super::start::positive_range;
@@ -21,17 +21,17 @@ impl DoseResponse {
     pub fn new(fixed_top: Option<f64>, fixed_bottom: Option<f64>) -> Self {
         let mut specs = Vec::new();
         if fixed_bottom.is_none() {
-            specs.push(ParameterSpec { name: "bottom", dimension: Dimension::Response });
+            specs.push(ParameterSpec { name: "floor", dimension: Dimension::Response });
         }
         if fixed_top.is_none() {
-            specs.push(ParameterSpec { name: "top", dimension: Dimension::Response });
+            specs.push(ParameterSpec { name: "ceiling", dimension: Dimension::Response });
         }
         specs.push(ParameterSpec { name: "IC50", dimension: Dimension::Predictor(0) });
-        specs.push(ParameterSpec { name: "hill_slope", dimension: Dimension::Dimensionless });
+        specs.push(ParameterSpec { name: "steepness", dimension: Dimension::Dimensionless });
         DoseResponse { fixed_top, fixed_bottom, specs }
     }
 
-    /// (bottom, top, IC50, hill_slope) from the fitted parameter vector.
+    /// (floor, ceiling, IC50, steepness) from the fitted parameter vector.
     pub fn full(&self, p: &[f64]) -> [f64; 4] {
         let mut k = 0;
         let mut next = || {
@@ -50,7 +50,7 @@ impl Model for DoseResponse {
     }
 
     fn equation(&self) -> &str {
-        "y = bottom + (top − bottom) / (1 + ([I]/IC50)^hill_slope)"
+        "y = floor + (ceiling − floor) / (1 + ([I]/IC50)^steepness)"
     }
 
     fn parameters(&self) -> &[ParameterSpec] {
@@ -92,7 +92,7 @@ impl Model for DoseResponse {
 
     /// Starting values: the plateaus are the smallest and largest
     /// responses, IC50 the [I] where the responses cross their midpoint
-    /// (interpolated in log [I]), and hill_slope 1.
+    /// (interpolated in log [I]), and steepness 1.
     fn initial_guess(&self, data: &Observations) -> Result<Vec<f64>, Error> {
         let (low, high) = positive_range(data, 0)
             .ok_or_else(|| Error::invalid_data("a dose-response fit needs rows with an inhibitor concentration above zero"))?;

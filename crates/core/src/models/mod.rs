@@ -95,7 +95,7 @@ pub fn model_with_options(name: &str, options: &ModelOptions) -> Result<Box<dyn 
         "ordered" => Box::new(TwoSubstrates::new(TwoSubstrateMechanism::Ordered)),
         "ping-pong" => Box::new(TwoSubstrates::new(TwoSubstrateMechanism::PingPong)),
         "ic50" => {
-            for (value, what) in [(options.fixed_top, "top"), (options.fixed_bottom, "bottom")] {
+            for (value, what) in [(options.fixed_top, "ceiling"), (options.fixed_bottom, "floor")] {
                 if value.is_some_and(|v| !v.is_finite()) {
                     return Err(Error::invalid_option(format!("the fixed {what} must be a finite number")));
                 }
