@@ -121,7 +121,7 @@ test('dose-response demo: IC50 with intervals and a drawn log-axis plot with the
   assert.deepEqual(Object.keys(await paramRows(page)), ['IC50', 'steepness']);
   await page.fill('#dose-top', 'abc');
   await page.waitForFunction(() => document.querySelector('#dose-status').dataset.state === 'error', null, { timeout: 10_000 });
-  assert.match(await page.textContent('#dose-status'), /Fixed top: expected a number, found 'abc'/);
+  assert.match(await page.textContent('#dose-status'), /Fixed ceiling: expected a number, found 'abc'/);
 
   const panel = await page.$('#dose-panel');
   await page.fill('#dose-top', '100');
