@@ -11,7 +11,9 @@
 //
 //   node www/assemble.mjs PKG_DIR OUT_FILE
 
-import { readFileSync, writeFileSync, mkdirSync } from 'node:fs';
+import { readFileSync, writeFileSync, mkdirSync, mkdtempSync, rmSync } from 'node:fs';
+import { spawnSync } from 'node:child_process';
+import { tmpdir } from 'node:os';
 import { dirname, join } from 'node:path';
 import { gzipSync, constants } from 'node:zlib';
 import { fileURLToPath } from 'node:url';
@@ -88,6 +90,20 @@ if (appBlock) {
     console.error('assemble: the turnover:app block names no module script');
     process.exit(1);
   }
+  // Each module must parse as it will run (after its comments and
+  // indentation are dropped): a syntax error would stop the whole page.
+  const scratch = mkdtempSync(join(tmpdir(), 'turnover-assemble-'));
+  for (const name of sources) {
+    const file = join(scratch, `${name}.mjs`);
+    writeFileSync(file, withoutCommentLines(read(join(here, name))));
+    const check = spawnSync(process.execPath, ['--check', file], { encoding: 'utf8' });
+    if (check.status !== 0) {
+      rmSync(scratch, { recursive: true, force: true });
+      console.error(`assemble: www/${name} does not parse:\n${check.stderr}`);
+      process.exit(1);
+    }
+  }
+  rmSync(scratch, { recursive: true, force: true });
   blocks.app = sources
     .map((name) => `<script type="module">\n${scriptSafe(withoutCommentLines(read(join(here, name))))}\n</script>`)
     .join('\n');
