@@ -269,6 +269,47 @@ function showReplicates(box, summaries, concentration, unit) {
   }
 }
 
+/** Draws each plot of a result (the core's `PlotData`) on a canvas of its
+ *  own in `box`, with its note and a *Figure* button; `current(index)`
+ *  gives the plot to export when the button is pressed (by default the one
+ *  drawn). Each canvas says whether it was drawn (`data-drawn`). */
+function drawPlotList(box, plots, { width = 480, height = 320, current = (index) => plots[index] } = {}) {
+  box.replaceChildren();
+  plots.forEach((plot, index) => {
+    const figure = document.createElement('figure');
+    const canvas = element('canvas', { id: `${box.id}-${index}`, width: String(width), height: String(height), 'data-kind': plot.kind });
+    const button = element('button', { type: 'button', title: 'Download this plot as a figure (settings in the Plots section)' }, 'Figure');
+    button.addEventListener('click', () => {
+      const shown = current(index);
+      if (shown) exportFigure(shown.kind, (options) => wasm_bindgen.plotFigureSvg(JSON.stringify(shown), options));
+    });
+    const caption = document.createElement('figcaption');
+    caption.append(element('span', { class: 'note' }, plot.note ?? ''), ' ', button);
+    figure.append(canvas, caption);
+    box.append(figure);
+    try {
+      wasm_bindgen.drawPlotJson(canvas.id, JSON.stringify(plot));
+      canvas.dataset.drawn = 'yes';
+    } catch (error) {
+      canvas.dataset.drawn = 'no';
+      console.warn(`${plot.kind}: ${error?.message ?? error}`);
+    }
+  });
+}
+
+/** A seeded generator for the invented demo data (mulberry32 and
+ *  Box-Muller): `uniform()` in [0, 1), `normal()` standard normal. */
+function seededNoise(seed) {
+  let state = seed;
+  const uniform = () => {
+    state = (state + 0x6d2b79f5) | 0;
+    let t = Math.imul(state ^ (state >>> 15), 1 | state);
+    t = (t + Math.imul(t ^ (t >>> 7), 61 | t)) ^ t;
+    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
+  };
+  return { uniform, normal: () => Math.sqrt(-2 * Math.log(1 - uniform())) * Math.cos(2 * Math.PI * uniform()) };
+}
+
 function element(tag, attributes = {}, text) {
   const node = document.createElement(tag);
   for (const [key, value] of Object.entries(attributes)) node.setAttribute(key, value);
@@ -1645,6 +1686,8 @@ Object.assign(window.turnover, {
     exportFigure,
     parameterRow,
     showReplicates,
+    drawPlotList,
+    seededNoise,
     estimateText,
     format: formatNumber,
     nearestPoint,

@@ -20,14 +20,7 @@ const { cell } = page.ui;
 // seeded Gaussian scatter of 3 % (the generator below, seed 12); TX-11 is
 // inactive (flat near 100 %) and TX-12 has a slope of 4, so some flags show.
 function batchDemo() {
-  let seed = 12;
-  const uniform = () => {
-    seed = (seed + 0x6d2b79f5) | 0;
-    let t = Math.imul(seed ^ (seed >>> 15), 1 | seed);
-    t = (t + Math.imul(t ^ (t >>> 7), 61 | t)) ^ t;
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-  const normal = () => Math.sqrt(-2 * Math.log(1 - uniform())) * Math.cos(2 * Math.PI * uniform());
+  const { normal } = page.ui.seededNoise(12);
   const doses = [0.001, 0.003, 0.01, 0.03, 0.1, 0.3, 1, 3, 10, 30];
   const compounds = [
     [0.03, 1], [0.08, 1.1], [0.2, 0.9], [0.5, 1], [1, 1.2], [2, 0.8], [4, 1], [8, 1.1], [15, 1], [30, 0.9], [null, 1], [0.6, 4],
@@ -309,13 +302,30 @@ function showTable() {
   body.replaceChildren(fragment);
 }
 
+// Canvases scrolled into view wait here and are drawn a few per task
+// (each is a refit of its curve and a drawing), so a screenful of small
+// plots never holds the page for long.
+const waiting = [];
+let pumping = false;
+
 function drawVisiblePlots(entries) {
-  const r = run;
   for (const entry of entries) {
-    if (!entry.isIntersecting || !r) continue;
-    const canvas = entry.target;
-    observer.unobserve(canvas);
-    if (canvas.dataset.drawn) continue;
+    if (!entry.isIntersecting) continue;
+    observer.unobserve(entry.target);
+    waiting.push(entry.target);
+  }
+  if (!pumping && waiting.length) {
+    pumping = true;
+    setTimeout(drawWaiting, 0);
+  }
+}
+
+function drawWaiting() {
+  const r = run;
+  const t0 = performance.now();
+  while (waiting.length && performance.now() - t0 < 25) {
+    const canvas = waiting.shift();
+    if (!r || canvas.dataset.drawn || !canvas.isConnected) continue;
     const plot = r.bench.plotJson(Number(canvas.dataset.index));
     if (plot === 'null') {
       canvas.dataset.drawn = 'none';
@@ -329,6 +339,8 @@ function drawVisiblePlots(entries) {
       console.warn(`batch plot: ${error?.message ?? error}`);
     }
   }
+  if (waiting.length) setTimeout(drawWaiting, 0);
+  else pumping = false;
 }
 
 /** One curve in full: its plot, constants, flags with reasons and

@@ -334,30 +334,9 @@ function show({ kind, result, shown }) {
 }
 
 function drawPlots(plots) {
-  const box = $('further-plots');
-  box.replaceChildren();
   drawnPlots = plots;
-  plots.forEach((plot, index) => {
-    const figure = document.createElement('figure');
-    const canvas = cell('canvas', '', { id: `further-plot-${index}`, width: '480', height: '340', 'data-kind': plot.kind });
-    const button = cell('button', 'Figure', { type: 'button', title: 'Download this plot as a figure (settings in the Plots section)' });
-    button.addEventListener('click', () => {
-      section.flush();
-      const current = drawnPlots[index];
-      if (current) page.ui.exportFigure(current.kind, (options) => wasm_bindgen.plotFigureSvg(JSON.stringify(current), options));
-    });
-    const caption = document.createElement('figcaption');
-    caption.append(cell('span', plot.note ?? '', { class: 'note' }), ' ', button);
-    figure.append(canvas, caption);
-    box.append(figure);
-    try {
-      wasm_bindgen.drawPlotJson(canvas.id, JSON.stringify(plot));
-      canvas.dataset.drawn = 'yes';
-    } catch (error) {
-      canvas.dataset.drawn = 'no';
-      console.warn(`further plot ${plot.kind}: ${error?.message ?? error}`);
-    }
-  });
+  // The figure is of the plot shown once the result is brought up to date.
+  page.ui.drawPlotList($('further-plots'), plots, { height: 340, current: (index) => (section.flush(), drawnPlots[index]) });
 }
 
 function constantsRows() {

@@ -19,14 +19,7 @@ const { cell } = page.ui;
 // readings every 0.5 min for 30 min, plus seeded Gaussian noise (SD 0.0008,
 // the generator below, seed 2026).
 function inactivationDemo() {
-  let seed = 2026;
-  const uniform = () => {
-    seed = (seed + 0x6d2b79f5) | 0;
-    let t = Math.imul(seed ^ (seed >>> 15), 1 | seed);
-    t = (t + Math.imul(t ^ (t >>> 7), 61 | t)) ^ t;
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-  const normal = () => Math.sqrt(-2 * Math.log(1 - uniform())) * Math.cos(2 * Math.PI * uniform());
+  const { normal } = page.ui.seededNoise(2026);
   const doses = [0, 0.5, 1, 2, 4, 8, 16, 32];
   const names = doses.map((_, k) => `A${k + 1}`);
   const lines = ['Demo plate (simulated): protease Pro-2 with compound 7', 'Read: absorbance 405 nm', ''];
@@ -106,30 +99,8 @@ function analyse(doc) {
   }
   $('inactivation-unit').textContent = `kobs in ${result.time_unit}⁻¹; [I] in ${result.inhibitor_unit ?? '(no unit given)'}.`;
   $('inactivation-warnings').replaceChildren(...[...result.warnings, ...result.notes].map((w) => cell('li', w)));
-  drawPlots('inactivation-plots', result.plots);
+  page.ui.drawPlotList($('inactivation-plots'), result.plots);
   $('inactivation-caution').textContent = result.caution;
-}
-
-function drawPlots(boxId, plots) {
-  const box = $(boxId);
-  box.replaceChildren();
-  plots.forEach((plot, index) => {
-    const figure = document.createElement('figure');
-    const canvas = cell('canvas', '', { id: `${boxId}-${index}`, width: '480', height: '320', 'data-kind': plot.kind });
-    const button = cell('button', 'Figure', { type: 'button', title: 'Download this plot as a figure (settings in the Plots section)' });
-    button.addEventListener('click', () => page.ui.exportFigure(plot.kind, (options) => wasm_bindgen.plotFigureSvg(JSON.stringify(plot), options)));
-    const caption = document.createElement('figcaption');
-    caption.append(cell('span', plot.note ?? '', { class: 'note' }), ' ', button);
-    figure.append(canvas, caption);
-    box.append(figure);
-    try {
-      wasm_bindgen.drawPlotJson(canvas.id, JSON.stringify(plot));
-      canvas.dataset.drawn = 'yes';
-    } catch (error) {
-      canvas.dataset.drawn = 'no';
-      console.warn(`${plot.kind}: ${error?.message ?? error}`);
-    }
-  });
 }
 
 /** The stability check: one finding per group of traces at one [S] and
@@ -138,7 +109,7 @@ function showStability(result) {
   const checks = result?.selwyn ?? [];
   $('stability-panel').hidden = checks.length === 0;
   $('stability-findings').replaceChildren(...checks.map((c) => cell('li', c.message, { 'data-flagged': String(c.flagged) })));
-  drawPlots('stability-plots', checks.map((c) => c.plot));
+  page.ui.drawPlotList($('stability-plots'), checks.map((c) => c.plot));
 }
 
 const section = page.derived({

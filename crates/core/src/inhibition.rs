@@ -153,24 +153,9 @@ fn capitalise(text: &str) -> String {
 }
 
 /// Reads `5 µM`, `5µM`, `5`, `[I] = 5 µM` or `5 (µM)` as a concentration
-/// with an optional unit.
+/// with an optional unit: the reading layer's level heading for [I].
 fn heading_concentration(heading: &ColumnHeading) -> Option<(f64, Option<String>)> {
-    let mut text = heading.name.trim();
-    if let Some((before, after)) = text.split_once('=') {
-        if is_inhibitor_name(before) {
-            text = after.trim();
-        } else {
-            return None;
-        }
-    }
-    let end = text
-        .char_indices()
-        .find(|(_, c)| !(c.is_ascii_digit() || matches!(c, '.' | ',' | '-' | '+' | 'e' | 'E')))
-        .map_or(text.len(), |(i, _)| i);
-    let number: f64 = text[..end].replace(',', ".").parse().ok()?;
-    let unit = text[end..].trim();
-    let unit = if unit.is_empty() { heading.unit.clone() } else { Some(unit.to_string()) };
-    number.is_finite().then_some((number, unit))
+    crate::read::columns::level_heading(heading, &is_inhibitor_name)
 }
 
 enum Layout {
