@@ -101,34 +101,34 @@ function start(doc) {
   showOutline(outline);
   $('batch-output').hidden = false;
   $('batch-stop').hidden = false;
-  fitSome(run, 1);
+  fitSome(run);
 }
 
-/** Fits the next curves of `r`, as many as take about 40 ms, then yields
- *  to the page before the next task. */
-function fitSome(r, size) {
+/** Fits the next curves of `r` one at a time until about 20 ms have
+ *  passed, then adds their rows and yields to the page before the next
+ *  task. One curve at a time because curves differ a hundredfold in cost
+ *  (a flat or one-sided curve can take 30 ms where most take 1 ms), so a
+ *  batch sized from the last one's average can overrun by far. */
+function fitSome(r) {
   if (r !== run || r.stopped) return finish(r);
   const total = r.bench.count();
   const from = r.results.length;
   if (from >= total) return finish(r);
   const t0 = performance.now();
-  let batch;
   try {
-    batch = JSON.parse(r.bench.fitJson(from, from + size));
+    do {
+      const k = r.results.length;
+      r.results.push(...JSON.parse(r.bench.fitJson(k, k + 1)));
+    } while (r.results.length < total && performance.now() - t0 < 20);
   } catch (error) {
     if (page.coreFailed(error)) return;
     r.stopped = `an error: ${error?.message ?? error}`;
     return finish(r);
   }
-  r.results.push(...batch);
-  const took = performance.now() - t0;
-  // Aim at about 25 ms a task (well under the 100 ms a person notices),
-  // leaving room for adding the new rows to the table.
-  const next = Math.max(1, Math.min(256, Math.round(size * (took > 0 ? 25 / took : 4))));
   setStatus('busy', `Fitting: ${r.results.length} of ${total} curves…`);
   $('batch-progress').value = r.results.length / total;
   addRows(r, from);
-  setTimeout(() => fitSome(r, next), 0);
+  setTimeout(() => fitSome(r), 0);
 }
 
 function finish(r) {
