@@ -1469,24 +1469,56 @@ async function tableFromFile(file) {
   }
   try {
     const names = wasm_bindgen.sheetNames(bytes);
-    let chosen = null;
+    const filled = [];
+    let first = null;
     for (const name of names) {
       const sheet = wasm_bindgen.sheetRead(bytes, name);
-      if (sheet.text.trim()) {
-        chosen = { name, ...sheet };
-        break;
-      }
+      if (!sheet.text.trim()) continue;
+      filled.push(name);
+      first ??= { name, ...sheet };
     }
-    if (!chosen) return { error: `${file.name}: every sheet is empty.` };
-    const others = names.filter((n) => n !== chosen.name);
-    const parts = [`${file.name}: sheet “${chosen.name}” read (line N of the box is row N of the sheet)`];
-    if (others.length) parts.push(`the other sheet${others.length === 1 ? '' : 's'} (${others.map((n) => `“${n}”`).join(', ')}) not read: save the one you want first, or open it alone`);
-    parts.push(...chosen.notes);
-    return { text: chosen.text, note: `${parts.join('; ')}.` };
+    if (!first) return { error: `${file.name}: every sheet is empty.` };
+    const empty = names.filter((n) => !filled.includes(n));
+    /** The text and note of the sheet called `name`. */
+    const sheetText = (name) => {
+      const sheet = name === first.name ? first : wasm_bindgen.sheetRead(bytes, name);
+      const parts = [`${file.name}: sheet “${name}” read (line N of the box is row N of the sheet)`];
+      if (filled.length > 1) parts.push(`${filled.length - 1} other sheet${filled.length === 2 ? '' : 's'} with data: choose below`);
+      if (empty.length) parts.push(`empty: ${empty.map((n) => `“${n}”`).join(', ')}`);
+      parts.push(...sheet.notes);
+      return { text: sheet.text, note: `${parts.join('; ')}.` };
+    };
+    return { ...sheetText(first.name), sheets: filled, sheet: first.name, sheetText };
   } catch (error) {
     if (coreFailed(error)) return { error: '' };
     return { error: `${file.name}: ${error?.message ?? error}` };
   }
+}
+
+/** Under a file's note: a choice of the workbook's sheets that hold data
+ *  (shown only when there are two or more); choosing one reads it and
+ *  hands its `{text, note}` to `apply`, as opening the file did. The
+ *  workbook's bytes stay in this closure only until the next file. */
+function showSheetChoice(holderId, read, apply) {
+  const holder = $(holderId);
+  holder.replaceChildren();
+  holder.hidden = !(read.sheets?.length > 1);
+  if (holder.hidden) return;
+  const select = document.createElement('select');
+  select.id = `${holderId}-select`;
+  for (const name of read.sheets) select.append(new Option(name, name));
+  select.value = read.sheet;
+  select.addEventListener('change', () => {
+    try {
+      apply(read.sheetText(select.value));
+    } catch (error) {
+      if (!coreFailed(error)) apply({ error: `${select.value}: ${error?.message ?? error}` });
+    }
+  });
+  const label = document.createElement('label');
+  label.htmlFor = select.id;
+  label.textContent = 'Sheet read: ';
+  holder.append(label, select);
 }
 
 /** Reads a dropped or opened file into the rate section (or the section
@@ -1497,11 +1529,19 @@ async function readFile(file) {
     if (read.error) showProblems([], read.error);
     return;
   }
-  tableEntered('rates', read.text, 'rates-move-note');
-  if (read.note) {
-    $('rates-move-note').hidden = false;
-    $('rates-move-note').textContent = `${read.note} ${$('rates-move-note').textContent}`.trim();
-  }
+  const apply = (sheet) => {
+    if (sheet.error !== undefined) {
+      if (sheet.error) showProblems([], sheet.error);
+      return;
+    }
+    tableEntered('rates', sheet.text, 'rates-move-note');
+    if (sheet.note) {
+      $('rates-move-note').hidden = false;
+      $('rates-move-note').textContent = `${sheet.note} ${$('rates-move-note').textContent}`.trim();
+    }
+  };
+  showSheetChoice('rates-sheet-choice', read, apply);
+  apply(read);
 }
 
 function wireRates() {
@@ -1700,6 +1740,7 @@ Object.assign(window.turnover, {
     typedNumber,
     readTyped,
     tableFromFile,
+    showSheetChoice,
     fitAsText,
     cell(tag, text, attributes = {}) {
       const node = document.createElement(tag);

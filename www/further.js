@@ -377,11 +377,15 @@ $('further-file').addEventListener('change', async (event) => {
   if (!file) return;
   const note = $('further-file-note');
   const read = await page.ui.tableFromFile(file);
-  note.hidden = !(read.error || read.note);
-  note.textContent = read.error ?? read.note ?? '';
-  if (read.error !== undefined) return;
-  const kind = page.doc().further.kind;
-  page.dispatch({ type: 'set table', path: `${kind}.text`, value: read.text });
+  const apply = (sheet) => {
+    note.hidden = !(sheet.error || sheet.note);
+    note.textContent = sheet.error ?? sheet.note ?? '';
+    if (sheet.error !== undefined) return;
+    const kind = page.doc().further.kind;
+    page.dispatch({ type: 'set table', path: `${kind}.text`, value: sheet.text });
+  };
+  if (read.error === undefined) page.ui.showSheetChoice('further-sheet-choice', read, apply);
+  apply(read);
 });
 
 page.onCoreRestart(() => { drawnPlots = []; });

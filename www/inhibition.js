@@ -120,6 +120,7 @@ function inhibitionRequest(doc) {
     substrate_unit: null,
     inhibitor_unit: null,
     rate_unit: doc.inhibition.rate_unit || null,
+    rate_time: doc.inhibition.rate_time || null,
     // The rate panel's weighting and interval choices apply here too
     // (weighting by an sd column is refused: these tables have none).
     weighting: request.weighting,
@@ -243,4 +244,5 @@ page.view((doc) => {
   if ($('inhibition-input').value !== doc.inhibition.text) $('inhibition-input').value = doc.inhibition.text;
 });
 page.bindField('inhibition-rate-unit', 'inhibition.rate_unit');
+page.bindField('inhibition-rate-time', 'inhibition.rate_time');
 $('load-inhibition-demo').addEventListener('click', () => page.loadDemo('inhibition'));

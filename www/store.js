@@ -29,7 +29,7 @@ const DEFAULTS = {
     weighting: 'uniform', interval_method: 'asymptotic', resamples: '2000', seed: '1', resample_by: 'residual',
     compare_laws: false, excluded_lines: [], excluded_cells: [],
   },
-  inhibition: { text: '', rate_unit: '', excluded_lines: [], excluded_cells: [] },
+  inhibition: { text: '', rate_unit: '', rate_time: '', excluded_lines: [], excluded_cells: [] },
   dose: {
     text: '', model: 'ic50', fix_top: false, top: '100', fix_bottom: false, bottom: '0', enzyme: '',
     cp_mechanism: '', cp_substrate: '', cp_km: '', cp_km_se: '', excluded_lines: [],

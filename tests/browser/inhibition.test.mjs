@@ -137,6 +137,32 @@ test('the long layout of the demo gives the same constants as the matrix', { tim
   await page.close();
 });
 
+test('rates reported per second: Vmax is the per-minute Vmax over 60, the other constants unchanged, the unit and a note say so', { timeout: 60_000 }, async () => {
+  const { page, errors } = await openPage();
+  await loadDemo(page);
+  const perMinute = await page.evaluate(() => window.turnover.inhibition.lastResult());
+  await page.selectOption('#inhibition-rate-time', 's');
+  await page.waitForFunction(() => window.turnover.inhibition.lastResult()?.units?.rate === 'µM/s', null, { timeout: 20_000 });
+  const perSecond = await page.evaluate(() => window.turnover.inhibition.lastResult());
+  for (const [k, fit] of perMinute.fits.entries()) {
+    for (const [j, p] of fit.parameters.entries()) {
+      const q = perSecond.fits[k].parameters[j];
+      const expected = p.name === 'Vmax' ? p.value / 60 : p.value;
+      // The solver works on numbers 60 times apart and stops at its own
+      // convergence test, so the two fits agree to far below the
+      // uncertainty, not bit for bit: within a millionth of the SE.
+      const se = p.name === 'Vmax' ? p.std_error / 60 : p.std_error;
+      assert.ok(Math.abs(q.value - expected) <= 1e-6 * se, `${fit.model} ${p.name}: ${q.value} against ${expected} (SE ${se})`);
+    }
+  }
+  assert.ok(perSecond.notes.some((n) => /Rates are reported per s: v in µM\/min ÷ 60/.test(n)), perSecond.notes.join(' | '));
+  // Undo puts the rates back per minute.
+  await page.keyboard.press('Control+z');
+  await page.waitForFunction(() => window.turnover.inhibition.lastResult()?.units?.rate === 'µM/min', null, { timeout: 20_000 });
+  assert.deepEqual(errors, []);
+  await page.close();
+});
+
 test('tables go to the section they belong to; an empty section stays quiet; a bad series says why', { timeout: 60_000 }, async () => {
   const { page, errors } = await openPage();
   await loadDemo(page);

@@ -113,7 +113,7 @@ struct DataOptions {
     #[arg(long, value_name = "UNIT")]
     rate_unit: Option<String>,
     /// Report rates (v, Vmax) per second, minute or hour, converted from
-    /// the unit of v (the [S]–v models only)
+    /// the unit of v (the [S]–v and inhibition models)
     #[arg(long, value_name = "TIME", value_parser = ["s", "min", "h"])]
     rates_per: Option<String>,
     /// What the weighting assumes about the error of a rate
@@ -334,8 +334,8 @@ fn prepare(command: &'static str, data: DataOptions, extra: ModelExtras, model: 
     let mut request = RateRequest { model: model.to_string(), ..RateRequest::default() };
     request.substrate_unit = data.substrate_unit;
     request.rate_unit = data.rate_unit;
-    if data.rates_per.is_some() && model_input(model).is_some_and(|input| input != ModelInput::Substrate) {
-        return Err(usage(command, format!("--rates-per applies to the [S]–v models (mm, substrate-inhibition, hill), not to {model}")));
+    if data.rates_per.is_some() && model_input(model).is_some_and(|input| input == ModelInput::Inhibitor) {
+        return Err(usage(command, format!("--rates-per applies to rate models ([S]–v and inhibition), not to the dose-response model {model}")));
     }
     request.rate_time = data.rates_per;
     let (weighting, note) = Weighting::from_option_name(&data.weighting).map_err(|m| usage(command, m))?;
@@ -798,6 +798,7 @@ fn inhibition_request(args: &Prepared, models: Vec<String>) -> InhibitionRequest
         substrate_unit: args.request.substrate_unit.clone(),
         inhibitor_unit: None,
         rate_unit: args.request.rate_unit.clone(),
+        rate_time: args.request.rate_time.clone(),
         interval_method: args.request.interval_method,
         bootstrap: args.request.bootstrap,
         weighting: args.request.weighting,

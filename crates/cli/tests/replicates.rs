@@ -149,7 +149,31 @@ fn rates_per_second() {
     assert_eq!(per_s["units"]["rate"], "µM/s");
     let out = Command::new(env!("CARGO_BIN_EXE_turnover")).args(["fit", &rates, "--model", "ic50", "--rates-per", "s"]).output().unwrap();
     assert_eq!(out.status.code(), Some(2));
-    assert!(String::from_utf8_lossy(&out.stderr).contains("--rates-per applies to the [S]–v models"));
+    assert!(String::from_utf8_lossy(&out.stderr).contains("--rates-per applies to rate models"));
+}
+
+/// `--rates-per s` in an inhibition fit (invented competitive rates, µM/min):
+/// Vmax per second is the per-minute Vmax over 60, Km and Kic unchanged (the
+/// rates are scaled before the fit; 1e-9 as above), the unit says µM/s and a
+/// note says what was converted.
+#[test]
+fn rates_per_second_in_inhibition() {
+    let table = "[S] (µM)\t[I] (µM)\tv (µM/min)\n\
+        2\t0\t1.64\n5\t0\t2.86\n10\t0\t3.64\n20\t0\t4.35\n50\t0\t4.72\n\
+        2\t5\t0.97\n5\t5\t2.02\n10\t5\t2.86\n20\t5\t3.62\n50\t5\t4.33\n\
+        2\t15\t0.52\n5\t15\t1.18\n10\t15\t1.98\n20\t15\t2.84\n50\t15\t3.80\n";
+    let rates = file("inhibition-per-min.tsv", table);
+    let per_min = json(&["fit", &rates, "--model", "competitive", "--json"]);
+    let per_s = json(&["fit", &rates, "--model", "competitive", "--json", "--rates-per", "s"]);
+    let constant = |r: &serde_json::Value, name: &str| {
+        r["parameters"].as_array().unwrap().iter().find(|p| p["name"] == name).unwrap()["value"].as_f64().unwrap()
+    };
+    assert!((constant(&per_s, "Vmax") - constant(&per_min, "Vmax") / 60.0).abs() <= 1e-9 * constant(&per_s, "Vmax"));
+    for name in ["Km", "Kic"] {
+        assert!((constant(&per_s, name) - constant(&per_min, name)).abs() <= 1e-9 * constant(&per_s, name), "{name}");
+    }
+    assert_eq!(per_s["units"]["rate"], "µM/s");
+    assert!(per_s["notes"].as_array().unwrap().iter().any(|n| n.as_str().unwrap().contains("Rates are reported per s")));
 }
 
 /// A workbook (written by the general-purpose rust_xlsxwriter crate, with

@@ -357,6 +357,7 @@ fn curve_analysis(request: &BatchRequest, curve: &CurveInput, model: &str) -> Re
             (Fitted { fit: a.fit, used, problems: a.problems, notes: a.notes, pic50, dimensions: Vec::new() }, plot)
         }),
         Some(ModelInput::SubstrateAndInhibitor) => analyse_inhibition(&InhibitionRequest {
+            rate_time: None,
             text: curve.text.clone(),
             models: vec![model.to_string()],
             excluded_lines: excluded,

@@ -52,6 +52,9 @@ pub struct InhibitionRequest {
     /// Unit of v; `None` or empty means "as the header says" (a matrix
     /// header has no place for it, so give it here).
     pub rate_unit: Option<String>,
+    /// Rates per `s`, `min` or `h` (converted from the unit of v before
+    /// the fit); `None` or empty keeps the unit as read.
+    pub rate_time: Option<String>,
     /// How the rates are weighted: uniform, relative or poisson (an sd
     /// column is not read from inhibition tables). Default uniform.
     pub weighting: crate::weighting::Weighting,
@@ -429,7 +432,7 @@ pub fn analyse_inhibition(request: &InhibitionRequest) -> Result<InhibitionAnaly
     };
     mechanisms.dedup();
     let Read { layout, mut points, problems, mut notes, units } = read(&request.text, &request.excluded_lines, &request.excluded_cells)?;
-    let (mut substrate_unit, mut inhibitor_unit, mut rate_unit) = units;
+    let (mut substrate_unit, mut inhibitor_unit, rate_unit) = units;
     let given = |u: &Option<String>| u.as_deref().map(str::trim).filter(|t| !t.is_empty()).map(str::to_string);
     if let Some(u) = given(&request.substrate_unit) {
         substrate_unit = Some(ConcentrationUnit::parse(&u).map_err(Error::invalid_option)?);
@@ -437,11 +440,18 @@ pub fn analyse_inhibition(request: &InhibitionRequest) -> Result<InhibitionAnaly
     if let Some(u) = given(&request.inhibitor_unit) {
         inhibitor_unit = Some(ConcentrationUnit::parse(&u).map_err(Error::invalid_option)?);
     }
-    if let Some(u) = given(&request.rate_unit) {
-        rate_unit = Some(RateUnit::parse(&u).map_err(Error::invalid_option)?);
-    }
+    let rate_unit = match given(&request.rate_unit) {
+        Some(u) => Some(RateUnit::parse(&u).map_err(Error::invalid_option)?),
+        None => rate_unit,
+    };
     if rate_unit.is_none() && layout == TableLayout::Matrix {
         notes.push("A matrix table's header has no place for the unit of v; choose it to label the rates.".to_string());
+    }
+    let (rate_unit, time_factor) = crate::rates::per_time(rate_unit, &request.rate_time, &mut notes)?;
+    if time_factor != 1.0 {
+        for p in &mut points {
+            p.v *= time_factor;
+        }
     }
     let used: Vec<InhibitionPoint> = points.iter().filter(|p| !p.excluded).cloned().collect();
     let most = mechanisms.iter().map(|m| Inhibition::new(*m).parameters().len()).max().unwrap_or(3);

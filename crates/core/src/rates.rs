@@ -286,32 +286,7 @@ fn analyse_rates_with(request: &RateRequest, fixed_weights: Option<&[f64]>) -> R
     let substrate_unit =
         choose_unit(&request.substrate_unit, heading(roles.substrate), ConcentrationUnit::parse, "[S]", &mut notes)?;
     let rate_unit = choose_unit(&request.rate_unit, roles.rate_heading.as_ref(), RateUnit::parse, "v", &mut notes)?;
-    // Rates per the chosen time unit: v in c/T_old is v·(T_new/T_old) in
-    // c/T_new.
-    let (rate_unit, time_factor) = match request.rate_time.as_deref().map(str::trim).filter(|t| !t.is_empty()) {
-        None => (rate_unit, 1.0),
-        Some(text) => {
-            let time = TimeUnit::parse(text).map_err(Error::invalid_option)?;
-            let Some(unit) = rate_unit else {
-                return Err(Error::invalid_option(format!(
-                    "rates per {} need the unit of v (a concentration per time); choose it or write it in the header",
-                    time.symbol()
-                )));
-            };
-            let factor = time.in_seconds() / unit.time.in_seconds();
-            let converted = RateUnit { concentration: unit.concentration, time };
-            if factor != 1.0 {
-                notes.push(format!(
-                    "Rates are reported per {}: v in {} × {} = v in {} (the rates and any sd column were converted before the fit).",
-                    time.symbol(),
-                    unit.symbol(),
-                    factor,
-                    converted.symbol()
-                ));
-            }
-            (Some(converted), factor)
-        }
-    };
+    let (rate_unit, time_factor) = per_time(rate_unit, &request.rate_time, &mut notes)?;
 
     let mut points = Vec::new();
     for row in &table.rows {
@@ -925,6 +900,44 @@ fn bootstrap_intervals(
     })
 }
 
+/// Rates per the chosen time unit (`rate_time`: `s`, `min`, `h`; `None` or
+/// empty keeps the unit as read): v in c/T_old is v·(T_new/T_old) in
+/// c/T_new. Returns the unit the rates are reported in and the factor
+/// every rate (and sd) is multiplied by, with a note when it is not 1.
+/// Shared by every analysis that fits rates (rates, inhibition).
+pub(crate) fn per_time(
+    rate_unit: Option<RateUnit>,
+    rate_time: &Option<String>,
+    notes: &mut Vec<String>,
+) -> Result<(Option<RateUnit>, f64), Error> {
+    Ok(match rate_time.as_deref().map(str::trim).filter(|t| !t.is_empty()) {
+        None => (rate_unit, 1.0),
+        Some(text) => {
+            let time = TimeUnit::parse(text).map_err(Error::invalid_option)?;
+            let Some(unit) = rate_unit else {
+                return Err(Error::invalid_option(format!(
+                    "rates per {} need the unit of v (a concentration per time); choose it or write it in the header",
+                    time.symbol()
+                )));
+            };
+            let factor = time.in_seconds() / unit.time.in_seconds();
+            let converted = RateUnit { concentration: unit.concentration, time };
+            if factor != 1.0 {
+                // The factor is a ratio of 1, 60 and 3600 s, so it is
+                // written as a whole multiple or divisor.
+                let by = if factor >= 1.0 { format!("× {}", factor.round()) } else { format!("÷ {}", (1.0 / factor).round()) };
+                notes.push(format!(
+                    "Rates are reported per {}: v in {} {by} = v in {} (the rates and any sd column were converted before the fit).",
+                    time.symbol(),
+                    unit.symbol(),
+                    converted.symbol()
+                ));
+            }
+            (Some(converted), factor)
+        }
+    })
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -1167,7 +1180,8 @@ mod tests {
             for k in 1..4 {
                 assert!(close(a[k].value, b[k].value) && close(a[k].std_error.unwrap(), b[k].std_error.unwrap()), "{time} {}", a[k].name);
             }
-            assert_eq!(other.notes.iter().any(|n| n.starts_with(&format!("Rates are reported per {time}: v in µM/min × "))), time != "min", "{:?}", other.notes);
+            let by = if factor > 1.0 { "× 60" } else { "÷ 60" };
+            assert_eq!(other.notes.iter().any(|n| n.starts_with(&format!("Rates are reported per {time}: v in µM/min {by} = v in µM/{time}"))), time != "min", "{:?}", other.notes);
         }
         let mut bare = request("S\tv\n1\t1\n2\t1.5\n4\t2\n8\t2.2\n");
         bare.rate_time = Some("s".into());
