@@ -93,16 +93,31 @@ const KINDS = {
     hint: 'One table with a column naming each row’s data set (headed <code>set</code>, or name the column below) and the model’s columns: <code>[S]</code> and <code>v</code> for Michaelis-Menten; <code>[S]</code>, <code>[I]</code>, <code>v</code> for an inhibition mechanism; <code>[I]</code> and a response for the logistic. The sets are fitted together with each constant shared or separate, and the extra-sum-of-squares F test says which constants differ, with each set’s ratio to the reference set.',
     fields: [
       { key: 'by', label: 'Set column', type: 'text', size: 10, placeholder: 'set' },
-      { key: 'model', label: 'Model', type: 'select', options: [['mm', 'Michaelis-Menten'], ['competitive', 'competitive inhibition'], ['uncompetitive', 'uncompetitive inhibition'], ['noncompetitive', 'noncompetitive inhibition'], ['mixed', 'mixed inhibition'], ['ic50', 'four-parameter logistic (IC50)']] },
+      { key: 'model', label: 'Model', type: 'select', options: [['mm', 'Michaelis-Menten'], ['hill', 'Hill (cooperative)'], ['substrate-inhibition', 'substrate inhibition'], ['competitive', 'competitive inhibition'], ['uncompetitive', 'uncompetitive inhibition'], ['noncompetitive', 'noncompetitive inhibition'], ['mixed', 'mixed inhibition'], ['ic50', 'four-parameter logistic (IC50)'], ['morrison', 'tight binding (Morrison)']] },
+      { key: 'enzyme', label: '[E]t (units of [I])', type: 'text', size: 6, placeholder: 'required', shownWhen: (d) => d.model === 'morrison' },
+      { key: 'ceiling', label: 'fixed ceiling', type: 'text', size: 5, placeholder: 'fitted', shownWhen: (d) => d.model === 'ic50' },
+      { key: 'floor', label: 'fixed floor', type: 'text', size: 5, placeholder: 'fitted', shownWhen: (d) => d.model === 'ic50' },
       { key: 'reference', label: 'Reference set', type: 'text', size: 12, placeholder: 'the first set' },
       { key: 'weighting', label: 'Weights', type: 'select', options: WEIGHTS },
     ],
     demo: { name: 'Est-5 wild type and W84A', text: SETS_DEMO },
     available: () => typeof wasm_bindgen.compareSets === 'function',
-    run: (d) => JSON.parse(wasm_bindgen.compareSets(JSON.stringify({
-      text: d.text, by: d.by.trim() || 'set', model: d.model, reference: d.reference.trim() || null,
-      enzyme: null, fixed_top: null, fixed_bottom: null, weighting: d.weighting,
-    }))),
+    run: (d) => {
+      // Each number only where its model reads it, so a value left from
+      // another model never reaches the fit.
+      const number = (key, label, wanted) => {
+        if (!wanted) return null;
+        const { value, problem } = page.ui.readTyped(d[key]);
+        if (problem) throw new Error(`${label}: ${problem}`);
+        return value;
+      };
+      const enzyme = number('enzyme', '[E]t', d.model === 'morrison');
+      if (d.model === 'morrison' && enzyme === null) throw new Error('The tight-binding (Morrison) model needs [E]t, in the units of [I]: type it in the options.');
+      return JSON.parse(wasm_bindgen.compareSets(JSON.stringify({
+        text: d.text, by: d.by.trim() || 'set', model: d.model, reference: d.reference.trim() || null,
+        enzyme, fixed_top: number('ceiling', 'Fixed ceiling', d.model === 'ic50'), fixed_bottom: number('floor', 'Fixed floor', d.model === 'ic50'), weighting: d.weighting,
+      })));
+    },
     present: (r) => ({
       verdict: r.verdict,
       fits: r.sets.map((s) => ({ title: `${s.name} (own fit, n = ${s.n})`, fit: s.fit })),
@@ -220,6 +235,7 @@ function build() {
         if (f.placeholder) input.placeholder = f.placeholder;
       }
       input.id = id;
+      if (f.shownWhen) label.dataset.conditional = f.key;
       label.append(input);
       group.append(label, ' ');
     }
@@ -239,6 +255,11 @@ function build() {
     const text = doc[kind]?.text ?? '';
     if ($('further-input').value !== text) $('further-input').value = text;
     for (const group of box.querySelectorAll('.further-fields')) group.hidden = group.dataset.kind !== kind;
+    // Options that apply to some choices only (such as [E]t for the
+    // tight-binding model) are shown with those choices.
+    for (const f of KINDS[kind]?.fields ?? []) {
+      if (f.shownWhen) $(`further-${kind}-${f.key}`).closest('label').hidden = !f.shownWhen(doc[kind]);
+    }
     $('further-hint').replaceChildren(...hintNodes(KINDS[kind]?.hint ?? ''));
     $('further-demo').hidden = !KINDS[kind]?.demo;
   });

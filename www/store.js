@@ -48,7 +48,7 @@ const DEFAULTS = {
   // The further questions: which one is shown, and each one's own table
   // and options (schema 3).
   further: { kind: 'sets' },
-  sets: { text: '', by: 'set', model: 'mm', reference: '', weighting: 'uniform' },
+  sets: { text: '', by: 'set', model: 'mm', enzyme: '', ceiling: '', floor: '', reference: '', weighting: 'uniform' },
   bisubstrate: { text: '', rate_unit: '', enzyme: '', enzyme_unit: 'nM', weighting: 'relative' },
   ph: { text: '', column: '', weighting: 'relative' },
   temperature: { text: '', column: '', at: '25 °C', weighting: 'relative' },
