@@ -935,8 +935,12 @@ function computeRateResult(doc) {
  *  series ([S], [I] and rates, long or matrix), a dose-response series
  *  ([I] and a response, no [S]), or a rate table. */
 function tableHome(text) {
-  if (wasm_bindgen.isInhibitionTable(text)) return 'inhibition';
-  if (wasm_bindgen.isDoseTable(text)) return 'dose';
+  // What a table is shows in its header and first rows; a long table is
+  // judged by its first 500 lines (reading 100,000 lines twice took half
+  // a second for this question alone).
+  const head = text.length > 50_000 ? text.split('\n', 500).join('\n') : text;
+  if (wasm_bindgen.isInhibitionTable(head)) return 'inhibition';
+  if (wasm_bindgen.isDoseTable(head)) return 'dose';
   return 'rates';
 }
 
@@ -982,6 +986,14 @@ function looksLikeRates(text) {
   }
 }
 
+/** Drawn positions as `{row, x, y}`: the rate plots return them packed
+ *  (an Int32Array of row, x, y per point), the others as objects. */
+function* unpackPositions(positions) {
+  if (positions instanceof Int32Array) {
+    for (let k = 0; k + 2 < positions.length; k += 3) yield { row: positions[k], x: positions[k + 1], y: positions[k + 2] };
+  } else yield* positions ?? [];
+}
+
 /** The drawn point nearest a click on `canvas` (within 10 CSS pixels),
  *  from the positions the core's drawing returned, or null. */
 function nearestPoint(canvas, positions, event) {
@@ -991,7 +1003,7 @@ function nearestPoint(canvas, positions, event) {
   const y = (event.clientY - box.top) * (canvas.height / canvas.clientHeight);
   let best = null;
   let bestDistance = 10 * scaleX;
-  for (const p of positions ?? []) {
+  for (const p of unpackPositions(positions)) {
     const distance = Math.hypot(p.x - x, p.y - y);
     if (distance < bestDistance) {
       best = p;
@@ -1696,7 +1708,7 @@ Object.assign(window.turnover, {
     const canvas = $(`plot-${kind}`);
     const sx = canvas.clientWidth / canvas.width;
     const sy = canvas.clientHeight / canvas.height;
-    return (state.positions[kind] ?? []).map((p) => ({ row: p.row, x: p.x * sx, y: p.y * sy }));
+    return [...unpackPositions(state.positions[kind])].map((p) => ({ row: p.row, x: p.x * sx, y: p.y * sy }));
   },
   analyse: flushAll,
   tableEntered: (...args) => tableEntered(...args),
