@@ -240,9 +240,19 @@ function parameterRow(p) {
     row.dataset.flag = p.flag;
     name.append(element('span', { class: 'param-flag', title: 'See the warnings below' }, ` ${FLAG_WORDS[p.flag] ?? p.flag}`));
   }
+  const value = element('td', { class: 'num value' }, f.value);
+  // The small-sample bias (Box 1971), shown where it is worth a tenth of
+  // the standard error (the command line's rule); the core withholds it
+  // for flagged constants and where it is not below the SE.
+  const corrected = p.value_bias_corrected;
+  if (corrected !== null && corrected !== undefined && p.std_error && Math.abs(p.bias) > 0.1 * p.std_error) {
+    row.dataset.biasCorrected = String(corrected);
+    const text = wasm_bindgen.formatEstimate(corrected, p.std_error, undefined, undefined).value;
+    value.append(element('span', { class: 'bias-corrected', title: 'The estimate less its small-sample bias, computed from the curvature of the model (Box 1971). Least-squares estimates from few points are slightly biased; the interval is that of the estimate.' }, `bias-corrected ${text}`));
+  }
   row.append(
     name,
-    element('td', { class: 'num value' }, f.value),
+    value,
     element('td', { class: 'num se' }, f.se ?? '—'),
     element('td', { class: 'num ci', title: `interval: ${p.ci_method}` },
       p.ci_low === null && p.ci_high === null ? '—' : `${end(f.low)} to ${end(f.high)}`),
