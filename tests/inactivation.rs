@@ -162,3 +162,68 @@ fn fast_kobs_and_low_inhibitor_are_warned() {
     assert!(a.warnings.iter().any(|w| w.starts_with("Trace T1") && w.contains("10× [E]")), "{:?}", a.warnings);
     assert!(!a.warnings.iter().any(|w| w.starts_with("Trace T2") && w.contains("10× [E]")));
 }
+
+/// The global fit's design (issue 14): kinact 0.2 /min, KI 5 µM, [I] = 1,
+/// 2, 4, 8, 15, 25 µM (0.2–5 × KI) and one trace at [I] = 0, readings every
+/// 0.5 min (30 s) for 30 min (61 per trace), v0 0.02 per min, offset 0.05,
+/// vs 0 (irreversible), noise SD 0.001.
+fn global_design() -> Design {
+    Design { kinact: 0.2, ki: 5.0, inhibitor: vec![1.0, 2.0, 4.0, 8.0, 15.0, 25.0], noise: 0.001 }
+}
+
+/// Bias and coverage of the global fit's kinact, KI and kinact/KI over
+/// `sets` seeded data sets (seed 1414), beside the two-step estimates.
+/// Returns, per constant, (mean relative bias, Monte Carlo SE of that mean,
+/// coverage, SD of the global estimates / SD of the two-step ones).
+fn global_study(sets: usize) -> Vec<(&'static str, f64, f64, f64, f64)> {
+    let d = global_design();
+    let truth = [("kinact", d.kinact), ("KI", d.ki), ("kinact/KI", d.kinact / d.ki)];
+    let mut rng = SplitMix64::new(1414);
+    let mut global: Vec<Vec<f64>> = vec![Vec::new(); 3];
+    let mut two_step: Vec<Vec<f64>> = vec![Vec::new(); 3];
+    let mut covered = [0usize; 3];
+    for _ in 0..sets {
+        let a = analyse_inactivation(&request(&d, &mut rng)).unwrap();
+        let g = a.global.as_ref().expect("global fit");
+        assert!(g.converged && g.saturation, "global fit: converged {}, saturation {}", g.converged, g.saturation);
+        assert_eq!(g.traces.len(), 7);
+        for (j, (name, value)) in truth.iter().enumerate() {
+            let p = g.parameters.iter().find(|p| p.name == *name).unwrap();
+            global[j].push(p.value);
+            covered[j] += (p.ci_low.unwrap() <= *value && *value <= p.ci_high.unwrap()) as usize;
+            if let Some(q) = a.parameters.iter().find(|p| p.name == *name) {
+                two_step[j].push(q.value);
+            }
+        }
+    }
+    let mean = |v: &[f64]| v.iter().sum::<f64>() / v.len() as f64;
+    let sd = |v: &[f64]| {
+        let m = mean(v);
+        (v.iter().map(|x| (x - m).powi(2)).sum::<f64>() / (v.len() - 1) as f64).sqrt()
+    };
+    truth
+        .iter()
+        .enumerate()
+        .map(|(j, (name, value))| {
+            let bias = mean(&global[j]) / value - 1.0;
+            let mc_se = sd(&global[j]) / value / (sets as f64).sqrt();
+            let coverage = covered[j] as f64 / sets as f64;
+            let efficiency = sd(&global[j]) / sd(&two_step[j]);
+            println!(
+                "global fit, {sets} sets: {name} bias {:+.2}% (Monte Carlo SE {:.2}%), 95% coverage {:.1}%, SD global/two-step {efficiency:.3}",
+                100.0 * bias,
+                100.0 * mc_se,
+                100.0 * coverage
+            );
+            (*name, bias, mc_se, coverage, efficiency)
+        })
+        .collect()
+}
+
+#[test]
+fn global_fit_study_short() {
+    let t = std::time::Instant::now();
+    global_study(300);
+    println!("{:?}", t.elapsed());
+}
+
