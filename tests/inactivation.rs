@@ -220,10 +220,30 @@ fn global_study(sets: usize) -> Vec<(&'static str, f64, f64, f64, f64)> {
         .collect()
 }
 
-#[test]
-fn global_fit_study_short() {
-    let t = std::time::Instant::now();
-    global_study(300);
-    println!("{:?}", t.elapsed());
+/// Wanted over the sets: every global fit converges and sees saturation
+/// (checked inside the study); the mean relative bias of each constant
+/// within 2% (a nonlinear estimate has an O(1/n) bias; at 300 sets KI's
+/// was +1.2% ± 0.5%); 95% interval coverage between 88% and 99% (the
+/// intervals are asymptotic; binomial SD 1.8% at 150 sets); and the global
+/// estimates no more scattered than the two-step ones (SD ratio ≤ 1.05).
+fn check_global_study(sets: usize, low_coverage: f64) {
+    for (name, bias, _, coverage, efficiency) in global_study(sets) {
+        assert!(bias.abs() < 0.02, "{name}: bias {bias}");
+        assert!((low_coverage..=0.99).contains(&coverage), "{name}: coverage {coverage}");
+        assert!(efficiency <= 1.05, "{name}: SD ratio {efficiency}");
+    }
 }
 
+/// 150 sets (seed 1414); the design is [`global_design`].
+#[test]
+fn global_fit_bias_and_coverage() {
+    check_global_study(150, 0.88);
+}
+
+/// The same study with 2,000 sets (binomial SD of coverage 0.5%):
+/// `cargo test --release -p turnover-tests --test inactivation -- --ignored`.
+#[test]
+#[ignore]
+fn global_fit_bias_and_coverage_long() {
+    check_global_study(2000, 0.90);
+}
