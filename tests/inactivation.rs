@@ -79,6 +79,16 @@ fn exact_data_give_back_the_constants() {
     let (ratio, _, _) = parameter(&a, "kinact/KI").unwrap();
     assert!((kinact / 0.2 - 1.0).abs() < 1e-4 && (ki / 5.0 - 1.0).abs() < 1e-4 && (ratio / 0.04 - 1.0).abs() < 1e-4);
     assert!(a.notes.iter().any(|n| n.contains("without inhibitor")));
+    // The global fit takes all seven traces (C0 at [I] = 0 with kobs = 0)
+    // and gives the constants back too.
+    let g = a.global.as_ref().unwrap();
+    assert!(g.converged && g.saturation);
+    assert_eq!((g.traces.len(), g.n, g.fitted), (7, 7 * 61, 2 + 6 * 3 + 2));
+    assert_eq!(g.traces[0].vs, None);
+    let global = |name: &str| g.parameters.iter().find(|p| p.name == name).unwrap().value;
+    assert!((global("kinact") / 0.2 - 1.0).abs() < 1e-4 && (global("KI") / 5.0 - 1.0).abs() < 1e-4);
+    assert!((global("kinact/KI") / 0.04 - 1.0).abs() < 1e-4);
+    assert_eq!(g.comparison.len(), 3);
     assert_eq!(a.parameters.iter().find(|p| p.name == "KI").unwrap().unit.as_deref(), Some("µM"));
     let mut corrected = request(&d, &mut rng);
     corrected.substrate = Some(10.0);
@@ -148,6 +158,12 @@ fn without_saturation_only_the_ratio_is_reported() {
     assert!((ratio / 0.004 - 1.0).abs() < 0.10, "{ratio}");
     assert!(lo < ratio && ratio < hi);
     assert!(a.warnings.iter().any(|w| w.contains("Saturation of kobs is not seen")), "{:?}", a.warnings);
+    // The global fit does not see saturation either and reports the ratio
+    // alone, within 10% of the truth, with its reason.
+    let g = a.global.as_ref().unwrap();
+    assert!(!g.saturation && g.parameters.len() == 1);
+    assert!((g.parameters[0].value / 0.004 - 1.0).abs() < 0.10, "{}", g.parameters[0].value);
+    assert!(g.warnings.iter().any(|w| w.contains("saturation of kobs is not seen")), "{:?}", g.warnings);
 }
 
 /// Warnings: a kobs whose half-life is under two reading intervals, and
