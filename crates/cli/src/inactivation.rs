@@ -159,11 +159,10 @@ fn global_text(g: &GlobalInactivation) -> String {
     text.push_str(&crate::constants::constants_block(&g.parameters, 95.0, "asymptotic"));
     let optional = |v: Option<f64>| if v.is_some() { crate::constants::plain(v) } else { "not computed".to_string() };
     text.push_str(&format!(
-        "residual SD {}, AICc {}, {} ({})\n",
+        "residual SD {}, AICc {}, {}\n",
         optional(g.sigma),
         optional(g.aicc),
-        if g.converged { "converged" } else { "NOT converged" },
-        g.termination_text
+        if g.converged { "converged".to_string() } else { format!("NOT converged ({})", g.termination_text) }
     ));
     for c in &g.comparison {
         text.push_str(&format!(
