@@ -79,6 +79,16 @@ fn exact_data_give_back_the_constants() {
     let (ratio, _, _) = parameter(&a, "kinact/KI").unwrap();
     assert!((kinact / 0.2 - 1.0).abs() < 1e-4 && (ki / 5.0 - 1.0).abs() < 1e-4 && (ratio / 0.04 - 1.0).abs() < 1e-4);
     assert!(a.notes.iter().any(|n| n.contains("without inhibitor")));
+    // The global fit takes all seven traces (C0 at [I] = 0 with kobs = 0)
+    // and gives the constants back too.
+    let g = a.global.as_ref().unwrap();
+    assert!(g.converged && g.saturation);
+    assert_eq!((g.traces.len(), g.n, g.fitted), (7, 7 * 61, 2 + 6 * 3 + 2));
+    assert_eq!(g.traces[0].vs, None);
+    let global = |name: &str| g.parameters.iter().find(|p| p.name == name).unwrap().value;
+    assert!((global("kinact") / 0.2 - 1.0).abs() < 1e-4 && (global("KI") / 5.0 - 1.0).abs() < 1e-4);
+    assert!((global("kinact/KI") / 0.04 - 1.0).abs() < 1e-4);
+    assert_eq!(g.comparison.len(), 3);
     assert_eq!(a.parameters.iter().find(|p| p.name == "KI").unwrap().unit.as_deref(), Some("µM"));
     let mut corrected = request(&d, &mut rng);
     corrected.substrate = Some(10.0);
@@ -148,6 +158,12 @@ fn without_saturation_only_the_ratio_is_reported() {
     assert!((ratio / 0.004 - 1.0).abs() < 0.10, "{ratio}");
     assert!(lo < ratio && ratio < hi);
     assert!(a.warnings.iter().any(|w| w.contains("Saturation of kobs is not seen")), "{:?}", a.warnings);
+    // The global fit does not see saturation either and reports the ratio
+    // alone, within 10% of the truth, with its reason.
+    let g = a.global.as_ref().unwrap();
+    assert!(!g.saturation && g.parameters.len() == 1);
+    assert!((g.parameters[0].value / 0.004 - 1.0).abs() < 0.10, "{}", g.parameters[0].value);
+    assert!(g.warnings.iter().any(|w| w.contains("saturation of kobs is not seen")), "{:?}", g.warnings);
 }
 
 /// Warnings: a kobs whose half-life is under two reading intervals, and
@@ -161,4 +177,89 @@ fn fast_kobs_and_low_inhibitor_are_warned() {
     assert!(a.warnings.iter().any(|w| w.starts_with("Trace T2") && w.contains("reading interval")), "{:?}", a.warnings);
     assert!(a.warnings.iter().any(|w| w.starts_with("Trace T1") && w.contains("10× [E]")), "{:?}", a.warnings);
     assert!(!a.warnings.iter().any(|w| w.starts_with("Trace T2") && w.contains("10× [E]")));
+}
+
+/// The global fit's design (issue 14): kinact 0.2 /min, KI 5 µM, [I] = 1,
+/// 2, 4, 8, 15, 25 µM (0.2–5 × KI) and one trace at [I] = 0, readings every
+/// 0.5 min (30 s) for 30 min (61 per trace), v0 0.02 per min, offset 0.05,
+/// vs 0 (irreversible), noise SD 0.001.
+fn global_design() -> Design {
+    Design { kinact: 0.2, ki: 5.0, inhibitor: vec![1.0, 2.0, 4.0, 8.0, 15.0, 25.0], noise: 0.001 }
+}
+
+/// Bias and coverage of the global fit's kinact, KI and kinact/KI over
+/// `sets` seeded data sets (seed 1414), beside the two-step estimates.
+/// Returns, per constant, (mean relative bias, Monte Carlo SE of that mean,
+/// coverage, SD of the global estimates / SD of the two-step ones).
+fn global_study(sets: usize) -> Vec<(&'static str, f64, f64, f64, f64)> {
+    let d = global_design();
+    let truth = [("kinact", d.kinact), ("KI", d.ki), ("kinact/KI", d.kinact / d.ki)];
+    let mut rng = SplitMix64::new(1414);
+    let mut global: Vec<Vec<f64>> = vec![Vec::new(); 3];
+    let mut two_step: Vec<Vec<f64>> = vec![Vec::new(); 3];
+    let mut covered = [0usize; 3];
+    for _ in 0..sets {
+        let a = analyse_inactivation(&request(&d, &mut rng)).unwrap();
+        let g = a.global.as_ref().expect("global fit");
+        assert!(g.converged && g.saturation, "global fit: converged {}, saturation {}", g.converged, g.saturation);
+        assert_eq!(g.traces.len(), 7);
+        for (j, (name, value)) in truth.iter().enumerate() {
+            let p = g.parameters.iter().find(|p| p.name == *name).unwrap();
+            global[j].push(p.value);
+            covered[j] += (p.ci_low.unwrap() <= *value && *value <= p.ci_high.unwrap()) as usize;
+            if let Some(q) = a.parameters.iter().find(|p| p.name == *name) {
+                two_step[j].push(q.value);
+            }
+        }
+    }
+    let mean = |v: &[f64]| v.iter().sum::<f64>() / v.len() as f64;
+    let sd = |v: &[f64]| {
+        let m = mean(v);
+        (v.iter().map(|x| (x - m).powi(2)).sum::<f64>() / (v.len() - 1) as f64).sqrt()
+    };
+    truth
+        .iter()
+        .enumerate()
+        .map(|(j, (name, value))| {
+            let bias = mean(&global[j]) / value - 1.0;
+            let mc_se = sd(&global[j]) / value / (sets as f64).sqrt();
+            let coverage = covered[j] as f64 / sets as f64;
+            let efficiency = sd(&global[j]) / sd(&two_step[j]);
+            println!(
+                "global fit, {sets} sets: {name} bias {:+.2}% (Monte Carlo SE {:.2}%), 95% coverage {:.1}%, SD global/two-step {efficiency:.3}",
+                100.0 * bias,
+                100.0 * mc_se,
+                100.0 * coverage
+            );
+            (*name, bias, mc_se, coverage, efficiency)
+        })
+        .collect()
+}
+
+/// Wanted over the sets: every global fit converges and sees saturation
+/// (checked inside the study); the mean relative bias of each constant
+/// within 2% (a nonlinear estimate has an O(1/n) bias; at 300 sets KI's
+/// was +1.2% ± 0.5%); 95% interval coverage between 88% and 99% (the
+/// intervals are asymptotic; binomial SD 1.8% at 150 sets); and the global
+/// estimates no more scattered than the two-step ones (SD ratio ≤ 1.05).
+fn check_global_study(sets: usize, low_coverage: f64) {
+    for (name, bias, _, coverage, efficiency) in global_study(sets) {
+        assert!(bias.abs() < 0.02, "{name}: bias {bias}");
+        assert!((low_coverage..=0.99).contains(&coverage), "{name}: coverage {coverage}");
+        assert!(efficiency <= 1.05, "{name}: SD ratio {efficiency}");
+    }
+}
+
+/// 150 sets (seed 1414); the design is [`global_design`].
+#[test]
+fn global_fit_bias_and_coverage() {
+    check_global_study(150, 0.88);
+}
+
+/// The same study with 2,000 sets (binomial SD of coverage 0.5%):
+/// `cargo test --release -p turnover-tests --test inactivation -- --ignored`.
+#[test]
+#[ignore]
+fn global_fit_bias_and_coverage_long() {
+    check_global_study(2000, 0.90);
 }

@@ -10,6 +10,7 @@ use serde::Serialize;
 use std::process::ExitCode;
 use turnover_core::fit::ParameterEstimate;
 use turnover_core::inactivation::{inactivation_from_traces, TraceKobs};
+use turnover_core::inactivation_global::GlobalInactivation;
 use turnover_core::units::ConcentrationUnit;
 
 #[derive(Args)]
@@ -71,7 +72,8 @@ pub(crate) fn inactivation_command(options: InactivationOptions) -> Result<ExitC
     }
     let traces = analyse(COMMAND, &args)?;
     let analysis = inactivation_from_traces(&traces, substrate, km).map_err(|e| Failure::Input(e.message))?;
-    let converged = analysis.traces.iter().all(|t| t.converged);
+    let converged =
+        analysis.traces.iter().all(|t| t.converged) && analysis.global.as_ref().is_none_or(|g| g.converged);
     let mut out = Output::new();
     if args.json {
         #[derive(Serialize)]
@@ -85,6 +87,7 @@ pub(crate) fn inactivation_command(options: InactivationOptions) -> Result<ExitC
             competition_factor: f64,
             warnings: &'a [String],
             notes: &'a [String],
+            global: &'a Option<GlobalInactivation>,
             caution: &'a str,
         }
         out.json(&InactivationJson {
@@ -97,6 +100,7 @@ pub(crate) fn inactivation_command(options: InactivationOptions) -> Result<ExitC
             competition_factor: analysis.competition_factor,
             warnings: &analysis.warnings,
             notes: &analysis.notes,
+            global: &analysis.global,
             caution: &analysis.caution,
         })?;
     } else {
@@ -121,8 +125,11 @@ pub(crate) fn inactivation_command(options: InactivationOptions) -> Result<ExitC
                 if t.used { "" } else { "  (not used)" }
             ));
         }
-        text.push('\n');
+        text.push_str("\ntwo steps (kobs per trace, then kobs against [I]):\n");
         text.push_str(&crate::constants::constants_block(&analysis.parameters, 95.0, "asymptotic"));
+        if let Some(g) = &analysis.global {
+            text.push_str(&global_text(g));
+        }
         for w in &analysis.warnings {
             text.push_str(&format!("warning: {w}\n"));
         }
@@ -134,7 +141,39 @@ pub(crate) fn inactivation_command(options: InactivationOptions) -> Result<ExitC
     }
     out.finish()?;
     if !converged {
-        warn("turnover: some progress-curve fits did not converge");
+        warn("turnover: some progress-curve fits (or the global fit) did not converge");
     }
     Ok(if converged { ExitCode::SUCCESS } else { ExitCode::from(3) })
+}
+
+/// The global fit beside the two-step constants: its constants by the
+/// formatting rule, its statistics, and each constant's ratio to the
+/// two-step value.
+fn global_text(g: &GlobalInactivation) -> String {
+    let mut text = format!(
+        "\nglobal fit (all {} traces at once, kinact and KI shared; {} readings, {} parameters):\n",
+        g.traces.len(),
+        g.n,
+        g.fitted
+    );
+    text.push_str(&crate::constants::constants_block(&g.parameters, 95.0, "asymptotic"));
+    let optional = |v: Option<f64>| if v.is_some() { crate::constants::plain(v) } else { "not computed".to_string() };
+    text.push_str(&format!(
+        "residual SD {}, AICc {}, {}\n",
+        optional(g.sigma),
+        optional(g.aicc),
+        if g.converged { "converged".to_string() } else { format!("NOT converged ({})", g.termination_text) }
+    ));
+    for c in &g.comparison {
+        text.push_str(&format!(
+            "{}: global/two-step {}{}\n",
+            c.name,
+            crate::constants::plain(Some(c.ratio)),
+            c.se_ratio.map_or(String::new(), |r| format!(", standard errors {}", crate::constants::plain(Some(r))))
+        ));
+    }
+    for w in &g.warnings {
+        text.push_str(&format!("warning: {w}\n"));
+    }
+    text
 }

@@ -31,10 +31,17 @@
 //!
 //! Traces without [I], or with [I] = 0, are left out (their kobs is not
 //! defined when nothing inactivates the enzyme), with a note.
+//!
+//! **Global fit.** Beside the two steps, every trace is also fitted at once
+//! with kinact and KI shared ([`crate::inactivation_global`]; traces at
+//! [I] = 0 join it with kobs = 0), reported in
+//! [`InactivationAnalysis::global`] with a comparison to the two-step
+//! constants.
 
 use crate::compare::SIGNIFICANCE;
 use crate::error::Error;
 use crate::fit::{estimate, fit_model, FitSettings, ParameterEstimate};
+use crate::inactivation_global::{fit_global, GlobalInactivation, TraceReadings, TwoStep};
 use crate::model::{Dimension, Model, Observations, ParameterSpec};
 use crate::models::{MichaelisMenten, MichaelisMentenSpecificity};
 use crate::plots::{PlotData, PlotKind, PlotPoint, Series};
@@ -70,7 +77,7 @@ const CURVE_PARAMETERS: [ParameterSpec; 4] = [
 
 /// `(1 − e^(−k·t))/k` and its derivative in k; a series near k·t = 0,
 /// where the closed forms cancel.
-fn relaxation(k: f64, t: f64) -> (f64, f64) {
+pub(crate) fn relaxation(k: f64, t: f64) -> (f64, f64) {
     let x = k * t;
     if x.abs() < 1e-4 {
         (t * (1.0 - x / 2.0 + x * x / 6.0), t * t * (-0.5 + x / 3.0))
@@ -139,7 +146,7 @@ fn median_step(t: &[f64]) -> Option<f64> {
 }
 
 /// Least squares of (v0, vs, offset) at fixed kobs = `k`: (RSS, parameters).
-fn linear_at(k: f64, t: &[f64], y: &[f64]) -> Option<(f64, Vec<f64>)> {
+pub(crate) fn linear_at(k: f64, t: &[f64], y: &[f64]) -> Option<(f64, Vec<f64>)> {
     let mut a = Matrix3::zeros();
     let mut b = Vector3::zeros();
     for (&t, &y) in t.iter().zip(y) {
@@ -205,6 +212,9 @@ pub struct InactivationAnalysis {
     pub notes: Vec<String>,
     /// Progress curves with their fits, and kobs against [I].
     pub plots: Vec<PlotData>,
+    /// The global fit of every trace with kinact and KI shared; `None`
+    /// when it could not be made (the reason is in the notes).
+    pub global: Option<GlobalInactivation>,
     /// The caution every result carries.
     pub caution: String,
 }
@@ -236,6 +246,7 @@ pub fn inactivation_from_traces(
     let settings = FitSettings::default();
     let mut results = Vec::new();
     let mut curves = Vec::new();
+    let mut members = Vec::new();
     let (mut no_inhibitor, mut zero) = (0, 0);
     let i_per_e = unit_ratio(analysis.inhibitor_unit.as_deref(), analysis.enzyme_unit.as_deref());
     for trace in &analysis.traces {
@@ -246,10 +257,6 @@ pub fn inactivation_from_traces(
             no_inhibitor += 1;
             continue;
         };
-        if i <= 0.0 {
-            zero += 1;
-            continue;
-        }
         let end = trace
             .cells
             .iter()
@@ -257,6 +264,13 @@ pub fn inactivation_from_traces(
             .unwrap_or(trace.times.len());
         let (t, y): (Vec<f64>, Vec<f64>) =
             (0..end).filter_map(|j| trace.values[j].map(|v| (trace.times[j], v))).unzip();
+        if i <= 0.0 {
+            zero += 1;
+            if i == 0.0 && t.len() >= 6 {
+                members.push(TraceReadings { name: trace.name.clone(), i, t, y, column: trace.column });
+            }
+            continue;
+        }
         if t.len() < 6 {
             notes.push(format!("Trace {} has fewer than 6 usable readings and was not fitted.", trace.name));
             continue;
@@ -311,6 +325,7 @@ pub fn inactivation_from_traces(
             curve,
             dashed: false,
         });
+        members.push(TraceReadings { name: trace.name.clone(), i, t: t.clone(), y: y.clone(), column: trace.column });
         results.push(TraceKobs {
             trace: trace.name.clone(),
             i,
@@ -327,8 +342,9 @@ pub fn inactivation_from_traces(
     }
     if no_inhibitor + zero > 0 {
         notes.push(format!(
-            "{} sample trace(s) without inhibitor were not fitted: kobs is not defined when nothing inactivates the enzyme.",
-            no_inhibitor + zero
+            "{} sample trace(s) without inhibitor were not fitted one by one: kobs is not defined when nothing inactivates the enzyme.{}",
+            no_inhibitor + zero,
+            if zero > 0 { " Those at [I] = 0 join the global fit with kobs = 0." } else { "" }
         ));
     }
     if results.is_empty() {
@@ -417,6 +433,19 @@ pub fn inactivation_from_traces(
         notes.push("No [S] and Km were given: KI is the apparent constant at the assay's [S] (KI_app).".into());
     }
 
+    let two_step = TwoStep {
+        hyperbola: hyperbola_curve.as_ref().map(|h| (h[0], h[1])),
+        slope,
+        parameters: &parameters,
+    };
+    let global = match fit_global(&members, &two_step, factor, time, &conc, &analysis.value_unit) {
+        Ok(global) => Some(global),
+        Err(e) => {
+            notes.push(format!("The global fit of all traces could not be made: {}", e.message));
+            None
+        }
+    };
+
     let top = distinct.last().copied().unwrap_or(1.0) * 1.05;
     let replot_curve: Vec<(f64, f64)> = (0..=100)
         .map(|s| top * s as f64 / 100.0)
@@ -472,6 +501,7 @@ pub fn inactivation_from_traces(
         warnings,
         notes,
         plots: vec![progress, replot],
+        global,
         caution: crate::rates::CAUTION.to_string(),
     })
 }

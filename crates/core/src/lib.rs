@@ -47,6 +47,8 @@
 //!   and the weighting it suggests.
 //! - [`inactivation`]: time-dependent inhibition: kobs per progress curve,
 //!   kinact and KI from kobs against [I].
+//! - [`inactivation_global`]: the same constants from one fit of every
+//!   progress curve with kinact and KI shared.
 //! - [`selwyn`]: Selwyn's test of enzyme stability from progress curves at
 //!   several [E].
 //! - [`sets`]: do constants differ between data sets? Global fits with
@@ -89,6 +91,7 @@ pub mod fastpath;
 pub mod fit;
 pub mod format;
 pub mod inactivation;
+pub mod inactivation_global;
 pub mod inhibition;
 pub mod intervals;
 pub mod lambert;

@@ -48,7 +48,14 @@ pub fn compare_sets_json(request_json: &str) -> Result<String, JsError> {
 /// `sigma`, `converged`, `used`), `saturation`, `saturation_test`
 /// (`[F, df1, df2, p]` or null), `parameters` (`kinact`, `KI`, `kinact/KI`,
 /// or only `kinact/KI`), `competition_factor`, `warnings`, `notes`,
-/// `plots` (`inactivation-traces`, `kobs-replot`), `caution`.
+/// `plots` (`inactivation-traces`, `kobs-replot`), `global` (the fit of all
+/// traces at once with kinact and KI shared, or null: `saturation`,
+/// `saturation_test`, `parameters`, `traces` per trace `trace`, `i`, `kobs`,
+/// `v0`, `vs` (null at [I] = 0), `offset`, `n`, `rss`; `comparison` per
+/// constant `name`, `global`, `global_se`, `two_step`, `two_step_se`,
+/// `ratio`, `se_ratio`; `n`, `fitted`, `dof`, `rss`, `sigma`, `aicc`,
+/// `converged`, `iterations`, `termination_text`, `method`, `warnings`,
+/// `plot`), `caution`.
 #[wasm_bindgen(js_name = inactivation)]
 pub fn inactivation_json(request_json: &str) -> Result<String, JsError> {
     Ok(json_call(request_json, |r: &turnover_core::inactivation::InactivationRequest| {

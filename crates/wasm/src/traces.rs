@@ -75,7 +75,8 @@ impl TraceBench {
     /// Time-dependent inhibition from the last analysis's traces with [I]
     /// > 0, as the JSON text of an `InactivationAnalysis`. `substrate` and
     /// `km` (same unit, both or neither; `undefined` for neither) apply the
-    /// substrate-competition correction KI = KI_app/(1 + [S]/Km).
+    /// substrate-competition correction KI = KI_app/(1 + [S]/Km). The
+    /// result carries the global fit as `global`, as `inactivation` does.
     #[wasm_bindgen(js_name = inactivationJson)]
     pub fn inactivation_json(&self, substrate: Option<f64>, km: Option<f64>) -> Result<String, JsError> {
         let analysis = self.last.as_ref().ok_or_else(|| JsError::new("analyse the traces first"))?;
