@@ -100,7 +100,32 @@ function analyse(doc) {
   $('inactivation-unit').textContent = `kobs in ${result.time_unit}⁻¹; [I] in ${result.inhibitor_unit ?? '(no unit given)'}.`;
   $('inactivation-warnings').replaceChildren(...[...result.warnings, ...result.notes].map((w) => cell('li', w)));
   page.ui.drawPlotList($('inactivation-plots'), result.plots);
+  showGlobal(result.global);
   $('inactivation-caution').textContent = result.caution;
+}
+
+/** The fit of every trace at once with kinact and KI shared, beside the
+ *  two-step route's constants. */
+function showGlobal(global) {
+  $('inactivation-global').hidden = !global;
+  if (!global) return;
+  const f = page.ui.format;
+  const test = global.saturation_test;
+  const sat = test ? ` Saturation: F(${test[1]}, ${test[2]}) = ${f(test[0])}, ${test[3] < 0.0001 ? 'p < 0.0001' : `p = ${test[3].toFixed(4)}`}.` : '';
+  const status = $('inactivation-global-status');
+  status.dataset.state = !global.converged ? 'error' : global.warnings.length ? 'warn' : 'ok';
+  status.textContent = `${global.converged ? 'Converged' : 'Did not converge'} on ${global.n} readings of ${global.traces.length} traces (${global.fitted} constants fitted, residual SD ${f(global.sigma, 3)}, AICc ${f(global.aicc)}); ${global.saturation ? 'kinact and KI reported' : 'no saturation seen: only kinact/KI'}.${sat}`;
+  $('inactivation-global-parameters').tBodies[0].replaceChildren(...global.parameters.map((p) => page.ui.parameterRow(p)));
+  const rows = $('inactivation-global-comparison').tBodies[0];
+  rows.replaceChildren();
+  for (const c of global.comparison) {
+    const tr = rows.insertRow();
+    tr.dataset.param = c.name;
+    tr.dataset.ratio = String(c.ratio);
+    for (const x of [c.name, page.ui.estimateText(c.global, c.global_se), page.ui.estimateText(c.two_step, c.two_step_se), f(c.ratio, 3), c.se_ratio === null ? '—' : f(c.se_ratio, 3)]) tr.append(cell('td', x));
+  }
+  $('inactivation-global-warnings').replaceChildren(...global.warnings.map((w) => cell('li', w)));
+  page.ui.drawPlotList($('inactivation-global-plots'), [global.plot]);
 }
 
 /** The stability check: one finding per group of traces at one [S] and
@@ -127,6 +152,12 @@ page.addText('Time-dependent inhibition', () => {
   lines.push(['trace', 'i', 'kobs', 'kobs_se', 'v0', 'vs', 'n', 'converged', 'used'].join('\t'));
   for (const t of lastResult.traces) lines.push([t.trace, t.i, t.kobs, t.kobs_se ?? '', t.v0, t.vs, t.n, t.converged, t.used].join('\t'));
   for (const w of lastResult.warnings) lines.push(`# warning: ${w}`);
+  const global = lastResult.global;
+  if (global) {
+    lines.push('# Time-dependent inhibition: every trace at once, kinact and KI shared', ['constant', 'estimate', 'std_error', 'ci_low', 'ci_high', 'ci_method', 'unit'].join('\t'));
+    for (const p of global.parameters) lines.push([p.name, p.value, p.std_error ?? '', p.ci_low ?? '', p.ci_high ?? '', p.ci_method, p.unit ?? ''].join('\t'));
+    for (const w of global.warnings) lines.push(`# warning: ${w}`);
+  }
   return lines;
 });
 

@@ -203,6 +203,27 @@ test('time-dependent inhibition: the demo gives back kinact and KI it was made w
   assert.equal(shown.rows, r.traces.length);
   assert.equal(shown.kinact, value('kinact').value);
   assert.deepEqual(shown.plots, ['yes', 'yes']);
+  // Every trace at once with kinact and KI shared: its intervals hold the
+  // truth too, it agrees with the two-step route within the two routes'
+  // uncertainty (ratios near 1 at this noise), and it is shown and drawn.
+  const g = r.global;
+  assert.ok(g && g.converged && g.saturation, 'the global fit converged and saw saturation');
+  for (const [name, truth] of [['kinact', 0.25], ['KI', 3]]) {
+    const p = g.parameters.find((q) => q.name === name);
+    assert.ok(p.ci_low < truth && truth < p.ci_high, `global ${name} ${p.ci_low}–${p.ci_high} should hold ${truth}`);
+    const c = g.comparison.find((q) => q.name === name);
+    assert.ok(Math.abs(c.ratio - 1) < 0.1, `global/two-step ${name} = ${c.ratio}`);
+  }
+  const globalShown = await page.evaluate(() => ({
+    hidden: document.querySelector('#inactivation-global').hidden,
+    kinact: Number(document.querySelector('#inactivation-global-parameters tr[data-param="kinact"]').dataset.value),
+    comparison: document.querySelectorAll('#inactivation-global-comparison tbody tr').length,
+    plots: [...document.querySelectorAll('#inactivation-global-plots canvas')].map((c) => c.dataset.drawn),
+  }));
+  assert.equal(globalShown.hidden, false);
+  assert.equal(globalShown.kinact, g.parameters.find((q) => q.name === 'kinact').value);
+  assert.equal(globalShown.comparison, g.comparison.length);
+  assert.deepEqual(globalShown.plots, ['yes']);
   // Only [S] given: said, and nothing computed from half an input.
   await page.fill('#tr-inact-substrate', '50');
   await page.evaluate(() => window.turnover.analyse());
