@@ -1744,6 +1744,7 @@ Object.assign(window.turnover, {
   // Small helpers the other page modules share, so that every section
   // formats numbers and downloads files the same way.
   ui: {
+    info,
     svgToPng,
     exportFigure,
     parameterRow,

@@ -37,7 +37,7 @@ const DEFAULTS = {
   traces: {
     text: '', layout: '', conversion: 'epsilon', preset: '', epsilon: '', path: '', volume: '', diameter: '',
     direction: 'rises', limit: '', max_conversion: '10', standard: '', windows: {}, excluded: [], whole_curve: false, fit_v0: false,
-    inactivation: false, inact_substrate: '', inact_km: '', block: '', rates_from_v0: false,
+    inactivation: false, inact_substrate: '', inact_km: '', block: '', rates_from_v0: false, report_time: '',
   },
   batch: { text: '', group_by: '', model: 'ic50', weighting: 'uniform', normalise: false, fix_top: false, top: '100', fix_bottom: false, bottom: '0' },
   design: {
@@ -111,6 +111,7 @@ export const EDIT_NAMES = {
   'automatic window': 'use the automatic window',
   'window for all': 'use one window for all traces',
   'all automatic': 'use automatic windows for all traces',
+  'report time': 'change the time unit',
   'toggle trace': 'leave a trace out or bring it back',
   'choose preset': 'choose a chromophore',
   'move table': 'put a table into the section it belongs to',
@@ -191,6 +192,17 @@ export function applyEdit(doc, edit) {
     }
     case 'window for all':
       return setPath(doc, 'traces.windows', { '*': [edit.start, edit.end] });
+    case 'report time': {
+      // The time unit of the analysis, with the windows set by hand
+      // rescaled in the same step (`factor`: old unit in new units), so a
+      // window keeps its place on the trace.
+      let out = setPath(doc, 'traces.report_time', edit.value);
+      if (edit.factor && edit.factor !== 1) {
+        const windows = Object.fromEntries(Object.entries(doc.traces.windows).map(([trace, [a, b]]) => [trace, [a * edit.factor, b * edit.factor]]));
+        out = setPath(out, 'traces.windows', windows);
+      }
+      return out;
+    }
     case 'all automatic':
       return setPath(doc, 'traces.windows', {});
     case 'toggle trace':

@@ -107,6 +107,7 @@ function traceRequest(doc) {
     excluded: [...t.excluded],
     fit_v0: t.fit_v0,
     rates_from_v0: t.rates_from_v0,
+    report_time: t.report_time || null,
     // Which kinetic table of an export with several ('' = the first).
     block: t.block === '' ? null : Number(t.block),
   };
@@ -753,6 +754,23 @@ function wire() {
   page.bindField('tr-preset', 'traces.preset');
   page.bindField('tr-fit-v0', 'traces.fit_v0');
   page.bindField('tr-block', 'traces.block');
+  // The time unit: its own edit, which rescales the windows set by hand
+  // from the unit they were set in (the shown analysis's) to the new one.
+  $('tr-report-time').addEventListener('change', () => {
+    const value = $('tr-report-time').value;
+    const doc = page.doc();
+    const seconds = { s: 1, min: 60, h: 3600 };
+    const from = traceState.result?.time_unit ?? doc.traces.report_time;
+    const windows = Object.keys(doc.traces.windows).length > 0;
+    const to = value || null;
+    let factor = 1;
+    if (windows && seconds[from] && to && seconds[to]) factor = seconds[from] / seconds[to];
+    else if (windows && to !== from) page.ui.info('The windows set by hand keep their numbers: the unit they were set in is not known until the traces are read.');
+    page.dispatch({ type: 'report time', value, factor });
+  });
+  page.view((doc) => {
+    if ($('tr-report-time').value !== doc.traces.report_time) $('tr-report-time').value = doc.traces.report_time;
+  });
   page.bindField('tr-rates-from-v0', 'traces.rates_from_v0');
   $('tr-well-path').addEventListener('click', () => {
     const t = page.doc().traces;

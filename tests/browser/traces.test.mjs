@@ -136,6 +136,37 @@ test('the demo plate: small multiples, a dragged window, rates sent to the fit, 
 // gap between ticks of a 5 ms timer while the work ran. Asserted: the work
 // ran in the worker, the progress bar was shown, every well got a rate and
 // the fit converged.
+test('the time unit: the demo plate (timed in minutes) shown in seconds, rates per second, a window set by hand kept on its place; undo', async () => {
+  const { page, watch } = await openPage();
+  await page.evaluate(() => window.turnover.dispatch({ type: 'set window', trace: 'A3', start: 2, end: 6 }));
+  await page.waitForFunction(() => window.turnoverTraces.lastResult()?.traces.find((t) => t.name === 'A3')?.manual_window === true);
+  const perMinute = await page.evaluate(() => window.turnoverTraces.lastResult());
+  assert.equal(perMinute.time_unit, 'min');
+  await page.selectOption('#tr-report-time', 's');
+  await page.waitForFunction(() => window.turnoverTraces.lastResult()?.time_unit === 's', null, { timeout: 30_000 });
+  const perSecond = await page.evaluate(() => window.turnoverTraces.lastResult());
+  assert.match(perSecond.rate_unit, /\/s$/);
+  assert.ok(perSecond.notes.some((n) => n.startsWith('Times converted from min to s (t × 60)')), perSecond.notes.join(' | '));
+  // The same windows on the same readings: every rate is the per-minute
+  // rate ÷ 60 (to 1e-9: the lines are fitted to times 60 times apart).
+  for (const [k, t] of perMinute.traces.entries()) {
+    const u = perSecond.traces[k];
+    if (t.rate === null) continue;
+    assert.ok(Math.abs(u.rate - t.rate / 60) <= 1e-9 * Math.abs(t.rate / 60) + 1e-15, `${t.name}: ${u.rate} against ${t.rate / 60}`);
+  }
+  const a3 = perSecond.traces.find((t) => t.name === 'A3');
+  assert.equal(a3.manual_window, true);
+  assert.deepEqual(await page.evaluate(() => window.turnover.doc().traces.windows.A3), [120, 360]);
+  assert.ok(a3.window_start >= 120 - 1e-9 && a3.window_end <= 360 + 1e-9, `A3 window ${a3.window_start}–${a3.window_end} s`);
+  await page.evaluate(() => window.turnover.undo());
+  await page.waitForFunction(() => window.turnoverTraces.lastResult()?.time_unit === 'min', null, { timeout: 30_000 });
+  assert.deepEqual(await page.evaluate(() => window.turnover.doc().traces.windows.A3), [2, 6]);
+  assert.equal(await page.inputValue('#tr-report-time'), '');
+  assert.deepEqual(watch.external, []);
+  assert.deepEqual(watch.errors, []);
+  await page.close();
+});
+
 test('a 384-well plate is analysed in the worker (timing reported as ratios, not asserted)', async () => {
   const { page, watch } = await openPage();
   // Let the page finish starting (its own demo fits and drawings) first:

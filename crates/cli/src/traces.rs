@@ -69,6 +69,10 @@ pub struct TraceOptions {
     /// Also fit each trace's curvature-aware initial rate (v0, its SE and 95% profile interval)
     #[arg(long)]
     v0: bool,
+    /// Work in this time unit: times converted from the table's, windows
+    /// (--window too) in it, rates per it
+    #[arg(long, value_name = "TIME", value_parser = ["s", "min", "h"])]
+    rates_per: Option<String>,
 }
 
 fn preset_names() -> clap::builder::PossibleValuesParser {
@@ -116,6 +120,7 @@ pub(crate) fn prepare(command: &'static str, options: TraceOptions) -> Result<Pr
     request.excluded = options.exclude;
     request.fit_v0 = options.v0;
     request.block = options.block;
+    request.report_time = options.rates_per;
     for text in &options.window {
         let bad = || usage(command, format!("--window: '{text}' is not NAME=START:END, such as A1=0:5"));
         let (name, range) = text.split_once('=').ok_or_else(bad)?;

@@ -135,6 +135,33 @@ fn rates_choose_a_kinetic_table() {
     assert_eq!(b["blocks"].as_array().unwrap().len(), 1);
 }
 
+/// `turnover rates --rates-per min` on traces timed in h:mm:ss (read as
+/// seconds; invented readings every 30 s): every rate is the per-second
+/// rate × 60 and its window the per-second window ÷ 60 (1e-9: the line is
+/// fitted to times 60 times apart), the rate unit says per minute, a note
+/// says what was converted; a window set by hand is read in minutes.
+#[test]
+fn trace_rates_per_minute_from_clock_times() {
+    let traces = file(
+        "clock-traces.tsv",
+        "time\tA1\tA2\n0:00:00\t0.100\t0.050\n0:00:30\t0.151\t0.062\n0:01:00\t0.199\t0.075\n0:01:30\t0.252\t0.087\n0:02:00\t0.300\t0.100\n0:02:30\t0.349\t0.112\n0:03:00\t0.401\t0.125\n",
+    );
+    let layout = file("clock-layout.tsv", "trace\tS (mM)\nA1\t2\nA2\t0.5\n");
+    let per_s = json(&["rates", &traces, "--layout", &layout, "--json"]);
+    let per_min = json(&["rates", &traces, "--layout", &layout, "--json", "--rates-per", "min"]);
+    assert_eq!(per_s["time_unit"], "s");
+    assert_eq!(per_min["time_unit"], "min");
+    assert!(per_min["rate_unit"].as_str().unwrap().ends_with("/min"), "{}", per_min["rate_unit"]);
+    let close = |a: f64, b: f64| (a - b).abs() <= 1e-9 * b.abs().max(1e-12);
+    for (a, b) in per_s["traces"].as_array().unwrap().iter().zip(per_min["traces"].as_array().unwrap()) {
+        assert!(close(b["rate"].as_f64().unwrap(), 60.0 * a["rate"].as_f64().unwrap()), "{} rate", a["name"]);
+        assert!(close(b["window_end"].as_f64().unwrap(), a["window_end"].as_f64().unwrap() / 60.0), "{} window", a["name"]);
+    }
+    assert!(per_min["notes"].as_array().unwrap().iter().any(|n| n.as_str().unwrap().starts_with("Times converted from s to min (t ÷ 60)")));
+    let by_hand = json(&["rates", &traces, "--layout", &layout, "--json", "--rates-per", "min", "--window", "A1=0:2"]);
+    assert_eq!(by_hand["traces"][0]["window_end"].as_f64(), Some(2.0));
+}
+
 /// `--rates-per s` reports Vmax per second: the per-minute Vmax over 60
 /// (1e-9: the solver works on numbers 60 times apart), Km unchanged; and
 /// the option is refused for a model it does not apply to.

@@ -171,6 +171,11 @@ pub struct TraceRequest {
     /// trace without a `v0` is then left out of the table with a note,
     /// never filled in with its window rate. Default false.
     pub rates_from_v0: bool,
+    /// The time unit the analysis is shown in (`s`, `min`, `h`): the
+    /// table's times are converted to it before anything else, so windows
+    /// (set by hand too), rates (per this unit), kobs and every plot use
+    /// it. `None` or empty keeps the table's own unit.
+    pub report_time: Option<String>,
     /// Which kinetic table of the text to read, counting from 1, when it
     /// holds several (two wavelengths, two reads); `None` reads the first
     /// and lists them all in [`TraceAnalysis::blocks`].
@@ -193,6 +198,7 @@ impl Default for TraceRequest {
             excluded: Vec::new(),
             fit_v0: false,
             rates_from_v0: false,
+            report_time: None,
             block: None,
         }
     }
@@ -1189,7 +1195,27 @@ pub fn analyse_traces_with(request: &TraceRequest, progress: &mut dyn FnMut(usiz
     if !(request.max_conversion > 0.0 && request.max_conversion < 1.0) {
         return Err(Error::invalid_option("the conversion limit must be a fraction between 0 and 1, such as 0.1"));
     }
-    let raw = read_traces(&request.traces, request.time_unit.as_deref(), request.block, &mut problems, &mut notes)?;
+    let mut raw = read_traces(&request.traces, request.time_unit.as_deref(), request.block, &mut problems, &mut notes)?;
+    if let Some(text) = request.report_time.as_deref().map(str::trim).filter(|t| !t.is_empty()) {
+        let unit = TimeUnit::parse(text).map_err(Error::invalid_option)?;
+        if unit != raw.time_unit {
+            // t in the new unit = t in the old × (seconds per old unit /
+            // seconds per new unit); a ratio of 1, 60 and 3600.
+            let factor = raw.time_unit.in_seconds() / unit.in_seconds();
+            for t in &mut raw.times {
+                *t *= factor;
+            }
+            let by = if factor >= 1.0 { format!("× {}", factor.round()) } else { format!("÷ {}", (1.0 / factor).round()) };
+            notes.push(format!(
+                "Times converted from {} to {} (t {by}): windows are in {}, rates per {}.",
+                raw.time_unit.symbol(),
+                unit.symbol(),
+                unit.symbol(),
+                unit.symbol()
+            ));
+            raw.time_unit = unit;
+        }
+    }
     notes.extend(unmatched_overrides(request, &raw.names));
     let mut layout_problems = Vec::new();
     let layout = if request.layout.trim().is_empty() {
