@@ -206,6 +206,7 @@ function analyseDose(doc) {
       text: sent.text,
       ...chosen.request,
       excluded_lines: [...sent.dose.excluded_lines],
+      rate_time: sent.dose.rate_time || null,
       // The rate panel's weighting and interval choices apply here too
       // (weighting by an sd column is refused: these tables have none).
       weighting: sent.weighting,
@@ -320,7 +321,7 @@ page.view((doc) => {
 });
 for (const [id, key] of [['dose-model', 'model'], ['dose-fix-top', 'fix_top'], ['dose-top', 'top'], ['dose-fix-bottom', 'fix_bottom'],
   ['dose-bottom', 'bottom'], ['dose-enzyme', 'enzyme'], ['dose-cp-mechanism', 'cp_mechanism'], ['dose-cp-substrate', 'cp_substrate'],
-  ['dose-cp-km', 'cp_km'], ['dose-cp-km-se', 'cp_km_se']]) {
+  ['dose-cp-km', 'cp_km'], ['dose-cp-km-se', 'cp_km_se'], ['dose-rate-time', 'rate_time']]) {
   page.bindField(id, `dose.${key}`);
 }
 $('plot-dose').addEventListener('click', (event) => toggleAt($('plot-dose'), event));

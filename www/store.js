@@ -32,7 +32,7 @@ const DEFAULTS = {
   inhibition: { text: '', rate_unit: '', rate_time: '', excluded_lines: [], excluded_cells: [] },
   dose: {
     text: '', model: 'ic50', fix_top: false, top: '100', fix_bottom: false, bottom: '0', enzyme: '',
-    cp_mechanism: '', cp_substrate: '', cp_km: '', cp_km_se: '', excluded_lines: [],
+    cp_mechanism: '', cp_substrate: '', cp_km: '', cp_km_se: '', excluded_lines: [], rate_time: '',
   },
   traces: {
     text: '', layout: '', conversion: 'epsilon', preset: '', epsilon: '', path: '', volume: '', diameter: '',

@@ -231,6 +231,35 @@ test('Morrison mode: v0, Ki_app, both curves, and the tight-binding warning only
   await page.close();
 });
 
+test('rates per second in the dose-response section: % activity is refused with the reason, rates are converted (v0 ÷ 60, Ki_app unchanged)', { timeout: 60_000 }, async () => {
+  const { page, errors } = await openPage();
+  await loadDoseDemo(page);
+  await page.selectOption('#dose-rate-time', 's');
+  await page.waitForFunction(() => document.querySelector('#dose-status').dataset.state === 'error', null, { timeout: 10_000 });
+  assert.match(await page.textContent('#dose-status'), /responses per s need responses that are rates.*names no unit/);
+  // Invented tight-binding rates ([E]t = 10 nM, Ki_app 2 nM, v0 5 µM/min).
+  const rows = ['[I] (nM)\tv (µM/min)'];
+  for (const i of [0, 1, 2, 5, 10, 15, 20, 30, 50]) {
+    const b = 10 + i + 2;
+    rows.push(`${i}\t${(5 * (1 - (b - Math.sqrt(b * b - 40 * i)) / 20)).toFixed(4)}`);
+  }
+  await page.selectOption('#dose-rate-time', '');
+  await page.fill('#dose-input', `${rows.join('\n')}\n`);
+  await page.selectOption('#dose-model', 'morrison');
+  await page.fill('#dose-enzyme', '10');
+  await page.waitForFunction(() => window.turnover.dose.lastResult()?.fit.model === 'morrison', null, { timeout: 20_000 });
+  const perMinute = await page.evaluate(() => window.turnover.dose.lastResult().fit.parameters);
+  await page.selectOption('#dose-rate-time', 's');
+  await page.waitForFunction(() => window.turnover.dose.lastResult()?.fit.parameters[0].unit === 'µM/s', null, { timeout: 20_000 });
+  const perSecond = await page.evaluate(() => window.turnover.dose.lastResult().fit.parameters);
+  // Within a millionth of the SE (the solver stops at its own test on
+  // numbers 60 times apart).
+  assert.ok(Math.abs(perSecond[0].value - perMinute[0].value / 60) <= 1e-6 * perSecond[0].std_error, `v0 ${perSecond[0].value}`);
+  assert.ok(Math.abs(perSecond[1].value - perMinute[1].value) <= 1e-6 * perSecond[1].std_error, `Ki_app ${perSecond[1].value}`);
+  assert.deepEqual(errors, []);
+  await page.close();
+});
+
 test('a click on a dose-response point leaves it out and refits', { timeout: 60_000 }, async () => {
   const { page, errors } = await openPage();
   await loadDoseDemo(page);

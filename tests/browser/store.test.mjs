@@ -243,13 +243,15 @@ test('a schema 2 document opens as schema 3 with everything it held', () => {
   assert.equal(checked.error, undefined, checked.error);
   const doc = checked.document;
   assert.equal(doc.schema, SCHEMA);
-  for (const section of ['figure', 'assay', 'dose']) assert.deepEqual(doc[section], old[section], section);
+  for (const section of ['figure', 'assay']) assert.deepEqual(doc[section], old[section], section);
   // Sections that gained fields keep every field they had.
-  for (const section of ['rates', 'traces', 'inhibition']) {
+  for (const section of ['rates', 'traces', 'inhibition', 'dose']) {
     for (const [key, value] of Object.entries(old[section])) assert.deepEqual(doc[section][key], value, `${section}.${key}`);
   }
   assert.equal(doc.rates.protein, '');
   assert.equal(doc.inhibition.rate_time, '');
+  assert.equal(doc.dose.rate_time, '');
+  assert.equal(doc.traces.report_time, '');
   assert.equal(doc.traces.inactivation, false);
   assert.equal(doc.further.kind, 'sets');
   assert.equal(doc.sets.text, '');

@@ -113,7 +113,7 @@ struct DataOptions {
     #[arg(long, value_name = "UNIT")]
     rate_unit: Option<String>,
     /// Report rates (v, Vmax) per second, minute or hour, converted from
-    /// the unit of v (the [S]–v and inhibition models)
+    /// the unit of v (dose-response: responses that are rates only)
     #[arg(long, value_name = "TIME", value_parser = ["s", "min", "h"])]
     rates_per: Option<String>,
     /// What the weighting assumes about the error of a rate
@@ -334,9 +334,6 @@ fn prepare(command: &'static str, data: DataOptions, extra: ModelExtras, model: 
     let mut request = RateRequest { model: model.to_string(), ..RateRequest::default() };
     request.substrate_unit = data.substrate_unit;
     request.rate_unit = data.rate_unit;
-    if data.rates_per.is_some() && model_input(model).is_some_and(|input| input == ModelInput::Inhibitor) {
-        return Err(usage(command, format!("--rates-per applies to rate models ([S]–v and inhibition), not to the dose-response model {model}")));
-    }
     request.rate_time = data.rates_per;
     let (weighting, note) = Weighting::from_option_name(&data.weighting).map_err(|m| usage(command, m))?;
     if let Some(note) = note {
@@ -719,6 +716,7 @@ fn fit_one(data: DataOptions, extra: ModelExtras, model: String, rows: Option<ba
                 bootstrap: args.request.bootstrap,
                 weighting: args.request.weighting,
                 cheng_prusoff: args.cheng_prusoff.clone(),
+                rate_time: args.request.rate_time.clone(),
             };
             let analysis = analyse_dose(&request).map_err(|e| Failure::Input(e.message))?;
             check_problems(&args, &analysis.problems)?;

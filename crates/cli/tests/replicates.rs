@@ -174,9 +174,19 @@ fn rates_per_second() {
     assert!((value(&per_s, 0) - value(&per_min, 0) / 60.0).abs() <= 1e-9 * value(&per_s, 0));
     assert!((value(&per_s, 1) - value(&per_min, 1)).abs() <= 1e-9 * value(&per_s, 1));
     assert_eq!(per_s["units"]["rate"], "µM/s");
-    let out = Command::new(env!("CARGO_BIN_EXE_turnover")).args(["fit", &rates, "--model", "ic50", "--rates-per", "s"]).output().unwrap();
+    // A dose-response table of % activity has no rates to convert: refused
+    // with the reason; one of rates (invented tight-binding rates, nM
+    // inhibitor) is converted like any other.
+    let percent = file("per-cent.tsv", "[I] (µM)\t% activity\n0.01\t98\n0.1\t91\n1\t52\n10\t11\n100\t2\n0.03\t96\n0.3\t77\n3\t27\n");
+    let out = Command::new(env!("CARGO_BIN_EXE_turnover")).args(["fit", &percent, "--model", "ic50", "--rates-per", "s"]).output().unwrap();
     assert_eq!(out.status.code(), Some(2));
-    assert!(String::from_utf8_lossy(&out.stderr).contains("--rates-per applies to rate models"));
+    assert!(String::from_utf8_lossy(&out.stderr).contains("responses per s need responses that are rates"), "{}", String::from_utf8_lossy(&out.stderr));
+    let tight = file("tight.tsv", "[I] (nM)\tv (µM/min)\n0\t5.00\n1\t4.58\n2\t4.19\n5\t3.09\n10\t1.91\n15\t1.18\n20\t0.82\n30\t0.49\n50\t0.27\n");
+    let v_min = json(&["fit", &tight, "--model", "morrison", "--enzyme", "10", "--json"]);
+    let v_s = json(&["fit", &tight, "--model", "morrison", "--enzyme", "10", "--json", "--rates-per", "s"]);
+    let named = |r: &serde_json::Value, name: &str| r["parameters"].as_array().unwrap().iter().find(|p| p["name"] == name).unwrap()["value"].as_f64().unwrap();
+    assert!((named(&v_s, "v0") - named(&v_min, "v0") / 60.0).abs() <= 1e-9 * named(&v_s, "v0"));
+    assert!((named(&v_s, "Ki_app") - named(&v_min, "Ki_app")).abs() <= 1e-9 * named(&v_s, "Ki_app"));
 }
 
 /// `--rates-per s` in an inhibition fit (invented competitive rates, µM/min):

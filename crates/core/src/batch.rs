@@ -338,6 +338,7 @@ fn curve_analysis(request: &BatchRequest, curve: &CurveInput, model: &str) -> Re
         .collect();
     match model_input(model) {
         Some(ModelInput::Inhibitor) => analyse_dose(&DoseRequest {
+            rate_time: None,
             text: curve.text.clone(),
             model: model.to_string(),
             enzyme: request.enzyme,

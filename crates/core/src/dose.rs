@@ -50,6 +50,11 @@ pub struct DoseRequest {
     /// Convert the fitted IC50 into Ki (`ic50` only); `None` for no
     /// conversion.
     pub cheng_prusoff: Option<ChengPrusoffRequest>,
+    /// Responses that are rates (a heading such as `v (µM/min)`) reported
+    /// per `s`, `min` or `h`, converted before the fit (fixed plateaus are
+    /// then in the converted unit); `None` or empty keeps them as read.
+    /// Refused for responses that are not rates (% activity, signal).
+    pub rate_time: Option<String>,
 }
 
 /// Converts the fitted IC50 into an inhibition constant Ki for a stated
@@ -242,7 +247,22 @@ pub fn analyse_dose(request: &DoseRequest) -> Result<DoseAnalysis, Error> {
     let cy = responses_at.measurements[0];
     let heading = |c: usize| table.headings.as_ref().and_then(|h| h.get(c));
     let inhibitor_unit = heading(ci).and_then(|h| h.unit.as_deref()).and_then(|u| ConcentrationUnit::parse(u).ok());
-    let response_unit = responses_at.unit.clone();
+    let mut response_unit = responses_at.unit.clone();
+    let mut time_factor = 1.0;
+    if let Some(time) = request.rate_time.as_deref().map(str::trim).filter(|t| !t.is_empty()) {
+        let rate = response_unit.as_deref().and_then(|u| crate::units::RateUnit::parse(u).ok()).ok_or_else(|| {
+            Error::invalid_option(format!(
+                "responses per {time} need responses that are rates, with a heading such as 'v (µM/min)'; {}",
+                match &response_unit {
+                    Some(u) => format!("this table's responses are in '{u}'"),
+                    None => "this table's response heading names no unit".to_string(),
+                }
+            ))
+        })?;
+        let (converted, factor) = crate::rates::per_time(Some(rate), &request.rate_time, &mut notes)?;
+        response_unit = converted.map(|u| u.symbol());
+        time_factor = factor;
+    }
     let response_name = match heading(cy) {
         Some(_) if responses_at.replicated() => "response".to_string(),
         Some(h) => h.name.clone(),
@@ -269,7 +289,7 @@ pub fn analyse_dose(request: &DoseRequest) -> Result<DoseAnalysis, Error> {
         }
         for (column, y) in ys {
             let excluded = request.excluded_lines.contains(&row.line) || request.excluded_cells.contains(&(row.line, column + 1));
-            points.push(DoseRecord { row: points.len(), line: row.line, column: column + 1, i, y, excluded, fitted: f64::NAN });
+            points.push(DoseRecord { row: points.len(), line: row.line, column: column + 1, i, y: y * time_factor, excluded, fitted: f64::NAN });
         }
     }
     problems.sort_by_key(|p| (p.line, p.column));

@@ -201,6 +201,7 @@ fn global_fit(request: &BatchRequest, split: &CurveSplit, base: &dyn Model, own:
             .map(|(k, _)| k + 1)
             .collect();
         let analysis = analyse_dose(&DoseRequest {
+            rate_time: None,
             text: curve.text.clone(),
             model: "ic50".into(),
             enzyme: None,
