@@ -153,7 +153,10 @@ fn csv_and_tsv_read_back_to_the_json_numbers() {
             let (text, err) = ok(&[args.as_slice(), &["--format", format]].concat());
             assert!(err.contains("These constants are statistical estimates"), "{args:?}: {err}");
             let table = rows(&text, separator);
-            assert_eq!(table[0], ["parameter", "value", "se", "low", "high", "unit", "derived", "interval", "flag"]);
+            assert_eq!(
+                table[0],
+                ["parameter", "value", "se", "low", "high", "unit", "derived", "interval", "flag", "bias", "bias_corrected"]
+            );
             assert_eq!(table.len(), parameters.len() + 1, "{args:?} {format}");
             for (row, p) in table[1..].iter().zip(parameters) {
                 assert_eq!(row[0], p["name"].as_str().unwrap());
@@ -164,6 +167,10 @@ fn csv_and_tsv_read_back_to_the_json_numbers() {
                 assert_eq!(row[5], p["unit"].as_str().unwrap_or(""));
                 assert_eq!(row[6], p["derived"].to_string());
                 assert_eq!(row[7], p["ci_method"].as_str().unwrap());
+                for (cell, field) in row[9..11].iter().zip(["bias", "value_bias_corrected"]) {
+                    let read: Option<f64> = (!cell.is_empty()).then(|| cell.parse().unwrap());
+                    assert_eq!(read.map(f64::to_bits), p[field].as_f64().map(f64::to_bits), "{args:?} {format} {} {field}", row[0]);
+                }
             }
         }
     }

@@ -440,6 +440,8 @@ fn add_ki(
         derived: true,
         ci_method,
         flag: None,
+        bias: None,
+        value_bias_corrected: None,
     });
     Ok(())
 }

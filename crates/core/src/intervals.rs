@@ -658,6 +658,9 @@ pub fn apply_profile_intervals(summary: &mut FitSummary, model: &dyn Model, data
             }
         }
         if low.is_none() || high.is_none() {
+            // A constant the data do not bound has no small-sample bias to
+            // speak of (see `crate::bias`).
+            estimate.set_bias(None);
             let side = match (low, high) {
                 (None, Some(_)) => "below",
                 (Some(_), None) => "above",
@@ -709,6 +712,7 @@ fn open_runaway_bootstrap_sides(summary: &mut FitSummary, model: &dyn Model, dat
         let estimate = &mut summary.parameters[j];
         for (fraction, upper) in [(above, true), (below, false)] {
             if fraction > tail {
+                estimate.set_bias(None);
                 if upper {
                     estimate.ci_high = None;
                     estimate.flag = Some(flags::NOT_BOUNDED_ABOVE.to_string());
