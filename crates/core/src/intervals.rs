@@ -318,7 +318,7 @@ pub fn profile_interval(model: &dyn Model, data: &Observations, fit: &Fit, index
 /// leaves the full search's end `None` although the profile was seen past
 /// the cut-off; the check then says the side closes. On 2,000 seeded
 /// random curves, many of them ill-determined (`tests/profile_check.rs`),
-/// that happened on 161 of 10,214 sides, each time on a fit with another
+/// that happened on 177 of 10,214 sides, each time on a fit with another
 /// side open, where [`apply_profile_intervals`] runs the full search anyway;
 /// so the flags were those of the full search on every curve.
 pub fn profile_closes(model: &dyn Model, data: &Observations, fit: &Fit, index: usize, direction: f64) -> bool {
