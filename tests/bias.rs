@@ -242,3 +242,28 @@ fn the_bias_costs_a_few_gradient_evaluations() {
     assert!(with_bias > for_bias, "{for_bias} of {with_bias}");
     assert_eq!(fit.summary.parameters[1].bias, Some(bias[1]));
 }
+
+/// The records the page receives: the wasm crate returns `analyse_rates`'
+/// (and the inhibition and dose analyses') results through serde with
+/// `serde_wasm_bindgen::Serializer::json_compatible()`, which writes every
+/// field and `None` as `null`, as serde_json does here; so the rate fit's
+/// `parameters` carry `bias` and `value_bias_corrected` on every entry,
+/// numbers for the fitted constants of a well-determined fit. (Checked
+/// here through serde_json, not in a browser.)
+#[test]
+fn every_parameter_record_carries_both_fields() {
+    let text = "S\tv\n0.5\t0.27\n1\t0.41\n2\t0.93\n4\t1.28\n8\t2.45\n16\t2.81\n".to_string();
+    let analysis = analyse_rates(&RateRequest { text, ..RateRequest::default() }).unwrap();
+    let value = serde_json::to_value(&analysis).unwrap();
+    for p in value["fit"]["parameters"].as_array().unwrap() {
+        assert!(p["bias"].is_f64() && p["value_bias_corrected"].is_f64(), "{p}");
+    }
+    let text = "[I]\tresponse\n0\t99.1\n0.1\t96.8\n0.3\t88.9\n1\t68.2\n3\t40.5\n10\t16.1\n30\t6.2\n100\t2.9\n".to_string();
+    let analysis = analyse_dose(&DoseRequest { text, model: "ic50".into(), ..Default::default() }).unwrap();
+    let value = serde_json::to_value(&analysis).unwrap();
+    for p in value["fit"]["parameters"].as_array().unwrap() {
+        let object = p.as_object().unwrap();
+        assert!(object.contains_key("bias") && object.contains_key("value_bias_corrected"), "{p}");
+    }
+    assert!(value["fit"]["parameters"].as_array().unwrap().iter().any(|p| p["name"] == "IC50" && p["bias"].is_f64()));
+}

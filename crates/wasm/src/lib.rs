@@ -98,7 +98,11 @@ impl Workbench {
     /// `enzyme`, `enzyme_unit`, `excluded_lines`, `protein`: `{concentration,
     /// unit, molar_mass, molar_mass_unit}` or null). Throws an `Error` whose
     /// message is written for the scientist when no fit can be made; the
-    /// previous analysis is then forgotten so no stale plot is drawn.
+    /// previous analysis is then forgotten so no stale plot is drawn. The
+    /// result is the `RateAnalysis`; each entry of `fit.parameters` has
+    /// `bias` and `value_bias_corrected` (the small-sample bias and the
+    /// value with it removed, the core's `bias` module; `null` where not
+    /// computed).
     pub fn analyse(&mut self, request: JsValue) -> Result<JsValue, JsError> {
         crate::analyse_and_keep(request, &mut self.last, |r: &RateRequest| analyse_rates(r))
     }
