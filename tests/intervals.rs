@@ -300,3 +300,109 @@ fn substrate_only_up_to_half_km_is_reported_as_not_determined() {
     println!("[S] ≤ 0.5×Km, 1,000 sets: ran off {ran_off}, profile open above {open_above}, asymptotic interval crosses zero only {crosses}, bounded {determined}");
     assert!(ran_off > 0 && open_above > 0, "the design no longer exercises both paths");
 }
+
+/// Competitive inhibition simulated on an invented design: Vmax 10, Km 1,
+/// [S] 0.25, 0.5, 1, 2, 4, 8 at [I] 0, 1, 2, 4 (no units), in duplicate
+/// (48 rates), normal noise of SD 0.1 on v, uniform weights, seed `seed`.
+fn competitive_set(kic: f64, seed: u64) -> Observations {
+    let mut rng = SplitMix64::new(seed);
+    let (mut x, mut y) = (Vec::new(), Vec::new());
+    for i in [0.0, 1.0, 2.0, 4.0] {
+        for s in [0.25, 0.5, 1.0, 2.0, 4.0, 8.0] {
+            for _ in 0..2 {
+                x.extend([s, i]);
+                y.push(10.0 * s / (1.0 * (1.0 + i / kic) + s) + 0.1 * rng.normal());
+            }
+        }
+    }
+    Observations::new(2, x, y, None).unwrap()
+}
+
+/// An independent profile of Kic for competitive inhibition: with Kic
+/// held at c and Km given, the best Vmax is linear least squares in
+/// closed form; the best Km is found by golden-section search on a log
+/// scale (1e-4 to 1e4). No Levenberg-Marquardt.
+fn competitive_profile_rss(data: &Observations, kic: f64) -> f64 {
+    let rss_at = |km: f64| {
+        let g: Vec<f64> = (0..data.len()).map(|i| data.x(i)[0] / (km * (1.0 + data.x(i)[1] / kic) + data.x(i)[0])).collect();
+        let vmax = g.iter().zip(data.y()).map(|(g, v)| g * v).sum::<f64>() / g.iter().map(|g| g * g).sum::<f64>();
+        g.iter().zip(data.y()).map(|(g, v)| (v - vmax * g).powi(2)).sum::<f64>()
+    };
+    let (mut a, mut b) = (-4.0_f64, 4.0_f64);
+    let ratio = (5f64.sqrt() - 1.0) / 2.0;
+    for _ in 0..200 {
+        let x1 = b - ratio * (b - a);
+        let x2 = a + ratio * (b - a);
+        if rss_at(10f64.powf(x1)) < rss_at(10f64.powf(x2)) {
+            b = x2;
+        } else {
+            a = x1;
+        }
+    }
+    rss_at(10f64.powf(0.5 * (a + b)))
+}
+
+/// Issue 11: the profile of a positive constant never walks through zero.
+/// Design of [`competitive_set`], seeds 20261203..20261223 (20 sets).
+///
+/// With Kic = 200, 50× the top [I], the data say little about Kic except
+/// that it is not small: where the fitted Kic is positive, the profile
+/// interval must close below at a positive value, where the independent
+/// profile reaches the cut-off S_min·(1 + t²/(n − p)) (to 1e-6), and the
+/// upper side is open unless the data happen to show inhibition at the 5%
+/// level (at most 3 of 20 may close above; the expected number is one).
+/// Before the fix this failed twice: on seed 20261212 the walk below the
+/// estimate (fitted Kic 454.5) passed 1/Kic = 0 into negative Kic, where
+/// the sum of squares never rises, and reported the lower side open too;
+/// and on the four fits that ran off (Kic beyond 1,000× the top [I]:
+/// seeds 20261204, 20261214, 20261216, 20261219) the refinement of the
+/// lower end stopped at its first step, because its tolerance was scaled
+/// by the run-off standard error (seed 20261204: 242.36, where the profile
+/// reaches the cut-off at 225.58).
+///
+/// With Kic = 2, inside the [I] range, both sides close, at the cut-off
+/// of the independent profile (to 1e-6); on all 20 seeds these ends, and
+/// Vmax's and Km's, were the same bit for bit before and after the fix
+/// (compared when it was made: the walk never comes near zero there).
+#[test]
+fn a_positive_constant_far_above_the_design_closes_below_and_stays_open_above() {
+    use turnover_core::models::{Inhibition, Mechanism};
+    let model = Inhibition::new(Mechanism::Competitive);
+    let t_of = |fit: &turnover_core::fit::Fit| fit.t_quantile.unwrap();
+    let (mut closed_below, mut open_above, mut negative_fits) = (0, 0, 0);
+    for seed in 20261203..20261223u64 {
+        let data = competitive_set(200.0, seed);
+        let fit = fit_model(&model, &data, None, &FitSettings::default()).unwrap();
+        let kic = fit.values()[2];
+        let (low, high) = profile_interval(&model, &data, &fit, 2);
+        println!("Kic 200, seed {seed}: fitted {kic:.4e} ({:?}), profile {low:?} to {high:?}", fit.summary.termination);
+        if kic <= 0.0 {
+            negative_fits += 1;
+            continue;
+        }
+        let low = low.unwrap_or_else(|| panic!("seed {seed}: lower end open (fitted Kic {kic})"));
+        assert!(low > 0.0 && low < kic, "seed {seed}: lower end {low}, fitted {kic}");
+        let cut = fit.summary.rss * (1.0 + t_of(&fit).powi(2) / fit.summary.dof as f64);
+        let at_low = competitive_profile_rss(&data, low);
+        assert!((at_low / cut - 1.0).abs() < 1e-6, "seed {seed}: S({low}) = {at_low}, cut-off {cut}");
+        closed_below += 1;
+        if high.is_none() {
+            open_above += 1;
+        }
+    }
+    println!("Kic = 200: {closed_below} closed below, {open_above} of them open above; {negative_fits} fits with Kic ≤ 0");
+    assert!(closed_below >= 15, "{closed_below}");
+    assert!(closed_below - open_above <= 3, "{closed_below} closed below, only {open_above} open above");
+
+    for seed in 20261203..20261223u64 {
+        let data = competitive_set(2.0, seed);
+        let fit = fit_model(&model, &data, None, &FitSettings::default()).unwrap();
+        let (low, high) = profile_interval(&model, &data, &fit, 2);
+        println!("Kic 2, seed {seed}: fitted {:.17e}, profile {low:?} to {high:?}", fit.values()[2]);
+        let cut = fit.summary.rss * (1.0 + t_of(&fit).powi(2) / fit.summary.dof as f64);
+        for end in [low.unwrap(), high.unwrap()] {
+            let at = competitive_profile_rss(&data, end);
+            assert!((at / cut - 1.0).abs() < 1e-6, "seed {seed}: S({end}) = {at}, cut-off {cut}");
+        }
+    }
+}

@@ -40,9 +40,14 @@ and the Monte Carlo standard error of every simulated bias.
 With TURNOVER_BIN set (or target/release/turnover present), the first
 ``--cli-sets`` sets of every level are also fitted by ``turnover fit --model
 mm --weighting relative --json`` and compared with the glm fit (values 1e-6
-relative): the Rust estimate is the statsmodels estimate.
+relative): the Rust estimate is the statsmodels estimate. The JSON's
+``bias`` and ``value_bias_corrected`` of Vmax and Km (crates/core/src/bias.rs,
+Hessians by central differences of the analytic gradient) are compared
+with the ``box`` bias and corrected value computed here from the GLM
+estimate with the Hessians written out by hand (1e-6 relative each).
 
-Checks (exit 1 on any failure): turnover == statsmodels GLM to 1e-6; the
+Checks (exit 1 on any failure): turnover == statsmodels GLM to 1e-6; its
+bias and bias-corrected values == this script's Box formula to 1e-6; the
 box-corrected |bias| of Vmax and Km below 0.5% plus twice its Monte Carlo
 standard error at every level.
 
@@ -144,11 +149,15 @@ def ml_fit(s, y, start):
     return np.exp(r.x)
 
 
-def corrected(s, y, theta):
+def estimated_bias(s, y, theta):
     f = mm(s, *theta)
     w = 1.0 / f ** 2
     s2 = np.sum(w * (y - f) ** 2) / (s.size - 2)
-    return theta - box_bias(s, theta, w, s2)
+    return box_bias(s, theta, w, s2)
+
+
+def corrected(s, y, theta):
+    return theta - estimated_bias(s, y, theta)
 
 
 def turnover_fit(binary, s, y, workdir):
@@ -160,8 +169,9 @@ def turnover_fit(binary, s, y, workdir):
         raise RuntimeError(f"turnover exit {proc.returncode}: {proc.stderr.strip()}")
     out = json.loads(proc.stdout)
     fit = out.get("fit", out)
-    values = {p["name"]: p["value"] for p in fit["parameters"]}
-    return np.array([values["Vmax"], values["Km"]])
+    by_name = {p["name"]: p for p in fit["parameters"]}
+    pick = lambda field: np.array([by_name[n][field] if by_name[n][field] is not None else np.nan for n in ("Vmax", "Km")])
+    return pick("value"), pick("bias"), pick("value_bias_corrected")
 
 
 def summary(rel):
@@ -179,6 +189,8 @@ def main(argv=None):
     failures = []
     cli_checked = 0
     cli_worst = 0.0
+    bias_checked = 0
+    bias_worst = corrected_worst = 0.0
     truth = np.array([VMAX, KM])
     warnings.simplefilter("ignore")
     with tempfile.TemporaryDirectory() as workdir:
@@ -193,12 +205,21 @@ def main(argv=None):
                 rel["ml"].append(ml_fit(S, y, g) / truth - 1)
                 rel["box"].append(corrected(S, y, g) / truth - 1)
                 if have_cli and trial < args.cli_sets:
-                    t = turnover_fit(binary, S, y, workdir)
+                    t, t_bias, t_corrected = turnover_fit(binary, S, y, workdir)
                     worst = float(np.max(np.abs(t / g - 1)))
                     cli_checked += 1
                     cli_worst = max(cli_worst, worst)
                     if worst > 1e-6:
                         failures.append(f"cv {cv:.2f} set {trial}: turnover {t} vs statsmodels GLM {g} ({worst:.2e})")
+                    b = estimated_bias(S, y, g)
+                    worst_bias = float(np.max(np.abs(t_bias / b - 1)))
+                    worst_corrected = float(np.max(np.abs(t_corrected / (g - b) - 1)))
+                    bias_checked += 1
+                    bias_worst = max(bias_worst, worst_bias)
+                    corrected_worst = max(corrected_worst, worst_corrected)
+                    if not (worst_bias <= 1e-6 and worst_corrected <= 1e-6):
+                        failures.append(f"cv {cv:.2f} set {trial}: turnover bias {t_bias}, corrected {t_corrected}; "
+                                        f"Box here {b}, {g - b}")
             predicted = box_bias(S, truth, 1.0 / mm(S, VMAX, KM) ** 2, cv ** 2) / truth
             print(f"== cv {100 * cv:.0f}%, {args.sets} sets (seed {20261202 + level}) ==")
             print(f"   Box O(1/n) bias at the truth: Vmax {100 * predicted[0]:+.3f}%, Km {100 * predicted[1]:+.3f}%")
@@ -213,9 +234,12 @@ def main(argv=None):
                 print(f"   {name:7s} " + ", ".join(cells))
     print(f"turnover against statsmodels GLM: {cli_checked} sets compared, largest relative difference {cli_worst:.1e}"
           + ("" if have_cli else f" (no binary at {binary}; skipped)"))
+    if have_cli:
+        print(f"turnover's bias fields against Box's formula here: {bias_checked} sets, largest relative difference "
+              f"{bias_worst:.1e} (bias), {corrected_worst:.1e} (bias-corrected value)")
     for f in failures:
         print("FAIL", f)
-    checks = cli_checked + 6
+    checks = cli_checked + bias_checked + 6
     print(f"{checks - len(failures)} passed, {len(failures)} failed")
     return 1 if failures else 0
 

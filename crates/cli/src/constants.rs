@@ -50,10 +50,31 @@ pub(crate) fn interval(p: &ParameterEstimate) -> Option<String> {
     ))
 }
 
+/// The estimated small-sample bias counts as worth a line of its own when
+/// it exceeds this fraction of the standard error (Turnover's choice:
+/// below it the correction changes at most the last printed digit or so).
+pub(crate) const BIAS_SHOWN_ABOVE_SE: f64 = 0.1;
+
+/// `bias-corrected value 1.97 mM (estimated bias +0.04)` by the rule (both
+/// rounded to the standard error's decimal place), when the constant has
+/// a bias larger than [`BIAS_SHOWN_ABOVE_SE`] of its standard error.
+pub(crate) fn bias_line(p: &ParameterEstimate) -> Option<String> {
+    let (bias, corrected, se) = (p.bias?, p.value_bias_corrected?, p.std_error?);
+    if bias.abs() <= BIAS_SHOWN_ABOVE_SE * se {
+        return None;
+    }
+    let unit = p.unit.as_deref().filter(|u| !u.is_empty()).map(|u| format!(" {u}")).unwrap_or_default();
+    let value = format_estimate(Some(corrected), Some(se), None).value;
+    let shift = format_estimate(Some(bias), Some(se), None).value;
+    let sign = if shift.starts_with('-') { "" } else { "+" };
+    Some(format!("bias-corrected value {value}{unit} (estimated bias {sign}{shift})"))
+}
+
 /// One line per constant: `Km = 0.0641 ± 0.0083 mM`, padded so that the
 /// intervals line up, then `95% interval 0.0470 to 0.0812` (with the
 /// method when it differs from `method`, the one the heading names), then
-/// the flag, if any.
+/// the flag, if any; under it, indented, the bias-corrected value when
+/// [`bias_line`] gives one.
 pub(crate) fn constants_block(parameters: &[ParameterEstimate], level: f64, method: &str) -> String {
     let left: Vec<String> = parameters.iter().map(constant).collect();
     let width = left.iter().map(|l| l.chars().count()).max().unwrap_or(0);
@@ -73,6 +94,9 @@ pub(crate) fn constants_block(parameters: &[ParameterEstimate], level: f64, meth
         }
         out.push_str(line.trim_end());
         out.push('\n');
+        if let Some(bias) = bias_line(p) {
+            out.push_str(&format!("    {bias}\n"));
+        }
     }
     out
 }
@@ -85,10 +109,13 @@ fn full(value: Option<f64>) -> String {
 
 /// The constants as CSV or TSV: a header, then one row per constant with
 /// its value, standard error, interval ends and unit at full precision,
-/// whether it is derived, how its interval was computed and its flag.
+/// whether it is derived, how its interval was computed, its flag, and its
+/// estimated small-sample bias and bias-corrected value (empty when not
+/// computed).
 pub(crate) fn constants_rows(parameters: &[ParameterEstimate], format: Format) -> String {
     let sep = separator(format).to_string();
-    let mut out = ["parameter", "value", "se", "low", "high", "unit", "derived", "interval", "flag"].join(&sep);
+    let mut out =
+        ["parameter", "value", "se", "low", "high", "unit", "derived", "interval", "flag", "bias", "bias_corrected"].join(&sep);
     out.push('\n');
     for p in parameters {
         let cells = [
@@ -101,6 +128,8 @@ pub(crate) fn constants_rows(parameters: &[ParameterEstimate], format: Format) -
             p.derived.to_string(),
             cell(&p.ci_method, format),
             cell(p.flag.as_deref().unwrap_or(""), format),
+            full(p.bias),
+            full(p.value_bias_corrected),
         ];
         out.push_str(&cells.join(&sep));
         out.push('\n');
@@ -123,6 +152,8 @@ mod tests {
             derived: false,
             ci_method: "asymptotic".into(),
             flag: None,
+            bias: None,
+            value_bias_corrected: None,
         }
     }
 
@@ -147,8 +178,29 @@ mod tests {
     #[test]
     fn rows_keep_full_precision_and_quote() {
         let rows = constants_rows(&[p("K, apparent", 0.1 + 0.2, Some(1.0 / 3.0), (None, Some(2.5)), "µM")], Format::Csv);
-        assert_eq!(rows, "parameter,value,se,low,high,unit,derived,interval,flag\n\"K, apparent\",0.30000000000000004,0.3333333333333333,,2.5,µM,false,asymptotic,\n");
-        let rows = constants_rows(&[p("Km", 2.0, None, (None, None), "µM")], Format::Tsv);
-        assert_eq!(rows.lines().nth(1), Some("Km\t2\t\t\t\tµM\tfalse\tasymptotic\t"));
+        assert_eq!(rows, "parameter,value,se,low,high,unit,derived,interval,flag,bias,bias_corrected\n\"K, apparent\",0.30000000000000004,0.3333333333333333,,2.5,µM,false,asymptotic,,,\n");
+        let mut km = p("Km", 2.0, None, (None, None), "µM");
+        km.set_bias(Some(0.25));
+        let rows = constants_rows(&[km], Format::Tsv);
+        assert_eq!(rows.lines().nth(1), Some("Km\t2\t\t\t\tµM\tfalse\tasymptotic\t\t0.25\t1.75"));
+    }
+
+    /// The bias-corrected line, by hand: SE 0.33 puts everything at two
+    /// decimals, so 2.05 − 0.042 = 2.008 prints as 2.01 and the bias as
+    /// +0.04; a bias of 0.033 (exactly a tenth of the SE) is not shown,
+    /// nor one that was not computed.
+    #[test]
+    fn bias_line_above_a_tenth_of_the_standard_error() {
+        let mut km = p("Km", 2.05, Some(0.33), (Some(1.3), Some(2.8)), "mM");
+        km.set_bias(Some(0.042));
+        assert_eq!(bias_line(&km).as_deref(), Some("bias-corrected value 2.01 mM (estimated bias +0.04)"));
+        let block = constants_block(&[km.clone()], 95.0, "asymptotic");
+        assert_eq!(block, "Km = 2.05 ± 0.33 mM   95% interval 1.30 to 2.80\n    bias-corrected value 2.01 mM (estimated bias +0.04)\n");
+        km.set_bias(Some(-0.05));
+        assert_eq!(bias_line(&km).as_deref(), Some("bias-corrected value 2.10 mM (estimated bias -0.05)"));
+        km.set_bias(Some(0.033));
+        assert_eq!(bias_line(&km), None);
+        km.set_bias(None);
+        assert_eq!(bias_line(&km), None);
     }
 }

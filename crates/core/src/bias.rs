@@ -35,12 +35,41 @@
 //! left is O(1/n²) plus the noise of estimating b itself, which the
 //! simulation in `tests/coverage.rs` measures.
 //!
+//! **Where the analyses report it.** Every fit summarised by
+//! [`crate::fit::fit_model`] or [`crate::fit::fit_weighted`] carries the
+//! bias of each fitted parameter in [`ParameterEstimate::bias`] and the
+//! corrected value in [`ParameterEstimate::value_bias_corrected`]
+//! ([`attach_bias`]), so every analysis built on them reports it: rates
+//! (every rate law), the inhibition mechanisms, the logistic and Morrison,
+//! two substrates, pH and temperature profiles, set comparisons. It is
+//! left out (`None`), with the reason in the field's documentation, for
+//! a fit that did not converge or has no covariance; for a parameter that
+//! is flagged (not determined, not bounded by the profile or the
+//! bootstrap, or an asymptotic interval below zero): the expansion in
+//! small deviations does not describe a constant the data do not bound;
+//! when |bias| is not below the standard error, for the same reason
+//! (Turnover's rule: Box's term is the first of a series in SE-sized
+//! steps, and a first term that large says the series does not converge
+//! quickly); and for a positive constant whose corrected value would not be
+//! positive. Constants held fixed (a logistic's fixed floor or ceiling)
+//! are not parameters of the fit and have no entry. Derived constants get
+//! it only when they are a fixed multiple of one fitted parameter (kcat,
+//! specific activity: the bias scales with it); kcat/Km, ratios and
+//! Cheng-Prusoff's Ki have none. Fits made by their own code
+//! ([`crate::progress`], the bootstrap's and the profile's refits) have
+//! none either.
+//!
+//! **Cost.** A fit with n observations and p parameters costs 2·p·n
+//! gradient evaluations and one p×p inverse more; measured on the 12-point
+//! Michaelis-Menten fit of `tests/bias.rs`, see the README's uncertainty
+//! paragraph.
+//!
 //! The Hessians come from central differences of the model's analytic
 //! gradient (the [`Model`] trait has no second derivatives), with a step of
 //! 10⁻⁴ of each parameter's magnitude or standard error, whichever is
 //! larger; the truncation error, O(step²), is far below the bias itself.
 
-use crate::fit::{unscaled_covariance, Fit, ParameterEstimate};
+use crate::fit::{Fit, ParameterEstimate};
 use crate::model::{Model, Observations};
 
 /// Relative step of the central differences behind the Hessians.
@@ -57,9 +86,19 @@ pub fn box_bias(model: &dyn Model, data: &Observations, fit: &Fit) -> Option<Vec
     }
     let covariance = fit.covariance.as_ref()?;
     let jacobian = &fit.report.jacobian;
-    let unscaled = unscaled_covariance(jacobian)?;
     let theta = fit.values();
     let p = theta.len();
+    // (JᵀWJ)⁻¹ is the covariance over s², already computed by the fit (a
+    // second decomposition cost as much as the rest). With s² = 0 the
+    // covariance is zero, every tr(C Hᵢ) vanishes and so does the bias.
+    let variance = fit.summary.rss / fit.summary.dof as f64;
+    if variance == 0.0 {
+        return Some(vec![0.0; p]);
+    }
+    if !variance.is_finite() {
+        return None;
+    }
+    let unscaled = covariance / variance;
     let steps: Vec<f64> = (0..p)
         .map(|k| {
             let scale = theta[k].abs().max(covariance[(k, k)].sqrt());
@@ -98,6 +137,22 @@ pub fn box_bias(model: &dyn Model, data: &Observations, fit: &Fit) -> Option<Vec
     bias.iter().all(|b| b.is_finite()).then_some(bias)
 }
 
+/// Fills [`ParameterEstimate::bias`] and
+/// [`ParameterEstimate::value_bias_corrected`] of each fitted parameter of
+/// `fit` from [`box_bias`], leaving them `None` where the module
+/// documentation says. `data` must carry the fit's final weights.
+pub fn attach_bias(model: &dyn Model, data: &Observations, fit: &mut Fit) {
+    let Some(bias) = box_bias(model, data, fit) else {
+        return;
+    };
+    for (j, (estimate, b)) in fit.summary.parameters.iter_mut().zip(bias).enumerate() {
+        let trusted = estimate.flag.is_none()
+            && estimate.std_error.is_some_and(|se| b.abs() < se)
+            && !(model.positive(j) && estimate.value - b <= 0.0);
+        estimate.set_bias(trusted.then_some(b));
+    }
+}
+
 /// The fit's estimates with `bias` (from [`box_bias`]) subtracted: each
 /// value and both ends of its interval move by −bias; standard errors,
 /// names, units and flags are kept. Derived constants are not touched
@@ -111,6 +166,8 @@ pub fn corrected(fit: &Fit, bias: &[f64]) -> Vec<ParameterEstimate> {
             value: estimate.value - b,
             ci_low: estimate.ci_low.map(|v| v - b),
             ci_high: estimate.ci_high.map(|v| v - b),
+            bias: None,
+            value_bias_corrected: None,
             ..estimate.clone()
         })
         .collect()

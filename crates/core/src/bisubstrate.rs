@@ -596,6 +596,7 @@ pub fn analyse_bisubstrate(request: &BisubstrateRequest) -> Result<BisubstrateAn
             kcat.ci_high = vmax.ci_high.map(|v| v * factor);
             kcat.ci_method = vmax.ci_method.clone();
             kcat.flag = vmax.flag.clone();
+            kcat.set_bias(vmax.bias.map(|b| b * factor));
             kcat.unit = Some("s⁻¹".to_string());
             kcat.derived = true;
             summary.parameters.push(kcat);

@@ -704,6 +704,8 @@ mod tests {
                     derived: false,
                     ci_method: String::new(),
                     flag: None,
+                    bias: None,
+                    value_bias_corrected: None,
                 })
                 .collect();
             let mut ordered = summary("ordered", 25, 3, 40.0);

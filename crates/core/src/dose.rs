@@ -460,6 +460,8 @@ fn add_ki(
         derived: true,
         ci_method,
         flag: None,
+        bias: None,
+        value_bias_corrected: None,
     });
     Ok(())
 }

@@ -49,6 +49,26 @@ pub struct ParameterEstimate {
     /// asymptotic interval reaches below zero: use the profile interval).
     /// `None` otherwise. A warning in words goes with every flag.
     pub flag: Option<String>,
+    /// The estimated small-sample bias of `value` (expected estimate minus
+    /// truth, to first order in 1/n, in the value's unit) by Box's (1971)
+    /// formula, see [`crate::bias`]. `None` when it is not computed: the
+    /// fit did not converge or has no covariance, the parameter is flagged
+    /// (the data do not bound it, or its asymptotic interval reaches below
+    /// zero), the bias is not smaller than the standard error (the
+    /// first-order expansion behind it no longer holds), or the constant is
+    /// derived by anything but a fixed scaling of one fitted parameter.
+    pub bias: Option<f64>,
+    /// `value − bias`, the estimate with its first-order bias removed;
+    /// `None` exactly when `bias` is.
+    pub value_bias_corrected: Option<f64>,
+}
+
+impl ParameterEstimate {
+    /// Sets `bias` and `value_bias_corrected` together (`None` clears both).
+    pub fn set_bias(&mut self, bias: Option<f64>) {
+        self.bias = bias;
+        self.value_bias_corrected = bias.map(|b| self.value - b);
+    }
 }
 
 /// [`ParameterEstimate::flag`] values.
@@ -170,8 +190,17 @@ impl Default for FitSettings {
 }
 
 /// Fits `model` to `data`, from `start` or, when `None`, from the model's
-/// own starting values.
+/// own starting values. The record carries each parameter's small-sample
+/// bias ([`crate::bias::attach_bias`]).
 pub fn fit_model(model: &dyn Model, data: &Observations, start: Option<&[f64]>, settings: &FitSettings) -> Result<Fit, Error> {
+    let mut fit = fit_without_bias(model, data, start, settings)?;
+    crate::bias::attach_bias(model, data, &mut fit);
+    Ok(fit)
+}
+
+/// [`fit_model`] without the bias, for a first round whose record is
+/// replaced.
+fn fit_without_bias(model: &dyn Model, data: &Observations, start: Option<&[f64]>, settings: &FitSettings) -> Result<Fit, Error> {
     let n_params = model.parameters().len();
     if !(settings.confidence_level > 0.0 && settings.confidence_level < 1.0) {
         return Err(Error::invalid_option("the confidence level must be strictly between 0 and 1"));
@@ -296,8 +325,9 @@ pub fn fit_weighted(
     start: Option<&[f64]>,
     settings: &FitSettings,
 ) -> Result<(Fit, Observations), Error> {
-    let first = fit_model(model, data, start, settings)?;
+    let mut first = fit_without_bias(model, data, start, settings)?;
     if !weighting.from_model() || !first.summary.converged {
+        crate::bias::attach_bias(model, data, &mut first);
         return Ok((first, data.clone()));
     }
     let r = iterate_weights(model, data, weighting, first.values(), &settings.solver, REWEIGHT_TOLERANCE, REWEIGHT_LIMIT);
@@ -305,14 +335,15 @@ pub fn fit_weighted(
         // Reweighting can wander off when the curve nears zero where the
         // data do not (errors that are not proportional, for example); the
         // fit on the measured rates is then the better-defined answer.
-        let mut first = first;
         first.summary.warnings.push(format!(
             "The weights from the fitted curve did not settle ({why}); the fit shown uses {} on the measured values instead, which biases the estimates slightly (check the error structure).",
             weighting.describe().replace(" from the fitted curve", "")
         ));
+        crate::bias::attach_bias(model, data, &mut first);
         return Ok((first, data.clone()));
     }
     let mut fit = summarise(model, &r.data, r.report, settings.confidence_level);
+    crate::bias::attach_bias(model, &r.data, &mut fit);
     fit.summary.reweighting_rounds = Some(r.rounds);
     fit.reweighting = Some(weighting);
     Ok((fit, r.data))
@@ -450,6 +481,8 @@ pub fn estimate(name: &str, value: f64, std_error: Option<f64>, t_quantile: Opti
         derived: false,
         ci_method: "asymptotic".to_string(),
         flag: None,
+        bias: None,
+        value_bias_corrected: None,
     }
 }
 

@@ -261,6 +261,8 @@ mod tests {
             derived: false,
             ci_method: "asymptotic".into(),
             flag: None,
+            bias: None,
+            value_bias_corrected: None,
         };
         let text = constants_text(&[
             p("Vmax", 212.68, Some(6.947), Some("µM/min")),

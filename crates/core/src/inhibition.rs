@@ -687,9 +687,9 @@ mod tests {
                 let fit = &analysis.fits[0];
                 let kic_flag = fit.parameters[2].flag.as_deref();
                 let named = matches!(kic_flag, Some(crate::fit::flags::NOT_DETERMINED) | Some(crate::fit::flags::NOT_BOUNDED_ABOVE));
-                // "above", or "on either side" when the profile below the
-                // estimate passes through 1/Kic = 0 into negative Kic (mild
-                // activation fits as well as mild inhibition here).
+                // "above"; "on either side" only for a fitted Kic ≤ 0 (mild
+                // activation fits as well as mild inhibition here), whose
+                // profile is not kept on the positive side.
                 let warned = fit.warnings.iter().any(|w| w.contains("profile interval is open for Kic above") || w.contains("profile interval is open for Kic on either side"));
                 assert_eq!(named, warned, "seed {seed}: flag {kic_flag:?} but warnings {:?}", fit.warnings);
                 if named {

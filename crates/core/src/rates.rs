@@ -497,6 +497,7 @@ fn analyse_rates_with(request: &RateRequest, fixed_weights: Option<&[f64]>) -> R
             derived_factors,
         )?),
     };
+    scale_bias_to_derived(&mut summary, derived_factors);
     summary.warnings.extend(diagnostics.findings.iter().cloned());
     let error_structure =
         if request.weighting == Weighting::Sd { None } else { crate::errors::error_structure(model.as_ref(), &observations) };
@@ -768,6 +769,19 @@ fn add_specific_activity(summary: &mut FitSummary, fit: &Fit, factor: Option<f64
     activity.derived = true;
     activity.ci_method = "delta".to_string();
     summary.parameters.push(activity);
+}
+
+/// kcat and specific activity are Vmax times an exact factor, so their
+/// small-sample bias is Vmax's times that factor (see [`crate::bias`]);
+/// set after the interval step, which may withdraw Vmax's. kcat/Km has
+/// none.
+fn scale_bias_to_derived(summary: &mut FitSummary, factors: DerivedFactors) {
+    let vmax_bias = summary.parameters[0].bias;
+    for (name, factor) in [("kcat", factors.kcat), ("specific activity", factors.activity)] {
+        if let (Some(factor), Some(e)) = (factor, summary.parameters.iter_mut().find(|p| p.derived && p.name == name)) {
+            e.set_bias(vmax_bias.map(|b| b * factor));
+        }
+    }
 }
 
 /// The factors that turn the fitted constants into the derived ones, in

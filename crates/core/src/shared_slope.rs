@@ -258,10 +258,12 @@ fn global_fit(request: &BatchRequest, split: &CurveSplit, base: &dyn Model, own:
             let g = k * own + j;
             let mut e = estimate(base.parameters()[j].name, fit.values()[g], se_of(g), t);
             e.flag = summary.parameters[g].flag.clone();
+            e.set_bias(summary.parameters[g].bias);
             parameters.push(e);
         }
         let mut shared_estimate = slope.clone();
         shared_estimate.flag = summary.parameters[slope_index].flag.clone();
+        shared_estimate.set_bias(summary.parameters[slope_index].bias);
         parameters.push(shared_estimate);
         let local: Vec<f64> = parameters.iter().map(|p| p.value).collect();
         let rss: f64 = member.points.iter().map(|&(i, response)| (response - base.value(&[i], &local)).powi(2)).sum();

@@ -23,7 +23,8 @@ use wasm_bindgen::prelude::*;
 /// Returns the `BisubstrateAnalysis` as JSON: `layout` (`"long"` or
 /// `"matrix"`); `fits` (one fit record per law, as every analysis has:
 /// `model`, `equation`, `parameters` [`{name, value, std_error, ci_low,
-/// ci_high, unit, derived, ci_method, flag}`: `Vmax`, `KmA`, `KmB`, `KiA`
+/// ci_high, unit, derived, ci_method, flag, bias, value_bias_corrected}`
+/// (the last two `null` where not computed): `Vmax`, `KmA`, `KmB`, `KiA`
 /// as the law has them, then a derived `kcat` in s⁻¹ when `enzyme` and the
 /// rate unit are known], `rss`, `aicc`, `converged`, `warnings`, ...);
 /// `comparison` (`models` ranked by AICc with Akaike weights, `f_tests`

@@ -100,7 +100,10 @@ impl Workbench {
     /// message is written for the scientist when no fit can be made; the
     /// previous analysis is then forgotten so no stale plot is drawn. The
     /// returned plots carry their kind, titles and notes only: `draw` draws
-    /// them from the analysis kept here.
+    /// them from the analysis kept here. Each entry of `fit.parameters` has
+    /// `bias` and `value_bias_corrected` (the small-sample bias and the
+    /// value with it removed, the core's `bias` module; `null` where not
+    /// computed).
     pub fn analyse(&mut self, request: JsValue) -> Result<JsValue, JsError> {
         let request: RateRequest = read_request(request)?;
         match analyse_rates(&request) {
