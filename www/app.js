@@ -625,11 +625,12 @@ function csvText(rows) {
  *  file reads as one tidy table. */
 function constantsRows(fits) {
   const rows = [['model', 'constant', 'estimate', 'std_error', 'ci_low', 'ci_high', 'ci_method', 'unit', 'derived',
-    'n', 'dof', 'rss', 'residual_sd', 'r_squared', 'aicc', 'converged', 'weighting', 'confidence_level']];
+    'n', 'dof', 'rss', 'residual_sd', 'r_squared', 'aicc', 'converged', 'weighting', 'confidence_level', 'bias', 'value_bias_corrected']];
   for (const fit of fits) {
     for (const p of fit.parameters) {
       rows.push([fit.model, p.name, p.value, p.std_error, p.ci_low, p.ci_high, p.ci_method, p.unit ?? '', p.derived,
-        fit.n, fit.dof, fit.rss, fit.sigma, fit.r_squared, fit.aicc, fit.converged, fit.weighting, fit.confidence_level]);
+        fit.n, fit.dof, fit.rss, fit.sigma, fit.r_squared, fit.aicc, fit.converged, fit.weighting, fit.confidence_level,
+        p.bias ?? null, p.value_bias_corrected ?? null]);
     }
   }
   return rows;
