@@ -65,6 +65,12 @@ function clear(message, state = 'idle') {
   $('inactivation-output').hidden = true;
 }
 
+/** The F test of saturation ([F, df1, df2, p]) as a sentence, or ''. */
+function saturationText(test) {
+  if (!test) return '';
+  return ` Saturation: F(${test[1]}, ${test[2]}) = ${page.ui.format(test[0])}, ${test[3] < 0.0001 ? 'p < 0.0001' : `p = ${test[3].toFixed(4)}`}.`;
+}
+
 function analyse(doc) {
   lastError = null;
   $('inactivation-options').hidden = !doc.traces.inactivation;
@@ -84,8 +90,7 @@ function analyse(doc) {
   $('inactivation-output').hidden = false;
   const warned = result.warnings.length > 0;
   $('inactivation-status').dataset.state = warned ? 'warn' : 'ok';
-  const test = result.saturation_test;
-  const sat = test ? ` Saturation: F(${test[1]}, ${test[2]}) = ${page.ui.format(test[0])}, ${test[3] < 0.0001 ? 'p < 0.0001' : `p = ${test[3].toFixed(4)}`}.` : '';
+  const sat = saturationText(result.saturation_test);
   $('inactivation-status').textContent = `${result.traces.length} traces with inhibitor fitted; ${result.saturation ? 'kobs saturates with [I]: kinact and KI reported' : 'no saturation seen: only kinact/KI is reported'}.${sat}`;
   const body = $('inactivation-parameters').tBodies[0];
   body.replaceChildren(...result.parameters.map((p) => page.ui.parameterRow(p)));
@@ -110,8 +115,7 @@ function showGlobal(global) {
   $('inactivation-global').hidden = !global;
   if (!global) return;
   const f = page.ui.format;
-  const test = global.saturation_test;
-  const sat = test ? ` Saturation: F(${test[1]}, ${test[2]}) = ${f(test[0])}, ${test[3] < 0.0001 ? 'p < 0.0001' : `p = ${test[3].toFixed(4)}`}.` : '';
+  const sat = saturationText(global.saturation_test);
   const status = $('inactivation-global-status');
   status.dataset.state = !global.converged ? 'error' : global.warnings.length ? 'warn' : 'ok';
   status.textContent = `${global.converged ? 'Converged' : 'Did not converge'} on ${global.n} readings of ${global.traces.length} traces (${global.fitted} constants fitted, residual SD ${f(global.sigma, 3)}, AICc ${f(global.aicc)}); ${global.saturation ? 'kinact and KI reported' : 'no saturation seen: only kinact/KI'}.${sat}`;
