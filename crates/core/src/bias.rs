@@ -59,6 +59,14 @@
 //! ([`crate::progress`], the bootstrap's and the profile's refits) have
 //! none either.
 //!
+//! **Limitation.** The formula treats the weights as fixed or as the
+//! fit's own weights from its fitted curve. Where an analysis holds
+//! weights computed from another model's curve (the inhibition
+//! mechanisms other than the one the weights were iterated on, the rate
+//! laws of a comparison) or from the measured rates (the fallback when
+//! reweighting does not settle), the randomness of those weights adds a
+//! bias of the same order that the field does not include (not measured).
+//!
 //! **Cost.** A fit with n observations and p parameters costs 2·p·n
 //! gradient evaluations and one p×p inverse more; measured on the 12-point
 //! Michaelis-Menten fit of `tests/bias.rs`, see the README's uncertainty
