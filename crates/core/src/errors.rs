@@ -29,7 +29,7 @@
 //! J. Am. Stat. Assoc. 64, 316; from memory), with its t test. A positive
 //! slope says the spread grows with the rate.
 
-use crate::fit::{fit_model, fit_weighted, FitSettings};
+use crate::fit::{fit_model, reweighted_solution, FitSettings};
 use crate::model::{Model, Observations};
 use crate::weighting::Weighting;
 use serde::Serialize;
@@ -136,11 +136,9 @@ pub fn error_structure_after(model: &dyn Model, data: &Observations, uniform: Op
     for (scheme, g) in [(Weighting::Poisson, 1.0), (Weighting::Relative, 2.0)] {
         let Ok(Some(start_weights)) = scheme.weights_without_sd(y) else { continue };
         let Ok(start_data) = data.with_weights(start_weights) else { continue };
-        let Ok((fit, _)) = fit_weighted(model, &start_data, scheme, Some(&uniform), &settings) else { continue };
-        if !fit.summary.converged || fit.reweighting.is_none() {
-            continue;
-        }
-        let f = fitted_of(fit.values());
+        // Only the solution is needed, not the fit's statistics.
+        let Some(values) = reweighted_solution(model, &start_data, scheme, &uniform, &settings.solver) else { continue };
+        let f = fitted_of(&values);
         if let Some(l) = log_likelihood(y, &f, |m: f64| if m > 0.0 { m.powf(g) } else { f64::NAN }) {
             models.push(ErrorModel { weighting: scheme.name().to_string(), log_likelihood: l });
         }
