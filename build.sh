@@ -58,12 +58,12 @@ build_page() {
   ensure_wasm_target
   ensure_wasm_bindgen
   say "building the WebAssembly core"
-  cargo build --release --target wasm32-unknown-unknown -p turnover-wasm
+  cargo build --profile page --target wasm32-unknown-unknown -p turnover-wasm
   rm -rf target/pkg
   # The name and producers sections only help debuggers and stack traces;
   # without them the gzip-compressed binary is about 76 kB smaller.
   wasm-bindgen --target no-modules --no-typescript --remove-name-section --remove-producers-section --out-dir target/pkg \
-    target/wasm32-unknown-unknown/release/turnover_wasm.wasm
+    target/wasm32-unknown-unknown/page/turnover_wasm.wasm
   say "assembling the single-file page"
   node www/assemble.mjs target/pkg "$OUT"
   local size
@@ -79,10 +79,10 @@ build_page() {
 # Written to target/, never to dist/.
 build_test_hooks_page() {
   say "building the page with its test hooks (target/turnover-test-hooks.html)"
-  cargo build --release --target wasm32-unknown-unknown -p turnover-wasm --features test-hooks
+  cargo build --profile page --target wasm32-unknown-unknown -p turnover-wasm --features test-hooks
   rm -rf target/pkg-test
   wasm-bindgen --target no-modules --no-typescript --remove-name-section --remove-producers-section --out-dir target/pkg-test \
-    target/wasm32-unknown-unknown/release/turnover_wasm.wasm
+    target/wasm32-unknown-unknown/page/turnover_wasm.wasm
   node www/assemble.mjs target/pkg-test target/turnover-test-hooks.html
 }
 

@@ -29,7 +29,7 @@
 //! J. Am. Stat. Assoc. 64, 316; from memory), with its t test. A positive
 //! slope says the spread grows with the rate.
 
-use crate::fit::{fit_model, fit_weighted, FitSettings};
+use crate::fit::{fit_model, reweighted_solution, FitSettings};
 use crate::model::{Model, Observations};
 use crate::weighting::Weighting;
 use serde::Serialize;
@@ -108,25 +108,37 @@ fn slope(a: &[f64], b: &[f64]) -> Option<(f64, f64, f64)> {
 /// Checks the error structure of `data` (its weights are ignored) under
 /// `model`. `None` when not even the uniform fit converges.
 pub fn error_structure(model: &dyn Model, data: &Observations) -> Option<ErrorStructure> {
+    error_structure_after(model, data, None)
+}
+
+/// [`error_structure`] for a caller that has already fitted `model` to
+/// `data` with every weight 1 and no starting values of its own (the
+/// analyses do, with uniform weighting): `uniform` is that converged fit's
+/// parameter vector, the very result the check's own first fit would
+/// compute, so it is used instead of fitting again. `None` fits here.
+pub fn error_structure_after(model: &dyn Model, data: &Observations, uniform: Option<&[f64]>) -> Option<ErrorStructure> {
     let n = data.len();
     let settings = FitSettings::default();
-    let uniform_data = data.with_weights(vec![1.0; n]).ok()?;
-    let uniform = fit_model(model, &uniform_data, None, &settings).ok().filter(|f| f.summary.converged)?;
+    let uniform: Vec<f64> = match uniform {
+        Some(values) => values.to_vec(),
+        None => {
+            let uniform_data = data.with_weights(vec![1.0; n]).ok()?;
+            fit_model(model, &uniform_data, None, &settings).ok().filter(|f| f.summary.converged)?.values().to_vec()
+        }
+    };
     let fitted_of = |p: &[f64]| -> Vec<f64> { (0..n).map(|i| model.value(data.x(i), p)).collect() };
     let y = data.y();
     let mut models = Vec::new();
-    let f_uniform = fitted_of(uniform.values());
+    let f_uniform = fitted_of(&uniform);
     if let Some(l) = log_likelihood(y, &f_uniform, |_| 1.0) {
         models.push(ErrorModel { weighting: "uniform".to_string(), log_likelihood: l });
     }
     for (scheme, g) in [(Weighting::Poisson, 1.0), (Weighting::Relative, 2.0)] {
         let Ok(Some(start_weights)) = scheme.weights_without_sd(y) else { continue };
         let Ok(start_data) = data.with_weights(start_weights) else { continue };
-        let Ok((fit, _)) = fit_weighted(model, &start_data, scheme, Some(uniform.values()), &settings) else { continue };
-        if !fit.summary.converged || fit.reweighting.is_none() {
-            continue;
-        }
-        let f = fitted_of(fit.values());
+        // Only the solution is needed, not the fit's statistics.
+        let Some(values) = reweighted_solution(model, &start_data, scheme, &uniform, &settings.solver) else { continue };
+        let f = fitted_of(&values);
         if let Some(l) = log_likelihood(y, &f, |m: f64| if m > 0.0 { m.powf(g) } else { f64::NAN }) {
             models.push(ErrorModel { weighting: scheme.name().to_string(), log_likelihood: l });
         }

@@ -65,8 +65,21 @@ macro_rules! run {
             .with_patience($settings.patience)
             .minimize(problem);
         let termination: Termination = termination_of(&report.termination);
-        report_at($model, $data, problem.p.as_slice(), termination, problem.jacobian_calls.get(), report.number_of_evaluations)
+        Outcome {
+            parameters: problem.p.as_slice().to_vec(),
+            termination,
+            jacobian_calls: problem.jacobian_calls.get(),
+            evaluations: report.number_of_evaluations,
+        }
     }};
+}
+
+/// Where the fixed-size iteration stopped, before the report is formed.
+pub(crate) struct Outcome {
+    pub parameters: Vec<f64>,
+    pub termination: Termination,
+    pub jacobian_calls: usize,
+    pub evaluations: usize,
 }
 
 /// Minimises with the fixed-size path when the model has 1 to
@@ -75,6 +88,13 @@ macro_rules! run {
 /// The report is the general path's report in form: the weighted Jacobian
 /// at the solution is built once, at the end.
 pub fn minimise_small(model: &dyn Model, data: &Observations, start: &[f64], settings: &SolverSettings) -> Option<SolverReport> {
+    let o = iterate_small(model, data, start, settings)?;
+    Some(report_at(model, data, &o.parameters, o.termination, o.jacobian_calls, o.evaluations))
+}
+
+/// The iteration of [`minimise_small`] without the report (whose weighted
+/// Jacobian at the solution a caller may not need).
+pub(crate) fn iterate_small(model: &dyn Model, data: &Observations, start: &[f64], settings: &SolverSettings) -> Option<Outcome> {
     if start.is_empty() || data.len() <= start.len() || !start.iter().all(|v| v.is_finite()) {
         return None;
     }

@@ -349,6 +349,46 @@ pub fn fit_weighted(
     Ok((fit, r.data))
 }
 
+/// The solution [`fit_weighted`] reaches for a scheme whose weights come
+/// from the fitted curve, without the fit's statistics (covariance, t
+/// quantile, warnings), for checks that need only the parameter values
+/// (the error structure). `None` exactly when `fit_weighted` would give a
+/// fit without reweighting or one not converged: the scheme has fixed
+/// weights, the data are unusable, the first fit or the last does not
+/// converge (a run-off counts as not converged, as in [`fit_model`]) or the
+/// weights do not settle. The same minimisations from the same starts, so
+/// the same values.
+pub(crate) fn reweighted_solution(
+    model: &dyn Model,
+    data: &Observations,
+    weighting: Weighting,
+    start: &[f64],
+    solver: &SolverSettings,
+) -> Option<Vec<f64>> {
+    let y = data.y();
+    let usable = data.predictors() == model.predictors()
+        && start.len() == model.parameters().len()
+        && data.len() > start.len()
+        && !y.iter().all(|v| *v == y[0]);
+    if !weighting.from_model() || !usable {
+        return None;
+    }
+    let first = minimise(model, data, start, solver);
+    if !first.converged || !runaway_indices(model, data, &first.parameters).is_empty() {
+        return None;
+    }
+    let r = iterate_weights(model, data, weighting, &first.parameters, solver, REWEIGHT_TOLERANCE, REWEIGHT_LIMIT);
+    let settled = r.unsettled.is_none() && r.report.converged && runaway_indices(model, &r.data, &r.report.parameters).is_empty();
+    settled.then_some(r.report.parameters)
+}
+
+/// The parameters beyond their [`runaway_limit`].
+fn runaway_indices(model: &dyn Model, data: &Observations, parameters: &[f64]) -> Vec<usize> {
+    (0..parameters.len())
+        .filter(|&j| runaway_limit(model, data, j).is_some_and(|limit| parameters[j].abs() > limit))
+        .collect()
+}
+
 /// Condition below which the scaled Jacobian counts as rank deficient:
 /// singular values smaller than this times the largest (after scaling each
 /// column to unit length) carry no information in double precision.
@@ -357,9 +397,7 @@ const RANK_TOLERANCE: f64 = 1e-12;
 fn summarise(model: &dyn Model, data: &Observations, mut report: SolverReport, level: f64) -> Fit {
     // A stopped minimiser with a parameter far beyond the data's scale has
     // not found an optimum: it drifted along a valley towards infinity.
-    let runaway: Vec<usize> = (0..report.parameters.len())
-        .filter(|&j| runaway_limit(model, data, j).is_some_and(|limit| report.parameters[j].abs() > limit))
-        .collect();
+    let runaway = runaway_indices(model, data, &report.parameters);
     if report.converged && !runaway.is_empty() {
         report.converged = false;
         report.termination = Termination::NoFiniteOptimum;

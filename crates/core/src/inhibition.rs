@@ -367,33 +367,50 @@ fn read(text: &str, excluded_lines: &[usize], excluded_cells: &[(usize, usize)])
     Ok(Read { layout: layout_kind, points, problems, notes, units })
 }
 
-/// Fits one mechanism. Mixed inhibition is also started from each
-/// single-mechanism solution given in `seeds` (with the missing constant
-/// far above the [I] range), and the best converged result is kept: when
+/// Fits one mechanism from the model's own starting values; mixed
+/// inhibition, when single-mechanism solutions are given in `seeds`, from
+/// those instead. Each seed becomes a mixed start (the missing constant far
+/// above the [I] range), and a coarse grid is added
+/// ([`Inhibition::mixed_candidates`]); the minimiser runs from the best
+/// two candidates by sum of squares, and from the next ones while none has
+/// converged (four at most), and the best converged result is kept: when
 /// the data are in truth competitive, the mixed fit's Kiu runs off towards
 /// infinity and a single start can stall far from the minimum.
 pub fn fit_mechanism(mechanism: Mechanism, data: &Observations, seeds: &[(Mechanism, Vec<f64>)]) -> Result<Fit, Error> {
     let model = Inhibition::new(mechanism);
     let settings = FitSettings::default();
-    let mut best = fit_model(&model, data, None, &settings)?;
-    if mechanism == Mechanism::Mixed {
-        let far = 1e3 * data.predictor_column(1).into_iter().fold(0.0, f64::max).max(f64::MIN_POSITIVE);
-        for (seed_mechanism, p) in seeds {
-            let start = match seed_mechanism {
-                Mechanism::Competitive => vec![p[0], p[1], p[2], far],
-                Mechanism::Uncompetitive => vec![p[0], p[1], far, p[2]],
-                Mechanism::Noncompetitive => vec![p[0], p[1], p[2], p[2]],
-                Mechanism::Mixed => continue,
-            };
-            let candidate = fit_model(&model, data, Some(&start), &settings)?;
-            let better = (candidate.summary.converged && !best.summary.converged)
-                || (candidate.summary.converged == best.summary.converged && candidate.summary.rss < best.summary.rss);
-            if better {
-                best = candidate;
-            }
+    let far = 1e3 * data.predictor_column(1).into_iter().fold(0.0, f64::max).max(f64::MIN_POSITIVE);
+    let starts: Vec<[f64; 4]> = seeds
+        .iter()
+        .filter_map(|(seed_mechanism, p)| match seed_mechanism {
+            Mechanism::Competitive => Some([p[0], p[1], p[2], far]),
+            Mechanism::Uncompetitive => Some([p[0], p[1], far, p[2]]),
+            Mechanism::Noncompetitive => Some([p[0], p[1], p[2], p[2]]),
+            Mechanism::Mixed => None,
+        })
+        .collect();
+    if mechanism != Mechanism::Mixed || starts.is_empty() {
+        return fit_model(&model, data, None, &settings);
+    }
+    let mut best: Option<Fit> = None;
+    for (tried, (_, start)) in model.mixed_candidates(data, &starts).into_iter().enumerate() {
+        let converged = best.as_ref().is_some_and(|b| b.summary.converged);
+        if tried >= 4 || (tried >= 2 && converged) {
+            break;
+        }
+        let candidate = fit_model(&model, data, Some(&start), &settings)?;
+        let better = best.as_ref().is_none_or(|b| {
+            (candidate.summary.converged && !b.summary.converged)
+                || (candidate.summary.converged == b.summary.converged && candidate.summary.rss < b.summary.rss)
+        });
+        if better {
+            best = Some(candidate);
         }
     }
-    Ok(best)
+    match best {
+        Some(fit) => Ok(fit),
+        None => fit_model(&model, data, None, &settings),
+    }
 }
 
 /// The ratio of fitted parameters `top`/`bottom` (such as Kiu/Kic, which
@@ -573,7 +590,13 @@ pub fn analyse_inhibition(request: &InhibitionRequest) -> Result<InhibitionAnaly
     }
     let comparison = compare_fits(&fits);
     let general = if mechanisms.contains(&Mechanism::Mixed) { Mechanism::Mixed } else { mechanisms[0] };
-    let error_structure = crate::errors::error_structure(&Inhibition::new(general), &data);
+    // With uniform weights the general mechanism's own fit is the check's
+    // first fit (for mixed, the best of its starts), so it is not repeated.
+    let uniform = fitted
+        .iter()
+        .find(|(m, f)| *m == general && f.summary.converged && request.weighting == crate::weighting::Weighting::Uniform)
+        .map(|(_, f)| f.values());
+    let error_structure = crate::errors::error_structure_after(&Inhibition::new(general), &data, uniform);
     if let Some(check) = &error_structure {
         match check.suggested.as_deref() {
             Some(suggested) if suggested != request.weighting.name() => notes.push(format!(

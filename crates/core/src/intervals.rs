@@ -24,7 +24,7 @@
 use crate::fit::{flags, iterate_weights, runaway_limit, unscaled_covariance, Fit, FitSummary};
 use crate::model::{Model, Observations, ParameterSpec};
 use crate::random::SplitMix64;
-use crate::solver::{minimise, SolverReport, SolverSettings, Termination};
+use crate::solver::{minimise, minimise_solution, SolverReport, SolverSettings, Termination};
 use nalgebra::DMatrix;
 use serde::{Deserialize, Serialize};
 
@@ -162,8 +162,8 @@ pub fn profile_rss(model: &dyn Model, data: &Observations, index: usize, value: 
             .sum();
         return rss.is_finite().then(|| (rss, vec![value]));
     }
-    let report = minimise(&held, data, &free_start, &SolverSettings::default());
-    report.converged.then(|| (report.rss, held.full(&report.parameters)))
+    let (parameters, rss, converged) = minimise_solution(&held, data, &free_start, &SolverSettings::default());
+    converged.then(|| (rss, held.full(&parameters)))
 }
 
 /// Where [`profile_walk`] stopped: the last value inside the

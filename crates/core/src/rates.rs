@@ -499,8 +499,15 @@ fn analyse_rates_with(request: &RateRequest, fixed_weights: Option<&[f64]>) -> R
     };
     scale_bias_to_derived(&mut summary, derived_factors);
     summary.warnings.extend(diagnostics.findings.iter().cloned());
-    let error_structure =
-        if request.weighting == Weighting::Sd { None } else { crate::errors::error_structure(model.as_ref(), &observations) };
+    // With uniform weights (all 1) the fit above is the check's own first
+    // fit, computed the same way from the same start; it is not repeated.
+    let uniform = (scheme == Weighting::Uniform && fit.summary.converged && observations.weights().iter().all(|w| *w == 1.0))
+        .then(|| fit.values());
+    let error_structure = if request.weighting == Weighting::Sd {
+        None
+    } else {
+        crate::errors::error_structure_after(model.as_ref(), &observations, uniform)
+    };
     if let Some(check) = &error_structure {
         if let Some(suggested) = check.suggested.as_deref().filter(|w| *w != request.weighting.name()) {
             summary.warnings.push(format!(

@@ -122,6 +122,51 @@ pub fn minimise(model: &dyn Model, data: &Observations, start: &[f64], settings:
     }
 }
 
+/// [`minimise`] for a caller that needs only the solution, its weighted
+/// sum of squares and whether it converged (the refits of a profile):
+/// `(parameters, rss, converged)`, the same numbers as the report's. The
+/// weighted Jacobian at the solution is formed only where the verdict
+/// needs it (a stop at the precision limit, judged by the gradient
+/// cosine) or when the general path runs.
+pub(crate) fn minimise_solution(model: &dyn Model, data: &Observations, start: &[f64], settings: &SolverSettings) -> (Vec<f64>, f64, bool) {
+    let general = |o: Option<crate::fastpath::Outcome>| {
+        let report = match o {
+            Some(o) => report_at(model, data, &o.parameters, o.termination, o.jacobian_calls, o.evaluations),
+            None => minimise_general(model, data, start, settings),
+        };
+        (report.parameters, report.rss, report.converged)
+    };
+    match crate::fastpath::iterate_small(model, data, start, settings) {
+        Some(o) if o.termination == Termination::PrecisionLimit => {
+            let (parameters, rss, converged) = general(Some(o));
+            if converged {
+                (parameters, rss, converged)
+            } else {
+                general(None)
+            }
+        }
+        Some(o) => {
+            let problem = Problem {
+                model,
+                data,
+                sqrt_weights: data.weights().iter().map(|w| w.sqrt()).collect(),
+                p: DVector::from_column_slice(&o.parameters),
+                jacobian_calls: Cell::new(o.jacobian_calls),
+            };
+            // The sum of squares exactly as `finish` forms it.
+            let rss = problem.weighted_residuals().norm_squared();
+            let finite = rss.is_finite() && o.parameters.iter().all(|p| p.is_finite());
+            let converged = finite && matches!(o.termination, Termination::Converged | Termination::Stationary | Termination::ExactFit);
+            if converged {
+                (o.parameters, rss, true)
+            } else {
+                general(None)
+            }
+        }
+        None => general(None),
+    }
+}
+
 /// Fits `model` to `data` from `start` with the general path: the
 /// `levenberg-marquardt` crate on the n weighted residuals and the n×p
 /// Jacobian, for any number of parameters.
