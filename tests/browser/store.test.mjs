@@ -58,6 +58,7 @@ test('each named edit changes exactly its part of the document', () => {
     [{ type: 'choose preset', preset: 'nadh', epsilon: '6220' }, (d) => d.traces.preset === 'nadh' && d.traces.epsilon === '6220'],
     [{ type: 'fit whole curves', on: true }, (d) => d.traces.whole_curve === true],
     [{ type: 'rename', name: 'Mutant K41A' }, (d) => d.name === 'Mutant K41A'],
+    [{ type: 'report time', value: 's', factor: 60 }, (d) => d.traces.report_time === 's'],
   ];
   for (const [edit, holds] of cases) {
     const after = applyEdit(doc, edit);
@@ -67,6 +68,12 @@ test('each named edit changes exactly its part of the document', () => {
   // A second toggle brings the point back.
   const twice = applyEdit(applyEdit(doc, { type: 'toggle point', section: 'dose', line: 7 }), { type: 'toggle point', section: 'dose', line: 7 });
   assert.deepEqual(twice.dose.excluded_lines, []);
+  // The time unit rescales the windows set by hand in the same step (from
+  // minutes to seconds: × 60), and undoing is the document before.
+  const windowed = applyEdit(applyEdit(doc, { type: 'set window', trace: 'A3', start: 2, end: 6 }), { type: 'window for all', start: 1, end: 3 });
+  const inSeconds = applyEdit(applyEdit(doc, { type: 'set window', trace: 'A3', start: 2, end: 6 }), { type: 'report time', value: 's', factor: 60 });
+  assert.deepEqual(inSeconds.traces.windows, { A3: [120, 360] });
+  assert.deepEqual(applyEdit(windowed, { type: 'report time', value: 'min', factor: 1 }).traces.windows, windowed.traces.windows);
   // Setting a field to the value it has is no edit at all.
   assert.equal(applyEdit(doc, { type: 'set field', path: 'rates.weighting', value: 'uniform' }), doc);
   assert.throws(() => applyEdit(doc, { type: 'no such edit' }), /unknown edit/);
