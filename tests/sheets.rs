@@ -28,44 +28,12 @@
 use calamine::{open_workbook_auto_from_rs, Data, Reader};
 use proptest::prelude::*;
 use std::io::Cursor;
-use turnover_core::read::sheets::{sheet_names, sheet_text, SheetText};
+// The cell-writing rule (column letters, quoting, clock times) is the
+// reader's own; what is compared is which cells and values are read.
+use turnover_core::read::sheets::{clock, column_letters, sheet_names, sheet_text, text_cell, SheetText};
 
 // ---------------------------------------------------------------------
 // The reference: calamine's cells written as table text.
-
-fn column_letters(mut column: u32) -> String {
-    let mut letters = Vec::new();
-    loop {
-        letters.push((b'A' + (column % 26) as u8) as char);
-        if column < 26 {
-            break;
-        }
-        column = column / 26 - 1;
-    }
-    letters.iter().rev().collect()
-}
-
-fn text_cell(text: &str) -> String {
-    if text.contains(['\t', '\n', '\r', '"']) {
-        format!("\"{}\"", text.replace('"', "\"\""))
-    } else {
-        text.to_string()
-    }
-}
-
-fn clock(seconds: f64) -> String {
-    // Rounded to the millisecond first, so that 30:04:59.9999999 is
-    // 30:05:00 (the earlier rule wrote "30:04:591." for it).
-    let sign = if seconds < 0.0 { "-" } else { "" };
-    let millis = (seconds.abs() * 1000.0).round() as u64;
-    let (s, ms) = (millis / 1000, millis % 1000);
-    let base = format!("{sign}{}:{:02}:{:02}", s / 3600, s / 60 % 60, s % 60);
-    if ms == 0 {
-        base
-    } else {
-        format!("{base}.{}", format!("{ms:03}").trim_end_matches('0'))
-    }
-}
 
 fn calamine_names(bytes: &[u8]) -> Vec<String> {
     open_workbook_auto_from_rs(Cursor::new(bytes.to_vec())).unwrap().sheet_names()

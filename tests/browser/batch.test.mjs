@@ -12,21 +12,13 @@ import { test, before, after } from 'node:test';
 import assert from 'node:assert/strict';
 import { join } from 'node:path';
 
-import { launch, pageUrl, shotDir } from './harness.mjs';
+import { launch, pageUrl, shotDir, openWatched } from './harness.mjs';
 
 let browser;
 before(async () => { browser = await launch('batch', { acceptDownloads: true }); });
 after(async () => { if (browser) await browser.close(); });
 
-async function openPage() {
-  const page = await browser.context.newPage();
-  const errors = [];
-  page.on('console', (msg) => { if (msg.type() === 'error') errors.push(msg.text()); });
-  page.on('pageerror', (err) => errors.push(String(err?.stack ?? err)));
-  await page.goto(pageUrl, { waitUntil: 'load' });
-  await page.waitForFunction(() => document.querySelector('#status')?.dataset.state !== 'idle', null, { timeout: 15_000 });
-  return { page, errors };
-}
+const openPage = () => openWatched(browser.context);
 
 /** A simulated screen (invented, known truth): 384 compounds, ten doses
  *  from 1 nM to 30 µM, the logistic with IC50 = 10^(−2 + 3·k/383) µM and

@@ -14,22 +14,14 @@ import { execFileSync } from 'node:child_process';
 import { existsSync } from 'node:fs';
 import { join, resolve } from 'node:path';
 
-import { launch, pageUrl, shotDir } from './harness.mjs';
+import { launch, pageUrl, shotDir, openWatched } from './harness.mjs';
 
 const bin = resolve(process.env.TURNOVER_BIN ?? join('..', '..', 'target', 'release', 'turnover'));
 let browser;
 before(async () => { browser = await launch('design', { acceptDownloads: true }); });
 after(async () => { if (browser) await browser.close(); });
 
-async function openPage() {
-  const page = await browser.context.newPage();
-  const errors = [];
-  page.on('console', (msg) => { if (msg.type() === 'error') errors.push(msg.text()); });
-  page.on('pageerror', (err) => errors.push(String(err?.stack ?? err)));
-  await page.goto(pageUrl, { waitUntil: 'load' });
-  await page.waitForFunction(() => document.querySelector('#status')?.dataset.state !== 'idle', null, { timeout: 15_000 });
-  return { page, errors };
-}
+const openPage = () => openWatched(browser.context);
 
 const planned = (page) => page.waitForFunction(() => window.turnover.design.lastResult() !== null || window.turnover.design.lastError(), null, { timeout: 120_000 });
 

@@ -12,7 +12,7 @@ import { readFileSync } from 'node:fs';
 import { join, dirname } from 'node:path';
 import { fileURLToPath, pathToFileURL } from 'node:url';
 
-import { launch, pageUrl, shotDir, isLocal } from './harness.mjs';
+import { launch, pageUrl, shotDir, isLocal, openWatched } from './harness.mjs';
 
 const here = dirname(fileURLToPath(import.meta.url));
 
@@ -30,15 +30,7 @@ after(async () => {
   if (browser) await browser.close();
 });
 
-async function openPage() {
-  const page = await context.newPage();
-  const errors = [];
-  page.on('console', (msg) => { if (msg.type() === 'error') errors.push(msg.text()); });
-  page.on('pageerror', (err) => errors.push(String(err?.stack ?? err)));
-  await page.goto(pageUrl, { waitUntil: 'load' });
-  await page.waitForFunction(() => document.querySelector('#status')?.dataset.state !== 'idle', null, { timeout: 15_000 });
-  return { page, errors };
-}
+const openPage = () => openWatched(context);
 
 async function inked(page, id) {
   return page.evaluate((canvasId) => {

@@ -13,7 +13,7 @@ import { existsSync, writeFileSync } from 'node:fs';
 import { execFileSync } from 'node:child_process';
 import { fileURLToPath } from 'node:url';
 
-import { launch, pageUrl, shotDir } from './harness.mjs';
+import { launch, pageUrl, shotDir, openWatched } from './harness.mjs';
 
 const here = dirname(fileURLToPath(import.meta.url));
 let browser;
@@ -26,15 +26,7 @@ after(async () => {
   if (browser) await browser.close();
 });
 
-async function openPage() {
-  const page = await browser.context.newPage();
-  const errors = [];
-  page.on('console', (msg) => { if (msg.type() === 'error') errors.push(msg.text()); });
-  page.on('pageerror', (err) => errors.push(String(err?.stack ?? err)));
-  await page.goto(pageUrl, { waitUntil: 'load' });
-  await page.waitForFunction(() => document.querySelector('#status')?.dataset.state !== 'idle', null, { timeout: 15_000 });
-  return { page, errors };
-}
+const openPage = () => openWatched(browser.context);
 
 async function choose(page, kind) {
   await page.selectOption('#further-kind', kind);

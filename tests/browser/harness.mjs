@@ -71,3 +71,16 @@ export function freshTab() {
     }
   } catch { /* storage refused: nothing kept to forget */ }
 }
+
+/** A new tab of `context` on the page, with its console errors and page
+ *  errors collected in `errors`, once the rate section has left its idle
+ *  state (the page has started). */
+export async function openWatched(context) {
+  const page = await context.newPage();
+  const errors = [];
+  page.on('console', (msg) => { if (msg.type() === 'error') errors.push(msg.text()); });
+  page.on('pageerror', (err) => errors.push(String(err?.stack ?? err)));
+  await page.goto(pageUrl, { waitUntil: 'load' });
+  await page.waitForFunction(() => document.querySelector('#status')?.dataset.state !== 'idle', null, { timeout: 15_000 });
+  return { page, errors };
+}

@@ -9,7 +9,7 @@ import { test, before, after } from 'node:test';
 import assert from 'node:assert/strict';
 import { join } from 'node:path';
 
-import { launch, pageUrl, shotDir, isLocal } from './harness.mjs';
+import { launch, pageUrl, shotDir, isLocal, openWatched } from './harness.mjs';
 
 const PLOTS = [
   'inhibition-direct', 'inhibition-lineweaver-burk', 'inhibition-eadie-hofstee', 'inhibition-hanes-woolf',
@@ -30,15 +30,7 @@ after(async () => {
   if (browser) await browser.close();
 });
 
-async function openPage() {
-  const page = await context.newPage();
-  const errors = [];
-  page.on('console', (msg) => { if (msg.type() === 'error') errors.push(msg.text()); });
-  page.on('pageerror', (err) => errors.push(String(err?.stack ?? err)));
-  await page.goto(pageUrl, { waitUntil: 'load' });
-  await page.waitForFunction(() => document.querySelector('#status')?.dataset.state !== 'idle', null, { timeout: 15_000 });
-  return { page, errors };
-}
+const openPage = () => openWatched(context);
 
 /** Coloured (non-white, non-grey) pixels of a canvas, per distinct hue bucket. */
 async function canvasColours(page, id) {

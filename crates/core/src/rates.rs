@@ -944,9 +944,7 @@ pub(crate) fn per_time(
             let factor = time.in_seconds() / unit.time.in_seconds();
             let converted = RateUnit { concentration: unit.concentration, time };
             if factor != 1.0 {
-                // The factor is a ratio of 1, 60 and 3600 s, so it is
-                // written as a whole multiple or divisor.
-                let by = if factor >= 1.0 { format!("× {}", factor.round()) } else { format!("÷ {}", (1.0 / factor).round()) };
+                let by = crate::units::factor_words(factor);
                 notes.push(format!(
                     "Rates are reported per {}: v in {} {by} = v in {} (the rates and any sd column were converted before the fit).",
                     time.symbol(),

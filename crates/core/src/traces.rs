@@ -1205,7 +1205,7 @@ pub fn analyse_traces_with(request: &TraceRequest, progress: &mut dyn FnMut(usiz
             for t in &mut raw.times {
                 *t *= factor;
             }
-            let by = if factor >= 1.0 { format!("× {}", factor.round()) } else { format!("÷ {}", (1.0 / factor).round()) };
+            let by = crate::units::factor_words(factor);
             notes.push(format!(
                 "Times converted from {} to {} (t {by}): windows are in {}, rates per {}.",
                 raw.time_unit.symbol(),

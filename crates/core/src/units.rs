@@ -204,6 +204,16 @@ pub fn kcat_per_second(vmax: f64, rate: RateUnit, enzyme: f64, enzyme_unit: Conc
     vmax * rate.in_molar_per_second() / (enzyme * enzyme_unit.in_molar())
 }
 
+/// A conversion factor between time units (a ratio of 1, 60 and 3600 s)
+/// as a person writes it: `× 60` or `÷ 60`.
+pub(crate) fn factor_words(factor: f64) -> String {
+    if factor >= 1.0 {
+        format!("× {}", factor.round())
+    } else {
+        format!("÷ {}", (1.0 / factor).round())
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

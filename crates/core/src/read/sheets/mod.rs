@@ -271,8 +271,9 @@ pub fn column_letters(mut column: u32) -> String {
     letters.iter().rev().collect()
 }
 
-/// Quotes a text cell when it holds a tab, a line break or a quote.
-fn text_cell(text: &str) -> String {
+/// Quotes a text cell when it holds a tab, a line break or a quote (the
+/// cell-writing rule; `tests/sheets.rs` writes its reference cells by it).
+pub fn text_cell(text: &str) -> String {
     if text.contains(['\t', '\n', '\r', '"']) {
         format!("\"{}\"", text.replace('"', "\"\""))
     } else {
@@ -281,7 +282,7 @@ fn text_cell(text: &str) -> String {
 }
 
 /// Seconds as `h:mm:ss` (with the fraction of a second when there is one).
-fn clock(seconds: f64) -> String {
+pub fn clock(seconds: f64) -> String {
     // Rounded to the millisecond first, so that 30:04:59.9999999 is
     // 30:05:00 (the earlier rule wrote "30:04:591." for it).
     let sign = if seconds < 0.0 { "-" } else { "" };
