@@ -50,23 +50,17 @@ const CAUTION_TEXT = () => state.result?.caution ?? $('caution').textContent;
 // The WebAssembly bytes as unpacked, kept for www/traces.js, which hands
 // them to its Web Worker. Null when the core was loaded from a file.
 let wasmBinary = null;
+// The same, compiled: a Web Worker given it starts without compiling again.
+let wasmModule = null;
 
 async function startWasm() {
-  const holder = $('turnover-wasm');
-  if (holder) {
-    // A plain loop: Uint8Array.from(atob(...), fn) calls a function per byte.
-    const text = atob(holder.textContent.trim());
-    let binary = new Uint8Array(text.length);
-    for (let i = 0; i < text.length; i++) binary[i] = text.charCodeAt(i);
-    if (holder.dataset.encoding === 'gzip') {
-      if (typeof DecompressionStream === 'undefined') {
-        throw new Error('this browser is too old to unpack the page (it lacks DecompressionStream); use a current Chrome, Edge, Firefox or Safari');
-      }
-      const stream = new Blob([binary]).stream().pipeThrough(new DecompressionStream('gzip'));
-      binary = new Uint8Array(await new Response(stream).arrayBuffer());
-    }
-    wasm_bindgen.initSync({ module: binary });
+  // The single-file page: www/unpack.js has been unpacking and compiling
+  // the core since the parser reached it.
+  if (window.turnoverUnpacked) {
+    const { binary, module } = await window.turnoverUnpacked;
+    wasm_bindgen.initSync({ module });
     wasmBinary = binary;
+    wasmModule = module;
     return;
   }
   // Development only: served from a folder next to target/pkg.
@@ -107,6 +101,20 @@ function rateRequest(doc) {
   return read;
 }
 const rateRequests = new WeakMap();
+
+/** What the rate result depends on, as text: kept per reading of the
+ *  request, since writing out a 100,000-row table each time the page asks
+ *  whether its result is current took milliseconds. */
+function rateKey(doc) {
+  const read = rateRequest(doc);
+  let key = rateKeys.get(read);
+  if (key === undefined) {
+    key = JSON.stringify(read);
+    rateKeys.set(read, key);
+  }
+  return key;
+}
+const rateKeys = new WeakMap();
 
 function readRateRequest(doc) {
   const r = doc.rates;
@@ -272,12 +280,22 @@ function showReplicates(box, summaries, concentration, unit) {
   const body = table.tBodies[0];
   body.replaceChildren();
   if (!any) return;
-  for (const r of summaries) {
+  // A table of thousands of concentrations shows its first rows only.
+  const shown = summaries.slice(0, REPLICATE_ROWS_SHOWN);
+  for (const r of shown) {
     const tr = element('tr', { 'data-concentration': String(r.concentration), 'data-mean': String(r.mean) });
     for (const x of [formatNumber(r.concentration), String(r.count), formatNumber(r.mean), r.sd === null ? '—' : formatNumber(r.sd, 3), r.sem === null ? '—' : formatNumber(r.sem, 3)]) tr.append(element('td', { class: 'num' }, x));
     body.append(tr);
   }
+  if (shown.length < summaries.length) {
+    const note = element('tr', { class: 'footnote' });
+    note.append(element('td', { colspan: '5', class: 'hint' }, `The first ${shown.length} of ${summaries.length.toLocaleString('en')} concentrations shown.`));
+    body.append(note);
+  }
 }
+
+// Rows of a replicate table drawn at most.
+const REPLICATE_ROWS_SHOWN = 200;
 
 /** Draws each plot of a result (the core's `PlotData`) on a canvas of its
  *  own in `box`, with its note and a *Figure* button; `current(index)`
@@ -457,20 +475,38 @@ function showChecks(result) {
 }
 
 // Rate laws are compared only when the panel is open: it costs three fits.
-function showRateLaws() {
+/** The rate-law comparison, when its panel is open: `laws`, when given,
+ *  is the comparison the background analysis made alongside the fit
+ *  (`{view}` or `{error}`). */
+function showRateLaws(laws) {
   const body = $('rate-law-ranking').tBodies[0];
   const verdict = $('rate-law-verdict');
   body.replaceChildren();
   verdict.textContent = '';
   if (!$('rate-laws').open || !state.result) return;
-  let view;
-  try {
-    view = workbench.compare_rate_laws(rateRequest(workspace.doc).request);
-  } catch (error) {
-    if (coreFailed(error)) return;
-    verdict.textContent = `No comparison: ${error?.message ?? error}`;
+  if (laws?.error) {
+    verdict.textContent = `No comparison: ${laws.error}`;
     return;
   }
+  let view = laws?.view;
+  const { request } = rateRequest(workspace.doc);
+  if (!view && rateWork(request) > BACKGROUND_WORK && backgroundPossible()) {
+    // Opened after a large table was fitted: the fit again in the
+    // background, with the comparison this time.
+    rates.forget();
+    rates.flush();
+    return;
+  }
+  if (!view) {
+    try {
+      view = workbench.compare_rate_laws(request);
+    } catch (error) {
+      if (coreFailed(error)) return;
+      verdict.textContent = `No comparison: ${error?.message ?? error}`;
+      return;
+    }
+  }
+
   const tests = view.comparison.f_tests;
   for (const m of view.comparison.models) {
     const fit = view.fits.find((f) => f.model === m.model);
@@ -898,6 +934,8 @@ function computeRates(doc) {
 }
 
 function computeRateResult(doc) {
+  // A background fit of an earlier version of the table is no longer wanted.
+  stopRateJob();
   const { request, problems, blocking } = rateRequest(doc);
   if (!request.text.trim()) {
     state.result = null;
@@ -916,19 +954,31 @@ function computeRateResult(doc) {
     clearResult(`No fit: ${problems.join(' ')}`);
     return;
   }
+  if (rateWork(request) > BACKGROUND_WORK && backgroundPossible()) {
+    startRateJob(request, problems);
+    return;
+  }
   let result;
   try {
     result = workbench.analyse(request);
   } catch (error) {
     if (coreFailed(error)) return;
-    const message = error?.message ?? String(error);
-    state.result = null;
-    state.error = message;
-    showProblems([], message, problems);
-    $('notes').replaceChildren();
-    clearResult(`No fit: ${message}`);
+    rateFailed(error?.message ?? String(error), problems);
     return;
   }
+  showRateResult(result, problems);
+}
+
+/** Says why no fit was made; nothing stale stays on the page. */
+function rateFailed(message, problems) {
+  state.result = null;
+  state.error = message;
+  showProblems([], message, problems);
+  $('notes').replaceChildren();
+  clearResult(`No fit: ${message}`);
+}
+
+function showRateResult(result, problems, laws) {
   state.result = result;
   state.error = null;
   showProblems(result.problems, null, problems);
@@ -939,7 +989,155 @@ function computeRateResult(doc) {
     $('status').textContent += ' A field could not be read: see the note under the table.';
   }
   drawPlots();
-  showRateLaws();
+  showRateLaws(laws);
+}
+
+// ------------------------------------------------------------ large tables in the background
+
+// A table whose analysis would hold the page for more than about a tenth
+// of a second is analysed in a Web Worker of its own, with a running clock
+// and Stop: above this much work, counted as the table's lines with each
+// bootstrap resample worth a tenth of a line per line (the page's core
+// fits a 5,000-row rate table with its checks in about a tenth of a
+// second). The inhibitor series fits four mechanisms: its lines count ten.
+const BACKGROUND_WORK = 5000;
+
+function rateWork(request) {
+  const resamples = request.interval_method === 'bootstrap' ? request.bootstrap.resamples : 0;
+  return lineCount(request.text) * (1 + resamples / 10);
+}
+
+function lineCount(text) {
+  let lines = text.endsWith('\n') || text === '' ? 0 : 1;
+  for (let i = text.indexOf('\n'); i !== -1; i = text.indexOf('\n', i + 1)) lines++;
+  return lines;
+}
+
+function backgroundPossible() {
+  return Boolean(wasmBinary && typeof Worker !== 'undefined' && typeof Blob !== 'undefined' && $('turnover-bindings')?.textContent);
+}
+
+/** The background worker's code: the wasm-bindgen glue followed by this
+ *  function's text. One job per worker: the core function `job.run` (one
+ *  that returns `{result, kept}`), and the rate-law comparison when asked;
+ *  the page ends the worker to stop it. */
+function analysisWorkerMain() {
+  /* global wasm_bindgen */
+  self.onmessage = (event) => {
+    const job = event.data;
+    try {
+      if (job.kind === 'start') {
+        wasm_bindgen.initSync({ module: job.module });
+        return;
+      }
+      const { result, kept } = wasm_bindgen[job.run](job.request);
+      let laws = null;
+      if (job.compareLaws) {
+        try {
+          laws = { view: new wasm_bindgen.Workbench().compare_rate_laws(job.request) };
+        } catch (error) {
+          laws = { error: error?.message ?? String(error) };
+        }
+      }
+      self.postMessage({ kind: 'done', result, kept, laws });
+    } catch (error) {
+      self.postMessage({ kind: 'error', message: error?.message ?? String(error), trapped: error instanceof WebAssembly.RuntimeError });
+    }
+  };
+}
+
+/** Runs one analysis in the background for the section whose busy line is
+ *  `#{prefix}-busy` (with `#{prefix}-busy-text` and `#{prefix}-stop`):
+ *  `what` says what runs ("Fitting a 30,001-line table"). `done(m)` gets
+ *  the worker's answer `{result, kept, laws}`, `failed(message)` a
+ *  sentence. Returns `stop()`, which ends the worker without a word (the
+ *  section says what stopping means). */
+function backgroundAnalysis({ prefix, what, run, request, compareLaws = false, done, failed }) {
+  const url = URL.createObjectURL(new Blob([`${$('turnover-bindings').textContent}\n(${analysisWorkerMain.toString()})();\n`], { type: 'text/javascript' }));
+  const handle = new Worker(url);
+  const started = performance.now();
+  let over = false;
+  const tick = () => {
+    $(`${prefix}-busy-text`).textContent = `${what} in the background: ${((performance.now() - started) / 1000).toFixed(0)} s so far. The rest of the page can be used meanwhile.`;
+  };
+  tick();
+  $(`${prefix}-busy`).hidden = false;
+  const timer = setInterval(tick, 1000);
+  const stop = () => {
+    if (over) return;
+    over = true;
+    handle.terminate();
+    clearInterval(timer);
+    URL.revokeObjectURL(url);
+    $(`${prefix}-busy`).hidden = true;
+  };
+  handle.onerror = (event) => {
+    if (over) return;
+    stop();
+    failed(`the background computation stopped: ${event.message || 'the worker failed'}`);
+  };
+  handle.onmessage = (event) => {
+    if (over) return;
+    stop();
+    const m = event.data;
+    if (m.kind === 'error') failed(m.trapped ? `the computing core stopped on an internal error (${m.message}); try again` : m.message);
+    else done(m);
+  };
+  postCore(handle);
+  handle.postMessage({ kind: 'analyse', run, request, compareLaws });
+  return stop;
+}
+
+// Stops the rate analysis under way in the background, if any.
+let stopRateJob = () => {};
+
+function startRateJob(request, problems) {
+  // Nothing of the previous table stays on show while the new one is fitted.
+  state.result = null;
+  state.error = null;
+  workbench.forget();
+  showProblems([], null, problems);
+  $('notes').replaceChildren();
+  const what = `Fitting a ${lineCount(request.text).toLocaleString('en')}-line table${request.interval_method === 'bootstrap' ? ` with ${request.bootstrap.resamples.toLocaleString('en')} bootstrap resamples` : ''}`;
+  clearResult(`${what}…`);
+  $('status').dataset.state = 'idle';
+  const stop = backgroundAnalysis({
+    prefix: 'rates',
+    what,
+    run: 'analyseRatesInWorker',
+    request,
+    compareLaws: $('rate-laws').open,
+    failed: (message) => {
+      stopRateJob = () => {};
+      rateFailed(message, problems);
+    },
+    done: (m) => {
+      stopRateJob = () => {};
+      try {
+        workbench.adopt(m.kept);
+      } catch (error) {
+        if (coreFailed(error)) return;
+        rateFailed(error?.message ?? String(error), problems);
+        return;
+      }
+      showRateResult(JSON.parse(m.result), problems, m.laws);
+      for (const id of ['data-panel', 'fit-panel', 'plots-panel']) $(id).classList.toggle('no-data', !state.result);
+    },
+  });
+  stopRateJob = () => {
+    stop();
+    stopRateJob = () => {};
+  };
+}
+
+/** Stop: the analysis is dropped and the section says so; *Fit* runs it
+ *  again. */
+function stopRatesOnRequest() {
+  if ($('rates-busy').hidden) return;
+  stopRateJob();
+  rates.forget();
+  clearResult('Stopped: the fit of this table was stopped before it finished, so no constants are shown. Press Fit to run it again.');
+  $('status').dataset.state = 'warn';
 }
 
 /** Which section a pasted table belongs to, by its columns: an inhibitor
@@ -1104,6 +1302,21 @@ function coreFailed(error) {
   return true;
 }
 
+/** Starts a Web Worker's core: with the compiled module (no second
+ *  compilation) where the browser can pass it, else with a copy of the
+ *  bytes (the page keeps its own). */
+function postCore(handle) {
+  if (wasmModule) {
+    try {
+      handle.postMessage({ kind: 'start', module: wasmModule });
+      return;
+    } catch {
+      // A browser that cannot pass a compiled module: the bytes below.
+    }
+  }
+  handle.postMessage({ kind: 'start', module: wasmBinary.slice() });
+}
+
 function scheduleRestart() {
   if (restarting) return;
   restarting = true;
@@ -1122,7 +1335,7 @@ function restartCore() {
     glue.textContent = $('turnover-bindings').textContent;
     document.head.append(glue);
     glue.remove();
-    wasm_bindgen.initSync({ module: wasmBinary });
+    wasm_bindgen.initSync({ module: wasmModule ?? wasmBinary });
     workbench = new wasm_bindgen.Workbench();
     probe = null;
     for (const hook of restartHooks) hook();
@@ -1593,7 +1806,7 @@ function wireRates() {
     if (details.open !== doc.rates.compare_laws) details.open = doc.rates.compare_laws;
   });
   rates = derived({
-    key: (doc) => JSON.stringify(rateRequest(doc)),
+    key: rateKey,
     compute: computeRates,
     stale: markStale,
   });
@@ -1604,6 +1817,7 @@ function wireRates() {
     showRateLaws();
   });
   $('analyse').addEventListener('click', flushAll);
+  $('rates-stop').addEventListener('click', stopRatesOnRequest);
   $('rates-csv-constants').addEventListener('click', () => {
     rates.flush();
     if (state.result) downloadCsv('rate-constants', constantsRows([state.result.fit]));
@@ -1775,6 +1989,8 @@ Object.assign(window.turnover, {
     download,
   },
   wasmBinary: () => wasmBinary,
+  postCore,
+  background: { possible: backgroundPossible, lineCount, run: backgroundAnalysis, LIMIT: BACKGROUND_WORK },
 });
 
 // The workspace exists before the core starts, so that every module can
@@ -1795,8 +2011,10 @@ window.turnover.ready = startWasm()
     $('version').textContent = wasm_bindgen.version();
     wireBar();
     wireRates();
-    // Let the other modules (already loaded) register before the first render.
-    await Promise.resolve();
+    // Let the other modules register their sections and demos before the
+    // first render: every module script has run by DOMContentLoaded (the
+    // core may be ready before the later modules have run).
+    if (document.readyState === 'loading') await new Promise((resolve) => document.addEventListener('DOMContentLoaded', resolve, { once: true }));
     const opening = await openingDocument(workspace.shelf);
     workspace.start(opening.doc);
     info(opening.say, Boolean(opening.fresh));

@@ -1,5 +1,5 @@
 // Builds the single self-contained page: www/index.html with the style
-// sheet, the wasm-bindgen glue, the WebAssembly binary (base64) and app.js
+// sheet, the wasm-bindgen glue, the WebAssembly binary (gzip, as text) and app.js
 // written into it, so that it works from file:// with no server and no
 // network. Uses Node's standard library only.
 //
@@ -66,15 +66,61 @@ function withoutCommentLines(text) {
 // Text placed inside a <script> element must not close it early.
 const scriptSafe = (text) => text.replace(/<\/script/gi, '<\\/script').replace(/<!--/g, '<\\!--');
 
+// The compressed WebAssembly is written with 85 characters (5 for every 4
+// bytes, where base64 needs 5⅓): printable ASCII without the space and the
+// seven characters that mean something in HTML or in a JavaScript string
+// (" & ' < > \ `), so no run of them can close the <script> element that
+// holds them. The bytes are padded with zeros to a multiple of 4;
+// `data-bytes` is their true number. www/unpack.js decodes it.
+const TEXT85 = [...Array(94).keys()].map((k) => String.fromCharCode(33 + k)).filter((c) => !'"&\'<>\\`'.includes(c)).slice(0, 85).join('');
+if (TEXT85.length !== 85) throw new Error('assemble: the 85-character alphabet is short');
+function encode85(bytes) {
+  const padded = new Uint8Array(Math.ceil(bytes.length / 4) * 4);
+  padded.set(bytes);
+  const out = [];
+  const digits = new Array(5);
+  for (let i = 0; i < padded.length; i += 4) {
+    let n = ((padded[i] << 24) >>> 0) + (padded[i + 1] << 16) + (padded[i + 2] << 8) + padded[i + 3];
+    for (let d = 4; d >= 0; d--) {
+      digits[d] = TEXT85[n % 85];
+      n = Math.floor(n / 85);
+    }
+    out.push(digits.join(''));
+  }
+  return out.join('');
+}
+// The decoder's rule, run here on what was written: the page must get back
+// the very bytes.
+function decode85(text, length) {
+  const value = new Uint8Array(128).fill(255);
+  for (let k = 0; k < 85; k++) value[TEXT85.charCodeAt(k)] = k;
+  const bytes = new Uint8Array((text.length / 5) * 4);
+  for (let i = 0, o = 0; i < text.length; i += 5, o += 4) {
+    let n = 0;
+    for (let d = 0; d < 5; d++) n = n * 85 + value[text.charCodeAt(i + d)];
+    bytes[o] = n >>> 24;
+    bytes[o + 1] = (n >>> 16) & 255;
+    bytes[o + 2] = (n >>> 8) & 255;
+    bytes[o + 3] = n & 255;
+  }
+  return bytes.subarray(0, length);
+}
+const wasmGzip = gzipSync(readFileSync(join(pkgDir, 'turnover_wasm_bg.wasm')), { level: constants.Z_BEST_COMPRESSION });
+const wasmText = encode85(wasmGzip);
+if (Buffer.compare(Buffer.from(decode85(wasmText, wasmGzip.length)), wasmGzip) !== 0) {
+  console.error('assemble: the 85-character text of the WebAssembly does not decode to its bytes');
+  process.exit(1);
+}
+
 let page = read(join(here, 'index.html'));
 const blocks = {
   style: `<style>\n${read(join(here, 'style.css'))}</style>`,
-  // The binary is gzip-compressed before base64 (about a third of the
-  // size); the page inflates it with the browser's DecompressionStream.
-  wasm: `<script type="application/octet-stream" id="turnover-wasm" data-encoding="gzip">${gzipSync(
-    readFileSync(join(pkgDir, 'turnover_wasm_bg.wasm')),
-    { level: constants.Z_BEST_COMPRESSION },
-  ).toString('base64')}</script>`,
+  // The binary is gzip-compressed (about a third of the size) and written
+  // with the 85 characters above; the page inflates it with the browser's
+  // DecompressionStream. The alphabet travels with it (data-text).
+  // www/unpack.js, right after it, starts unpacking and compiling it while
+  // the browser reads the rest of the page.
+  wasm: `<script type="application/octet-stream" id="turnover-wasm" data-encoding="gzip" data-text="${TEXT85}" data-bytes="${wasmGzip.length}">${wasmText}</script>\n<script id="turnover-unpack">\n${scriptSafe(withoutCommentLines(read(join(here, 'unpack.js'))))}\n</script>`,
   // The id lets www/traces.js reuse this text as the start of its Web
   // Worker's source (a Blob URL), so the glue is in the page only once.
   // `var`, not `let`: the page starts a fresh core after an internal error

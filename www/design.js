@@ -147,7 +147,7 @@ function plan(json) {
         if (worker === handle) stopWorker();
       }
     };
-    handle.postMessage({ kind: 'start', module: binary.slice() });
+    page.postCore(handle);
   });
 }
 

@@ -129,7 +129,18 @@ function inhibitionRequest(doc) {
   };
 }
 
+// A table whose four global fits would hold the page for more than about a
+// tenth of a second is fitted in the background (the page's core takes
+// about half a millisecond per line for the four mechanisms and their
+// checks): its lines count this many times against the page's limit.
+const LINE_WORK = 25;
+
+// Stops the analysis under way in the background, if any.
+let stopJob = () => {};
+
 function analyseInhibition(doc) {
+  stopJob();
+  $('inhibition-rerun').hidden = true;
   const request = inhibitionRequest(doc);
   const results = $('inhibition-results');
   if (!request.text.trim()) {
@@ -140,21 +151,89 @@ function analyseInhibition(doc) {
   }
   bench ??= new wasm_bindgen.InhibitionBench();
   results.hidden = false;
-  const status = $('inhibition-status');
-  try {
-    lastResult = bench.analyse(request);
-    lastError = null;
-  } catch (error) {
-    lastResult = null;
-    if (page.coreFailed(error)) return;
-    lastError = error?.message ?? String(error);
-    status.dataset.state = 'error';
-    status.textContent = `No inhibition analysis: ${lastError}`;
-    $('inhibition-verdict').textContent = '';
-    for (const kind of INHIBITION_PLOTS) $(`plot-${kind}`).dataset.drawn = 'no';
+  const resamples = request.interval_method === 'bootstrap' ? request.bootstrap.resamples : 0;
+  const bg = page.background;
+  if (bg.lineCount(request.text) * LINE_WORK * (1 + resamples / 10) > bg.LIMIT && bg.possible()) {
+    startJob(request);
     return;
   }
-  const result = lastResult;
+  let result;
+  try {
+    result = bench.analyse(request);
+  } catch (error) {
+    if (page.coreFailed(error)) {
+      lastResult = null;
+      return;
+    }
+    showError(error?.message ?? String(error));
+    return;
+  }
+  showAnalysis(result);
+}
+
+function showError(message) {
+  lastResult = null;
+  lastError = message;
+  const status = $('inhibition-status');
+  status.dataset.state = 'error';
+  status.textContent = `No inhibition analysis: ${lastError}`;
+  clearShown();
+}
+
+/** Nothing of an earlier analysis stays on show. */
+function clearShown() {
+  $('inhibition-verdict').textContent = '';
+  $('mechanism-ranking').tBodies[0].replaceChildren();
+  $('inhibition-parameters').tBodies[0].replaceChildren();
+  $('inhibition-warnings').replaceChildren();
+  $('inhibition-methods').textContent = '';
+  for (const kind of INHIBITION_PLOTS) {
+    const canvas = $(`plot-${kind}`);
+    canvas.getContext('2d').clearRect(0, 0, canvas.width, canvas.height);
+    canvas.dataset.drawn = 'no';
+    positions[kind] = [];
+  }
+}
+
+function startJob(request) {
+  lastResult = null;
+  lastError = null;
+  bench.forget();
+  clearShown();
+  const what = `Fitting every mechanism to a ${page.background.lineCount(request.text).toLocaleString('en')}-line table${request.interval_method === 'bootstrap' ? ` with ${request.bootstrap.resamples.toLocaleString('en')} bootstrap resamples` : ''}`;
+  const status = $('inhibition-status');
+  status.dataset.state = 'idle';
+  status.textContent = `${what}…`;
+  const stop = page.background.run({
+    prefix: 'inhibition',
+    what,
+    run: 'analyseInhibitionInWorker',
+    request,
+    failed: (message) => {
+      stopJob = () => {};
+      showError(message);
+    },
+    done: (m) => {
+      stopJob = () => {};
+      try {
+        bench.adopt(m.kept);
+      } catch (error) {
+        if (!page.coreFailed(error)) showError(error?.message ?? String(error));
+        return;
+      }
+      showAnalysis(JSON.parse(m.result));
+    },
+  });
+  stopJob = () => {
+    stop();
+    stopJob = () => {};
+  };
+}
+
+function showAnalysis(result) {
+  lastResult = result;
+  lastError = null;
+  const status = $('inhibition-status');
   const anyWarning = result.fits.some((f) => f.warnings.length > 0) || result.problems.length > 0;
   status.dataset.state = anyWarning ? 'warn' : 'ok';
   status.textContent = `${result.fits.length} mechanisms fitted globally to ${result.fits[0].n} rates at ${result.inhibitor_levels.length} inhibitor concentrations (${result.layout} table)${result.problems.length ? `; ${result.problems.length} cell(s) or line(s) not used, listed below` : ''}.`;
@@ -167,6 +246,20 @@ function analyseInhibition(doc) {
   $('inhibition-methods').textContent = `${page.ui.fitMethods(shownFit, `Rates at ${result.inhibitor_levels.length} inhibitor concentrations (${result.fits[0].n} rates; every mechanism fitted globally, the ${shownFit.model} fit shown)`, null)} ${page.ui.versionText()}`;
   drawAll(result);
 }
+
+$('inhibition-stop').addEventListener('click', () => {
+  if ($('inhibition-busy').hidden) return;
+  stopJob();
+  section.forget();
+  const status = $('inhibition-status');
+  status.dataset.state = 'warn';
+  status.textContent = 'Stopped: the fits of this table were stopped before they finished, so no constants are shown.';
+  $('inhibition-rerun').hidden = false;
+});
+$('inhibition-rerun').querySelector('button').addEventListener('click', () => {
+  section.forget();
+  section.flush();
+});
 
 // A click near a drawn point leaves that rate out (or brings it back) and
 // refits every mechanism: in a long table by its input line, in a matrix by

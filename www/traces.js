@@ -227,8 +227,7 @@ function startWorker() {
         else job.reject(new Error(m.message));
       }
     };
-    // A copy of the bytes: the page keeps its own.
-    handle.postMessage({ kind: 'start', module: binary.slice() });
+    window.turnover.postCore(handle);
   });
   return worker.starting;
 }

@@ -656,3 +656,200 @@ mod tests {
         assert!(residuals.points.iter().all(|p| p.y.abs() < 1e-15));
     }
 }
+
+/// Plots with more data points than this are thinned for drawing by
+/// [`thin_for_drawing`].
+pub const THIN_ABOVE: usize = 5_000;
+
+/// Cells per axis of the grid [`thin_for_drawing`] keeps one point per cell
+/// of: a cell is narrower than a drawn point marker on the page's plots
+/// (about 600 pixels wide, markers 5–7 pixels across) and its figures.
+pub const THIN_GRID: usize = 200;
+
+/// Thins a plot of more than [`THIN_ABOVE`] points for drawing: of the
+/// points falling in one cell of a [`THIN_GRID`] × [`THIN_GRID`] grid over
+/// the points' range (logarithmic along a logarithmic axis), only the first
+/// is kept, separately for points in and out of the fit, so every spot
+/// that holds a point still shows one. The kept points keep their `row`, so
+/// a click still finds its point. A sentence saying how many of how many
+/// are drawn is added to the note. Curves, segments and marks are kept
+/// whole. Returns whether anything was left out. Fits never use this: it is
+/// for what is drawn.
+pub fn thin_for_drawing(plot: &mut PlotData) -> bool {
+    let lines = thin_segments(plot);
+    let total = plot.points.len();
+    if total <= THIN_ABOVE {
+        return lines;
+    }
+    let log_x = plot.log_x;
+    let ax = |x: f64| if log_x { x.log10() } else { x };
+    let usable = |p: &PlotPoint| ax(p.x).is_finite() && p.y.is_finite();
+    let (mut x0, mut x1, mut y0, mut y1) = (f64::INFINITY, f64::NEG_INFINITY, f64::INFINITY, f64::NEG_INFINITY);
+    for p in plot.points.iter().filter(|p| usable(p)) {
+        x0 = x0.min(ax(p.x));
+        x1 = x1.max(ax(p.x));
+        y0 = y0.min(p.y);
+        y1 = y1.max(p.y);
+    }
+    if !(x0.is_finite() && y0.is_finite()) {
+        return lines;
+    }
+    let cells = THIN_GRID as f64;
+    let cell = |lo: f64, hi: f64, v: f64| -> usize {
+        if hi > lo {
+            (((v - lo) / (hi - lo)) * cells).floor().clamp(0.0, cells - 1.0) as usize
+        } else {
+            0
+        }
+    };
+    let mut taken = std::collections::HashSet::new();
+    let mut keep = |p: &PlotPoint| -> bool {
+        // A point the plot cannot place is kept: the drawing decides.
+        if !usable(p) {
+            return true;
+        }
+        taken.insert((cell(x0, x1, ax(p.x)), cell(y0, y1, p.y), p.excluded))
+    };
+    plot.points.retain(|p| keep(p));
+    let kept_rows: std::collections::HashSet<usize> = plot.points.iter().map(|p| p.row).collect();
+    for series in &mut plot.series {
+        series.points.retain(|p| kept_rows.contains(&p.row));
+    }
+    let drawn = plot.points.len();
+    if drawn == total {
+        return lines;
+    }
+    let sentence = format!(
+        "Drawn thinned: {} of {} points, one per cell of a {} × {} grid, finer than the point markers (the others would be drawn on top of them); the fit uses all {}.",
+        group_thousands(drawn),
+        group_thousands(total),
+        THIN_GRID,
+        THIN_GRID,
+        group_thousands(total)
+    );
+    plot.note = if plot.note.is_empty() { sentence } else { format!("{} {}", plot.note, sentence) };
+    true
+}
+
+/// Segments drawn at most: a plot with more than [`THIN_ABOVE`] of them
+/// (the direct linear plot of a long table, one line per point) is drawn
+/// with this many, evenly spaced through the list.
+pub const SEGMENTS_DRAWN: usize = 1_000;
+
+/// The segment part of [`thin_for_drawing`].
+fn thin_segments(plot: &mut PlotData) -> bool {
+    let total = plot.segments.len();
+    if total <= THIN_ABOVE {
+        return false;
+    }
+    let step = total.div_ceil(SEGMENTS_DRAWN);
+    plot.segments = plot.segments.iter().step_by(step).copied().collect();
+    let sentence = format!(
+        "Drawn thinned: {} of {} lines (one in {}); the estimates use all of them.",
+        group_thousands(plot.segments.len()),
+        group_thousands(total),
+        step
+    );
+    plot.note = if plot.note.is_empty() { sentence } else { format!("{} {}", plot.note, sentence) };
+    true
+}
+
+/// `100000` as `100,000`.
+fn group_thousands(n: usize) -> String {
+    let digits = n.to_string();
+    let mut out = String::new();
+    for (k, c) in digits.chars().enumerate() {
+        if k > 0 && (digits.len() - k) % 3 == 0 {
+            out.push(',');
+        }
+        out.push(c);
+    }
+    out
+}
+
+#[cfg(test)]
+mod thinning_tests {
+    use super::*;
+
+    fn cloud(n: usize) -> PlotData {
+        // A fixed pseudo-random cloud (a linear congruential sequence, seed 7).
+        let mut seed: u64 = 7;
+        let mut next = || {
+            seed = seed.wrapping_mul(6364136223846793005).wrapping_add(1442695040888963407);
+            (seed >> 11) as f64 / (1u64 << 53) as f64
+        };
+        let points = (0..n).map(|row| PlotPoint { row, x: 1.0 + 199.0 * next(), y: next(), excluded: row % 97 == 0 }).collect();
+        PlotData {
+            kind: PlotKind::Direct,
+            title: String::new(),
+            x_label: String::new(),
+            y_label: String::new(),
+            points,
+            curve: vec![(0.0, 0.0), (1.0, 1.0)],
+            zero_line: false,
+            segments: Vec::new(),
+            spots: Vec::new(),
+            note: String::new(),
+            series: Vec::new(),
+            log_x: false,
+            marks: Vec::new(),
+            band: None,
+        }
+    }
+
+    #[test]
+    fn small_plots_are_untouched() {
+        let mut plot = cloud(THIN_ABOVE);
+        let before = plot.clone();
+        assert!(!thin_for_drawing(&mut plot));
+        assert_eq!(plot, before);
+    }
+
+    #[test]
+    fn a_dense_cloud_keeps_one_point_per_occupied_cell_and_says_so() {
+        let mut plot = cloud(100_000);
+        let all = plot.points.clone();
+        assert!(thin_for_drawing(&mut plot));
+        // Every occupied (cell, in/out of fit) of the grid still has a point,
+        // counted independently here.
+        let (x0, x1) = all.iter().fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), p| (a.min(p.x), b.max(p.x)));
+        let (y0, y1) = all.iter().fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), p| (a.min(p.y), b.max(p.y)));
+        let g = THIN_GRID as f64;
+        let key = |p: &PlotPoint| {
+            (((p.x - x0) / (x1 - x0) * g).floor().min(g - 1.0) as i64, ((p.y - y0) / (y1 - y0) * g).floor().min(g - 1.0) as i64, p.excluded)
+        };
+        let occupied: std::collections::HashSet<_> = all.iter().map(key).collect();
+        let kept: std::collections::HashSet<_> = plot.points.iter().map(key).collect();
+        assert_eq!(occupied.len(), plot.points.len(), "one point per occupied cell");
+        assert_eq!(occupied, kept);
+        // Kept points are the original points (row, x, y unchanged), in order.
+        let mut previous = None;
+        for p in &plot.points {
+            assert_eq!(all[p.row], *p);
+            assert!(previous.is_none_or(|r| r < p.row));
+            previous = Some(p.row);
+        }
+        assert!(plot.note.contains("of 100,000 points"), "{}", plot.note);
+        assert_eq!(plot.curve.len(), 2);
+    }
+
+    #[test]
+    fn many_lines_are_drawn_evenly_spaced() {
+        let mut plot = cloud(10);
+        plot.segments = (0..100_000).map(|k| ((k as f64, 0.0), (0.0, k as f64))).collect();
+        assert!(thin_for_drawing(&mut plot));
+        assert_eq!(plot.segments.len(), 1_000);
+        assert!(plot.segments.iter().enumerate().all(|(i, s)| s.0 .0 == (i * 100) as f64));
+        assert!(plot.note.contains("1,000 of 100,000 lines (one in 100)"), "{}", plot.note);
+        assert_eq!(plot.points.len(), 10);
+    }
+
+    #[test]
+    fn thousands_are_grouped() {
+        assert_eq!(group_thousands(0), "0");
+        assert_eq!(group_thousands(999), "999");
+        assert_eq!(group_thousands(1000), "1,000");
+        assert_eq!(group_thousands(100000), "100,000");
+        assert_eq!(group_thousands(1234567), "1,234,567");
+    }
+}

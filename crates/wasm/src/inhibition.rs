@@ -3,7 +3,8 @@
 //! Like [`crate::Workbench`], it keeps the last analysis on the Rust side.
 
 use crate::draw::{draw_plot, plot_svg};
-use crate::to_js;
+use crate::kept::{handover, Kept};
+use crate::{read_request, to_js};
 use plotters::prelude::*;
 use plotters_canvas::CanvasBackend;
 use turnover_core::inhibition::{analyse_inhibition, InhibitionAnalysis, InhibitionRequest};
@@ -14,7 +15,30 @@ use wasm_bindgen::prelude::*;
 #[wasm_bindgen]
 #[derive(Default)]
 pub struct InhibitionBench {
-    last: Option<InhibitionAnalysis>,
+    last: Option<Kept>,
+}
+
+/// What the bench keeps of an analysis: its plots and the shown
+/// mechanism's constants.
+fn kept_of(analysis: &InhibitionAnalysis) -> Kept {
+    let constants = analysis
+        .fits
+        .iter()
+        .find(|f| f.model == analysis.shown)
+        .map(|fit| turnover_core::format::constants_text(&fit.parameters))
+        .unwrap_or_default();
+    Kept::of(&analysis.plots, constants)
+}
+
+/// For the page's Web Worker: analyses an inhibitor table like
+/// [`InhibitionBench::analyse`] and returns `{result, kept}` as JSON texts
+/// (see `analyseRatesInWorker`).
+#[wasm_bindgen(js_name = analyseInhibitionInWorker)]
+pub fn analyse_inhibition_in_worker(request: JsValue) -> Result<JsValue, JsError> {
+    let request: InhibitionRequest = read_request(request)?;
+    let analysis = analyse_inhibition(&request).map_err(|e| JsError::new(&e.message))?;
+    let kept = kept_of(&analysis);
+    handover(&kept.shown(&analysis), &kept)
 }
 
 /// Whether `text` is a table of rates at several inhibitor concentrations
@@ -27,9 +51,9 @@ pub fn is_inhibition_table(text: &str) -> bool {
 
 impl InhibitionBench {
     fn plot(&self, kind: &str) -> Result<&PlotData, JsError> {
-        let analysis = self.last.as_ref().ok_or_else(|| JsError::new("there is no inhibition analysis to draw"))?;
+        let kept = self.last.as_ref().ok_or_else(|| JsError::new("there is no inhibition analysis to draw"))?;
         let kind = PlotKind::from_name(kind).ok_or_else(|| JsError::new(&format!("unknown plot '{kind}'")))?;
-        analysis.plots.iter().find(|p| p.kind == kind).ok_or_else(|| JsError::new("that plot is not part of this analysis"))
+        kept.plots.iter().find(|p| p.kind == kind).ok_or_else(|| JsError::new("that plot is not part of this analysis"))
     }
 }
 
@@ -46,7 +70,26 @@ impl InhibitionBench {
     /// `substrate_unit`, `inhibitor_unit`, `rate_unit`). Throws an `Error`
     /// with a message for the scientist when no analysis can be made.
     pub fn analyse(&mut self, request: JsValue) -> Result<JsValue, JsError> {
-        crate::analyse_and_keep(request, &mut self.last, |r: &InhibitionRequest| analyse_inhibition(r))
+        self.last = None;
+        let request: InhibitionRequest = read_request(request)?;
+        let analysis = analyse_inhibition(&request).map_err(|e| JsError::new(&e.message))?;
+        let kept = kept_of(&analysis);
+        let value = to_js(&kept.shown(&analysis))?;
+        self.last = Some(kept);
+        Ok(value)
+    }
+
+    /// Keeps, for drawing, an analysis made in the page's Web Worker (the
+    /// `kept` text of `analyseInhibitionInWorker`).
+    pub fn adopt(&mut self, kept: &str) -> Result<(), JsError> {
+        self.last = None;
+        self.last = Some(Kept::read(kept)?);
+        Ok(())
+    }
+
+    /// Forgets the analysis kept for drawing.
+    pub fn forget(&mut self) {
+        self.last = None;
     }
 
     /// Draws plot `kind` of the last analysis on canvas `canvas_id`;
@@ -64,9 +107,8 @@ impl InhibitionBench {
     /// the core's formatting rule: text for the `constants` figure option.
     #[wasm_bindgen(js_name = constantsText)]
     pub fn constants_text(&self) -> Result<String, JsError> {
-        let analysis = self.last.as_ref().ok_or_else(|| JsError::new("there is no inhibition analysis"))?;
-        let fit = analysis.fits.iter().find(|f| f.model == analysis.shown).ok_or_else(|| JsError::new("the shown mechanism has no fit"))?;
-        Ok(turnover_core::format::constants_text(&fit.parameters))
+        let kept = self.last.as_ref().ok_or_else(|| JsError::new("there is no inhibition analysis"))?;
+        Ok(kept.constants.clone())
     }
 
     /// Draws plot `kind` and returns `{points, area}` as

@@ -21,6 +21,7 @@ mod draw;
 mod figures;
 mod format;
 mod inhibition;
+mod kept;
 mod profiles;
 mod sets;
 mod sheets;
@@ -30,7 +31,7 @@ use plotters::prelude::*;
 use plotters_canvas::CanvasBackend;
 use serde::Serialize;
 use turnover_core::plots::PlotKind;
-use turnover_core::rates::{analyse_rates, compare_rate_models, RateAnalysis, RateComparison, RateRequest};
+use turnover_core::rates::{analyse_rates, compare_rate_models, RateComparison, RateRequest};
 use wasm_bindgen::prelude::*;
 
 pub use batch::BatchBench;
@@ -38,7 +39,8 @@ pub use bisubstrate::bisubstrate_json;
 pub use dose::{is_dose_table, DoseBench};
 pub use draw::{draw_plot, Drawn, FigureOptions, PlotArea, PointPosition};
 pub use figures::TraceFigures;
-pub use inhibition::{is_inhibition_table, InhibitionBench};
+pub use inhibition::{analyse_inhibition_in_worker, is_inhibition_table, InhibitionBench};
+use kept::Kept;
 pub use profiles::{ph_profile_json, temperature_profile_json};
 pub use sets::{compare_sets_json, inactivation_json, SetsBench};
 pub use sheets::{sheet_names_js, sheet_read_js, sheet_text_js};
@@ -48,7 +50,19 @@ pub use traces::TraceBench;
 #[wasm_bindgen]
 #[derive(Default)]
 pub struct Workbench {
-    last: Option<RateAnalysis>,
+    last: Option<Kept>,
+}
+
+/// For the page's Web Worker: analyses a rate table like
+/// [`Workbench::analyse`] and returns `{result, kept}`, two JSON texts: the
+/// result as `analyse` returns it, and what [`Workbench::adopt`] takes on the
+/// page to draw it. Throws the core's message when no fit can be made.
+#[wasm_bindgen(js_name = analyseRatesInWorker)]
+pub fn analyse_rates_in_worker(request: JsValue) -> Result<JsValue, JsError> {
+    let request: RateRequest = read_request(request)?;
+    let analysis = analyse_rates(&request).map_err(|e| JsError::new(&e.message))?;
+    let kept = Kept::of(&analysis.plots, turnover_core::format::constants_text(&analysis.fit.parameters));
+    kept::handover(&kept.shown(&analysis), &kept)
 }
 
 /// Reads a request object sent by the page.
@@ -108,19 +122,9 @@ impl Workbench {
         let request: RateRequest = read_request(request)?;
         match analyse_rates(&request) {
             Ok(result) => {
-                // The page draws the plots from the analysis kept here; it
-                // is given each plot's kind, titles and note, not its points
-                // again (a 100,000-row table's eight plots were 800,000 more
-                // objects to build).
-                let mut shown = result.clone();
-                for plot in &mut shown.plots {
-                    plot.points = Vec::new();
-                    plot.curve = Vec::new();
-                    plot.series = Vec::new();
-                    plot.segments = Vec::new();
-                }
-                let value = to_js(&shown)?;
-                self.last = Some(result);
+                let kept = Kept::of(&result.plots, turnover_core::format::constants_text(&result.fit.parameters));
+                let value = to_js(&kept.shown(&result))?;
+                self.last = Some(kept);
                 Ok(value)
             }
             Err(error) => {
@@ -130,11 +134,26 @@ impl Workbench {
         }
     }
 
+    /// Keeps, for drawing, an analysis made in the page's Web Worker: the
+    /// `kept` text [`analyse_rates_in_worker`] returned (the page parses its
+    /// `result` text itself). Replaces the analysis kept before.
+    pub fn adopt(&mut self, kept: &str) -> Result<(), JsError> {
+        self.last = None;
+        self.last = Some(Kept::read(kept)?);
+        Ok(())
+    }
+
+    /// Forgets the analysis kept for drawing (while a new one runs in the
+    /// Web Worker, so nothing stale is drawn).
+    pub fn forget(&mut self) {
+        self.last = None;
+    }
+
     /// The plot named `kind` of the last analysis.
     fn plot(&self, kind: &str) -> Result<&turnover_core::plots::PlotData, JsError> {
-        let analysis = self.last.as_ref().ok_or_else(|| JsError::new("there is no analysis to draw"))?;
+        let kept = self.last.as_ref().ok_or_else(|| JsError::new("there is no analysis to draw"))?;
         let kind = PlotKind::from_name(kind).ok_or_else(|| JsError::new(&format!("unknown plot '{kind}'")))?;
-        analysis
+        kept
             .plots
             .iter()
             .find(|p| p.kind == kind)
@@ -173,8 +192,8 @@ impl Workbench {
     /// the `constants` figure option.
     #[wasm_bindgen(js_name = constantsText)]
     pub fn constants_text(&self) -> Result<String, JsError> {
-        let analysis = self.last.as_ref().ok_or_else(|| JsError::new("there is no analysis"))?;
-        Ok(turnover_core::format::constants_text(&analysis.fit.parameters))
+        let kept = self.last.as_ref().ok_or_else(|| JsError::new("there is no analysis"))?;
+        Ok(kept.constants.clone())
     }
 
     /// Draws plot `kind` like `draw`, and returns `{points: [{row, x, y}],

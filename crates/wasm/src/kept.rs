@@ -1,0 +1,77 @@
+//! What a section's bench keeps of its last analysis to draw and export
+//! it, the same whether the analysis ran on the page or in a Web Worker:
+//! the plots, thinned for drawing ([`turnover_core::plots::thin_for_drawing`]),
+//! and the shown fit's constants as text.
+
+use serde::{Deserialize, Serialize};
+use turnover_core::inhibition::InhibitionAnalysis;
+use turnover_core::plots::PlotData;
+use turnover_core::rates::RateAnalysis;
+use wasm_bindgen::prelude::*;
+
+/// The plots and constants of one analysis.
+#[derive(Serialize, Deserialize)]
+pub(crate) struct Kept {
+    pub plots: Vec<PlotData>,
+    pub constants: String,
+}
+
+/// An analysis whose plots the page draws from a [`Kept`].
+pub(crate) trait WithPlots: Clone + Serialize {
+    fn plots_mut(&mut self) -> &mut Vec<PlotData>;
+}
+
+impl WithPlots for RateAnalysis {
+    fn plots_mut(&mut self) -> &mut Vec<PlotData> {
+        &mut self.plots
+    }
+}
+
+impl WithPlots for InhibitionAnalysis {
+    fn plots_mut(&mut self) -> &mut Vec<PlotData> {
+        &mut self.plots
+    }
+}
+
+impl Kept {
+    pub fn of(plots: &[PlotData], constants: String) -> Kept {
+        let mut plots = plots.to_vec();
+        for plot in &mut plots {
+            turnover_core::plots::thin_for_drawing(plot);
+        }
+        Kept { plots, constants }
+    }
+
+    /// Reads the `kept` text a worker returned.
+    pub fn read(text: &str) -> Result<Kept, JsError> {
+        serde_json::from_str(text).map_err(|e| JsError::new(&format!("internal error: the background analysis could not be read ({e})")))
+    }
+
+    /// The analysis as the page is given it: every plot's kind, titles and
+    /// note (with the thinning sentence when the plot was thinned), not its
+    /// points again: the page draws them from these plots (a 100,000-row
+    /// table's eight plots were 800,000 more objects to build).
+    pub fn shown<A: WithPlots>(&self, analysis: &A) -> A {
+        let mut shown = analysis.clone();
+        for (plot, drawn) in shown.plots_mut().iter_mut().zip(&self.plots) {
+            plot.points = Vec::new();
+            plot.curve = Vec::new();
+            plot.series = Vec::new();
+            plot.segments = Vec::new();
+            plot.note = drawn.note.clone();
+        }
+        shown
+    }
+}
+
+/// `{result, kept}`, the two JSON texts a worker posts back.
+pub(crate) fn handover<A: Serialize>(shown: &A, kept: &Kept) -> Result<JsValue, JsError> {
+    let text = |json: Result<String, serde_json::Error>| -> Result<JsValue, JsError> {
+        json.map(|t| JsValue::from_str(&t)).map_err(|e| JsError::new(&format!("internal error while returning a result: {e}")))
+    };
+    let out = js_sys::Object::new();
+    let set = |name: &str, value: JsValue| js_sys::Reflect::set(&out, &name.into(), &value).map_err(|_| JsError::new("internal error: no result object"));
+    set("result", text(serde_json::to_string(shown))?)?;
+    set("kept", text(serde_json::to_string(kept))?)?;
+    Ok(out.into())
+}
