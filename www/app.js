@@ -2004,6 +2004,11 @@ Object.assign(window.turnover, {
   workspace = new store.Workspace({ shelf, onChange: renderBar });
 }
 
+// Every module of the page has run when this resolves. (This module runs
+// before the event; readyState is already 'interactive' while the modules
+// run, so it cannot tell.)
+const contentLoaded = new Promise((resolve) => document.addEventListener('DOMContentLoaded', resolve, { once: true }));
+
 // Other page modules wait on this before calling into the core.
 window.turnover.ready = startWasm()
   .then(async () => {
@@ -2012,9 +2017,9 @@ window.turnover.ready = startWasm()
     wireBar();
     wireRates();
     // Let the other modules register their sections and demos before the
-    // first render: every module script has run by DOMContentLoaded (the
-    // core may be ready before the later modules have run).
-    if (document.readyState === 'loading') await new Promise((resolve) => document.addEventListener('DOMContentLoaded', resolve, { once: true }));
+    // first render: every module script has run by DOMContentLoaded, and the
+    // core may be ready before the later modules have run.
+    await contentLoaded;
     const opening = await openingDocument(workspace.shelf);
     workspace.start(opening.doc);
     info(opening.say, Boolean(opening.fresh));

@@ -76,12 +76,18 @@ const inPage = await page.evaluate(async (text) => {
   const input = document.querySelector('#data-input');
   input.value = text;
   input.dispatchEvent(new Event('input', { bubbles: true }));
+  // The paste: the browser lays out 100,001 lines in the text box, its
+  // own work, in this task. The fit runs in the background from here.
+  await new Promise((r) => requestAnimationFrame(() => setTimeout(r, 0)));
+  const pasted = long.length;
   window.turnover.analyse();
+  while (!window.turnover.lastResult()) await new Promise((r) => setTimeout(r, 10));
   const fitted = performance.now() - t0;
   await new Promise((r) => setTimeout(r, 500));
-  return { fitted, longest: Math.max(0, ...long) };
+  const after = long.slice(pasted);
+  return { fitted, paste: Math.max(0, ...long.slice(0, pasted)), longest: Math.max(0, ...after), over100: after.filter((d) => d > 100).map((d) => d.toFixed(0)) };
 }, big);
-console.log(`100,000-row rate table: fitted in the page in ${inPage.fitted.toFixed(0)} ms (longest main-thread task ${inPage.longest.toFixed(0)} ms); the command line on the same file ${median(native).toFixed(0)} ms (ratio page/native ${(inPage.fitted / median(native)).toFixed(1)})`);
+console.log(`100,000-row rate table: fitted and drawn in ${inPage.fitted.toFixed(0)} ms, in a Web Worker; longest main-thread task from the fit's start ${inPage.longest.toFixed(0)} ms (tasks over 100 ms: ${inPage.over100.join(', ') || 'none'}); the paste itself (the browser laying out the text box) ${inPage.paste.toFixed(0)} ms; the command line on the same file ${median(native).toFixed(0)} ms (ratio page/native ${(inPage.fitted / median(native)).toFixed(1)})`);
 
 // The page's WebAssembly against native code: one 12-point
 // Michaelis-Menten fit repeated, per fit.
