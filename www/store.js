@@ -78,6 +78,11 @@ const DEMO_FIELDS = {
 /** Tables: editing one of these in a demo document makes it the person's own. */
 const TABLE_PATHS = new Set(['rates.text', 'inhibition.text', 'dose.text', 'traces.text', 'traces.layout', 'traces.standard', 'sets.text', 'batch.text', 'ph.text', 'temperature.text', 'bisubstrate.text']);
 
+/** The plate's description (which well holds what, the standard curve):
+ *  edited on the demo plate, the readings are still the demo's invented
+ *  ones, so the document stays a demo and keeps its other sections. */
+const PLATE_DESCRIPTION = new Set(['traces.layout', 'traces.standard']);
+
 /** The sections whose tables are pasted whole (each has its own input). */
 export const TABLE_SECTIONS = ['rates', 'inhibition', 'dose'];
 
@@ -161,7 +166,8 @@ export function applyEdit(doc, edit) {
       if (!(edit.path.split('.')[0] in DEFAULTS) && !['name', 'notes'].includes(edit.path)) throw new Error(`no field ${edit.path}`);
       if (get(doc, edit.path) === edit.value) return doc;
       let out = doc;
-      if (TABLE_PATHS.has(edit.path) && doc.demo.length) out = withoutDemo(out);
+      const describesDemoPlate = PLATE_DESCRIPTION.has(edit.path) && doc.demo.includes('traces');
+      if (TABLE_PATHS.has(edit.path) && doc.demo.length && !describesDemoPlate) out = withoutDemo(out);
       out = setPath(out, edit.path, edit.value);
       const [section, field] = edit.path.split('.');
       if (field === 'text' && TABLE_SECTIONS.includes(section)) out = clearExclusions(out, section);

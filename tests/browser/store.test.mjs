@@ -108,6 +108,18 @@ test('a person’s own table replaces the demo and the demo’s values leave wit
   assert.equal(plate.rates.text, '');
   assert.equal(plate.rates.enzyme, '');
   assert.equal(plate.traces.layout, '');
+  // The demo plate's layout or standard curve edited: the readings are
+  // still the demo's, so the document stays a demo with every section.
+  for (const path of ['traces.layout', 'traces.standard']) {
+    const described = applyEdit(demo, { type: 'set table', path, value: 'A1\tsample\t10 µM\n' });
+    assert.deepEqual(described.demo, ['rates', 'traces'], path);
+    assert.equal(described.traces.text, demo.traces.text, `${path}: the demo readings stay`);
+    assert.equal(described.rates.enzyme, demo.rates.enzyme, `${path}: the rate demo stays`);
+    assert.equal(described.name, demo.name);
+  }
+  // A person's layout on a document whose plate is not the demo's is theirs.
+  const ownPlate = applyEdit(demoDoc(), { type: 'set table', path: 'traces.text', value: 'time (min)\tA1\n0\t0.1\n' });
+  assert.deepEqual(applyEdit(ownPlate, { type: 'set table', path: 'traces.layout', value: 'A1\tsample\n' }).demo, []);
   // A setting changed while exploring the demo keeps it a demo.
   const explored = applyEdit(demo, { type: 'set field', path: 'rates.weighting', value: 'relative' });
   assert.deepEqual(explored.demo, ['rates', 'traces']);
