@@ -978,7 +978,8 @@ function rateFailed(message, problems) {
   clearResult(`No fit: ${message}`);
 }
 
-function showRateResult(result, problems, laws) {
+/** Shows a result; `drawn`: its plots are drawn already. */
+function showRateResult(result, problems, laws, { drawn = false } = {}) {
   state.result = result;
   state.error = null;
   showProblems(result.problems, null, problems);
@@ -988,7 +989,7 @@ function showRateResult(result, problems, laws) {
     if ($('status').dataset.state === 'ok') $('status').dataset.state = 'warn';
     $('status').textContent += ' A field could not be read: see the note under the table.';
   }
-  drawPlots();
+  if (!drawn) drawPlots();
   showRateLaws(laws);
 }
 
@@ -1031,6 +1032,13 @@ function analysisWorkerMain() {
         return;
       }
       const { result, kept } = wasm_bindgen[job.run](job.request);
+      // The points travel as separate texts of 10,000 each, so that the
+      // page reads a long table's points in short steps.
+      const parsed = JSON.parse(result);
+      const points = parsed.points ?? [];
+      parsed.points = [];
+      const chunks = [];
+      for (let k = 0; k < points.length; k += 10000) chunks.push(JSON.stringify(points.slice(k, k + 10000)));
       let laws = null;
       if (job.compareLaws) {
         try {
@@ -1039,7 +1047,7 @@ function analysisWorkerMain() {
           laws = { error: error?.message ?? String(error) };
         }
       }
-      self.postMessage({ kind: 'done', result, kept, laws });
+      self.postMessage({ kind: 'done', result: JSON.stringify(parsed), points: chunks, kept, laws });
     } catch (error) {
       self.postMessage({ kind: 'error', message: error?.message ?? String(error), trapped: error instanceof WebAssembly.RuntimeError });
     }
@@ -1049,14 +1057,17 @@ function analysisWorkerMain() {
 /** Runs one analysis in the background for the section whose busy line is
  *  `#{prefix}-busy` (with `#{prefix}-busy-text` and `#{prefix}-stop`):
  *  `what` says what runs ("Fitting a 30,001-line table"). `done(m)` gets
- *  the worker's answer `{result, kept, laws}`, `failed(message)` a
- *  sentence. Returns `stop()`, which ends the worker without a word (the
- *  section says what stopping means). */
+ *  `{result, kept, laws}`: the result as an object (its points read
+ *  10,000 at a time, one page task each), the kept text for the section's
+ *  bench, the rate-law comparison; `failed(message)` gets a sentence.
+ *  Returns `stop()`, which ends the worker, or drops an answer still being
+ *  read, without a word (the section says what stopping means). */
 function backgroundAnalysis({ prefix, what, run, request, compareLaws = false, done, failed }) {
   const url = URL.createObjectURL(new Blob([`${$('turnover-bindings').textContent}\n(${analysisWorkerMain.toString()})();\n`], { type: 'text/javascript' }));
   const handle = new Worker(url);
   const started = performance.now();
   let over = false;
+  let dropped = false;
   const tick = () => {
     $(`${prefix}-busy-text`).textContent = `${what} in the background: ${((performance.now() - started) / 1000).toFixed(0)} s so far. The rest of the page can be used meanwhile.`;
   };
@@ -1064,6 +1075,7 @@ function backgroundAnalysis({ prefix, what, run, request, compareLaws = false, d
   $(`${prefix}-busy`).hidden = false;
   const timer = setInterval(tick, 1000);
   const stop = () => {
+    dropped = true;
     if (over) return;
     over = true;
     handle.terminate();
@@ -1076,12 +1088,23 @@ function backgroundAnalysis({ prefix, what, run, request, compareLaws = false, d
     stop();
     failed(`the background computation stopped: ${event.message || 'the worker failed'}`);
   };
-  handle.onmessage = (event) => {
+  handle.onmessage = async (event) => {
     if (over) return;
     stop();
+    dropped = false;
     const m = event.data;
-    if (m.kind === 'error') failed(m.trapped ? `the computing core stopped on an internal error (${m.message}); try again` : m.message);
-    else done(m);
+    if (m.kind === 'error') {
+      failed(m.trapped ? `the computing core stopped on an internal error (${m.message}); try again` : m.message);
+      return;
+    }
+    const result = JSON.parse(m.result);
+    for (const chunk of m.points) {
+      await new Promise((resolve) => setTimeout(resolve, 0));
+      if (dropped) return;
+      for (const point of JSON.parse(chunk)) result.points.push(point);
+    }
+    if (m.points.length) await new Promise((resolve) => setTimeout(resolve, 0));
+    if (!dropped) done({ result, kept: m.kept, laws: m.laws });
   };
   postCore(handle);
   handle.postMessage({ kind: 'analyse', run, request, compareLaws });
@@ -1111,16 +1134,27 @@ function startRateJob(request, problems) {
       stopRateJob = () => {};
       rateFailed(message, problems);
     },
-    done: (m) => {
-      stopRateJob = () => {};
+    done: async (m) => {
+      // Drawn in one page task, shown in the next; an edit in between
+      // drops it.
+      let dropped = false;
+      stopRateJob = () => {
+        dropped = true;
+        stopRateJob = () => {};
+      };
       try {
         workbench.adopt(m.kept);
       } catch (error) {
+        stopRateJob = () => {};
         if (coreFailed(error)) return;
         rateFailed(error?.message ?? String(error), problems);
         return;
       }
-      showRateResult(JSON.parse(m.result), problems, m.laws);
+      drawPlots();
+      await new Promise((resolve) => setTimeout(resolve, 0));
+      if (dropped) return;
+      stopRateJob = () => {};
+      showRateResult(m.result, problems, m.laws, { drawn: true });
       for (const id of ['data-panel', 'fit-panel', 'plots-panel']) $(id).classList.toggle('no-data', !state.result);
     },
   });

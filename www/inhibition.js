@@ -221,7 +221,7 @@ function startJob(request) {
         if (!page.coreFailed(error)) showError(error?.message ?? String(error));
         return;
       }
-      showAnalysis(JSON.parse(m.result));
+      showAnalysis(m.result);
     },
   });
   stopJob = () => {

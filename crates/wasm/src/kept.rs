@@ -19,11 +19,18 @@ pub(crate) struct Kept {
 /// An analysis whose plots the page draws from a [`Kept`].
 pub(crate) trait WithPlots: Clone + Serialize {
     fn plots_mut(&mut self) -> &mut Vec<PlotData>;
+    /// Leaves out what the page never reads (default: nothing).
+    fn lighten(&mut self) {}
 }
 
 impl WithPlots for RateAnalysis {
     fn plots_mut(&mut self) -> &mut Vec<PlotData> {
         &mut self.plots
+    }
+    /// The per-point diagnostics repeat the points' own leverage and
+    /// studentised residual (a quarter of a 100,000-row result's text).
+    fn lighten(&mut self) {
+        self.diagnostics.points = Vec::new();
     }
 }
 
@@ -47,16 +54,22 @@ impl Kept {
         serde_json::from_str(text).map_err(|e| JsError::new(&format!("internal error: the background analysis could not be read ({e})")))
     }
 
-    /// The analysis as the page is given it: every plot's kind, titles and
-    /// note (with the thinning sentence when the plot was thinned), not its
-    /// points again: the page draws them from these plots (a 100,000-row
+    /// The analysis as the page is given it, without what it never reads
+    /// ([`WithPlots::lighten`]): every plot's kind, titles and note (with the
+    /// thinning sentence when the plot was thinned), not its points again: the page draws them from these plots (a 100,000-row
     /// table's eight plots were 800,000 more objects to build).
     pub fn shown<A: WithPlots>(&self, analysis: &A) -> A {
         let mut shown = analysis.clone();
+        shown.lighten();
         for (plot, drawn) in shown.plots_mut().iter_mut().zip(&self.plots) {
             plot.points = Vec::new();
             plot.curve = Vec::new();
-            plot.series = Vec::new();
+            // Each series keeps its label (the legend); its points and
+            // curve are in the kept plot.
+            for series in &mut plot.series {
+                series.points = Vec::new();
+                series.curve = Vec::new();
+            }
             plot.segments = Vec::new();
             plot.note = drawn.note.clone();
         }
