@@ -55,22 +55,28 @@ impl Kept {
     }
 
     /// The analysis as the page is given it, without what it never reads
-    /// ([`WithPlots::lighten`]): every plot's kind, titles and note (with the
-    /// thinning sentence when the plot was thinned), not its points again: the page draws them from these plots (a 100,000-row
-    /// table's eight plots were 800,000 more objects to build).
+    /// ([`WithPlots::lighten`]). A plot of up to
+    /// [`turnover_core::plots::THIN_ABOVE`] points and segments is given
+    /// whole; a larger one only its kind, titles, note (with the thinning
+    /// sentence) and series labels: the page draws it from the kept plot (a
+    /// 100,000-row table's eight plots were 800,000 more objects to build).
     pub fn shown<A: WithPlots>(&self, analysis: &A) -> A {
         let mut shown = analysis.clone();
         shown.lighten();
         for (plot, drawn) in shown.plots_mut().iter_mut().zip(&self.plots) {
+            let limit = turnover_core::plots::THIN_ABOVE;
+            if plot.points.len() <= limit && plot.segments.len() <= limit {
+                continue;
+            }
             plot.points = Vec::new();
             plot.curve = Vec::new();
+            plot.segments = Vec::new();
             // Each series keeps its label (the legend); its points and
             // curve are in the kept plot.
             for series in &mut plot.series {
                 series.points = Vec::new();
                 series.curve = Vec::new();
             }
-            plot.segments = Vec::new();
             plot.note = drawn.note.clone();
         }
         shown
