@@ -175,6 +175,8 @@ function doseInputs(doc) {
 }
 
 function analyseDose(doc) {
+  stopJob();
+  $('dose-rerun').hidden = true;
   const sent = doseInputs(doc);
   const results = $('dose-results');
   if (!sent.text.trim()) {
@@ -194,40 +196,102 @@ function analyseDose(doc) {
     lastError = chosen.problem;
     status.dataset.state = 'error';
     status.textContent = chosen.problem;
-    $('dose-parameters').tBodies[0].replaceChildren();
-    $('dose-warnings').replaceChildren();
-    showKi(null, null);
-    clearPlot();
-    $('dose-replicates-box').hidden = true;
+    clearShown();
     return;
   }
+  const request = {
+    text: sent.text,
+    ...chosen.request,
+    excluded_lines: [...sent.dose.excluded_lines],
+    rate_time: sent.dose.rate_time || null,
+    // The rate panel's weighting and interval choices apply here too
+    // (weighting by an sd column is refused: these tables have none).
+    weighting: sent.weighting,
+    interval_method: sent.interval_method,
+    bootstrap: sent.bootstrap,
+  };
+  const resamples = request.interval_method === 'bootstrap' ? request.bootstrap.resamples : 0;
+  const bg = page.background;
+  if (bg.lineCount(request.text) * LINE_WORK * (1 + resamples / 10) > bg.LIMIT && bg.possible()) {
+    startJob(request, chosen, sent);
+    return;
+  }
+  let result;
   try {
-    lastResult = bench.analyse({
-      text: sent.text,
-      ...chosen.request,
-      excluded_lines: [...sent.dose.excluded_lines],
-      rate_time: sent.dose.rate_time || null,
-      // The rate panel's weighting and interval choices apply here too
-      // (weighting by an sd column is refused: these tables have none).
-      weighting: sent.weighting,
-      interval_method: sent.interval_method,
-      bootstrap: sent.bootstrap,
-    });
-    lastError = null;
+    result = bench.analyse(request);
   } catch (error) {
     lastResult = null;
     if (page.coreFailed(error)) return;
-    lastError = error?.message ?? String(error);
-    status.dataset.state = 'error';
-    status.textContent = `No dose-response fit: ${lastError}`;
-    $('dose-parameters').tBodies[0].replaceChildren();
-    $('dose-warnings').replaceChildren();
-    showKi(null, null);
-    clearPlot();
-    $('dose-replicates-box').hidden = true;
+    showError(error?.message ?? String(error));
     return;
   }
-  const result = lastResult;
+  showAnalysis(result, chosen, sent);
+}
+
+// A series whose fit would hold the page for more than about a tenth of a
+// second is fitted in the background (about 50 µs a line in the page's
+// core): its lines count this many times against the page's limit.
+const LINE_WORK = 3;
+
+// Stops the fit under way in the background, if any.
+let stopJob = () => {};
+
+function showError(message) {
+  lastResult = null;
+  lastError = message;
+  const status = $('dose-status');
+  status.dataset.state = 'error';
+  status.textContent = `No dose-response fit: ${lastError}`;
+  clearShown();
+}
+
+function clearShown() {
+  $('dose-parameters').tBodies[0].replaceChildren();
+  $('dose-warnings').replaceChildren();
+  showKi(null, null);
+  clearPlot();
+  $('dose-replicates-box').hidden = true;
+}
+
+function startJob(request, chosen, sent) {
+  lastResult = null;
+  lastError = null;
+  bench.forget();
+  clearShown();
+  const what = `Fitting a ${page.background.lineCount(request.text).toLocaleString('en')}-line series${request.interval_method === 'bootstrap' ? ` with ${request.bootstrap.resamples.toLocaleString('en')} bootstrap resamples` : ''}`;
+  const status = $('dose-status');
+  status.dataset.state = 'idle';
+  status.textContent = `${what}…`;
+  const stop = page.background.run({
+    prefix: 'dose',
+    what,
+    run: 'analyseDoseInWorker',
+    request,
+    failed: (message) => {
+      stopJob = () => {};
+      showError(message);
+    },
+    done: (m) => {
+      stopJob = () => {};
+      try {
+        bench.adopt(m.kept);
+      } catch (error) {
+        if (!page.coreFailed(error)) showError(error?.message ?? String(error));
+        return;
+      }
+      showAnalysis(m.result, chosen, sent);
+    },
+  });
+  stopJob = () => {
+    stop();
+    stopJob = () => {};
+  };
+}
+
+function showAnalysis(result, chosen, sent) {
+  lastResult = result;
+  lastError = null;
+  const status = $('dose-status');
   const fit = result.fit;
   const warned = fit.warnings.length > 0 || result.problems.length > 0;
   status.dataset.state = fit.converged ? (warned ? 'warn' : 'ok') : 'error';
@@ -252,6 +316,20 @@ function analyseDose(doc) {
   $('dose-caution').textContent = result.caution;
   draw(result);
 }
+
+$('dose-stop').addEventListener('click', () => {
+  if ($('dose-busy').hidden) return;
+  stopJob();
+  section.forget();
+  const status = $('dose-status');
+  status.dataset.state = 'warn';
+  status.textContent = 'Stopped: the fit of this series was stopped before it finished, so no constants are shown.';
+  $('dose-rerun').hidden = false;
+});
+$('dose-rerun').querySelector('button').addEventListener('click', () => {
+  section.forget();
+  section.flush();
+});
 
 function toggleAt(canvas, event) {
   if (!lastResult || !section.fresh()) return;

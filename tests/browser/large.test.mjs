@@ -166,3 +166,49 @@ test('a 2,400-line inhibitor series is fitted in the background with Stop and Fi
   assert.deepEqual(errors, []);
   await page.close();
 });
+
+// Invented responses: a logistic with IC50 0.5 µM, slope 1, plateaus 100
+// and 0 % activity, eight [I] levels, ±1.5 % uniform noise (seed 5).
+function doseTable(rows) {
+  let seed = 5;
+  const uniform = () => ((seed = (seed * 1103515245 + 12345) % 2147483648) / 2147483648);
+  const I = [0.01, 0.03, 0.1, 0.3, 1, 3, 10, 30];
+  const lines = ['[I] (µM)\tactivity (%)'];
+  for (let k = 0; k < rows; k++) {
+    const i = I[k % 8];
+    lines.push(`${i}\t${(100 / (1 + i / 0.5) + 3 * (uniform() - 0.5)).toFixed(3)}`);
+  }
+  return `${lines.join('\n')}\n`;
+}
+
+test('a 6,000-line dose-response series is fitted in the background with Stop and Fit it again, equal to the command line', { timeout: 120_000 }, async () => {
+  const text = doseTable(6000);
+  const { page, errors } = await openWatched(browser.context);
+  await page.evaluate((t) => {
+    const input = document.querySelector('#dose-input');
+    input.value = t;
+    input.dispatchEvent(new Event('input', { bubbles: true }));
+  }, text);
+  await page.waitForFunction(() => !document.querySelector('#dose-busy').hidden, null, { timeout: 10_000 });
+  assert.match(await page.textContent('#dose-busy-text'), /^Fitting a 6,001-line series in the background: \d+ s so far/);
+  assert.equal(await page.evaluate(() => window.turnover.dose.lastResult()), null, 'no result while it runs');
+  await page.click('#dose-stop');
+  assert.match(await page.textContent('#dose-status'), /^Stopped: /);
+  assert.equal(await page.evaluate(() => document.querySelectorAll('#dose-parameters tbody tr').length), 0);
+  await page.click('#dose-rerun button');
+  await page.waitForFunction(() => window.turnover.dose.lastResult(), null, { timeout: 90_000 });
+  const shown = await page.evaluate(() => {
+    const r = window.turnover.dose.lastResult();
+    return { params: r.fit.parameters.map((p) => ({ name: p.name, value: p.value })), note: r.plots[0].note, drawn: document.querySelector('#plot-dose').dataset.drawn };
+  });
+  const file = join(mkdtempSync(join(tmpdir(), 'turnover-large-')), 'dose.tsv');
+  writeFileSync(file, text);
+  const cli = JSON.parse(execFileSync(bin, ['fit', file, '--model', 'ic50', '--json'], { maxBuffer: 1 << 28 }).toString());
+  for (const p of cli.parameters) {
+    const q = shown.params.find((x) => x.name === p.name);
+    assert.ok(q && Math.abs(q.value - p.value) <= 1e-9 * Math.abs(p.value), `${p.name}: page ${q?.value}, command line ${p.value}`);
+  }
+  assert.match(shown.note, /Drawn thinned: [\d,]+ of 6,000 points/);
+  assert.deepEqual(errors, []);
+  await page.close();
+});

@@ -4,7 +4,8 @@
 //! [`crate::Workbench`], it keeps the last analysis on the Rust side.
 
 use crate::draw::{draw_plot, plot_svg};
-use crate::to_js;
+use crate::kept::{handover, Kept};
+use crate::{read_request, to_js};
 use plotters::prelude::*;
 use plotters_canvas::CanvasBackend;
 use turnover_core::dose::{analyse_dose, DoseAnalysis, DoseRequest};
@@ -15,7 +16,22 @@ use wasm_bindgen::prelude::*;
 #[wasm_bindgen]
 #[derive(Default)]
 pub struct DoseBench {
-    last: Option<DoseAnalysis>,
+    last: Option<Kept>,
+}
+
+fn kept_of(analysis: &DoseAnalysis) -> Kept {
+    Kept::of(&analysis.plots, turnover_core::format::constants_text(&analysis.fit.parameters))
+}
+
+/// For the page's Web Worker: analyses an inhibitor series like
+/// [`DoseBench::analyse`] and returns `{result, kept}` as JSON texts (see
+/// `analyseRatesInWorker`).
+#[wasm_bindgen(js_name = analyseDoseInWorker)]
+pub fn analyse_dose_in_worker(request: JsValue) -> Result<JsValue, JsError> {
+    let request: DoseRequest = read_request(request)?;
+    let analysis = analyse_dose(&request).map_err(|e| JsError::new(&e.message))?;
+    let kept = kept_of(&analysis);
+    handover(&kept.shown(&analysis), &kept)
 }
 
 /// Whether `text` is an inhibitor series: a header naming an [I] column
@@ -27,8 +43,8 @@ pub fn is_dose_table(text: &str) -> bool {
 
 impl DoseBench {
     fn plot(&self) -> Result<&PlotData, JsError> {
-        let analysis = self.last.as_ref().ok_or_else(|| JsError::new("there is no dose-response analysis to draw"))?;
-        analysis.plots.first().ok_or_else(|| JsError::new("this analysis has no plot"))
+        let kept = self.last.as_ref().ok_or_else(|| JsError::new("there is no dose-response analysis to draw"))?;
+        kept.plots.first().ok_or_else(|| JsError::new("this analysis has no plot"))
     }
 }
 
@@ -46,7 +62,26 @@ impl DoseBench {
     /// `cheng_prusoff`). Throws an `Error` with a message for the scientist
     /// when no fit can be made; the previous analysis is then forgotten.
     pub fn analyse(&mut self, request: JsValue) -> Result<JsValue, JsError> {
-        crate::analyse_and_keep(request, &mut self.last, |r: &DoseRequest| analyse_dose(r))
+        self.last = None;
+        let request: DoseRequest = read_request(request)?;
+        let analysis = analyse_dose(&request).map_err(|e| JsError::new(&e.message))?;
+        let kept = kept_of(&analysis);
+        let value = to_js(&kept.shown(&analysis))?;
+        self.last = Some(kept);
+        Ok(value)
+    }
+
+    /// Keeps, for drawing, an analysis made in the page's Web Worker (the
+    /// `kept` text of `analyseDoseInWorker`).
+    pub fn adopt(&mut self, kept: &str) -> Result<(), JsError> {
+        self.last = None;
+        self.last = Some(Kept::read(kept)?);
+        Ok(())
+    }
+
+    /// Forgets the analysis kept for drawing.
+    pub fn forget(&mut self) {
+        self.last = None;
     }
 
     /// Draws the analysis' plot (dose-response or Morrison) on canvas
@@ -65,8 +100,8 @@ impl DoseBench {
     /// rule: text for the `constants` figure option.
     #[wasm_bindgen(js_name = constantsText)]
     pub fn constants_text(&self) -> Result<String, JsError> {
-        let analysis = self.last.as_ref().ok_or_else(|| JsError::new("there is no dose-response analysis"))?;
-        Ok(turnover_core::format::constants_text(&analysis.fit.parameters))
+        let kept = self.last.as_ref().ok_or_else(|| JsError::new("there is no dose-response analysis"))?;
+        Ok(kept.constants.clone())
     }
 
     /// Draws the plot and returns `{points, area}` as

@@ -4,6 +4,7 @@
 //! and the shown fit's constants as text.
 
 use serde::{Deserialize, Serialize};
+use turnover_core::dose::DoseAnalysis;
 use turnover_core::inhibition::InhibitionAnalysis;
 use turnover_core::plots::PlotData;
 use turnover_core::rates::RateAnalysis;
@@ -31,6 +32,12 @@ impl WithPlots for RateAnalysis {
     /// studentised residual (a quarter of a 100,000-row result's text).
     fn lighten(&mut self) {
         self.diagnostics.points = Vec::new();
+    }
+}
+
+impl WithPlots for DoseAnalysis {
+    fn plots_mut(&mut self) -> &mut Vec<PlotData> {
+        &mut self.plots
     }
 }
 

@@ -36,7 +36,7 @@ use wasm_bindgen::prelude::*;
 
 pub use batch::BatchBench;
 pub use bisubstrate::bisubstrate_json;
-pub use dose::{is_dose_table, DoseBench};
+pub use dose::{analyse_dose_in_worker, is_dose_table, DoseBench};
 pub use draw::{draw_plot, Drawn, FigureOptions, PlotArea, PointPosition};
 pub use figures::TraceFigures;
 pub use inhibition::{analyse_inhibition_in_worker, is_inhibition_table, InhibitionBench};
@@ -69,28 +69,6 @@ pub fn analyse_rates_in_worker(request: JsValue) -> Result<JsValue, JsError> {
 pub(crate) fn read_request<R: serde::de::DeserializeOwned>(request: JsValue) -> Result<R, JsError> {
     serde_wasm_bindgen::from_value(request)
         .map_err(|e| JsError::new(&format!("the page sent a request Turnover cannot read: {e}")))
-}
-
-/// Reads a request, runs `analysis` on it and keeps the result in `last`
-/// for drawing; on failure `last` is forgotten, so no stale plot is drawn,
-/// and the error becomes a JS exception with the core's message.
-pub(crate) fn analyse_and_keep<R: serde::de::DeserializeOwned, A: Serialize>(
-    request: JsValue,
-    last: &mut Option<A>,
-    analysis: impl FnOnce(&R) -> Result<A, turnover_core::Error>,
-) -> Result<JsValue, JsError> {
-    let request: R = read_request(request)?;
-    match analysis(&request) {
-        Ok(result) => {
-            let value = to_js(&result)?;
-            *last = Some(result);
-            Ok(value)
-        }
-        Err(error) => {
-            *last = None;
-            Err(JsError::new(&error.message))
-        }
-    }
 }
 
 pub(crate) fn to_js<T: Serialize>(value: &T) -> Result<JsValue, JsError> {
