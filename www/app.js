@@ -1111,6 +1111,60 @@ function backgroundAnalysis({ prefix, what, run, request, compareLaws = false, d
   return stop;
 }
 
+/** A section's whole fit in the background (the inhibitor series, the
+ *  dose-response series): `#{prefix}-status` says what runs, the section's
+ *  bench takes the kept plots, `show(result)` or `fail(message)` follows;
+ *  *Stop* says it stopped and offers `#{prefix}-rerun` (*Fit it again*),
+ *  which recomputes `section`. Returns `stop()`, safe to call at any time. */
+function sectionInBackground({ prefix, section, bench, what, run, request, show, fail }) {
+  bench.forget();
+  const status = $(`${prefix}-status`);
+  status.dataset.state = 'idle';
+  status.textContent = `${what}…`;
+  $(`${prefix}-rerun`).hidden = true;
+  const stop = backgroundAnalysis({
+    prefix,
+    what,
+    run,
+    request,
+    failed: fail,
+    done: (m) => {
+      try {
+        bench.adopt(m.kept);
+      } catch (error) {
+        if (!coreFailed(error)) fail(error?.message ?? String(error));
+        return;
+      }
+      show(m.result);
+    },
+  });
+  $(`${prefix}-stop`).onclick = () => {
+    if ($(`${prefix}-busy`).hidden) return;
+    stop();
+    section.forget();
+    status.dataset.state = 'warn';
+    status.textContent = 'Stopped: the fit of this table was stopped before it finished, so no constants are shown.';
+    $(`${prefix}-rerun`).hidden = false;
+    $(`${prefix}-rerun`).querySelector('button').onclick = () => {
+      section.forget();
+      section.flush();
+    };
+  };
+  return stop;
+}
+
+/** Whether a table with this request's lines, each worth `lineWork`
+ *  (bootstrap resamples count), goes to the background. */
+function worthBackground(request, lineWork) {
+  const resamples = request.interval_method === 'bootstrap' ? request.bootstrap.resamples : 0;
+  return lineCount(request.text) * lineWork * (1 + resamples / 10) > BACKGROUND_WORK && backgroundPossible();
+}
+
+/** "with 2,000 bootstrap resamples" when the request asks for them. */
+function resampleWords(request) {
+  return request.interval_method === 'bootstrap' ? ` with ${request.bootstrap.resamples.toLocaleString('en')} bootstrap resamples` : '';
+}
+
 // Stops the rate analysis under way in the background, if any.
 let stopRateJob = () => {};
 
@@ -1121,7 +1175,7 @@ function startRateJob(request, problems) {
   workbench.forget();
   showProblems([], null, problems);
   $('notes').replaceChildren();
-  const what = `Fitting a ${lineCount(request.text).toLocaleString('en')}-line table${request.interval_method === 'bootstrap' ? ` with ${request.bootstrap.resamples.toLocaleString('en')} bootstrap resamples` : ''}`;
+  const what = `Fitting a ${lineCount(request.text).toLocaleString('en')}-line table${resampleWords(request)}`;
   clearResult(`${what}…`);
   $('status').dataset.state = 'idle';
   const stop = backgroundAnalysis({
@@ -2024,7 +2078,7 @@ Object.assign(window.turnover, {
   },
   wasmBinary: () => wasmBinary,
   postCore,
-  background: { possible: backgroundPossible, lineCount, run: backgroundAnalysis, LIMIT: BACKGROUND_WORK },
+  background: { lineCount, worth: worthBackground, section: sectionInBackground, resampleWords },
 });
 
 // The workspace exists before the core starts, so that every module can

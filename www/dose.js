@@ -210,9 +210,7 @@ function analyseDose(doc) {
     interval_method: sent.interval_method,
     bootstrap: sent.bootstrap,
   };
-  const resamples = request.interval_method === 'bootstrap' ? request.bootstrap.resamples : 0;
-  const bg = page.background;
-  if (bg.lineCount(request.text) * LINE_WORK * (1 + resamples / 10) > bg.LIMIT && bg.possible()) {
+  if (page.background.worth(request, LINE_WORK)) {
     startJob(request, chosen, sent);
     return;
   }
@@ -256,36 +254,17 @@ function clearShown() {
 function startJob(request, chosen, sent) {
   lastResult = null;
   lastError = null;
-  bench.forget();
   clearShown();
-  const what = `Fitting a ${page.background.lineCount(request.text).toLocaleString('en')}-line series${request.interval_method === 'bootstrap' ? ` with ${request.bootstrap.resamples.toLocaleString('en')} bootstrap resamples` : ''}`;
-  const status = $('dose-status');
-  status.dataset.state = 'idle';
-  status.textContent = `${what}…`;
-  const stop = page.background.run({
+  stopJob = page.background.section({
     prefix: 'dose',
-    what,
+    section,
+    bench,
+    what: `Fitting a ${page.background.lineCount(request.text).toLocaleString('en')}-line series${page.background.resampleWords(request)}`,
     run: 'analyseDoseInWorker',
     request,
-    failed: (message) => {
-      stopJob = () => {};
-      showError(message);
-    },
-    done: (m) => {
-      stopJob = () => {};
-      try {
-        bench.adopt(m.kept);
-      } catch (error) {
-        if (!page.coreFailed(error)) showError(error?.message ?? String(error));
-        return;
-      }
-      showAnalysis(m.result, chosen, sent);
-    },
+    show: (result) => showAnalysis(result, chosen, sent),
+    fail: showError,
   });
-  stopJob = () => {
-    stop();
-    stopJob = () => {};
-  };
 }
 
 function showAnalysis(result, chosen, sent) {
@@ -316,20 +295,6 @@ function showAnalysis(result, chosen, sent) {
   $('dose-caution').textContent = result.caution;
   draw(result);
 }
-
-$('dose-stop').addEventListener('click', () => {
-  if ($('dose-busy').hidden) return;
-  stopJob();
-  section.forget();
-  const status = $('dose-status');
-  status.dataset.state = 'warn';
-  status.textContent = 'Stopped: the fit of this series was stopped before it finished, so no constants are shown.';
-  $('dose-rerun').hidden = false;
-});
-$('dose-rerun').querySelector('button').addEventListener('click', () => {
-  section.forget();
-  section.flush();
-});
 
 function toggleAt(canvas, event) {
   if (!lastResult || !section.fresh()) return;

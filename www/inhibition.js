@@ -151,9 +151,7 @@ function analyseInhibition(doc) {
   }
   bench ??= new wasm_bindgen.InhibitionBench();
   results.hidden = false;
-  const resamples = request.interval_method === 'bootstrap' ? request.bootstrap.resamples : 0;
-  const bg = page.background;
-  if (bg.lineCount(request.text) * LINE_WORK * (1 + resamples / 10) > bg.LIMIT && bg.possible()) {
+  if (page.background.worth(request, LINE_WORK)) {
     startJob(request);
     return;
   }
@@ -198,36 +196,17 @@ function clearShown() {
 function startJob(request) {
   lastResult = null;
   lastError = null;
-  bench.forget();
   clearShown();
-  const what = `Fitting every mechanism to a ${page.background.lineCount(request.text).toLocaleString('en')}-line table${request.interval_method === 'bootstrap' ? ` with ${request.bootstrap.resamples.toLocaleString('en')} bootstrap resamples` : ''}`;
-  const status = $('inhibition-status');
-  status.dataset.state = 'idle';
-  status.textContent = `${what}…`;
-  const stop = page.background.run({
+  stopJob = page.background.section({
     prefix: 'inhibition',
-    what,
+    section,
+    bench,
+    what: `Fitting every mechanism to a ${page.background.lineCount(request.text).toLocaleString('en')}-line table${page.background.resampleWords(request)}`,
     run: 'analyseInhibitionInWorker',
     request,
-    failed: (message) => {
-      stopJob = () => {};
-      showError(message);
-    },
-    done: (m) => {
-      stopJob = () => {};
-      try {
-        bench.adopt(m.kept);
-      } catch (error) {
-        if (!page.coreFailed(error)) showError(error?.message ?? String(error));
-        return;
-      }
-      showAnalysis(m.result);
-    },
+    show: showAnalysis,
+    fail: showError,
   });
-  stopJob = () => {
-    stop();
-    stopJob = () => {};
-  };
 }
 
 function showAnalysis(result) {
@@ -246,20 +225,6 @@ function showAnalysis(result) {
   $('inhibition-methods').textContent = `${page.ui.fitMethods(shownFit, `Rates at ${result.inhibitor_levels.length} inhibitor concentrations (${result.fits[0].n} rates; every mechanism fitted globally, the ${shownFit.model} fit shown)`, null)} ${page.ui.versionText()}`;
   drawAll(result);
 }
-
-$('inhibition-stop').addEventListener('click', () => {
-  if ($('inhibition-busy').hidden) return;
-  stopJob();
-  section.forget();
-  const status = $('inhibition-status');
-  status.dataset.state = 'warn';
-  status.textContent = 'Stopped: the fits of this table were stopped before they finished, so no constants are shown.';
-  $('inhibition-rerun').hidden = false;
-});
-$('inhibition-rerun').querySelector('button').addEventListener('click', () => {
-  section.forget();
-  section.flush();
-});
 
 // A click near a drawn point leaves that rate out (or brings it back) and
 // refits every mechanism: in a long table by its input line, in a matrix by

@@ -4,11 +4,11 @@
 //! [`crate::Workbench`], it keeps the last analysis on the Rust side.
 
 use crate::draw::{draw_plot, plot_svg};
-use crate::kept::{handover, Kept};
-use crate::{read_request, to_js};
+use crate::kept::{adopts_worker_analyses, analyse_for_worker, analyse_keeping, Kept};
+use crate::to_js;
 use plotters::prelude::*;
 use plotters_canvas::CanvasBackend;
-use turnover_core::dose::{analyse_dose, DoseAnalysis, DoseRequest};
+use turnover_core::dose::{analyse_dose, DoseAnalysis};
 use turnover_core::plots::PlotData;
 use wasm_bindgen::prelude::*;
 
@@ -28,10 +28,7 @@ fn kept_of(analysis: &DoseAnalysis) -> Kept {
 /// `analyseRatesInWorker`).
 #[wasm_bindgen(js_name = analyseDoseInWorker)]
 pub fn analyse_dose_in_worker(request: JsValue) -> Result<JsValue, JsError> {
-    let request: DoseRequest = read_request(request)?;
-    let analysis = analyse_dose(&request).map_err(|e| JsError::new(&e.message))?;
-    let kept = kept_of(&analysis);
-    handover(&kept.shown(&analysis), &kept)
+    analyse_for_worker(request, analyse_dose, kept_of)
 }
 
 /// Whether `text` is an inhibitor series: a header naming an [I] column
@@ -62,26 +59,7 @@ impl DoseBench {
     /// `cheng_prusoff`). Throws an `Error` with a message for the scientist
     /// when no fit can be made; the previous analysis is then forgotten.
     pub fn analyse(&mut self, request: JsValue) -> Result<JsValue, JsError> {
-        self.last = None;
-        let request: DoseRequest = read_request(request)?;
-        let analysis = analyse_dose(&request).map_err(|e| JsError::new(&e.message))?;
-        let kept = kept_of(&analysis);
-        let value = to_js(&kept.shown(&analysis))?;
-        self.last = Some(kept);
-        Ok(value)
-    }
-
-    /// Keeps, for drawing, an analysis made in the page's Web Worker (the
-    /// `kept` text of `analyseDoseInWorker`).
-    pub fn adopt(&mut self, kept: &str) -> Result<(), JsError> {
-        self.last = None;
-        self.last = Some(Kept::read(kept)?);
-        Ok(())
-    }
-
-    /// Forgets the analysis kept for drawing.
-    pub fn forget(&mut self) {
-        self.last = None;
+        analyse_keeping(&mut self.last, request, analyse_dose, kept_of)
     }
 
     /// Draws the analysis' plot (dose-response or Morrison) on canvas
@@ -123,3 +101,5 @@ impl DoseBench {
         plot_svg(self.plot()?, width, height).map_err(|e| JsError::new(&format!("drawing failed: {e}")))
     }
 }
+
+adopts_worker_analyses!(DoseBench);

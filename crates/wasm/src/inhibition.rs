@@ -3,11 +3,11 @@
 //! Like [`crate::Workbench`], it keeps the last analysis on the Rust side.
 
 use crate::draw::{draw_plot, plot_svg};
-use crate::kept::{handover, Kept};
-use crate::{read_request, to_js};
+use crate::kept::{adopts_worker_analyses, analyse_for_worker, analyse_keeping, Kept};
+use crate::to_js;
 use plotters::prelude::*;
 use plotters_canvas::CanvasBackend;
-use turnover_core::inhibition::{analyse_inhibition, InhibitionAnalysis, InhibitionRequest};
+use turnover_core::inhibition::{analyse_inhibition, InhibitionAnalysis};
 use turnover_core::plots::{PlotData, PlotKind};
 use wasm_bindgen::prelude::*;
 
@@ -35,10 +35,7 @@ fn kept_of(analysis: &InhibitionAnalysis) -> Kept {
 /// (see `analyseRatesInWorker`).
 #[wasm_bindgen(js_name = analyseInhibitionInWorker)]
 pub fn analyse_inhibition_in_worker(request: JsValue) -> Result<JsValue, JsError> {
-    let request: InhibitionRequest = read_request(request)?;
-    let analysis = analyse_inhibition(&request).map_err(|e| JsError::new(&e.message))?;
-    let kept = kept_of(&analysis);
-    handover(&kept.shown(&analysis), &kept)
+    analyse_for_worker(request, analyse_inhibition, kept_of)
 }
 
 /// Whether `text` is a table of rates at several inhibitor concentrations
@@ -70,26 +67,7 @@ impl InhibitionBench {
     /// `substrate_unit`, `inhibitor_unit`, `rate_unit`). Throws an `Error`
     /// with a message for the scientist when no analysis can be made.
     pub fn analyse(&mut self, request: JsValue) -> Result<JsValue, JsError> {
-        self.last = None;
-        let request: InhibitionRequest = read_request(request)?;
-        let analysis = analyse_inhibition(&request).map_err(|e| JsError::new(&e.message))?;
-        let kept = kept_of(&analysis);
-        let value = to_js(&kept.shown(&analysis))?;
-        self.last = Some(kept);
-        Ok(value)
-    }
-
-    /// Keeps, for drawing, an analysis made in the page's Web Worker (the
-    /// `kept` text of `analyseInhibitionInWorker`).
-    pub fn adopt(&mut self, kept: &str) -> Result<(), JsError> {
-        self.last = None;
-        self.last = Some(Kept::read(kept)?);
-        Ok(())
-    }
-
-    /// Forgets the analysis kept for drawing.
-    pub fn forget(&mut self) {
-        self.last = None;
+        analyse_keeping(&mut self.last, request, analyse_inhibition, kept_of)
     }
 
     /// Draws plot `kind` of the last analysis on canvas `canvas_id`;
@@ -138,3 +116,5 @@ impl InhibitionBench {
         plot_svg(self.plot(kind)?, width, height).map_err(|e| JsError::new(&format!("drawing failed: {e}")))
     }
 }
+
+adopts_worker_analyses!(InhibitionBench);

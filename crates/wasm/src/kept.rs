@@ -3,6 +3,8 @@
 //! the plots, thinned for drawing ([`turnover_core::plots::thin_for_drawing`]),
 //! and the shown fit's constants as text.
 
+use crate::{read_request, to_js};
+use serde::de::DeserializeOwned;
 use serde::{Deserialize, Serialize};
 use turnover_core::dose::DoseAnalysis;
 use turnover_core::inhibition::InhibitionAnalysis;
@@ -101,3 +103,66 @@ pub(crate) fn handover<A: Serialize>(shown: &A, kept: &Kept) -> Result<JsValue, 
     set("kept", text(serde_json::to_string(kept))?)?;
     Ok(out.into())
 }
+
+/// Analyses `request` with `analyse`, keeps what the page draws in `last`
+/// (forgotten first, so a failure leaves nothing stale to draw) and
+/// returns the result as the page is given it.
+pub(crate) fn analyse_keeping<R: DeserializeOwned, A: WithPlots>(
+    last: &mut Option<Kept>,
+    request: JsValue,
+    analyse: impl FnOnce(&R) -> Result<A, turnover_core::Error>,
+    keep: impl FnOnce(&A) -> Kept,
+) -> Result<JsValue, JsError> {
+    *last = None;
+    let (analysis, kept) = analysed(request, analyse, keep)?;
+    let value = to_js(&kept.shown(&analysis))?;
+    *last = Some(kept);
+    Ok(value)
+}
+
+/// The request read, analysed, and what the page keeps of it.
+fn analysed<R: DeserializeOwned, A: WithPlots>(
+    request: JsValue,
+    analyse: impl FnOnce(&R) -> Result<A, turnover_core::Error>,
+    keep: impl FnOnce(&A) -> Kept,
+) -> Result<(A, Kept), JsError> {
+    let request: R = read_request(request)?;
+    let analysis = analyse(&request).map_err(|e| JsError::new(&e.message))?;
+    let kept = keep(&analysis);
+    Ok((analysis, kept))
+}
+
+/// The same in the page's Web Worker: `{result, kept}` as JSON texts, for
+/// the page's `adopt`.
+pub(crate) fn analyse_for_worker<R: DeserializeOwned, A: WithPlots>(
+    request: JsValue,
+    analyse: impl FnOnce(&R) -> Result<A, turnover_core::Error>,
+    keep: impl FnOnce(&A) -> Kept,
+) -> Result<JsValue, JsError> {
+    let (analysis, kept) = analysed(request, analyse, keep)?;
+    handover(&kept.shown(&analysis), &kept)
+}
+
+/// `adopt` and `forget` for a bench that keeps a [`Kept`] in `last`.
+macro_rules! adopts_worker_analyses {
+    ($bench:ty) => {
+        #[wasm_bindgen::prelude::wasm_bindgen]
+        impl $bench {
+            /// Keeps, for drawing, an analysis made in the page's Web Worker
+            /// (the `kept` text its worker function returned), in place of
+            /// the one kept before.
+            pub fn adopt(&mut self, kept: &str) -> Result<(), wasm_bindgen::JsError> {
+                self.last = None;
+                self.last = Some($crate::kept::Kept::read(kept)?);
+                Ok(())
+            }
+
+            /// Forgets the analysis kept for drawing (while a new one runs
+            /// in the Web Worker, so nothing stale is drawn).
+            pub fn forget(&mut self) {
+                self.last = None;
+            }
+        }
+    };
+}
+pub(crate) use adopts_worker_analyses;

@@ -59,10 +59,11 @@ pub struct Workbench {
 /// page to draw it. Throws the core's message when no fit can be made.
 #[wasm_bindgen(js_name = analyseRatesInWorker)]
 pub fn analyse_rates_in_worker(request: JsValue) -> Result<JsValue, JsError> {
-    let request: RateRequest = read_request(request)?;
-    let analysis = analyse_rates(&request).map_err(|e| JsError::new(&e.message))?;
-    let kept = Kept::of(&analysis.plots, turnover_core::format::constants_text(&analysis.fit.parameters));
-    kept::handover(&kept.shown(&analysis), &kept)
+    kept::analyse_for_worker(request, analyse_rates, rate_kept)
+}
+
+fn rate_kept(analysis: &turnover_core::rates::RateAnalysis) -> Kept {
+    Kept::of(&analysis.plots, turnover_core::format::constants_text(&analysis.fit.parameters))
 }
 
 /// Reads a request object sent by the page.
@@ -97,34 +98,7 @@ impl Workbench {
     /// value with it removed, the core's `bias` module; `null` where not
     /// computed).
     pub fn analyse(&mut self, request: JsValue) -> Result<JsValue, JsError> {
-        let request: RateRequest = read_request(request)?;
-        match analyse_rates(&request) {
-            Ok(result) => {
-                let kept = Kept::of(&result.plots, turnover_core::format::constants_text(&result.fit.parameters));
-                let value = to_js(&kept.shown(&result))?;
-                self.last = Some(kept);
-                Ok(value)
-            }
-            Err(error) => {
-                self.last = None;
-                Err(JsError::new(&error.message))
-            }
-        }
-    }
-
-    /// Keeps, for drawing, an analysis made in the page's Web Worker: the
-    /// `kept` text [`analyse_rates_in_worker`] returned (the page parses its
-    /// `result` text itself). Replaces the analysis kept before.
-    pub fn adopt(&mut self, kept: &str) -> Result<(), JsError> {
-        self.last = None;
-        self.last = Some(Kept::read(kept)?);
-        Ok(())
-    }
-
-    /// Forgets the analysis kept for drawing (while a new one runs in the
-    /// Web Worker, so nothing stale is drawn).
-    pub fn forget(&mut self) {
-        self.last = None;
+        kept::analyse_keeping(&mut self.last, request, analyse_rates, rate_kept)
     }
 
     /// The plot named `kind` of the last analysis.
@@ -295,3 +269,5 @@ pub fn read_quantity(text: &str) -> Result<JsValue, JsError> {
     let (value, unit) = turnover_core::table::read_quantity(text).map_err(|m| JsError::new(&m))?;
     to_js(&Quantity { value, unit })
 }
+
+kept::adopts_worker_analyses!(Workbench);
