@@ -561,10 +561,46 @@ pub fn unscaled_covariance(jacobian: &DMatrix<f64>) -> Option<DMatrix<f64>> {
 }
 
 /// The `probability` quantile of Student's t with `dof` degrees of freedom.
+///
+/// statrs inverts the regularised incomplete beta function for it, which
+/// cost about as much as a whole small fit; every fit asks for it, almost
+/// always with the same probability and one of a few degrees of freedom.
+/// So the last [`QUANTILE_MEMO`] answers are kept per thread, keyed by the
+/// exact bits of both arguments: a remembered answer is the very number
+/// statrs gave for those arguments, so results are bit for bit those
+/// without the memo (and the memo holds no state a caller can see).
 pub fn student_t_quantile(probability: f64, dof: f64) -> Option<f64> {
     if dof <= 0.0 {
         return None;
     }
+    let key = (probability.to_bits(), dof.to_bits());
+    if let Some(known) = QUANTILES.with(|memo| memo.borrow().iter().find(|(k, _)| *k == key).map(|(_, q)| *q)) {
+        return known;
+    }
+    let q = student_t_quantile_uncached(probability, dof);
+    QUANTILES.with(|memo| {
+        let mut memo = memo.borrow_mut();
+        if memo.len() == QUANTILE_MEMO {
+            memo.remove(0);
+        }
+        memo.push((key, q));
+    });
+    q
+}
+
+/// How many t quantiles [`student_t_quantile`] remembers per thread (the
+/// oldest is forgotten first). A linear search over so few is cheaper than
+/// hashing.
+const QUANTILE_MEMO: usize = 16;
+
+thread_local! {
+    /// `((probability bits, dof bits), quantile)`, oldest first.
+    static QUANTILES: std::cell::RefCell<Vec<((u64, u64), Option<f64>)>> =
+        const { std::cell::RefCell::new(Vec::new()) };
+}
+
+/// [`student_t_quantile`] computed afresh by statrs, without the memo.
+fn student_t_quantile_uncached(probability: f64, dof: f64) -> Option<f64> {
     let t = StudentsT::new(0.0, 1.0, dof).ok()?;
     let q = t.inverse_cdf(probability);
     q.is_finite().then_some(q)
@@ -604,6 +640,25 @@ mod tests {
         let q = student_t_quantile(0.975, 10.0).unwrap();
         assert!((q - 2.2281388519649385).abs() < 1e-10 * 2.23, "{q}");
         assert_eq!(student_t_quantile(0.975, 0.0), None);
+    }
+
+    /// The memo gives the very bits statrs gives, asked in any order and
+    /// more often than it has room for (so entries are forgotten and
+    /// computed again).
+    #[test]
+    fn remembered_quantiles_are_the_computed_ones() {
+        for round in 0..3 {
+            for dof in (1..=40).chain([57, 120, 1000]) {
+                for probability in [0.975, 0.95, 0.995, 0.841344746, 0.5 + 0.9 / 2.0] {
+                    let dof = dof as f64;
+                    let first = student_t_quantile(probability, dof);
+                    let remembered = student_t_quantile(probability, dof);
+                    let fresh = student_t_quantile_uncached(probability, dof);
+                    assert_eq!(first.map(f64::to_bits), fresh.map(f64::to_bits), "round {round}, {probability}, {dof}");
+                    assert_eq!(remembered.map(f64::to_bits), fresh.map(f64::to_bits), "round {round}, {probability}, {dof}");
+                }
+            }
+        }
     }
 
     #[test]
