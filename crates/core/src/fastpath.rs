@@ -266,7 +266,7 @@ fn include_row<const M: usize>(scales: &mut [f64; M], unit: &mut SMatrix<f64, M,
 /// Rotates `row` into the upper triangle `t` (Givens rotations computed as
 /// in MINPACK's `rwupdt`, which avoid overflow in the hypotenuse). `row` is
 /// destroyed.
-fn rotate_in<const M: usize>(t: &mut SMatrix<f64, M, M>, row: &mut [f64; M]) {
+pub(crate) fn rotate_in<const M: usize>(t: &mut SMatrix<f64, M, M>, row: &mut [f64; M]) {
     for j in 0..M {
         let a = row[j];
         if a == 0.0 {
