@@ -213,18 +213,18 @@ impl Model for Inhibition {
         };
         match self.mechanism {
             Mechanism::Mixed => {
-                // Two constants: a coarse grid (9 × 9, Km × 0.5, 1, 2),
+                // Two constants: a coarse grid (9 × 9 at the Km of the
+                // rows without inhibitor, which those rows define well),
                 // then a finer one (5 × 5 at half the coarse step, Km ×
-                // 0.7, 1, 1.4) around the best coarse point: 318
-                // candidates where the full 25 × 25 × 5 grid had 3,125.
+                // 0.7, 1, 1.4) around the best coarse point: 156
+                // candidates where the full 25 × 25 × 5 grid had 3,125
+                // (and an earlier rule, with Km × 0.5, 1, 2 on the coarse
+                // grid, 318).
                 let coarse = log_grid(i_low / 30.0, i_high * 30.0, 9);
                 let factors = grid.factors(&coarse);
-                for factor in [0.5, 1.0, 2.0] {
-                    let km = base[1] * factor;
-                    for (a, &k1) in coarse.iter().enumerate() {
-                        for (b, &k2) in coarse.iter().enumerate() {
-                            consider(grid.score([1.0, km, k1, k2], &factors[a], &factors[b]), &mut best);
-                        }
+                for (a, &k1) in coarse.iter().enumerate() {
+                    for (b, &k2) in coarse.iter().enumerate() {
+                        consider(grid.score([1.0, base[1], k1, k2], &factors[a], &factors[b]), &mut best);
                     }
                 }
                 if let Some((_, centre)) = best {
@@ -386,7 +386,7 @@ impl Inhibition {
     /// Kiu (from 1/30 of the smallest to 30 times the largest [I] > 0, at
     /// the Km of the best-scoring seed), each with Vmax by linear least
     /// squares; ordered by residual sum of squares, best first. 84
-    /// candidates, where the model's own starting rule scores 318 and then
+    /// candidates, where the model's own starting rule scores 156 and then
     /// needs a minimisation of its own.
     pub fn mixed_candidates(&self, data: &Observations, seeds: &[[f64; 4]]) -> Vec<(f64, [f64; 4])> {
         let mut scorer = Scorer::new(self, data);
