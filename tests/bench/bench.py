@@ -20,7 +20,18 @@ What is timed:
 - batch: 10,000 ten-point dose-response curves, the whole `turnover`
   process (default threads, and --threads 1) against the SciPy loop.
 
-Usage: TURNOVER_BIN=target/release/turnover python3 tests/bench/bench.py
+A second table compares the two in-process, per call, on the same files:
+- Turnover: the `fit_timing` example of turnover-core (FIT_TIMING_BIN),
+  which reads the file once and times `fit_model` (starting values, fit,
+  SEs, t intervals, R², AICc, bias) on every curve, the fastest of several
+  passes; for the bootstrap, a fit plus bootstrap intervals from the
+  resamples (`apply_interval_method`).
+- SciPy: the same loop of curve_fit plus t intervals as above (already in
+  process), the fastest of several passes; for the bootstrap, the loop of
+  curve_fit calls on resamples.
+
+Usage: TURNOVER_BIN=target/release/turnover \
+       FIT_TIMING_BIN=target/release/examples/fit_timing python3 tests/bench/bench.py
 """
 import os
 import subprocess
@@ -33,11 +44,14 @@ from scipy.optimize import curve_fit
 from scipy.stats import t as student_t
 
 BIN = os.environ.get("TURNOVER_BIN", "target/release/turnover")
+TIMING_BIN = os.environ.get("FIT_TIMING_BIN", "target/release/examples/fit_timing")
 OUT = tempfile.mkdtemp(prefix="turnover-bench-")
 # BENCH_QUICK=1 shrinks every case (a check that the script runs, not a benchmark).
 QUICK = bool(os.environ.get("BENCH_QUICK"))
 BATCH = 200 if QUICK else 10_000
 RESAMPLES = 100 if QUICK else 2000
+# Passes of each in-process loop; the fastest counts.
+PASSES = 2 if QUICK else 7
 rng = np.random.default_rng(20261202)
 
 
@@ -128,14 +142,16 @@ def time_scipy(f, xs, ys, p0, repeats=3):
 
 def main():
     rows = []
+    inprocess = []
     for name, model, header, xs, f, truth, copies, extra in cases():
         copies = max(2, copies // 50) if QUICK else copies
         ys = [noisy(f, np.vstack(xs), truth, 0.02) for _ in range(copies)]
         path = os.path.join(OUT, model + ".tsv")
         write_batch(path, header, xs, ys)
         ours = time_process([BIN, "fit", path, "--group-by", "curve", "--model", model, "--threads", "1", "--format", "tsv", "--lenient", *extra]) / copies
-        theirs = time_scipy(f, xs, ys, tuple(1.5 * v for v in truth)) / copies
+        theirs = time_scipy(f, xs, ys, tuple(1.5 * v for v in truth), repeats=PASSES) / copies
         rows.append((name, ours, theirs))
+        inprocess.append((name, in_process(model, path, extra, "seconds_per_fit"), theirs))
 
     # Bootstrap: 2,000 residual resamples of one 12-point MM curve.
     name, model, header, xs, f, truth, _, _ = cases()[0]
@@ -145,18 +161,22 @@ def main():
     with open(path, "w") as out:
         out.write(header + "\n" + "".join(f"{float(a)!r}\t{float(b)!r}\n" for a, b in zip(x, y)))
     ours = time_process([BIN, "fit", path, "--ci", "bootstrap", "--resamples", str(RESAMPLES), "--json"])
-    t0 = time.perf_counter()
-    p, _ = curve_fit(mm, x, y, p0=(15.0, 12.0))
-    fitted = mm(x, *p)
-    residuals = y - fitted
-    for _ in range(RESAMPLES):
-        resample = fitted + rng.choice(residuals, size=len(residuals), replace=True)
-        try:
-            curve_fit(mm, x, resample, p0=p)
-        except RuntimeError:
-            pass
-    theirs = time.perf_counter() - t0
+    theirs = float("inf")
+    # A pass is 2,000 curve_fit calls (a few tenths of a second): three do.
+    for _ in range(1 if QUICK else 3):
+        t0 = time.perf_counter()
+        p, _ = curve_fit(mm, x, y, p0=(15.0, 12.0))
+        fitted = mm(x, *p)
+        residuals = y - fitted
+        for _ in range(RESAMPLES):
+            resample = fitted + rng.choice(residuals, size=len(residuals), replace=True)
+            try:
+                curve_fit(mm, x, resample, p0=p)
+            except RuntimeError:
+                pass
+        theirs = min(theirs, time.perf_counter() - t0)
     rows.append((f"bootstrap, {RESAMPLES:,} resamples", ours, theirs))
+    inprocess.append((f"bootstrap, {RESAMPLES:,} resamples", in_process(model, path, ["--bootstrap", str(RESAMPLES)], "seconds_per_bootstrap"), theirs))
 
     # Batch: 10,000 ten-point dose-response curves.
     doses = 100.0 / 3.0 ** np.arange(10)
@@ -181,9 +201,32 @@ def main():
     print(f"{'case':<34} {'Turnover':>12} {'SciPy':>12} {'Turnover/SciPy':>15}")
     for name, ours, theirs in rows:
         print(f"{name:<34} {fmt(ours):>12} {fmt(theirs):>12} {ours / theirs:>15.3f}")
+    print()
+    print("in process, per call (Turnover: fit_model in Rust; SciPy: curve_fit in Python; fastest of "
+          f"{PASSES} passes)")
+    print(f"{'case':<34} {'Turnover':>12} {'SciPy':>12} {'Turnover/SciPy':>15} {'SciPy/Turnover':>15}")
+    for name, ours, theirs in inprocess:
+        print(f"{name:<34} {fmt_small(ours):>12} {fmt_small(theirs):>12} {ours / theirs:>15.4f} {theirs / ours:>15.1f}")
     rate = BATCH / ours_all
     print(f"batch rate: {rate:,.0f} dose-response curves/s; 10^6 curves would take about "
           f"{1e6 / rate / 60:.1f} min (extrapolated from the {BATCH:,}-curve run, not measured)")
+
+
+def in_process(model, path, extra, key):
+    """Seconds per call from the fit_timing example (see the docstring)."""
+    args = [TIMING_BIN, "--model", model, "--file", path, "--repeats", str(PASSES)]
+    args += [a for a in extra if a != "--lenient"]
+    done = subprocess.run(args, capture_output=True, text=True)
+    if done.returncode != 0:
+        sys.exit(f"fit_timing failed: {done.stderr}")
+    for line in done.stdout.splitlines():
+        if line.startswith(key + " "):
+            return float(line.split()[1])
+    sys.exit(f"fit_timing printed no {key}: {done.stdout}")
+
+
+def fmt_small(seconds):
+    return f"{seconds * 1e6:.2f} µs" if seconds < 1e-3 else fmt(seconds)
 
 
 def fmt(seconds):

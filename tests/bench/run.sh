@@ -6,7 +6,8 @@ set -euo pipefail
 ROOT="$(cd "$(dirname "$0")/../.." && pwd)"
 cd "$ROOT"
 cargo build --release -p turnover-cli
-TURNOVER_BIN="$ROOT/target/release/turnover" python3 tests/bench/bench.py
+cargo build --release -p turnover-core --example fit_timing
+TURNOVER_BIN="$ROOT/target/release/turnover" FIT_TIMING_BIN="$ROOT/target/release/examples/fit_timing" python3 tests/bench/bench.py
 # The page: start-up, a 100,000-row table, the WebAssembly against native.
 "$ROOT/build.sh" >/dev/null
 node tests/bench/page.mjs "$ROOT/dist/turnover.html" "$ROOT/target/release/turnover"

@@ -537,21 +537,58 @@ pub fn unscaled_covariance(jacobian: &DMatrix<f64>) -> Option<DMatrix<f64>> {
     if scales.iter().any(|s| *s == 0.0) {
         return None;
     }
+    // Up to four parameters, the scaled Jacobian's rows are first rotated
+    // into a p×p triangle R (RᵀR = JᵀJ, so the same singular values and
+    // right singular vectors) and the decomposition is the fixed-size one
+    // of R: nothing of size n is copied or allocated. The numbers agree
+    // with the decomposition of J itself to rounding.
+    macro_rules! small {
+        ($p:literal) => {{
+            let mut triangle = nalgebra::SMatrix::<f64, $p, $p>::zeros();
+            let mut row = [0.0f64; $p];
+            for i in 0..jacobian.nrows() {
+                for j in 0..$p {
+                    row[j] = jacobian[(i, j)] / scales[j];
+                }
+                crate::fastpath::rotate_in(&mut triangle, &mut row);
+            }
+            let svd = triangle.svd(false, true);
+            inverse_from(&svd.singular_values.as_slice(), &svd.v_t?, &scales)
+        }};
+    }
+    match p {
+        1 => return small!(1),
+        2 => return small!(2),
+        3 => return small!(3),
+        4 => return small!(4),
+        _ => {}
+    }
     let mut scaled = jacobian.clone();
     for (j, s) in scales.iter().enumerate() {
         scaled.column_mut(j).scale_mut(1.0 / s);
     }
     let svd = scaled.svd(false, true);
-    let v_t = svd.v_t?;
-    let largest = svd.singular_values.max();
-    if svd.singular_values.iter().any(|s| *s <= RANK_TOLERANCE * largest) {
+    inverse_from(svd.singular_values.as_slice(), &svd.v_t?, &scales)
+}
+
+/// `(JᵀJ)⁻¹` from the singular values and right singular vectors (`v_t`,
+/// rows) of `J` with columns divided by `scales`; `None` when a singular
+/// value is below [`RANK_TOLERANCE`] times the largest.
+fn inverse_from<S: nalgebra::Storage<f64, C, C>, C: nalgebra::Dim>(
+    singular_values: &[f64],
+    v_t: &nalgebra::Matrix<f64, C, C, S>,
+    scales: &[f64],
+) -> Option<DMatrix<f64>> {
+    let p = scales.len();
+    let largest = singular_values.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+    if singular_values.iter().any(|s| *s <= RANK_TOLERANCE * largest) {
         return None;
     }
     let mut inverse = DMatrix::zeros(p, p);
     for a in 0..p {
         for b in 0..p {
             let mut sum = 0.0;
-            for (k, s) in svd.singular_values.iter().enumerate() {
+            for (k, s) in singular_values.iter().enumerate() {
                 sum += v_t[(k, a)] * v_t[(k, b)] / (s * s);
             }
             inverse[(a, b)] = sum / (scales[a] * scales[b]);
@@ -561,10 +598,46 @@ pub fn unscaled_covariance(jacobian: &DMatrix<f64>) -> Option<DMatrix<f64>> {
 }
 
 /// The `probability` quantile of Student's t with `dof` degrees of freedom.
+///
+/// statrs inverts the regularised incomplete beta function for it, which
+/// cost about as much as a whole small fit; every fit asks for it, almost
+/// always with the same probability and one of a few degrees of freedom.
+/// So the last [`QUANTILE_MEMO`] answers are kept per thread, keyed by the
+/// exact bits of both arguments: a remembered answer is the very number
+/// statrs gave for those arguments, so results are bit for bit those
+/// without the memo (and the memo holds no state a caller can see).
 pub fn student_t_quantile(probability: f64, dof: f64) -> Option<f64> {
     if dof <= 0.0 {
         return None;
     }
+    let key = (probability.to_bits(), dof.to_bits());
+    if let Some(known) = QUANTILES.with(|memo| memo.borrow().iter().find(|(k, _)| *k == key).map(|(_, q)| *q)) {
+        return known;
+    }
+    let q = student_t_quantile_uncached(probability, dof);
+    QUANTILES.with(|memo| {
+        let mut memo = memo.borrow_mut();
+        if memo.len() == QUANTILE_MEMO {
+            memo.remove(0);
+        }
+        memo.push((key, q));
+    });
+    q
+}
+
+/// How many t quantiles [`student_t_quantile`] remembers per thread (the
+/// oldest is forgotten first). A linear search over so few is cheaper than
+/// hashing.
+const QUANTILE_MEMO: usize = 16;
+
+thread_local! {
+    /// `((probability bits, dof bits), quantile)`, oldest first.
+    static QUANTILES: std::cell::RefCell<Vec<((u64, u64), Option<f64>)>> =
+        const { std::cell::RefCell::new(Vec::new()) };
+}
+
+/// [`student_t_quantile`] computed afresh by statrs, without the memo.
+fn student_t_quantile_uncached(probability: f64, dof: f64) -> Option<f64> {
     let t = StudentsT::new(0.0, 1.0, dof).ok()?;
     let q = t.inverse_cdf(probability);
     q.is_finite().then_some(q)
@@ -606,6 +679,25 @@ mod tests {
         assert_eq!(student_t_quantile(0.975, 0.0), None);
     }
 
+    /// The memo gives the very bits statrs gives, asked in any order and
+    /// more often than it has room for (so entries are forgotten and
+    /// computed again).
+    #[test]
+    fn remembered_quantiles_are_the_computed_ones() {
+        for round in 0..3 {
+            for dof in (1..=40).chain([57, 120, 1000]) {
+                for probability in [0.975, 0.95, 0.995, 0.841344746, 0.5 + 0.9 / 2.0] {
+                    let dof = dof as f64;
+                    let first = student_t_quantile(probability, dof);
+                    let remembered = student_t_quantile(probability, dof);
+                    let fresh = student_t_quantile_uncached(probability, dof);
+                    assert_eq!(first.map(f64::to_bits), fresh.map(f64::to_bits), "round {round}, {probability}, {dof}");
+                    assert_eq!(remembered.map(f64::to_bits), fresh.map(f64::to_bits), "round {round}, {probability}, {dof}");
+                }
+            }
+        }
+    }
+
     #[test]
     fn covariance_of_a_straight_line_is_the_textbook_one() {
         // For y = a + b·x, (XᵀX)⁻¹ has the closed form below.
@@ -623,6 +715,30 @@ mod tests {
         assert!((c[(0, 0)] - sxx / det).abs() < 1e-14);
         assert!((c[(1, 1)] - n / det).abs() < 1e-14);
         assert!((c[(0, 1)] + sx / det).abs() < 1e-14);
+    }
+
+    /// The fixed-size route (p ≤ 4) against the decomposition of the
+    /// whole Jacobian, on Jacobians with columns of very different size.
+    #[test]
+    fn small_covariance_matches_the_whole_decomposition() {
+        for p in 1..=4usize {
+            let n = 9;
+            let j = DMatrix::from_fn(n, p, |i, k| ((i + 1) as f64 * (k + 1) as f64 * 0.37 + k as f64).sin() * 10f64.powi(k as i32 * 2 - 3));
+            let fast = unscaled_covariance(&j).unwrap();
+            let scales: Vec<f64> = j.column_iter().map(|c| c.norm()).collect();
+            let mut scaled = j.clone();
+            for (k, s) in scales.iter().enumerate() {
+                scaled.column_mut(k).scale_mut(1.0 / s);
+            }
+            let svd = scaled.svd(false, true);
+            let whole = inverse_from(svd.singular_values.as_slice(), &svd.v_t.unwrap(), &scales).unwrap();
+            for a in 0..p {
+                for b in 0..p {
+                    let scale = (whole[(a, a)] * whole[(b, b)]).sqrt();
+                    assert!((fast[(a, b)] - whole[(a, b)]).abs() <= 1e-12 * scale, "p {p} ({a},{b}): {} vs {}", fast[(a, b)], whole[(a, b)]);
+                }
+            }
+        }
     }
 
     #[test]

@@ -150,6 +150,32 @@ impl Model for Inhibition {
         }
     }
 
+    /// The value and gradient sharing the denominator: the same
+    /// expressions as [`Inhibition::value`] and [`Inhibition::gradient`],
+    /// so the same bits.
+    fn value_and_gradient(&self, x: &[f64], p: &[f64], gradient: &mut [f64]) -> f64 {
+        let (s, i) = (x[0], x[1]);
+        let (vmax, km) = (p[0], p[1]);
+        let (kic, kiu) = self.constants(p);
+        let a = 1.0 + i / kic;
+        let d = km * a + s * (1.0 + i / kiu);
+        let d2 = d * d;
+        gradient[0] = s / d;
+        gradient[1] = -vmax * s * a / d2;
+        let d_kic = |k: f64| vmax * s * km * i / (k * k * d2);
+        let d_kiu = |k: f64| vmax * s * s * i / (k * k * d2);
+        match self.mechanism {
+            Mechanism::Competitive => gradient[2] = d_kic(kic),
+            Mechanism::Uncompetitive => gradient[2] = d_kiu(kiu),
+            Mechanism::Mixed => {
+                gradient[2] = d_kic(kic);
+                gradient[3] = d_kiu(kiu);
+            }
+            Mechanism::Noncompetitive => gradient[2] = d_kic(kic) + d_kiu(kiu),
+        }
+        vmax * s / d
+    }
+
     /// Starting values: Vmax and Km from the Michaelis-Menten rule applied
     /// to the rows at the lowest [I] (normally [I] = 0); then the inhibition
     /// constants, and Km within a factor of two, from a logarithmic grid
@@ -171,12 +197,15 @@ impl Model for Inhibition {
         let base = Observations::single(&s_low, &v_low)
             .and_then(|o| MichaelisMenten.initial_guess(&o))
             .or_else(|_| MichaelisMenten.initial_guess(&Observations::single(&data.predictor_column(0), data.y())?))?;
-        // The candidates live in a fixed array and the shape values in one
-        // reused buffer, so the grid allocates nothing per candidate.
+        // Each candidate's shape at every point is the model's value with
+        // Vmax = 1, computed by the model's own expression from the factors
+        // 1 + [I]/Kic and 1 + [I]/Kiu, which are worked out once per grid
+        // value rather than once per candidate (the same numbers, bit for
+        // bit; a third of the divisions).
+        let mut grid = GridScorer::new(data);
         let mut best: Option<(f64, [f64; 4])> = None;
-        let mut scorer = Scorer::new(self, data);
-        let mut consider = |p: [f64; 4], best: &mut Option<(f64, [f64; 4])>| {
-            if let Some((rss, p)) = scorer.score(p) {
+        let consider = |candidate: Option<(f64, [f64; 4])>, best: &mut Option<(f64, [f64; 4])>| {
+            if let Some((rss, p)) = candidate {
                 if best.as_ref().is_none_or(|(b, _)| rss < *b) {
                     *best = Some((rss, p));
                 }
@@ -184,36 +213,49 @@ impl Model for Inhibition {
         };
         match self.mechanism {
             Mechanism::Mixed => {
-                // Two constants: a coarse grid (9 × 9, Km × 0.5, 1, 2),
+                // Two constants: a coarse grid (9 × 9 at the Km of the
+                // rows without inhibitor, which those rows define well),
                 // then a finer one (5 × 5 at half the coarse step, Km ×
-                // 0.7, 1, 1.4) around the best coarse point: 318
-                // candidates where the full 25 × 25 × 5 grid had 3,125.
+                // 0.7, 1, 1.4) around the best coarse point: 156
+                // candidates where the full 25 × 25 × 5 grid had 3,125
+                // (and an earlier rule, with Km × 0.5, 1, 2 on the coarse
+                // grid, 318).
                 let coarse = log_grid(i_low / 30.0, i_high * 30.0, 9);
-                for factor in [0.5, 1.0, 2.0] {
-                    for &k1 in &coarse {
-                        for &k2 in &coarse {
-                            consider([1.0, base[1] * factor, k1, k2], &mut best);
-                        }
+                let factors = grid.factors(&coarse);
+                for (a, &k1) in coarse.iter().enumerate() {
+                    for (b, &k2) in coarse.iter().enumerate() {
+                        consider(grid.score([1.0, base[1], k1, k2], &factors[a], &factors[b]), &mut best);
                     }
                 }
                 if let Some((_, centre)) = best {
                     let half_step = (coarse[1] / coarse[0]).sqrt();
+                    let kic: Vec<f64> = (-2..=2).map(|a| centre[2] * half_step.powi(a)).collect();
+                    let kiu: Vec<f64> = (-2..=2).map(|b| centre[3] * half_step.powi(b)).collect();
+                    let (kic_factors, kiu_factors) = (grid.factors(&kic), grid.factors(&kiu));
                     for factor in [0.7, 1.0, 1.4] {
-                        for a in -2..=2 {
-                            for b in -2..=2 {
-                                let k1 = centre[2] * half_step.powi(a);
-                                let k2 = centre[3] * half_step.powi(b);
-                                consider([1.0, centre[1] * factor, k1, k2], &mut best);
+                        let km = centre[1] * factor;
+                        for (a, &k1) in kic.iter().enumerate() {
+                            for (b, &k2) in kiu.iter().enumerate() {
+                                consider(grid.score([1.0, km, k1, k2], &kic_factors[a], &kiu_factors[b]), &mut best);
                             }
                         }
                     }
                 }
             }
-            _ => {
-                let grid = log_grid(i_low / 30.0, i_high * 30.0, 25);
+            mechanism => {
+                let values = log_grid(i_low / 30.0, i_high * 30.0, 25);
+                let factors = grid.factors(&values);
+                // An absent binding step: 1 + [I]/∞ = 1 exactly.
+                let absent = vec![1.0; data.len()];
                 for factor in [0.5, 0.7, 1.0, 1.4, 2.0] {
-                    for &k1 in &grid {
-                        consider([1.0, base[1] * factor, k1, 0.0], &mut best);
+                    let km = base[1] * factor;
+                    for (a, &k1) in values.iter().enumerate() {
+                        let (competitive, uncompetitive) = match mechanism {
+                            Mechanism::Competitive => (&factors[a], &absent),
+                            Mechanism::Uncompetitive => (&absent, &factors[a]),
+                            _ => (&factors[a], &factors[a]),
+                        };
+                        consider(grid.score([1.0, km, k1, 0.0], competitive, uncompetitive), &mut best);
                     }
                 }
             }
@@ -258,6 +300,85 @@ impl<'a> Scorer<'a> {
     }
 }
 
+/// Scores grid candidates like [`Scorer`], the shape written out for
+/// precomputed inhibition factors: for Vmax = 1 the model's value is
+/// `[S] / (Km·(1 + [I]/Kic) + [S]·(1 + [I]/Kiu))`, the very expression of
+/// [`Inhibition::value`] (so the same bits), and the factors
+/// `1 + [I]/K` for each grid value K are computed once per grid rather
+/// than once per candidate. The scale is formed as in [`scaled_rss_in`]
+/// (with its sums split, see [`GridScorer::score`]); the sum of squares
+/// from the sums already made.
+struct GridScorer<'a> {
+    data: &'a Observations,
+    substrate: Vec<f64>,
+    /// Σ w·y².
+    sum_wyy: f64,
+}
+
+impl<'a> GridScorer<'a> {
+    fn new(data: &'a Observations) -> Self {
+        let sum_wyy = data.y().iter().zip(data.weights()).map(|(y, w)| w * y * y).sum();
+        GridScorer { data, substrate: data.predictor_column(0), sum_wyy }
+    }
+
+    /// `1 + [I]/K` at every point, for every K in `values`.
+    fn factors(&self, values: &[f64]) -> Vec<Vec<f64>> {
+        values.iter().map(|k| (0..self.data.len()).map(|r| 1.0 + self.data.x(r)[1] / k).collect()).collect()
+    }
+
+    /// `(rss, p)` with `p[0]` the least-squares Vmax for Km = `p[1]` and
+    /// the factors `competitive` (1 + [I]/Kic) and `uncompetitive`
+    /// (1 + [I]/Kiu); `None` when the shape is not usable or the scale is
+    /// not positive.
+    fn score(&mut self, p: [f64; 4], competitive: &[f64], uncompetitive: &[f64]) -> Option<(f64, [f64; 4])> {
+        let km = p[1];
+        let n = self.substrate.len();
+        let (s, a, b) = (&self.substrate[..n], &competitive[..n], &uncompetitive[..n]);
+        let (y, w) = (&self.data.y()[..n], &self.data.weights()[..n]);
+        // One pass, with the sums over even and odd points kept apart so
+        // that two additions can be in flight at once (the sums are then
+        // rounded in a different order than a plain loop's, by a few ulps).
+        let mut finite = true;
+        let (mut sgy, mut sgg, mut sgy_odd, mut sgg_odd) = (0.0, 0.0, 0.0, 0.0);
+        let mut k = 0;
+        while k + 1 < n {
+            let g = s[k] / (km * a[k] + s[k] * b[k]);
+            let h = s[k + 1] / (km * a[k + 1] + s[k + 1] * b[k + 1]);
+            finite &= g.is_finite() & h.is_finite();
+            sgy += w[k] * g * y[k];
+            sgg += w[k] * g * g;
+            sgy_odd += w[k + 1] * h * y[k + 1];
+            sgg_odd += w[k + 1] * h * h;
+            k += 2;
+        }
+        if k < n {
+            let g = s[k] / (km * a[k] + s[k] * b[k]);
+            finite &= g.is_finite();
+            sgy += w[k] * g * y[k];
+            sgg += w[k] * g * g;
+        }
+        if !finite {
+            return None;
+        }
+        let (sgy, sgg) = (sgy + sgy_odd, sgg + sgg_odd);
+        if sgg <= 0.0 {
+            return None;
+        }
+        let scale = sgy / sgg;
+        if !(scale > 0.0) {
+            return None;
+        }
+        // Σw(y − scale·g)² = Σwy² − scale·Σwgy at the least-squares scale,
+        // without a third pass. It loses about ε·Σwy² to cancellation, far
+        // below the differences between grid candidates that matter (a
+        // near-tie may rank the other way, and either start serves).
+        let rss = (self.sum_wyy - scale * sgy).max(0.0);
+        let mut p = p;
+        p[0] = scale;
+        Some((rss, p))
+    }
+}
+
 impl Inhibition {
     /// Starting points for mixed inhibition when the single mechanisms have
     /// been fitted already: their solutions `seeds` (written as mixed
@@ -265,7 +386,7 @@ impl Inhibition {
     /// Kiu (from 1/30 of the smallest to 30 times the largest [I] > 0, at
     /// the Km of the best-scoring seed), each with Vmax by linear least
     /// squares; ordered by residual sum of squares, best first. 84
-    /// candidates, where the model's own starting rule scores 318 and then
+    /// candidates, where the model's own starting rule scores 156 and then
     /// needs a minimisation of its own.
     pub fn mixed_candidates(&self, data: &Observations, seeds: &[[f64; 4]]) -> Vec<(f64, [f64; 4])> {
         let mut scorer = Scorer::new(self, data);
@@ -310,6 +431,22 @@ mod tests {
                 p.truncate(model.parameters().len());
                 let worst = gradient_disagreement(&model, &data, &p);
                 assert!(worst < 1e-7, "{}: p = {p:?}: {worst}", mechanism.name());
+            }
+        }
+    }
+
+    #[test]
+    fn value_and_gradient_together_are_the_same_bits() {
+        let data = grid_data();
+        for mechanism in Mechanism::ALL {
+            let model = Inhibition::new(mechanism);
+            let p = &[12.0, 0.8, 2.5, 7.0][..model.parameters().len()];
+            for r in 0..data.len() {
+                let (mut apart, mut together) = ([0.0; 4], [0.0; 4]);
+                model.gradient(data.x(r), p, &mut apart[..p.len()]);
+                let value = model.value_and_gradient(data.x(r), p, &mut together[..p.len()]);
+                assert_eq!(value.to_bits(), model.value(data.x(r), p).to_bits());
+                assert_eq!(apart.map(f64::to_bits), together.map(f64::to_bits));
             }
         }
     }
