@@ -24,6 +24,11 @@ pub(crate) trait WithPlots: Clone + Serialize {
     fn plots_mut(&mut self) -> &mut Vec<PlotData>;
     /// Leaves out what the page never reads (default: nothing).
     fn lighten(&mut self) {}
+    /// Whether a plot of up to [`turnover_core::plots::THIN_ABOVE`] points
+    /// is given to the page whole (its section reads the points of a plot,
+    /// such as a left-out point's ring); otherwise only its titles, note
+    /// and series labels are.
+    const SMALL_PLOTS_WHOLE: bool = true;
 }
 
 impl WithPlots for RateAnalysis {
@@ -35,6 +40,9 @@ impl WithPlots for RateAnalysis {
     fn lighten(&mut self) {
         self.diagnostics.points = Vec::new();
     }
+    /// The rate section draws and hit-tests from the kept plots and the
+    /// positions `draw` returns; it never reads a plot's points.
+    const SMALL_PLOTS_WHOLE: bool = false;
 }
 
 impl WithPlots for DoseAnalysis {
@@ -66,15 +74,16 @@ impl Kept {
     /// The analysis as the page is given it, without what it never reads
     /// ([`WithPlots::lighten`]). A plot of up to
     /// [`turnover_core::plots::THIN_ABOVE`] points and segments is given
-    /// whole; a larger one only its kind, titles, note (with the thinning
-    /// sentence) and series labels: the page draws it from the kept plot (a
+    /// whole where the section reads plots' points
+    /// ([`WithPlots::SMALL_PLOTS_WHOLE`]); otherwise only its kind, titles,
+    /// note (with the thinning sentence) and series labels: the page draws it from the kept plot (a
     /// 100,000-row table's eight plots were 800,000 more objects to build).
     pub fn shown<A: WithPlots>(&self, analysis: &A) -> A {
         let mut shown = analysis.clone();
         shown.lighten();
         for (plot, drawn) in shown.plots_mut().iter_mut().zip(&self.plots) {
             let limit = turnover_core::plots::THIN_ABOVE;
-            if plot.points.len() <= limit && plot.segments.len() <= limit {
+            if A::SMALL_PLOTS_WHOLE && plot.points.len() <= limit && plot.segments.len() <= limit {
                 continue;
             }
             plot.points = Vec::new();
