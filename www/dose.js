@@ -244,6 +244,7 @@ function showError(message) {
 }
 
 function clearShown() {
+  $('dose-results').classList.add('awaiting');
   $('dose-parameters').tBodies[0].replaceChildren();
   $('dose-warnings').replaceChildren();
   showKi(null, null);
@@ -268,6 +269,7 @@ function startJob(request, chosen, sent) {
 }
 
 function showAnalysis(result, chosen, sent) {
+  $('dose-results').classList.remove('awaiting');
   lastResult = result;
   lastError = null;
   const status = $('dose-status');

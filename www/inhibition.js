@@ -180,6 +180,7 @@ function showError(message) {
 
 /** Nothing of an earlier analysis stays on show. */
 function clearShown() {
+  $('inhibition-results').classList.add('awaiting');
   $('inhibition-verdict').textContent = '';
   $('mechanism-ranking').tBodies[0].replaceChildren();
   $('inhibition-parameters').tBodies[0].replaceChildren();
@@ -210,6 +211,7 @@ function startJob(request) {
 }
 
 function showAnalysis(result) {
+  $('inhibition-results').classList.remove('awaiting');
   lastResult = result;
   lastError = null;
   const status = $('inhibition-status');
