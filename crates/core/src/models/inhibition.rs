@@ -127,32 +127,15 @@ impl Model for Inhibition {
         p[0] * s / (p[1] * (1.0 + i / kic) + s * (1.0 + i / kiu))
     }
 
+    /// The gradient half of [`Inhibition::value_and_gradient`]: the
+    /// expressions are written once, there.
     fn gradient(&self, x: &[f64], p: &[f64], gradient: &mut [f64]) {
-        let (s, i) = (x[0], x[1]);
-        let (vmax, km) = (p[0], p[1]);
-        let (kic, kiu) = self.constants(p);
-        let a = 1.0 + i / kic;
-        let d = km * a + s * (1.0 + i / kiu);
-        let d2 = d * d;
-        gradient[0] = s / d;
-        gradient[1] = -vmax * s * a / d2;
-        // ∂v/∂Kic = Vmax·[S]·Km·[I]/(Kic²·D²), ∂v/∂Kiu = Vmax·[S]²·[I]/(Kiu²·D²).
-        let d_kic = |k: f64| vmax * s * km * i / (k * k * d2);
-        let d_kiu = |k: f64| vmax * s * s * i / (k * k * d2);
-        match self.mechanism {
-            Mechanism::Competitive => gradient[2] = d_kic(kic),
-            Mechanism::Uncompetitive => gradient[2] = d_kiu(kiu),
-            Mechanism::Mixed => {
-                gradient[2] = d_kic(kic);
-                gradient[3] = d_kiu(kiu);
-            }
-            Mechanism::Noncompetitive => gradient[2] = d_kic(kic) + d_kiu(kiu),
-        }
+        self.value_and_gradient(x, p, gradient);
     }
 
-    /// The value and gradient sharing the denominator: the same
-    /// expressions as [`Inhibition::value`] and [`Inhibition::gradient`],
-    /// so the same bits.
+    /// The value and gradient sharing the denominator: the value is the
+    /// same expression as [`Inhibition::value`], so the same bits.
+    /// ∂v/∂Kic = Vmax·[S]·Km·[I]/(Kic²·D²), ∂v/∂Kiu = Vmax·[S]²·[I]/(Kiu²·D²).
     fn value_and_gradient(&self, x: &[f64], p: &[f64], gradient: &mut [f64]) -> f64 {
         let (s, i) = (x[0], x[1]);
         let (vmax, km) = (p[0], p[1]);
