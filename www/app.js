@@ -490,7 +490,7 @@ function showRateLaws(laws) {
   }
   let view = laws?.view;
   const { request } = rateRequest(workspace.doc);
-  if (!view && rateWork(request) > BACKGROUND_WORK && backgroundPossible()) {
+  if (!view && worthBackground(request, 1)) {
     // Opened after a large table was fitted: the fit again in the
     // background, with the comparison this time.
     rates.forget();
@@ -929,7 +929,11 @@ function markStale(on) {
 
 function computeRates(doc) {
   computeRateResult(doc);
-  // The printed report leaves out sections with nothing to show.
+  markRateSections();
+}
+
+/** The printed report leaves out sections with nothing to show. */
+function markRateSections() {
   for (const id of ['data-panel', 'fit-panel', 'plots-panel']) $(id).classList.toggle('no-data', !state.result);
 }
 
@@ -954,7 +958,7 @@ function computeRateResult(doc) {
     clearResult(`No fit: ${problems.join(' ')}`);
     return;
   }
-  if (rateWork(request) > BACKGROUND_WORK && backgroundPossible()) {
+  if (worthBackground(request, 1)) {
     startRateJob(request, problems);
     return;
   }
@@ -1000,13 +1004,9 @@ function showRateResult(result, problems, laws, { drawn = false } = {}) {
 // and Stop: above this much work, counted as the table's lines with each
 // bootstrap resample worth a tenth of a line per line (the page's core
 // fits a 5,000-row rate table with its checks in about a tenth of a
-// second). The inhibitor series fits four mechanisms: its lines count ten.
+// second). Other sections count each line several times (their
+// LINE_WORK): the inhibitor series fits four mechanisms.
 const BACKGROUND_WORK = 5000;
-
-function rateWork(request) {
-  const resamples = request.interval_method === 'bootstrap' ? request.bootstrap.resamples : 0;
-  return lineCount(request.text) * (1 + resamples / 10);
-}
 
 function lineCount(text) {
   let lines = text.endsWith('\n') || text === '' ? 0 : 1;
@@ -1178,28 +1178,19 @@ function startRateJob(request, problems) {
   const what = `Fitting a ${lineCount(request.text).toLocaleString('en')}-line table${resampleWords(request)}`;
   clearResult(`${what}…`);
   $('status').dataset.state = 'idle';
+  // Drawn in one page task, shown in the next; an edit in between drops it.
+  let dropped = false;
   const stop = backgroundAnalysis({
     prefix: 'rates',
     what,
     run: 'analyseRatesInWorker',
     request,
     compareLaws: $('rate-laws').open,
-    failed: (message) => {
-      stopRateJob = () => {};
-      rateFailed(message, problems);
-    },
+    failed: (message) => rateFailed(message, problems),
     done: async (m) => {
-      // Drawn in one page task, shown in the next; an edit in between
-      // drops it.
-      let dropped = false;
-      stopRateJob = () => {
-        dropped = true;
-        stopRateJob = () => {};
-      };
       try {
         workbench.adopt(m.kept);
       } catch (error) {
-        stopRateJob = () => {};
         if (coreFailed(error)) return;
         rateFailed(error?.message ?? String(error), problems);
         return;
@@ -1207,14 +1198,13 @@ function startRateJob(request, problems) {
       drawPlots();
       await new Promise((resolve) => setTimeout(resolve, 0));
       if (dropped) return;
-      stopRateJob = () => {};
       showRateResult(m.result, problems, m.laws, { drawn: true });
-      for (const id of ['data-panel', 'fit-panel', 'plots-panel']) $(id).classList.toggle('no-data', !state.result);
+      markRateSections();
     },
   });
   stopRateJob = () => {
+    dropped = true;
     stop();
-    stopRateJob = () => {};
   };
 }
 

@@ -11,10 +11,6 @@
   if (!holder) return;
   window.turnoverUnpacked = new Promise(function (resolve) {
     var bytes = decode85(holder);
-    if (holder.dataset.encoding !== 'gzip') {
-      resolve(bytes);
-      return;
-    }
     if (typeof DecompressionStream === 'undefined') {
       throw new Error('this browser is too old to unpack the page (it lacks DecompressionStream); use a current Chrome, Edge, Firefox or Safari');
     }
@@ -53,5 +49,4 @@
     }
     return bytes.subarray(0, length);
   }
-
 })();

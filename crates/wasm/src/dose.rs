@@ -19,8 +19,9 @@ pub struct DoseBench {
     last: Option<Kept>,
 }
 
-fn kept_of(analysis: &DoseAnalysis) -> Kept {
-    Kept::of(&analysis.plots, turnover_core::format::constants_text(&analysis.fit.parameters))
+/// The fitted constants as text.
+fn constants_of(analysis: &DoseAnalysis) -> String {
+    turnover_core::format::constants_text(&analysis.fit.parameters)
 }
 
 /// For the page's Web Worker: analyses an inhibitor series like
@@ -28,7 +29,7 @@ fn kept_of(analysis: &DoseAnalysis) -> Kept {
 /// `analyseRatesInWorker`).
 #[wasm_bindgen(js_name = analyseDoseInWorker)]
 pub fn analyse_dose_in_worker(request: JsValue) -> Result<JsValue, JsError> {
-    analyse_for_worker(request, analyse_dose, kept_of)
+    analyse_for_worker(request, analyse_dose, constants_of)
 }
 
 /// Whether `text` is an inhibitor series: a header naming an [I] column
@@ -59,7 +60,7 @@ impl DoseBench {
     /// `cheng_prusoff`). Throws an `Error` with a message for the scientist
     /// when no fit can be made; the previous analysis is then forgotten.
     pub fn analyse(&mut self, request: JsValue) -> Result<JsValue, JsError> {
-        analyse_keeping(&mut self.last, request, analyse_dose, kept_of)
+        analyse_keeping(&mut self.last, request, analyse_dose, constants_of)
     }
 
     /// Draws the analysis' plot (dose-response or Morrison) on canvas

@@ -18,16 +18,14 @@ pub struct InhibitionBench {
     last: Option<Kept>,
 }
 
-/// What the bench keeps of an analysis: its plots and the shown
-/// mechanism's constants.
-fn kept_of(analysis: &InhibitionAnalysis) -> Kept {
-    let constants = analysis
+/// The shown mechanism's constants as text.
+fn constants_of(analysis: &InhibitionAnalysis) -> String {
+    analysis
         .fits
         .iter()
         .find(|f| f.model == analysis.shown)
         .map(|fit| turnover_core::format::constants_text(&fit.parameters))
-        .unwrap_or_default();
-    Kept::of(&analysis.plots, constants)
+        .unwrap_or_default()
 }
 
 /// For the page's Web Worker: analyses an inhibitor table like
@@ -35,7 +33,7 @@ fn kept_of(analysis: &InhibitionAnalysis) -> Kept {
 /// (see `analyseRatesInWorker`).
 #[wasm_bindgen(js_name = analyseInhibitionInWorker)]
 pub fn analyse_inhibition_in_worker(request: JsValue) -> Result<JsValue, JsError> {
-    analyse_for_worker(request, analyse_inhibition, kept_of)
+    analyse_for_worker(request, analyse_inhibition, constants_of)
 }
 
 /// Whether `text` is a table of rates at several inhibitor concentrations
@@ -67,7 +65,7 @@ impl InhibitionBench {
     /// `substrate_unit`, `inhibitor_unit`, `rate_unit`). Throws an `Error`
     /// with a message for the scientist when no analysis can be made.
     pub fn analyse(&mut self, request: JsValue) -> Result<JsValue, JsError> {
-        analyse_keeping(&mut self.last, request, analyse_inhibition, kept_of)
+        analyse_keeping(&mut self.last, request, analyse_inhibition, constants_of)
     }
 
     /// Draws plot `kind` of the last analysis on canvas `canvas_id`;

@@ -20,7 +20,7 @@ pub(crate) struct Kept {
 }
 
 /// An analysis whose plots the page draws from a [`Kept`].
-pub(crate) trait WithPlots: Clone + Serialize {
+pub(crate) trait WithPlots: Serialize {
     fn plots_mut(&mut self) -> &mut Vec<PlotData>;
     /// Leaves out what the page never reads (default: nothing).
     fn lighten(&mut self) {}
@@ -58,46 +58,50 @@ impl WithPlots for InhibitionAnalysis {
 }
 
 impl Kept {
-    pub fn of(plots: &[PlotData], constants: String) -> Kept {
-        let mut plots = plots.to_vec();
-        for plot in &mut plots {
-            turnover_core::plots::thin_for_drawing(plot);
-        }
-        Kept { plots, constants }
-    }
-
     /// Reads the `kept` text a worker returned.
     pub fn read(text: &str) -> Result<Kept, JsError> {
         serde_json::from_str(text).map_err(|e| JsError::new(&format!("internal error: the background analysis could not be read ({e})")))
     }
 
-    /// The analysis as the page is given it, without what it never reads
-    /// ([`WithPlots::lighten`]). A plot of up to
-    /// [`turnover_core::plots::THIN_ABOVE`] points and segments is given
-    /// whole where the section reads plots' points
-    /// ([`WithPlots::SMALL_PLOTS_WHOLE`]); otherwise only its kind, titles,
-    /// note (with the thinning sentence) and series labels: the page draws it from the kept plot (a
+    /// Splits an analysis into what the page is given and what the bench
+    /// keeps, moving the plots' data rather than copying it. The page is
+    /// given the analysis without what it never reads
+    /// ([`WithPlots::lighten`]); a plot of up to
+    /// [`turnover_core::plots::THIN_ABOVE`] points and segments whole where
+    /// the section reads plots' points ([`WithPlots::SMALL_PLOTS_WHOLE`]),
+    /// otherwise only its kind, titles, note (with the thinning sentence)
+    /// and series labels: the page draws it from the kept plot (a
     /// 100,000-row table's eight plots were 800,000 more objects to build).
-    pub fn shown<A: WithPlots>(&self, analysis: &A) -> A {
-        let mut shown = analysis.clone();
-        shown.lighten();
-        for (plot, drawn) in shown.plots_mut().iter_mut().zip(&self.plots) {
-            let limit = turnover_core::plots::THIN_ABOVE;
+    /// The kept plots are thinned for drawing.
+    pub fn split<A: WithPlots>(mut analysis: A, constants: String) -> (A, Kept) {
+        analysis.lighten();
+        let limit = turnover_core::plots::THIN_ABOVE;
+        let mut plots = Vec::with_capacity(analysis.plots_mut().len());
+        for plot in analysis.plots_mut().iter_mut() {
             if A::SMALL_PLOTS_WHOLE && plot.points.len() <= limit && plot.segments.len() <= limit {
+                plots.push(plot.clone());
                 continue;
             }
-            plot.points = Vec::new();
-            plot.curve = Vec::new();
-            plot.segments = Vec::new();
             // Each series keeps its label (the legend); its points and
-            // curve are in the kept plot.
-            for series in &mut plot.series {
-                series.points = Vec::new();
-                series.curve = Vec::new();
+            // curve go to the kept plot.
+            let series: Vec<(Vec<_>, Vec<_>)> =
+                plot.series.iter_mut().map(|s| (std::mem::take(&mut s.points), std::mem::take(&mut s.curve))).collect();
+            let (points, curve, segments) =
+                (std::mem::take(&mut plot.points), std::mem::take(&mut plot.curve), std::mem::take(&mut plot.segments));
+            // The rest of the plot is titles, labels and marks: copied.
+            let mut drawn = plot.clone();
+            drawn.points = points;
+            drawn.curve = curve;
+            drawn.segments = segments;
+            for (kept, (points, curve)) in drawn.series.iter_mut().zip(series) {
+                kept.points = points;
+                kept.curve = curve;
             }
+            turnover_core::plots::thin_for_drawing(&mut drawn);
             plot.note = drawn.note.clone();
+            plots.push(drawn);
         }
-        shown
+        (analysis, Kept { plots, constants })
     }
 }
 
@@ -115,30 +119,31 @@ pub(crate) fn handover<A: Serialize>(shown: &A, kept: &Kept) -> Result<JsValue, 
 
 /// Analyses `request` with `analyse`, keeps what the page draws in `last`
 /// (forgotten first, so a failure leaves nothing stale to draw) and
-/// returns the result as the page is given it.
+/// returns the result as the page is given it. `constants` gives the
+/// shown fit's constants as text.
 pub(crate) fn analyse_keeping<R: DeserializeOwned, A: WithPlots>(
     last: &mut Option<Kept>,
     request: JsValue,
     analyse: impl FnOnce(&R) -> Result<A, turnover_core::Error>,
-    keep: impl FnOnce(&A) -> Kept,
+    constants: impl FnOnce(&A) -> String,
 ) -> Result<JsValue, JsError> {
     *last = None;
-    let (analysis, kept) = analysed(request, analyse, keep)?;
-    let value = to_js(&kept.shown(&analysis))?;
+    let (shown, kept) = analysed(request, analyse, constants)?;
+    let value = to_js(&shown)?;
     *last = Some(kept);
     Ok(value)
 }
 
-/// The request read, analysed, and what the page keeps of it.
+/// The request read, analysed, and split by [`Kept::split`].
 fn analysed<R: DeserializeOwned, A: WithPlots>(
     request: JsValue,
     analyse: impl FnOnce(&R) -> Result<A, turnover_core::Error>,
-    keep: impl FnOnce(&A) -> Kept,
+    constants: impl FnOnce(&A) -> String,
 ) -> Result<(A, Kept), JsError> {
     let request: R = read_request(request)?;
     let analysis = analyse(&request).map_err(|e| JsError::new(&e.message))?;
-    let kept = keep(&analysis);
-    Ok((analysis, kept))
+    let constants = constants(&analysis);
+    Ok(Kept::split(analysis, constants))
 }
 
 /// The same in the page's Web Worker: `{result, kept}` as JSON texts, for
@@ -146,10 +151,10 @@ fn analysed<R: DeserializeOwned, A: WithPlots>(
 pub(crate) fn analyse_for_worker<R: DeserializeOwned, A: WithPlots>(
     request: JsValue,
     analyse: impl FnOnce(&R) -> Result<A, turnover_core::Error>,
-    keep: impl FnOnce(&A) -> Kept,
+    constants: impl FnOnce(&A) -> String,
 ) -> Result<JsValue, JsError> {
-    let (analysis, kept) = analysed(request, analyse, keep)?;
-    handover(&kept.shown(&analysis), &kept)
+    let (shown, kept) = analysed(request, analyse, constants)?;
+    handover(&shown, &kept)
 }
 
 /// `adopt` and `forget` for a bench that keeps a [`Kept`] in `last`.

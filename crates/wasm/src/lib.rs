@@ -59,11 +59,11 @@ pub struct Workbench {
 /// page to draw it. Throws the core's message when no fit can be made.
 #[wasm_bindgen(js_name = analyseRatesInWorker)]
 pub fn analyse_rates_in_worker(request: JsValue) -> Result<JsValue, JsError> {
-    kept::analyse_for_worker(request, analyse_rates, rate_kept)
+    kept::analyse_for_worker(request, analyse_rates, rate_constants)
 }
 
-fn rate_kept(analysis: &turnover_core::rates::RateAnalysis) -> Kept {
-    Kept::of(&analysis.plots, turnover_core::format::constants_text(&analysis.fit.parameters))
+fn rate_constants(analysis: &turnover_core::rates::RateAnalysis) -> String {
+    turnover_core::format::constants_text(&analysis.fit.parameters)
 }
 
 /// Reads a request object sent by the page.
@@ -98,7 +98,7 @@ impl Workbench {
     /// value with it removed, the core's `bias` module; `null` where not
     /// computed).
     pub fn analyse(&mut self, request: JsValue) -> Result<JsValue, JsError> {
-        kept::analyse_keeping(&mut self.last, request, analyse_rates, rate_kept)
+        kept::analyse_keeping(&mut self.last, request, analyse_rates, rate_constants)
     }
 
     /// The plot named `kind` of the last analysis.
