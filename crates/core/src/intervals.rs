@@ -184,10 +184,15 @@ fn profile_tau(fit: &Fit, theta: f64, rss: f64, c: f64) -> f64 {
     (c - theta).signum() * (rss - fit.summary.rss).max(0.0).sqrt() / s
 }
 
+/// Failed refits [`profile_walk`] answers by shortening its step before it
+/// gives up on a side (Turnover's choice).
+const WALK_RETRIES: usize = 4;
+
 /// The first part of [`profile_end`]: the walk outwards from the optimum
 /// until |τ| passes `t`. `None` exactly when `profile_end` gives `None`
 /// before its refinement starts: the fit ran off this way, the residual
-/// scale is zero, a refit of the walk fails, the walk leaves every finite
+/// scale is zero, a refit of the walk still fails after [`WALK_RETRIES`]
+/// shortened steps, the walk leaves every finite
 /// scale or does not reach the cut-off in its steps.
 fn profile_walk(model: &dyn Model, data: &Observations, fit: &Fit, index: usize, direction: f64, t: f64) -> Option<Bracket> {
     let best = fit.values();
@@ -215,6 +220,7 @@ fn profile_walk(model: &dyn Model, data: &Observations, fit: &Fit, index: usize,
     // error, each refit started from the previous one (continuation), and
     // double the step when τ grows slowly, until |τ| passes t.
     let mut step = 0.5 * se;
+    let mut retries = 0;
     let mut inner = (theta, 0.0, best.to_vec());
     let mut outer = None;
     for _ in 0..80 {
@@ -228,6 +234,16 @@ fn profile_walk(model: &dyn Model, data: &Observations, fit: &Fit, index: usize,
         let geometric = ran_off || (positive && additive <= 0.0);
         let c = if geometric { inner.0 / 2.0 } else { additive };
         let Some((rss, params)) = profile_rss(model, data, index, c, &inner.2) else {
+            // A refit that fails after a doubled step may have jumped past
+            // where the profile crosses into a region the model cannot fit
+            // (a steepness near zero, say): go back to a quarter of the
+            // step from the last good point, a few times, before calling
+            // the side open.
+            if retries < WALK_RETRIES && !geometric {
+                retries += 1;
+                step /= 4.0;
+                continue;
+            }
             return None;
         };
         let tau_c = tau(rss, c).abs();
@@ -785,5 +801,60 @@ mod tests {
         assert!((quantile(&mut v, 0.025).unwrap() - 1.1).abs() < 1e-12);
         assert_eq!(quantile(&mut v, 0.5), Some(3.0));
         assert!((quantile(&mut v, 0.975).unwrap() - 9.4).abs() < 1e-12);
+    }
+
+    /// A side whose profile does cross the cut-off is closed even when a
+    /// doubled step of the walk lands where the refit fails. The curve is
+    /// one of a simulation with known truth (four-parameter logistic,
+    /// floor 0, ceiling 100, steepness 1, IC50 5.602 µM, 10 doses 100/3^k
+    /// µM, normal errors of SD 8, SplitMix64 seed 20261202): going down in
+    /// steepness, the floor runs off and τ rises slowly, passing t near
+    /// 0.38, while refits below about 0.2 fail. Before the walk shortened
+    /// its step after a failed refit, it jumped from 0.56 to 0.11 and
+    /// called the side open. An independent scan in steps of 0.01, each
+    /// refit started from the last, finds the crossing; the walk must
+    /// close the side and the profile interval's end must lie within that
+    /// scan step of it.
+    #[test]
+    fn a_failed_refit_after_a_long_step_does_not_open_a_side() {
+        use crate::fit::{fit_model, FitSettings};
+        use crate::models::model_with_options;
+        let model = model_with_options("ic50", &Default::default()).unwrap();
+        let doses: Vec<f64> = (0..10).map(|k| 100.0 / 3f64.powi(k)).collect();
+        let y = vec![
+            9.665667773792737,
+            18.50802961590487,
+            35.01144065063789,
+            58.637794601986016,
+            83.64883153414122,
+            106.83956656731704,
+            97.45322115089424,
+            84.46305414350194,
+            100.88575610700738,
+            108.57909844033146,
+        ];
+        let data = Observations::new(1, doses, y, None).unwrap();
+        let fit = fit_model(model.as_ref(), &data, None, &FitSettings::default()).unwrap();
+        let t = fit.t_quantile.unwrap();
+        let s = (fit.summary.rss / fit.summary.dof as f64).sqrt();
+        let best = fit.values().to_vec();
+        let mut start = best.clone();
+        let mut previous = best[3];
+        let mut crossing = None;
+        for k in 1..100 {
+            let c = best[3] - 0.01 * k as f64;
+            let (rss, refitted) = profile_rss(model.as_ref(), &data, 3, c, &start).expect("the scan's refits succeed down to the crossing");
+            if (rss - fit.summary.rss).max(0.0).sqrt() / s >= t {
+                crossing = Some((c, previous));
+                break;
+            }
+            previous = c;
+            start = refitted;
+        }
+        let (outside, inside) = crossing.expect("the scan passes the cut-off");
+        assert!(profile_closes(model.as_ref(), &data, &fit, 3, -1.0));
+        let (low, _) = profile_interval(model.as_ref(), &data, &fit, 3);
+        let low = low.expect("a lower end");
+        assert!(low >= outside - 1e-9 && low <= inside + 1e-9, "lower end {low} not in [{outside}, {inside}]");
     }
 }
