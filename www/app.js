@@ -555,6 +555,11 @@ function drawPlots() {
   }
 }
 
+/** Resolves in a later page task, so that long work yields to the page. */
+function nextTask() {
+  return new Promise((resolve) => setTimeout(resolve, 0));
+}
+
 /** Draws one of the rate plots; false when the core has failed. */
 function drawPlot(kind) {
   try {
@@ -1038,7 +1043,7 @@ function analysisWorkerMain() {
         return;
       }
       const { result, kept } = wasm_bindgen[job.run](job.request);
-      // The points travel as separate texts of 10,000 each, so that the
+      // The points travel as separate chunks of 10,000 each, so that the
       // page reads a long table's points in short steps.
       const parsed = JSON.parse(result);
       const points = parsed.points ?? [];
@@ -1109,11 +1114,11 @@ function backgroundAnalysis({ prefix, what, run, request, compareLaws = false, d
     const result = JSON.parse(m.result);
     const decoder = new TextDecoder();
     for (const chunk of m.points) {
-      await new Promise((resolve) => setTimeout(resolve, 0));
+      await nextTask();
       if (dropped) return;
       for (const point of JSON.parse(decoder.decode(chunk))) result.points.push(point);
     }
-    if (m.points.length) await new Promise((resolve) => setTimeout(resolve, 0));
+    if (m.points.length) await nextTask();
     if (!dropped) done({ result, kept: m.kept, laws: m.laws });
   };
   postCore(handle);
@@ -1209,7 +1214,7 @@ function startRateJob(request, problems) {
       }
       for (const kind of PLOT_KINDS) {
         if (!drawPlot(kind)) return;
-        await new Promise((resolve) => setTimeout(resolve, 0));
+        await nextTask();
         if (dropped) return;
       }
       showRateResult(m.result, problems, m.laws, { drawn: true });

@@ -140,25 +140,19 @@ impl<const P: usize, const M: usize> Compressed<'_, P, M> {
     /// [`Compressed::accumulate`] by [`include_row`]: `None` when a sum left
     /// the range of a double (nothing is stored then).
     fn accumulate_square_root_free(&self) -> Option<bool> {
-        let p = self.p.as_slice();
         let mut scales = [0.0f64; M];
         let mut unit = SMatrix::<f64, M, M>::zeros();
         let mut gradient = [0.0f64; P];
         let mut row = [0.0f64; M];
         let mut gradient_finite = true;
-        let y = self.data.y();
         let weights = self.data.weights();
         for i in 0..self.data.len() {
-            let r = y[i] - self.model.value_and_gradient(self.data.x(i), p, &mut gradient);
-            if !r.is_finite() {
+            // Unscaled rows: the weight goes into the rotation itself.
+            let Some(finite) = self.observation_row(i, 1.0, &mut gradient, &mut row) else {
                 self.jacobian_usable.set(false);
                 return Some(false);
-            }
-            for j in 0..P {
-                row[j] = -gradient[j];
-                gradient_finite &= row[j].is_finite();
-            }
-            row[P] = r;
+            };
+            gradient_finite &= finite;
             include_row(&mut scales, &mut unit, &mut row, weights[i]);
         }
         if !gradient_finite {
@@ -184,31 +178,42 @@ impl<const P: usize, const M: usize> Compressed<'_, P, M> {
 
     /// [`Compressed::accumulate`] by plain Givens rotations.
     fn accumulate_by_rotations(&self) -> bool {
-        let p = self.p.as_slice();
         let mut triangle = SMatrix::<f64, M, M>::zeros();
         let mut gradient = [0.0f64; P];
         let mut row = [0.0f64; M];
         let mut gradient_finite = true;
-        let y = self.data.y();
         let weights = self.data.weights();
         for i in 0..self.data.len() {
-            let x = self.data.x(i);
-            let s = weights[i].sqrt();
-            let r = s * (y[i] - self.model.value_and_gradient(x, p, &mut gradient));
-            if !r.is_finite() {
+            let Some(finite) = self.observation_row(i, weights[i].sqrt(), &mut gradient, &mut row) else {
                 self.jacobian_usable.set(false);
                 return false;
-            }
-            for j in 0..P {
-                row[j] = -s * gradient[j];
-                gradient_finite &= row[j].is_finite();
-            }
-            row[P] = r;
+            };
+            gradient_finite &= finite;
             rotate_in(&mut triangle, &mut row);
         }
         self.triangle.set(triangle);
         self.jacobian_usable.set(gradient_finite);
         true
+    }
+
+    /// Row `i` of `[J | r]` at the current parameters, times `scale`:
+    /// `−scale·∇f` then `scale·(y − f)`, written into `row` (`gradient` is
+    /// scratch). `None` when the residual is not finite; otherwise whether
+    /// every entry of the gradient part is. (A scale of 1 leaves the
+    /// numbers as they are, bit for bit.)
+    #[inline(always)]
+    fn observation_row(&self, i: usize, scale: f64, gradient: &mut [f64; P], row: &mut [f64; M]) -> Option<bool> {
+        let r = scale * (self.data.y()[i] - self.model.value_and_gradient(self.data.x(i), self.p.as_slice(), gradient));
+        if !r.is_finite() {
+            return None;
+        }
+        let mut finite = true;
+        for j in 0..P {
+            row[j] = -scale * gradient[j];
+            finite &= row[j].is_finite();
+        }
+        row[P] = r;
+        Some(finite)
     }
 
     /// ‖r‖ by a plain sum, for the points where the triangle is not usable.
