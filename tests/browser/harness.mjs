@@ -62,13 +62,17 @@ export async function launch(name, { acceptDownloads = false, freshTabs = true, 
 }
 
 /** Runs before the page's own scripts in every document of a tab: the
- *  first time in a tab it forgets the analyses kept by earlier tests. */
+ *  first time in a tab it forgets the analyses kept by earlier tests.
+ *  The tab is marked in `window.name`, which a reload keeps. (A mark in
+ *  sessionStorage was read back empty after a reload in 2–4 of 25 new
+ *  tabs, and this script then wiped what the page had kept.) */
 export function freshTab() {
+  // The tab's first, blank document runs this too; the mark is for the page.
+  if (location.protocol === 'about:') return;
+  if (window.name === 'turnover-test-tab') return;
+  window.name = 'turnover-test-tab';
   try {
-    if (!sessionStorage.getItem('turnover-test-tab')) {
-      localStorage.clear();
-      sessionStorage.setItem('turnover-test-tab', 'started');
-    }
+    localStorage.clear();
   } catch { /* storage refused: nothing kept to forget */ }
 }
 
