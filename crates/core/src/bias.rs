@@ -113,33 +113,46 @@ pub fn box_bias(model: &dyn Model, data: &Observations, fit: &Fit) -> Option<Vec
             HESSIAN_STEP * if scale > 0.0 && scale.is_finite() { scale } else { 1.0 }
         })
         .collect();
-    let mut up = vec![0.0; p];
-    let mut down = vec![0.0; p];
+    // The gradients at the shifted points come a block of rows at a time
+    // from `values_and_gradients` (by column: entry j of row r at
+    // `j * BLOCK + r`); each row's trace is summed in the same order as
+    // one row at a time (k, then j), so the same bits.
+    const BLOCK: usize = 32;
+    let mut up = vec![0.0; (p + 1) * BLOCK];
+    let mut down = vec![0.0; (p + 1) * BLOCK];
+    let mut traces = [0.0f64; BLOCK];
     let mut shifted = theta.to_vec();
     // Σᵢ √wᵢ (√wᵢ Jᵢ) tr(C Hᵢ): the report's Jacobian rows are already √wᵢ Jᵢ.
     let mut sum = vec![0.0; p];
-    for i in 0..data.len() {
-        let x = data.x(i);
-        let mut trace = 0.0;
+    let mut first = 0;
+    while first < data.len() {
+        let rows = (data.len() - first).min(BLOCK);
+        traces[..rows].fill(0.0);
         for k in 0..p {
             shifted[k] = theta[k] + steps[k];
-            model.gradient(x, &shifted, &mut up);
+            model.values_and_gradients(data, first, rows, &shifted, &mut up, BLOCK);
             shifted[k] = theta[k] - steps[k];
-            model.gradient(x, &shifted, &mut down);
+            model.values_and_gradients(data, first, rows, &shifted, &mut down, BLOCK);
             shifted[k] = theta[k];
             // Column k of Hᵢ; tr(C H) = Σ_{j,k} C[k,j] H[j,k].
-            for j in 0..p {
-                let h = (up[j] - down[j]) / (2.0 * steps[k]);
-                trace += covariance[(k, j)] * h;
+            for (r, trace) in traces[..rows].iter_mut().enumerate() {
+                for j in 0..p {
+                    let h = (up[j * BLOCK + r] - down[j * BLOCK + r]) / (2.0 * steps[k]);
+                    *trace += covariance[(k, j)] * h;
+                }
             }
         }
-        if !trace.is_finite() {
-            return None;
+        for (r, trace) in traces[..rows].iter().enumerate() {
+            if !trace.is_finite() {
+                return None;
+            }
+            let i = first + r;
+            let root_weight = data.weights()[i].sqrt();
+            for (j, total) in sum.iter_mut().enumerate() {
+                *total += root_weight * jacobian[(i, j)] * trace;
+            }
         }
-        let root_weight = data.weights()[i].sqrt();
-        for (j, total) in sum.iter_mut().enumerate() {
-            *total += root_weight * jacobian[(i, j)] * trace;
-        }
+        first += rows;
     }
     let bias: Vec<f64> = (0..p).map(|a| -0.5 * (0..p).map(|b| unscaled[(a, b)] * sum[b]).sum::<f64>()).collect();
     bias.iter().all(|b| b.is_finite()).then_some(bias)

@@ -537,21 +537,19 @@ pub fn unscaled_covariance(jacobian: &DMatrix<f64>) -> Option<DMatrix<f64>> {
     if scales.iter().any(|s| *s == 0.0) {
         return None;
     }
-    // Up to four parameters, the scaled Jacobian's rows are first rotated
-    // into a p×p triangle R (RᵀR = JᵀJ, so the same singular values and
-    // right singular vectors) and the decomposition is the fixed-size one
-    // of R: nothing of size n is copied or allocated. The numbers agree
-    // with the decomposition of J itself to rounding.
+    // Up to four parameters, the scaled Jacobian's rows are first brought
+    // into a p×p triangle R by orthogonal transformations (Householder
+    // blocks, `fastpath::triangle_of_rows`; RᵀR = JᵀJ, so the same
+    // singular values and right singular vectors) and the decomposition is
+    // the fixed-size one of R: nothing of size n is copied or allocated.
+    // The numbers agree with the decomposition of J itself to rounding.
     macro_rules! small {
         ($p:literal) => {{
-            let mut triangle = nalgebra::SMatrix::<f64, $p, $p>::zeros();
-            let mut row = [0.0f64; $p];
-            for i in 0..jacobian.nrows() {
+            let triangle = crate::fastpath::triangle_of_rows::<$p>(jacobian.nrows(), |i, row| {
                 for j in 0..$p {
                     row[j] = jacobian[(i, j)] / scales[j];
                 }
-                crate::fastpath::rotate_in(&mut triangle, &mut row);
-            }
+            });
             let svd = triangle.svd(false, true);
             inverse_from(&svd.singular_values.as_slice(), &svd.v_t?, &scales)
         }};

@@ -113,6 +113,12 @@ impl Observations {
         &self.x[i * self.predictors..(i + 1) * self.predictors]
     }
 
+    /// Every observation's predictor values, row after row (observation
+    /// `i`'s are `[i * predictors, (i + 1) * predictors)`).
+    pub fn x_values(&self) -> &[f64] {
+        &self.x
+    }
+
     /// All responses.
     pub fn y(&self) -> &[f64] {
         &self.y
@@ -167,6 +173,33 @@ pub trait Model {
     fn value_and_gradient(&self, x: &[f64], p: &[f64], gradient: &mut [f64]) -> f64 {
         self.gradient(x, p, gradient);
         self.value(x, p)
+    }
+
+    /// [`Model::value_and_gradient`] at the observations `first..first +
+    /// rows` of `data`, written by column: the gradient's entry `j` at row
+    /// `r` into `out[j * stride + r]` and the value into `out[k * stride +
+    /// r]`, `k` the number of parameters (`out` holds at least `(k + 1) *
+    /// stride` numbers, `rows ≤ stride`). By default one call per row; a
+    /// model may write the loop out (the minimiser's hot loop, with no call
+    /// per row, so the compiler can keep the parameters' terms in registers
+    /// and work on two rows at once) and must give bit for bit what the
+    /// one-row method gives.
+    fn values_and_gradients(&self, data: &Observations, first: usize, rows: usize, p: &[f64], out: &mut [f64], stride: usize) {
+        let k = p.len();
+        let mut small = [0.0f64; 8];
+        let mut large = Vec::new();
+        let gradient: &mut [f64] = if k <= small.len() {
+            &mut small[..k]
+        } else {
+            large.resize(k, 0.0);
+            &mut large
+        };
+        for r in 0..rows {
+            out[k * stride + r] = self.value_and_gradient(data.x(first + r), p, gradient);
+            for (j, g) in gradient.iter().enumerate() {
+                out[j * stride + r] = *g;
+            }
+        }
     }
 
     /// Starting values computed from the data.

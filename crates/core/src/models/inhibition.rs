@@ -121,10 +121,16 @@ impl Model for Inhibition {
         2
     }
 
+    /// `Vmax·([S]·(1/D))` with `D = Km·(1 + [I]·(1/Kic)) + [S]·(1 + [I]·(1/Kiu))`:
+    /// the constants enter by their reciprocals (one division per
+    /// evaluation for the denominator; 1/∞ = 0 for an absent binding step)
+    /// so that [`Inhibition::values_and_gradients`] needs one division a
+    /// row.
     fn value(&self, x: &[f64], p: &[f64]) -> f64 {
         let (s, i) = (x[0], x[1]);
         let (kic, kiu) = self.constants(p);
-        p[0] * s / (p[1] * (1.0 + i / kic) + s * (1.0 + i / kiu))
+        let d = p[1] * (1.0 + i * (1.0 / kic)) + s * (1.0 + i * (1.0 / kiu));
+        p[0] * (s * (1.0 / d))
     }
 
     /// The gradient half of [`Inhibition::value_and_gradient`]: the
@@ -134,29 +140,34 @@ impl Model for Inhibition {
     }
 
     /// The value and gradient sharing the denominator: the value is the
-    /// same expression as [`Inhibition::value`], so the same bits.
-    /// ∂v/∂Kic = Vmax·[S]·Km·[I]/(Kic²·D²), ∂v/∂Kiu = Vmax·[S]²·[I]/(Kiu²·D²).
+    /// same expression as [`Inhibition::value`], so the same bits. With
+    /// `t = Vmax·[S]/D²`: ∂v/∂Km = −t·(1 + [I]/Kic), ∂v/∂Kic =
+    /// t·Km·[I]/Kic², ∂v/∂Kiu = t·[S]·[I]/Kiu².
     fn value_and_gradient(&self, x: &[f64], p: &[f64], gradient: &mut [f64]) -> f64 {
-        let (s, i) = (x[0], x[1]);
-        let (vmax, km) = (p[0], p[1]);
         let (kic, kiu) = self.constants(p);
-        let a = 1.0 + i / kic;
-        let d = km * a + s * (1.0 + i / kiu);
-        let d2 = d * d;
-        gradient[0] = s / d;
-        gradient[1] = -vmax * s * a / d2;
-        let d_kic = |k: f64| vmax * s * km * i / (k * k * d2);
-        let d_kiu = |k: f64| vmax * s * s * i / (k * k * d2);
-        match self.mechanism {
-            Mechanism::Competitive => gradient[2] = d_kic(kic),
-            Mechanism::Uncompetitive => gradient[2] = d_kiu(kiu),
-            Mechanism::Mixed => {
-                gradient[2] = d_kic(kic);
-                gradient[3] = d_kiu(kiu);
+        let terms = Terms::new(p, kic, kiu);
+        let mut row = [0.0; 4];
+        let value = terms.row(self.mechanism, x[0], x[1], &mut row);
+        gradient.copy_from_slice(&row[..gradient.len()]);
+        value
+    }
+
+    /// The loop of [`Inhibition::value_and_gradient`] written out, the same
+    /// expressions (so the same bits), with the parameters' terms worked
+    /// out once.
+    fn values_and_gradients(&self, data: &Observations, first: usize, rows: usize, p: &[f64], out: &mut [f64], stride: usize) {
+        let (kic, kiu) = self.constants(p);
+        let terms = Terms::new(p, kic, kiu);
+        let x = &data.x_values()[2 * first..2 * (first + rows)];
+        let k = p.len();
+        let mut row = [0.0; 4];
+        for r in 0..rows {
+            let value = terms.row(self.mechanism, x[2 * r], x[2 * r + 1], &mut row);
+            for j in 0..k {
+                out[j * stride + r] = row[j];
             }
-            Mechanism::Noncompetitive => gradient[2] = d_kic(kic) + d_kiu(kiu),
+            out[k * stride + r] = value;
         }
-        vmax * s / d
     }
 
     /// Starting values: Vmax and Km from the Michaelis-Menten rule applied
@@ -198,11 +209,12 @@ impl Model for Inhibition {
             Mechanism::Mixed => {
                 // Two constants: a coarse grid (9 × 9 at the Km of the
                 // rows without inhibitor, which those rows define well),
-                // then a finer one (5 × 5 at half the coarse step, Km ×
-                // 0.7, 1, 1.4) around the best coarse point: 156
+                // then a finer one (3 × 3 at half the coarse step, so
+                // reaching halfway to the neighbouring coarse points, Km ×
+                // 0.7, 1, 1.4) around the best coarse point: 108
                 // candidates where the full 25 × 25 × 5 grid had 3,125
-                // (and an earlier rule, with Km × 0.5, 1, 2 on the coarse
-                // grid, 318).
+                // (and earlier rules 318, then 156 with a 5 × 5 finer grid
+                // that reached the coarse neighbours themselves).
                 let coarse = log_grid(i_low / 30.0, i_high * 30.0, 9);
                 let factors = grid.factors(&coarse);
                 for (a, &k1) in coarse.iter().enumerate() {
@@ -212,8 +224,8 @@ impl Model for Inhibition {
                 }
                 if let Some((_, centre)) = best {
                     let half_step = (coarse[1] / coarse[0]).sqrt();
-                    let kic: Vec<f64> = (-2..=2).map(|a| centre[2] * half_step.powi(a)).collect();
-                    let kiu: Vec<f64> = (-2..=2).map(|b| centre[3] * half_step.powi(b)).collect();
+                    let kic: Vec<f64> = (-1..=1).map(|a| centre[2] * half_step.powi(a)).collect();
+                    let kiu: Vec<f64> = (-1..=1).map(|b| centre[3] * half_step.powi(b)).collect();
                     let (kic_factors, kiu_factors) = (grid.factors(&kic), grid.factors(&kiu));
                     for factor in [0.7, 1.0, 1.4] {
                         let km = centre[1] * factor;
@@ -245,6 +257,48 @@ impl Model for Inhibition {
         }
         let len = self.parameters().len();
         best.map(|(_, p)| p[..len].to_vec()).ok_or_else(|| Error::numerical("no starting values could be formed for the inhibition model"))
+    }
+}
+
+/// What [`Inhibition::value_and_gradient`] needs of the parameters, worked
+/// out once per evaluation: Vmax, Km and the reciprocals of Kic and Kiu.
+struct Terms {
+    vmax: f64,
+    km: f64,
+    inverse_kic: f64,
+    inverse_kiu: f64,
+}
+
+impl Terms {
+    fn new(p: &[f64], kic: f64, kiu: f64) -> Self {
+        Terms { vmax: p[0], km: p[1], inverse_kic: 1.0 / kic, inverse_kiu: 1.0 / kiu }
+    }
+
+    /// The value at ([S], [I]) = (`s`, `i`), with the gradient in `row`
+    /// (the model's parameters in order).
+    #[inline(always)]
+    fn row(&self, mechanism: Mechanism, s: f64, i: f64, row: &mut [f64; 4]) -> f64 {
+        let (ic, iu) = (i * self.inverse_kic, i * self.inverse_kiu);
+        let a = 1.0 + ic;
+        let d = self.km * a + s * (1.0 + iu);
+        let inverse_d = 1.0 / d;
+        let shape = s * inverse_d;
+        let value = self.vmax * shape;
+        let t = value * inverse_d;
+        row[0] = shape;
+        row[1] = -t * a;
+        let d_kic = || t * self.km * ic * self.inverse_kic;
+        let d_kiu = || t * s * iu * self.inverse_kiu;
+        match mechanism {
+            Mechanism::Competitive => row[2] = d_kic(),
+            Mechanism::Uncompetitive => row[2] = d_kiu(),
+            Mechanism::Mixed => {
+                row[2] = d_kic();
+                row[3] = d_kiu();
+            }
+            Mechanism::Noncompetitive => row[2] = d_kic() + d_kiu(),
+        }
+        value
     }
 }
 
@@ -285,9 +339,9 @@ impl<'a> Scorer<'a> {
 
 /// Scores grid candidates like [`Scorer`], the shape written out for
 /// precomputed inhibition factors: for Vmax = 1 the model's value is
-/// `[S] / (Km·(1 + [I]/Kic) + [S]·(1 + [I]/Kiu))`, the very expression of
-/// [`Inhibition::value`] (so the same bits), and the factors
-/// `1 + [I]/K` for each grid value K are computed once per grid rather
+/// `[S]·(1/(Km·(1 + [I]·(1/Kic)) + [S]·(1 + [I]·(1/Kiu))))`, the very
+/// expression of [`Inhibition::value`] (so the same bits), and the factors
+/// `1 + [I]·(1/K)` for each grid value K are computed once per grid rather
 /// than once per candidate. The scale is formed as in [`scaled_rss_in`]
 /// (with its sums split, see [`GridScorer::score`]); the sum of squares
 /// from the sums already made.
@@ -304,9 +358,10 @@ impl<'a> GridScorer<'a> {
         GridScorer { data, substrate: data.predictor_column(0), sum_wyy }
     }
 
-    /// `1 + [I]/K` at every point, for every K in `values`.
+    /// `1 + [I]·(1/K)` at every point, for every K in `values` (as the
+    /// model's value forms it).
     fn factors(&self, values: &[f64]) -> Vec<Vec<f64>> {
-        values.iter().map(|k| (0..self.data.len()).map(|r| 1.0 + self.data.x(r)[1] / k).collect()).collect()
+        values.iter().map(|k| (0..self.data.len()).map(|r| 1.0 + self.data.x(r)[1] * (1.0 / k)).collect()).collect()
     }
 
     /// `(rss, p)` with `p[0]` the least-squares Vmax for Km = `p[1]` and
@@ -325,8 +380,8 @@ impl<'a> GridScorer<'a> {
         let (mut sgy, mut sgg, mut sgy_odd, mut sgg_odd) = (0.0, 0.0, 0.0, 0.0);
         let mut k = 0;
         while k + 1 < n {
-            let g = s[k] / (km * a[k] + s[k] * b[k]);
-            let h = s[k + 1] / (km * a[k + 1] + s[k + 1] * b[k + 1]);
+            let g = s[k] * (1.0 / (km * a[k] + s[k] * b[k]));
+            let h = s[k + 1] * (1.0 / (km * a[k + 1] + s[k + 1] * b[k + 1]));
             finite &= g.is_finite() & h.is_finite();
             sgy += w[k] * g * y[k];
             sgg += w[k] * g * g;
@@ -335,7 +390,7 @@ impl<'a> GridScorer<'a> {
             k += 2;
         }
         if k < n {
-            let g = s[k] / (km * a[k] + s[k] * b[k]);
+            let g = s[k] * (1.0 / (km * a[k] + s[k] * b[k]));
             finite &= g.is_finite();
             sgy += w[k] * g * y[k];
             sgg += w[k] * g * g;

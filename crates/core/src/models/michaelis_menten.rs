@@ -48,6 +48,21 @@ impl Model for MichaelisMenten {
         p[0] * s / denominator
     }
 
+    /// The loop of [`MichaelisMenten::value_and_gradient`] written out, the
+    /// same expressions (so the same bits).
+    fn values_and_gradients(&self, data: &Observations, first: usize, rows: usize, p: &[f64], out: &mut [f64], stride: usize) {
+        let (vmax, km) = (p[0], p[1]);
+        let s = &data.x_values()[first..first + rows];
+        let (d_vmax, rest) = out.split_at_mut(stride);
+        let (d_km, value) = rest.split_at_mut(stride);
+        for r in 0..rows {
+            let denominator = km + s[r];
+            d_vmax[r] = s[r] / denominator;
+            d_km[r] = -vmax * s[r] / (denominator * denominator);
+            value[r] = vmax * s[r] / denominator;
+        }
+    }
+
     /// Starting values from the Hanes-Woolf linearisation ([S]/v against
     /// [S] has slope 1/Vmax and intercept Km/Vmax), fitted by unweighted
     /// least squares. It is the least distorting of the classic
