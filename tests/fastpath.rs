@@ -287,3 +287,58 @@ fn block_evaluation_is_the_one_row_evaluation_bit_for_bit() {
         }
     }
 }
+
+/// The models' starting rules end with a few Gauss-Newton steps on the
+/// sum of squares (`models::start::polish`, for Michaelis-Menten and the
+/// inhibition laws), which move where the minimiser starts, not where it
+/// ends. The designs above of those models (Hill and substrate inhibition
+/// start from the Michaelis-Menten rule, so they are included; the other
+/// models' starts are untouched, and for the dose-response law the
+/// relative bar on values does not suit a bottom plateau near zero: two
+/// starts end 1.4e-6 apart relative there, 1.5e-7 SE), 40 simulated sets each (seed 20261203 + the
+/// design's index, truths moved by exp(0.3·z), normal noise of SD 3% of
+/// the largest response, every other set with unequal weights as above):
+/// the minimiser from the model's own start and from 1.5 × the truth (the
+/// start the benchmark gives SciPy) reach the same optimum, to the bars of
+/// the fast-against-general comparison, or both report no convergence or
+/// a constant that ran off.
+#[test]
+fn polished_starting_values_reach_the_same_optimum() {
+    let settings = SolverSettings::default();
+    let mut failures = Vec::new();
+    let polished = ["mm", "hill", "substrate-inhibition", "competitive", "uncompetitive", "noncompetitive", "mixed"];
+    for (index, design) in designs().iter().enumerate().filter(|(_, d)| polished.contains(&d.name)) {
+        let model = model_with_options(design.name, &design.options).unwrap();
+        let model = model.as_ref();
+        let mut rng = SplitMix64::new(20261203 + index as u64);
+        let mut worst = Apart::default();
+        let mut compared = 0;
+        for trial in 0..40 {
+            let truth: Vec<f64> = design.truth.iter().map(|v| v * (0.3 * rng.normal()).exp()).collect();
+            let clean: Vec<f64> = design.x.iter().map(|x| model.value(x, &truth)).collect();
+            let top = clean.iter().fold(0.0f64, |m, v| m.max(v.abs()));
+            let y: Vec<f64> = clean.iter().map(|v| v + 0.03 * top * rng.normal()).collect();
+            let weights = (trial % 2 == 1).then(|| (0..y.len()).map(|_| 1.0 / (0.5 + rng.uniform()).powi(2)).collect());
+            let x: Vec<f64> = design.x.iter().flatten().copied().collect();
+            let data = Observations::new(model.predictors(), x, y, weights).unwrap();
+            let own = turnover_core::solver::minimise(model, &data, &model.initial_guess(&data).unwrap(), &settings);
+            let far: Vec<f64> = truth.iter().map(|v| 1.5 * v).collect();
+            let other = turnover_core::solver::minimise(model, &data, &far, &settings);
+            match (own.converged, other.converged) {
+                (true, true) => {
+                    if let Some(difference) = apart(model, &data, &own, &other) {
+                        worst = worst.max(difference);
+                        compared += 1;
+                    }
+                }
+                (false, false) => {}
+                (a, b) => failures.push(format!("{} trial {trial}: own start converged {a}, 1.5 × truth {b}", design.name)),
+            }
+        }
+        println!("{:<20} own start vs 1.5 × truth ({compared} of 40 compared): {}", design.name, worst.text());
+        if !worst.within_bar() {
+            failures.push(format!("{}: {}", design.name, worst.text()));
+        }
+    }
+    assert!(failures.is_empty(), "{}", failures.join("\n"));
+}

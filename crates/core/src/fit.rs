@@ -297,7 +297,15 @@ pub(crate) fn iterate_weights(
             return Reweighted { report, data: current, rounds: round - 1, unsettled: Some("the weights were not finite".to_string()) };
         };
         let previous = report.parameters.clone();
-        report = minimise(model, &next, &previous, solver);
+        // The last solution is already near the new weights' optimum, so
+        // near that the minimiser's convergence test (a relative fall of
+        // the sum of squares below 1e-14) can stop it before its first
+        // step, about 1e-8 SE short, and the rounds would settle on that
+        // stopping point instead of the weights' fixed point: Gauss-Newton
+        // steps first (`polish`), which move by the gradient, not by the
+        // sum's fall.
+        let start = crate::models::start::polish(model, &next, previous.clone());
+        report = minimise(model, &next, &start, solver);
         current = next;
         let change = previous
             .iter()

@@ -11,7 +11,7 @@ mod hill;
 mod inhibition;
 mod michaelis_menten;
 mod morrison;
-mod start;
+pub(crate) mod start;
 mod substrate_inhibition;
 
 pub use bisubstrate::{TwoSubstrateMechanism, TwoSubstrates};
