@@ -23,8 +23,11 @@ fn turnover(args: &[&str]) -> (i32, String, String) {
 }
 
 /// Slow-binding curves, kinact 0.2 /min, KI 5 µM, v0 0.02 per min, vs 0,
-/// offset 0.05; readings every 0.5 min for 30 min (invented).
-fn inhibited_plate() -> (PathBuf, PathBuf) {
+/// offset 0.05; readings every 0.5 min for 30 min (invented). Written under
+/// names starting with `prefix`: the tests run at once, and two of them
+/// rewriting one file while the other's command reads it made a test fail
+/// now and then (a layout read half-written).
+fn inhibited_plate(prefix: &str) -> (PathBuf, PathBuf) {
     let inhibitor = [1.0, 2.5, 5.0, 10.0, 20.0, 40.0];
     let mut traces = String::from("time (min)\tA1\tA2\tA3\tA4\tA5\tA6\n");
     for step in 0..=60 {
@@ -40,12 +43,12 @@ fn inhibited_plate() -> (PathBuf, PathBuf) {
     for (n, i) in inhibitor.iter().enumerate() {
         layout.push_str(&format!("A{}\t100\t{i}\n", n + 1));
     }
-    (file("inact_traces.tsv", &traces), file("inact_layout.tsv", &layout))
+    (file(&format!("{prefix}_traces.tsv"), &traces), file(&format!("{prefix}_layout.tsv"), &layout))
 }
 
 #[test]
 fn inactivation_json_reports_kobs_and_constants() {
-    let (traces, layout) = inhibited_plate();
+    let (traces, layout) = inhibited_plate("inact_json");
     let (code, out, err) = turnover(&[
         "inactivation",
         traces.to_str().unwrap(),
@@ -71,7 +74,7 @@ fn inactivation_json_reports_kobs_and_constants() {
 
 #[test]
 fn inactivation_refuses_half_a_correction_and_windows() {
-    let (traces, layout) = inhibited_plate();
+    let (traces, layout) = inhibited_plate("inact_refusals");
     let (t, l) = (traces.to_str().unwrap(), layout.to_str().unwrap());
     let (code, _, err) = turnover(&["inactivation", t, "--layout", l, "--km", "50"]);
     assert_eq!(code, 2);

@@ -304,7 +304,7 @@ pub(crate) fn iterate_weights(
         // stopping point instead of the weights' fixed point: Gauss-Newton
         // steps first (`polish`), which move by the gradient, not by the
         // sum's fall.
-        let start = crate::models::start::polish(model, &next, previous.clone());
+        let start = crate::models::start::polish(model, &next, previous.clone(), crate::models::start::Finish::Exact);
         report = minimise(model, &next, &start, solver);
         current = next;
         let change = previous
