@@ -162,6 +162,20 @@ fn designs() -> Vec<Design> {
     ]
 }
 
+/// One simulated set of a design: the truth moved by exp(0.3·z) per
+/// parameter, normal noise of SD 3% of the largest true response, and for
+/// odd `trial`s fixed unequal weights 1/(0.5 + u)², u uniform. Returns the
+/// truth and the observations.
+fn simulate(model: &dyn Model, design: &Design, rng: &mut SplitMix64, trial: usize) -> (Vec<f64>, Observations) {
+    let truth: Vec<f64> = design.truth.iter().map(|v| v * (0.3 * rng.normal()).exp()).collect();
+    let clean: Vec<f64> = design.x.iter().map(|x| model.value(x, &truth)).collect();
+    let top = clean.iter().fold(0.0f64, |m, v| m.max(v.abs()));
+    let y: Vec<f64> = clean.iter().map(|v| v + 0.03 * top * rng.normal()).collect();
+    let weights = (trial % 2 == 1).then(|| (0..y.len()).map(|_| 1.0 / (0.5 + rng.uniform()).powi(2)).collect());
+    let x: Vec<f64> = design.x.iter().flatten().copied().collect();
+    (truth, Observations::new(model.predictors(), x, y, weights).unwrap())
+}
+
 /// Every model: 40 simulated data sets each (seed 20261313 + the design's
 /// index; true parameters multiplied by exp(0.3·z) per set; normal noise
 /// with SD 3% of the largest true response; every other set with fixed
@@ -178,13 +192,7 @@ fn fast_path_matches_the_general_path_on_every_model() {
         let mut worst = Apart::default();
         let mut spread = Apart::default();
         for trial in 0..40 {
-            let truth: Vec<f64> = design.truth.iter().map(|v| v * (0.3 * rng.normal()).exp()).collect();
-            let clean: Vec<f64> = design.x.iter().map(|x| model.value(x, &truth)).collect();
-            let top = clean.iter().fold(0.0f64, |m, v| m.max(v.abs()));
-            let y: Vec<f64> = clean.iter().map(|v| v + 0.03 * top * rng.normal()).collect();
-            let weights = (trial % 2 == 1).then(|| (0..y.len()).map(|_| 1.0 / (0.5 + rng.uniform()).powi(2)).collect());
-            let x: Vec<f64> = design.x.iter().flatten().copied().collect();
-            let data = Observations::new(model.predictors(), x, y, weights).unwrap();
+            let (_, data) = simulate(model, design, &mut rng, trial);
             let start = model.initial_guess(&data).unwrap();
             match compare(model, &data, &start) {
                 Ok((difference, itself)) => {
@@ -314,13 +322,7 @@ fn polished_starting_values_reach_the_same_optimum() {
         let mut worst = Apart::default();
         let mut compared = 0;
         for trial in 0..40 {
-            let truth: Vec<f64> = design.truth.iter().map(|v| v * (0.3 * rng.normal()).exp()).collect();
-            let clean: Vec<f64> = design.x.iter().map(|x| model.value(x, &truth)).collect();
-            let top = clean.iter().fold(0.0f64, |m, v| m.max(v.abs()));
-            let y: Vec<f64> = clean.iter().map(|v| v + 0.03 * top * rng.normal()).collect();
-            let weights = (trial % 2 == 1).then(|| (0..y.len()).map(|_| 1.0 / (0.5 + rng.uniform()).powi(2)).collect());
-            let x: Vec<f64> = design.x.iter().flatten().copied().collect();
-            let data = Observations::new(model.predictors(), x, y, weights).unwrap();
+            let (truth, data) = simulate(model, design, &mut rng, trial);
             let own = turnover_core::solver::minimise(model, &data, &model.initial_guess(&data).unwrap(), &settings);
             let far: Vec<f64> = truth.iter().map(|v| 1.5 * v).collect();
             let other = turnover_core::solver::minimise(model, &data, &far, &settings);
