@@ -117,7 +117,7 @@ pub fn box_bias(model: &dyn Model, data: &Observations, fit: &Fit) -> Option<Vec
     // from `values_and_gradients` (by column: entry j of row r at
     // `j * BLOCK + r`); each row's trace is summed in the same order as
     // one row at a time (k, then j), so the same bits.
-    const BLOCK: usize = 32;
+    use crate::fastpath::BLOCK;
     let mut up = vec![0.0; (p + 1) * BLOCK];
     let mut down = vec![0.0; (p + 1) * BLOCK];
     let mut traces = [0.0f64; BLOCK];

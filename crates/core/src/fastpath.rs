@@ -253,8 +253,9 @@ impl<const P: usize, const M: usize> Compressed<'_, P, M> {
     }
 }
 
-/// Rows brought into the triangle per Householder block.
-const BLOCK: usize = 32;
+/// Rows brought into the triangle per Householder block (also the block
+/// of the other block evaluations: `bias.rs`, `models::start`).
+pub(crate) const BLOCK: usize = 32;
 
 /// Brings the first `rows` rows of `block` (stored by column:
 /// `block[j][r]` is entry `j` of row `r`) into the upper triangle `t`:

@@ -94,6 +94,7 @@ pub(crate) fn polish(model: &dyn Model, data: &Observations, start: Vec<f64>, fi
     let Some(mut sums) = NormalSums::at(model, data, &current[..p], &mut buffer) else {
         return start;
     };
+    let positive: [bool; 4] = std::array::from_fn(|j| j < p && model.positive(j));
     for _ in 0..POLISH_STEPS {
         let Some(step) = sums.step(p) else {
             break;
@@ -108,7 +109,7 @@ pub(crate) fn polish(model: &dyn Model, data: &Observations, start: Vec<f64>, fi
         for j in 0..p {
             trial[j] += step[j];
         }
-        let within = (0..p).all(|j| trial[j].is_finite() && (!model.positive(j) || (trial[j] > current[j] / 2.0 && trial[j] < current[j] * 2.0)));
+        let within = (0..p).all(|j| trial[j].is_finite() && (!positive[j] || (trial[j] > current[j] / 2.0 && trial[j] < current[j] * 2.0)));
         if !within {
             break;
         }
@@ -130,8 +131,7 @@ pub(crate) fn polish(model: &dyn Model, data: &Observations, start: Vec<f64>, fi
     current[..p].to_vec()
 }
 
-/// Rows per block of [`NormalSums::at`].
-const POLISH_BLOCK: usize = 32;
+use crate::fastpath::BLOCK as POLISH_BLOCK;
 
 /// `JᵀWJ`, `JᵀW r` and `rᵀW r` at one point (p ≤ 4).
 struct NormalSums {
