@@ -1038,7 +1038,7 @@ fn to_table(analysis: &RateAnalysis) -> String {
 fn weighting_label(fit: &FitSummary) -> String {
     match Weighting::ALL.iter().find(|w| w.name() == fit.weighting) {
         Some(w) => format!("{}: {}", w.option_name(), w.describe()),
-        None => fit.weighting.clone(),
+        None => fit.weighting.to_string(),
     }
 }
 
@@ -1049,7 +1049,7 @@ fn fit_table(fit: &FitSummary, extra: &str, notes: &[String], caution: &str) -> 
     out.push_str(&format!("Model: {} ({})\n", fit.model, fit.equation));
     out.push_str(&format!("Fit {} after {} iteration(s).\n\n", fit.termination_text, fit.iterations));
     let level = (fit.confidence_level * 100.0).round();
-    let method = fit.parameters.first().map_or("asymptotic", |p| p.ci_method.as_str());
+    let method = fit.parameters.first().map_or("asymptotic", |p| p.ci_method.as_ref());
     out.push_str(&format!("Weighting: {}; intervals: {}\n\n", weighting_label(fit), method));
     out.push_str(&constants::constants_block(&fit.parameters, level, method));
     out.push_str(&format!(

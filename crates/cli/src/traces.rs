@@ -361,7 +361,7 @@ pub fn fit_progress_command(options: TraceOptions) -> Result<ExitCode, Failure> 
         let mut text =
             format!("Model: {} ({})\nFit {} after {} evaluation(s).\n\n", s.model, s.equation, s.termination_text, s.iterations);
         let level = (s.confidence_level * 100.0).round();
-        let method = s.parameters.first().map_or("asymptotic", |p| p.ci_method.as_str());
+        let method = s.parameters.first().map_or("asymptotic", |p| p.ci_method.as_ref());
         text.push_str(&crate::constants::constants_block(&s.parameters, level, method));
         text.push_str(&format!("\nn = {}, dof = {}, residual SD = {}, R² = {}\n", s.n, s.dof, n(s.sigma), n(s.r_squared)));
         for w in s.warnings.iter().chain(&fit.notes) {

@@ -106,33 +106,40 @@ pub fn box_bias(model: &dyn Model, data: &Observations, fit: &Fit) -> Option<Vec
     if !variance.is_finite() {
         return None;
     }
-    let unscaled = covariance / variance;
-    let steps: Vec<f64> = (0..p)
-        .map(|k| {
-            let scale = theta[k].abs().max(covariance[(k, k)].sqrt());
-            HESSIAN_STEP * if scale > 0.0 && scale.is_finite() { scale } else { 1.0 }
-        })
-        .collect();
+    // Scratch space on the stack for up to four parameters (the fixed-size
+    // path's models): each heap allocation cost about 1% of a fit.
+    use crate::fastpath::{Scratch, BLOCK, MAX_PARAMETERS};
+    const SMALL: usize = MAX_PARAMETERS;
+    const COLUMNS: usize = (MAX_PARAMETERS + 1) * BLOCK;
+    let mut steps_space = Scratch::<SMALL>::new();
+    let steps = steps_space.zeros(p);
+    for (k, step) in steps.iter_mut().enumerate() {
+        let scale = theta[k].abs().max(covariance[(k, k)].sqrt());
+        *step = HESSIAN_STEP * if scale > 0.0 && scale.is_finite() { scale } else { 1.0 };
+    }
     // The gradients at the shifted points come a block of rows at a time
     // from `values_and_gradients` (by column: entry j of row r at
     // `j * BLOCK + r`); each row's trace is summed in the same order as
     // one row at a time (k, then j), so the same bits.
-    use crate::fastpath::BLOCK;
-    let mut up = vec![0.0; (p + 1) * BLOCK];
-    let mut down = vec![0.0; (p + 1) * BLOCK];
+    let (mut up_space, mut down_space) = (Scratch::<COLUMNS>::new(), Scratch::<COLUMNS>::new());
+    let up = up_space.zeros((p + 1) * BLOCK);
+    let down = down_space.zeros((p + 1) * BLOCK);
     let mut traces = [0.0f64; BLOCK];
-    let mut shifted = theta.to_vec();
+    let mut shifted_space = Scratch::<SMALL>::new();
+    let shifted = shifted_space.zeros(p);
+    shifted.copy_from_slice(theta);
     // Σᵢ √wᵢ (√wᵢ Jᵢ) tr(C Hᵢ): the report's Jacobian rows are already √wᵢ Jᵢ.
-    let mut sum = vec![0.0; p];
+    let mut sum_space = Scratch::<SMALL>::new();
+    let sum = sum_space.zeros(p);
     let mut first = 0;
     while first < data.len() {
         let rows = (data.len() - first).min(BLOCK);
         traces[..rows].fill(0.0);
         for k in 0..p {
             shifted[k] = theta[k] + steps[k];
-            model.values_and_gradients(data, first, rows, &shifted, &mut up, BLOCK);
+            model.values_and_gradients(data, first, rows, shifted, up, BLOCK);
             shifted[k] = theta[k] - steps[k];
-            model.values_and_gradients(data, first, rows, &shifted, &mut down, BLOCK);
+            model.values_and_gradients(data, first, rows, shifted, down, BLOCK);
             shifted[k] = theta[k];
             // Column k of Hᵢ; tr(C H) = Σ_{j,k} C[k,j] H[j,k].
             for (r, trace) in traces[..rows].iter_mut().enumerate() {
@@ -154,7 +161,8 @@ pub fn box_bias(model: &dyn Model, data: &Observations, fit: &Fit) -> Option<Vec
         }
         first += rows;
     }
-    let bias: Vec<f64> = (0..p).map(|a| -0.5 * (0..p).map(|b| unscaled[(a, b)] * sum[b]).sum::<f64>()).collect();
+    // (C/s²)[a, b], entry by entry as the whole matrix divided would give.
+    let bias: Vec<f64> = (0..p).map(|a| -0.5 * (0..p).map(|b| (covariance[(a, b)] / variance) * sum[b]).sum::<f64>()).collect();
     bias.iter().all(|b| b.is_finite()).then_some(bias)
 }
 

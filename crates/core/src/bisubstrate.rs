@@ -576,7 +576,7 @@ pub fn analyse_bisubstrate(request: &BisubstrateRequest) -> Result<BisubstrateAn
     for (mechanism, fit) in &fitted {
         let model = TwoSubstrates::new(*mechanism);
         let mut summary = fit.summary.clone();
-        summary.weighting = request.weighting.name().to_string();
+        summary.weighting = request.weighting.name().into();
         summary.reweighting_rounds = reweighting_rounds;
         crate::intervals::apply_interval_method(&mut summary, &model, &data, fit, request.interval_method, &request.bootstrap)?;
         for (estimate, spec) in summary.parameters.iter_mut().zip(model.parameters()) {

@@ -387,7 +387,7 @@ pub fn compare_fits(fits: &[FitSummary]) -> Comparison {
     let test_of = |s: &str, g: &str| f_tests.iter().find(|t| t.simpler == s && t.general == g);
 
     let (preferred, mut verdict, candidates) = decide(fits, &f_tests, &test_of, &find, &models);
-    if let Some(weighting) = fits.first().map(|f| f.weighting.as_str()).filter(|w| *w != "uniform") {
+    if let Some(weighting) = fits.first().map(|f| f.weighting.as_ref()).filter(|w| *w != "uniform") {
         // Weights recomputed from each model's own curve differ between
         // models; the analyses hold one set fixed, which shows as the same
         // number of reweighting rounds on every fit.
@@ -603,7 +603,7 @@ mod tests {
             converged: true,
             iterations: 1,
             termination: Termination::Converged,
-            termination_text: String::new(),
+            termination_text: "".into(),
             confidence_level: 0.95,
             weighting: "uniform".into(),
             reweighting_rounds: None,
@@ -702,7 +702,7 @@ mod tests {
                     ci_high: None,
                     unit: None,
                     derived: false,
-                    ci_method: String::new(),
+                    ci_method: "".into(),
                     flag: None,
                     bias: None,
                     value_bias_corrected: None,

@@ -316,7 +316,7 @@ pub fn analyse_dose(request: &DoseRequest) -> Result<DoseAnalysis, Error> {
         p.fitted = model.value(&[p.i], &values);
     }
     let mut summary = fit.summary.clone();
-    summary.weighting = request.weighting.name().to_string();
+    summary.weighting = request.weighting.name().into();
     if fit.summary.termination == crate::solver::Termination::NoFiniteOptimum {
         // Only the profile says which side the data bound when the fit ran off.
         crate::intervals::apply_profile_intervals(&mut summary, model.as_ref(), &data, &fit, true);
@@ -424,7 +424,7 @@ fn add_ki(
     let (ci_low, ci_high, ci_method) = match method {
         IntervalMethod::Asymptotic => {
             let (low, high) = delta(converted.std_error);
-            (low, high, "delta".to_string())
+            (low, high, "delta".into())
         }
         _ if with_km_error => {
             notes.push(format!(
@@ -433,7 +433,7 @@ fn add_ki(
                 method.name()
             ));
             let (low, high) = delta(converted.std_error);
-            (low, high, "delta".to_string())
+            (low, high, "delta".into())
         }
         _ => (ic50.ci_low.map(|v| v / converted.divisor), ic50.ci_high.map(|v| v / converted.divisor), ic50.ci_method.clone()),
     };

@@ -427,7 +427,7 @@ fn ratio_estimate(fit: &Fit, top: usize, bottom: usize, name: &str) -> crate::fi
     let mut estimate = crate::fit::estimate(name, ratio, se.filter(|v| v.is_finite()), fit.t_quantile);
     estimate.unit = Some(String::new());
     estimate.derived = true;
-    estimate.ci_method = "delta".to_string();
+    estimate.ci_method = "delta".into();
     estimate
 }
 
@@ -552,7 +552,7 @@ pub fn analyse_inhibition(request: &InhibitionRequest) -> Result<InhibitionAnaly
     for (mechanism, fit) in &fitted {
         let model = Inhibition::new(*mechanism);
         let mut summary = fit.summary.clone();
-        summary.weighting = request.weighting.name().to_string();
+        summary.weighting = request.weighting.name().into();
         summary.reweighting_rounds = reweighting_rounds;
         if fit.summary.termination == crate::solver::Termination::NoFiniteOptimum {
             // Only the profile says which side the data bound when the fit

@@ -905,7 +905,7 @@ pub fn apply_interval_method(
                 let estimate = &mut summary.parameters[j];
                 estimate.ci_low = low;
                 estimate.ci_high = high;
-                estimate.ci_method = IntervalMethod::Bootstrap.name().to_string();
+                estimate.ci_method = IntervalMethod::Bootstrap.name().into();
                 if estimate.flag.as_deref() == Some(flags::ASYMPTOTIC_CROSSES_ZERO) {
                     estimate.flag = None;
                 }
@@ -951,7 +951,7 @@ pub fn apply_profile_intervals(summary: &mut FitSummary, model: &dyn Model, data
         if replace {
             estimate.ci_low = low;
             estimate.ci_high = high;
-            estimate.ci_method = IntervalMethod::Profile.name().to_string();
+            estimate.ci_method = IntervalMethod::Profile.name().into();
             if estimate.flag.as_deref() == Some(flags::ASYMPTOTIC_CROSSES_ZERO) {
                 estimate.flag = None;
             }

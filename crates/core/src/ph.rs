@@ -376,7 +376,7 @@ pub fn analyse_ph(request: &PhRequest) -> Result<PhAnalysis, Error> {
     let mut fits = Vec::new();
     for (model, fit) in &fitted {
         let mut summary = fit.summary.clone();
-        summary.weighting = request.weighting.name().to_string();
+        summary.weighting = request.weighting.name().into();
         summary.reweighting_rounds = rounds;
         if fit.summary.termination == Termination::NoFiniteOptimum {
             apply_profile_intervals(&mut summary, model, &data, fit, true);

@@ -411,7 +411,7 @@ fn analyse_rates_with(request: &RateRequest, fixed_weights: Option<&[f64]>) -> R
     }
 
     let mut summary = fit.summary.clone();
-    summary.weighting = request.weighting.name().to_string();
+    summary.weighting = request.weighting.name().into();
     let unit_of = |dimension: Dimension| -> Option<String> {
         match dimension {
             Dimension::Response => rate_unit.map(|u| u.symbol()),
@@ -670,7 +670,7 @@ fn add_derived(summary: &mut FitSummary, fit: &Fit, kcat_factor: Option<f64>, sp
         let mut kcat = estimate("kcat", vmax * factor, se, fit.t_quantile);
         kcat.unit = Some("s⁻¹".to_string());
         kcat.derived = true;
-        kcat.ci_method = "delta".to_string();
+        kcat.ci_method = "delta".into();
         summary.parameters.push(kcat);
     }
     if let Some(scale) = specificity_factor {
@@ -681,7 +681,7 @@ fn add_derived(summary: &mut FitSummary, fit: &Fit, kcat_factor: Option<f64>, sp
         let mut specificity: ParameterEstimate = estimate("kcat/Km", scale * vmax / km, se.filter(|v| v.is_finite()), fit.t_quantile);
         specificity.unit = Some("M⁻¹ s⁻¹".to_string());
         specificity.derived = true;
-        specificity.ci_method = "delta".to_string();
+        specificity.ci_method = "delta".into();
         summary.parameters.push(specificity);
     }
 }
@@ -774,7 +774,7 @@ fn add_specific_activity(summary: &mut FitSummary, fit: &Fit, factor: Option<f64
     let mut activity = estimate("specific activity", fit.values()[0] * factor, se, fit.t_quantile);
     activity.unit = Some(SPECIFIC_ACTIVITY_UNIT.to_string());
     activity.derived = true;
-    activity.ci_method = "delta".to_string();
+    activity.ci_method = "delta".into();
     summary.parameters.push(activity);
 }
 
@@ -823,7 +823,7 @@ fn profile_intervals(
         let kcat = &mut summary.parameters[next];
         kcat.ci_low = low.map(|v| v * factor);
         kcat.ci_high = high.map(|v| v * factor);
-        kcat.ci_method = "profile".to_string();
+        kcat.ci_method = "profile".into();
         next += 1;
     }
     if let Some(scale) = specificity_factor {
@@ -848,7 +848,7 @@ fn profile_intervals(
         if specificity.ci_low.is_none() || specificity.ci_high.is_none() {
             unbounded.push("kcat/Km".to_string());
         }
-        specificity.ci_method = "profile".to_string();
+        specificity.ci_method = "profile".into();
         next += 1;
     }
     if let Some(factor) = protein_factor {
@@ -856,7 +856,7 @@ fn profile_intervals(
         let activity = &mut summary.parameters[next];
         activity.ci_low = low.map(|v| v * factor);
         activity.ci_high = high.map(|v| v * factor);
-        activity.ci_method = "profile".to_string();
+        activity.ci_method = "profile".into();
     }
     if !unbounded.is_empty() {
         summary.warnings.push(format!(
@@ -909,7 +909,7 @@ fn bootstrap_intervals(
             bootstrap_interval(settings, estimate.value, estimate.std_error, values, ses, summary.confidence_level, fit.t_quantile);
         estimate.ci_low = low;
         estimate.ci_high = high;
-        estimate.ci_method = IntervalMethod::Bootstrap.name().to_string();
+        estimate.ci_method = IntervalMethod::Bootstrap.name().into();
     }
     let resamples = if fit.summary.converged { settings.resamples } else { 0 };
     Ok(BootstrapReport {

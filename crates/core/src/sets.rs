@@ -468,7 +468,7 @@ pub fn compare_sets(request: &SetsRequest) -> Result<SetsAnalysis, Error> {
         }
         per_set.push(fit.values().to_vec());
         let mut summary = fit.summary;
-        summary.weighting = request.weighting.name().to_string();
+        summary.weighting = request.weighting.name().into();
         put_units(&mut summary, base.parameters(), &data.units);
         sets.push(SetFit { name: name.clone(), n: obs.len(), fit: summary });
     }
@@ -505,7 +505,7 @@ pub fn compare_sets(request: &SetsRequest) -> Result<SetsAnalysis, Error> {
             estimate.name = label;
         }
         fit.summary.model = name.clone();
-        fit.summary.weighting = request.weighting.name().to_string();
+        fit.summary.weighting = request.weighting.name().into();
         put_units(&mut fit.summary, &model.specs, &data.units);
         let pattern = PatternFit {
             name,

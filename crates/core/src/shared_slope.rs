@@ -309,7 +309,7 @@ fn global_fit(request: &BatchRequest, split: &CurveSplit, base: &dyn Model, own:
         rss: summary.rss,
         sigma: summary.sigma,
         converged: summary.converged,
-        termination_text: summary.termination_text.clone(),
+        termination_text: summary.termination_text.to_string(),
         method: "one global least-squares fit of every curve's logistic with one steepness; covariance s²(JᵀJ)⁻¹ of the whole fit".into(),
         warnings: summary.warnings.clone(),
     };

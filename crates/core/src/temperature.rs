@@ -733,7 +733,7 @@ fn finish(
     warnings: &mut Vec<String>,
 ) -> Result<FitSummary, Error> {
     let mut summary = fit.summary.clone();
-    summary.weighting = request.weighting.name().to_string();
+    summary.weighting = request.weighting.name().into();
     if fit.summary.termination == Termination::NoFiniteOptimum {
         apply_profile_intervals(&mut summary, model, data, fit, true);
     } else {

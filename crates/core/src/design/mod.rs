@@ -926,7 +926,7 @@ pub fn compare_mechanisms(data: &Observations, weighting: Weighting) -> Result<(
         .iter()
         .map(|(_, f)| {
             let mut s = f.summary.clone();
-            s.weighting = weighting.name().to_string();
+            s.weighting = weighting.name().into();
             s.reweighting_rounds = rounds;
             s
         })

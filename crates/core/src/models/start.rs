@@ -83,7 +83,7 @@ pub(crate) enum Finish {
 /// where it starts, not what counts as the answer. Gauss-Newton converges
 /// only linearly when the residuals are not small (on the benchmark's
 /// noisy 12-point curves it took 6 to 8 steps to settle to 1e-12).
-pub(crate) fn polish(model: &dyn Model, data: &Observations, start: Vec<f64>, finish: Finish) -> Vec<f64> {
+pub(crate) fn polish(model: &dyn Model, data: &Observations, mut start: Vec<f64>, finish: Finish) -> Vec<f64> {
     let p = start.len();
     if p == 0 || p > 4 || data.len() <= p {
         return start;
@@ -128,7 +128,8 @@ pub(crate) fn polish(model: &dyn Model, data: &Observations, start: Vec<f64>, fi
             break;
         }
     }
-    current[..p].to_vec()
+    start.copy_from_slice(&current[..p]);
+    start
 }
 
 use crate::fastpath::BLOCK as POLISH_BLOCK;
