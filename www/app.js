@@ -264,7 +264,7 @@ function parameterRow(p) {
     element('td', { class: 'num se' }, f.se ?? '—'),
     element('td', { class: 'num ci', title: `interval: ${p.ci_method}` },
       p.ci_low === null && p.ci_high === null ? '—' : `${end(f.low)} to ${end(f.high)}`),
-    element('td', { class: 'unit' }, p.unit ?? '(no unit given)'),
+    element('td', { class: 'unit' }, p.unit ?? '(no unit read)'),
   );
   return row;
 }

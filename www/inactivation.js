@@ -102,7 +102,7 @@ function analyse(doc) {
     tr.dataset.kobs = String(t.kobs);
     for (const x of [t.trace, page.ui.format(t.i), page.ui.estimateText(t.kobs, t.kobs_se), page.ui.format(t.v0), page.ui.format(t.vs), String(t.n), t.converged ? (t.used ? 'yes' : 'left out') : 'did not converge']) tr.append(cell('td', x));
   }
-  $('inactivation-unit').textContent = `kobs in ${result.time_unit}⁻¹; [I] in ${result.inhibitor_unit ?? '(no unit given)'}.`;
+  $('inactivation-unit').textContent = `kobs in ${result.time_unit}⁻¹; [I] in ${result.inhibitor_unit ?? '(no unit read)'}.`;
   $('inactivation-warnings').replaceChildren(...[...result.warnings, ...result.notes].map((w) => cell('li', w)));
   page.ui.drawPlotList($('inactivation-plots'), result.plots);
   showGlobal(result.global);
