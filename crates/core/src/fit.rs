@@ -762,6 +762,20 @@ mod tests {
         assert!((c[(0, 1)] + sx / det).abs() < 1e-14);
     }
 
+    /// `(JᵀJ)⁻¹` by the decomposition of the whole column-scaled `J` (the
+    /// route for more than four parameters), with the ratio of its smallest
+    /// to its largest singular value.
+    fn whole_decomposition(j: &DMatrix<f64>) -> (Option<DMatrix<f64>>, f64) {
+        let scales: Vec<f64> = j.column_iter().map(|c| c.norm()).collect();
+        let mut scaled = j.clone();
+        for (k, s) in scales.iter().enumerate() {
+            scaled.column_mut(k).scale_mut(1.0 / s);
+        }
+        let svd = scaled.svd(false, true);
+        let ratio = svd.singular_values.min() / svd.singular_values.max();
+        (inverse_from(svd.singular_values.as_slice(), &svd.v_t.unwrap(), &scales), ratio)
+    }
+
     /// The fixed-size route (p ≤ 4) against the decomposition of the
     /// whole Jacobian, on Jacobians with columns of very different size.
     #[test]
@@ -770,13 +784,7 @@ mod tests {
             let n = 9;
             let j = DMatrix::from_fn(n, p, |i, k| ((i + 1) as f64 * (k + 1) as f64 * 0.37 + k as f64).sin() * 10f64.powi(k as i32 * 2 - 3));
             let fast = unscaled_covariance(&j).unwrap();
-            let scales: Vec<f64> = j.column_iter().map(|c| c.norm()).collect();
-            let mut scaled = j.clone();
-            for (k, s) in scales.iter().enumerate() {
-                scaled.column_mut(k).scale_mut(1.0 / s);
-            }
-            let svd = scaled.svd(false, true);
-            let whole = inverse_from(svd.singular_values.as_slice(), &svd.v_t.unwrap(), &scales).unwrap();
+            let whole = whole_decomposition(&j).0.unwrap();
             for a in 0..p {
                 for b in 0..p {
                     let scale = (whole[(a, a)] * whole[(b, b)]).sqrt();
@@ -802,17 +810,10 @@ mod tests {
         for k in 0..=140 {
             let angle = 10f64.powf(-9.0 - k as f64 * 0.05);
             let j = DMatrix::from_row_slice(4, 2, &[1.0, 1.0, 0.5, 0.5 + angle, -0.25, -0.25 + 2.0 * angle, 2.0, 2.0 - angle]);
-            let scales: Vec<f64> = j.column_iter().map(|c| c.norm()).collect();
-            let mut scaled = j.clone();
-            for (c, s) in scales.iter().enumerate() {
-                scaled.column_mut(c).scale_mut(1.0 / s);
-            }
-            let svd = scaled.clone().svd(false, true);
-            let ratio = svd.singular_values.min() / svd.singular_values.max();
+            let (whole, ratio) = whole_decomposition(&j);
             if (ratio / RANK_TOLERANCE - 1.0).abs() < 0.01 {
                 continue;
             }
-            let whole = inverse_from(svd.singular_values.as_slice(), &svd.v_t.unwrap(), &scales);
             let closed = unscaled_covariance(&j);
             assert_eq!(closed.is_some(), whole.is_some(), "angle {angle:e}, ratio {ratio:e}");
             if closed.is_some() {
