@@ -92,11 +92,26 @@ impl HeldFixed<'_> {
         if m > STACK_PARAMETERS {
             return f(&self.full(free));
         }
+        // Element by element: these slices are a few entries long, and
+        // `copy_from_slice` calls `memcpy` for them (on a batch of 2,000
+        // dose-response curves, 13% of the time went to those calls).
         let mut p = [0.0; STACK_PARAMETERS];
-        p[..self.index].copy_from_slice(&free[..self.index]);
-        p[self.index] = self.value;
-        p[self.index + 1..m].copy_from_slice(&free[self.index..]);
+        for (k, slot) in p[..m].iter_mut().enumerate() {
+            *slot = match k.cmp(&self.index) {
+                std::cmp::Ordering::Less => free[k],
+                std::cmp::Ordering::Equal => self.value,
+                std::cmp::Ordering::Greater => free[k - 1],
+            };
+        }
         f(&p[..m])
+    }
+
+    /// The free parameters' entries of a full gradient (element by
+    /// element, as in [`HeldFixed::with_full`]).
+    fn free_part(&self, full_gradient: &[f64], gradient: &mut [f64]) {
+        for (k, g) in gradient.iter_mut().enumerate() {
+            *g = full_gradient[if k < self.index { k } else { k + 1 }];
+        }
     }
 }
 
@@ -127,8 +142,7 @@ impl Model for HeldFixed<'_> {
         }
         let mut full_gradient = [0.0; STACK_PARAMETERS];
         self.with_full(p, |full| self.inner.gradient(x, full, &mut full_gradient[..m]));
-        gradient[..self.index].copy_from_slice(&full_gradient[..self.index]);
-        gradient[self.index..].copy_from_slice(&full_gradient[self.index + 1..m]);
+        self.free_part(&full_gradient[..m], gradient);
     }
     fn value_and_gradient(&self, x: &[f64], p: &[f64], gradient: &mut [f64]) -> f64 {
         let m = p.len() + 1;
@@ -138,8 +152,7 @@ impl Model for HeldFixed<'_> {
         }
         let mut full_gradient = [0.0; STACK_PARAMETERS];
         let value = self.with_full(p, |full| self.inner.value_and_gradient(x, full, &mut full_gradient[..m]));
-        gradient[..self.index].copy_from_slice(&full_gradient[..self.index]);
-        gradient[self.index..].copy_from_slice(&full_gradient[self.index + 1..m]);
+        self.free_part(&full_gradient[..m], gradient);
         value
     }
     fn initial_guess(&self, _: &Observations) -> Result<Vec<f64>, crate::Error> {

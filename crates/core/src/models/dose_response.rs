@@ -2,6 +2,7 @@
 //! `y = floor + (ceiling − floor)/(1 + ([I]/IC50)^steepness)` (the plateaus named floor and ceiling, the exponent steepness: Turnover's own plain words), with the option
 //! of fixing the top or the bottom plateau (common practice, no source).
 
+use super::power_and_log;
 use super::start::positive_range;
 use crate::error::Error;
 use crate::model::{Dimension, Model, Observations, ParameterSpec};
@@ -59,7 +60,7 @@ impl Model for DoseResponse {
 
     fn value(&self, x: &[f64], p: &[f64]) -> f64 {
         let [bottom, top, ic50, h] = self.full(p);
-        let u = if x[0] == 0.0 { 0.0 } else { (x[0] / ic50).powf(h) };
+        let u = if x[0] == 0.0 { 0.0 } else { power_and_log(x[0] / ic50, h).0 };
         bottom + (top - bottom) / (1.0 + u)
     }
 
@@ -67,12 +68,12 @@ impl Model for DoseResponse {
         self.value_and_gradient(x, p, gradient);
     }
 
-    /// One power and one logarithm for both; the value is computed as in
+    /// One logarithm and one exponential for both; the value is computed as in
     /// [`Model::value`], from the same `u`.
     fn value_and_gradient(&self, x: &[f64], p: &[f64], gradient: &mut [f64]) -> f64 {
         let [bottom, top, ic50, h] = self.full(p);
         let i = x[0];
-        let (u, log_ratio) = if i == 0.0 { (0.0, 0.0) } else { ((i / ic50).powf(h), (i / ic50).ln()) };
+        let (u, log_ratio) = if i == 0.0 { (0.0, 0.0) } else { power_and_log(i / ic50, h) };
         let f = 1.0 / (1.0 + u);
         // ∂y/∂u = −(top − bottom)/(1 + u)²; ∂u/∂IC50 = −h·u/IC50; ∂u/∂h = u·ln([I]/IC50).
         let dy_du = -(top - bottom) * f * f;

@@ -3,6 +3,7 @@
 //! half-maximal rate and nH the Hill coefficient).
 
 use super::michaelis_menten::MichaelisMenten;
+use super::power_and_log;
 use super::start::{log_grid, scaled_rss};
 use crate::error::Error;
 use crate::model::{Dimension, Model, Observations, ParameterSpec};
@@ -31,7 +32,7 @@ impl Model for Hill {
     }
 
     fn value(&self, x: &[f64], p: &[f64]) -> f64 {
-        let u = (x[0] / p[1]).powf(p[2]);
+        let u = power_and_log(x[0] / p[1], p[2]).0;
         p[0] * u / (1.0 + u)
     }
 
@@ -42,12 +43,11 @@ impl Model for Hill {
             gradient.iter_mut().for_each(|g| *g = 0.0);
             return;
         }
-        let ratio = s / p[1];
-        let u = ratio.powf(p[2]);
+        let (u, log_ratio) = power_and_log(s / p[1], p[2]);
         let dv_du = p[0] / ((1.0 + u) * (1.0 + u));
         gradient[0] = u / (1.0 + u);
         gradient[1] = -dv_du * p[2] * u / p[1];
-        gradient[2] = dv_du * u * ratio.ln();
+        gradient[2] = dv_du * u * log_ratio;
     }
 
     /// Starting values: Vmax and K0.5 from the Michaelis-Menten rule, then

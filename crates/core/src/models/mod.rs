@@ -25,6 +25,24 @@ pub use substrate_inhibition::SubstrateInhibition;
 use crate::error::Error;
 use crate::model::Model;
 
+/// `ratio^exponent` for a ratio of concentrations, with `ln ratio` (the
+/// derivative of the power in the exponent is the power times it), as
+/// `exp(exponent·ln ratio)`: one logarithm and one exponential in place of
+/// a power and a logarithm (the power alone took a quarter of a batch of
+/// dose-response fits; glibc's and the WebAssembly build's `pow` both form
+/// a logarithm and an exponential of their own, in extra precision). The
+/// relative error is about |exponent·ln ratio|·ε, below 1e-14 for any
+/// power between 1e-6 and 1e6 (standard numerical analysis, no source).
+/// The cases a power settles on its own are kept: a zero exponent gives 1
+/// for every ratio (where `0·ln 0` would give NaN), a zero ratio 0 or ∞
+/// by the exponent's sign, a negative ratio NaN.
+#[inline]
+pub(crate) fn power_and_log(ratio: f64, exponent: f64) -> (f64, f64) {
+    let log = ratio.ln();
+    let power = if exponent == 0.0 { 1.0 } else { (exponent * log).exp() };
+    (power, log)
+}
+
 /// The models that can be chosen by name, as the CLI and page name them.
 pub const MODEL_NAMES: &[&str] = &[
     "mm",
@@ -115,4 +133,36 @@ pub fn model_with_options(name: &str, options: &ModelOptions) -> Result<Box<dyn 
             return Err(Error::invalid_option(format!("unknown model '{other}'; available: {}", MODEL_NAMES.join(", "))))
         }
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::power_and_log;
+
+    /// Against the library's `powf` over ratios from 1e-9 to 1e9 and
+    /// exponents from −4 to 6: the relative difference stays within
+    /// (|exponent·ln ratio| + 2)·ε (the bound of the doc comment, standard
+    /// numerical analysis, no source), and the edge cases a power settles
+    /// on its own come out as `powf` gives them.
+    #[test]
+    fn power_and_log_agrees_with_the_library_power() {
+        let mut checked = 0;
+        for k in -90..=90 {
+            let ratio = 10f64.powf(k as f64 / 10.0) * 1.0137;
+            for j in -40..=60 {
+                let exponent = j as f64 / 10.0 + 0.013;
+                let (power, log) = power_and_log(ratio, exponent);
+                let want = ratio.powf(exponent);
+                let bound = ((exponent * ratio.ln()).abs() + 2.0) * f64::EPSILON;
+                assert!(((power - want) / want).abs() <= bound, "{ratio}^{exponent}: {power} against {want}");
+                assert_eq!(log.to_bits(), ratio.ln().to_bits());
+                checked += 1;
+            }
+        }
+        assert_eq!(checked, 181 * 101);
+        for (ratio, exponent) in [(0.0, 1.3), (0.0, -1.3), (0.0, 0.0), (f64::INFINITY, 2.0), (f64::INFINITY, -2.0), (f64::INFINITY, 0.0), (3.0, 0.0), (1.0, 7.5)] {
+            assert_eq!(power_and_log(ratio, exponent).0, ratio.powf(exponent), "{ratio}^{exponent}");
+        }
+        assert!(power_and_log(-2.0, 1.5).0.is_nan() && (-2.0f64).powf(1.5).is_nan());
+    }
 }
