@@ -3,7 +3,7 @@
 //! of fixing the top or the bottom plateau (common practice, no source).
 
 use super::power_and_log;
-use super::start::positive_range;
+use super::start::{polish, positive_range, Finish};
 use crate::error::Error;
 use crate::model::{Dimension, Model, Observations, ParameterSpec};
 
@@ -126,7 +126,10 @@ impl Model for DoseResponse {
             start.push(top);
         }
         start.extend([ic50, slope]);
-        Ok(start)
+        // Gauss-Newton steps from there, kept only while they lower the sum
+        // of squares (see `polish`): the minimiser then starts near the
+        // optimum instead of from the crude shape above.
+        Ok(polish(self, data, start, Finish::Near))
     }
 }
 
