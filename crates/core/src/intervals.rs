@@ -176,8 +176,13 @@ pub fn profile_rss(model: &dyn Model, data: &Observations, index: usize, value: 
         return rss.is_finite().then(|| (rss, vec![value]));
     }
     // A routine refit by Gauss-Newton steps; the solver for the rest.
-    let (parameters, rss, converged) = match gauss_newton_refit(&held, data, &free_start, None) {
-        Some(r) => (r.parameters, r.rss, true),
+    let (parameters, rss, converged) = match gauss_newton_refit(&held, data, &free_start, None, PROFILE_TOLERANCE) {
+        // The sum of squares at the solution itself (the refit reports the
+        // one before its last step, up to about 2e-5 SE away here).
+        Some(r) => {
+            let rss = (0..data.len()).map(|i| data.weights()[i] * (data.y()[i] - held.value(data.x(i), &r.parameters)).powi(2)).sum::<f64>();
+            (r.parameters, rss, rss.is_finite())
+        }
         None => minimise_solution(&held, data, &free_start, &SolverSettings::default()),
     };
     converged.then(|| (rss, held.full(&parameters)))
@@ -475,7 +480,7 @@ fn refit(model: &dyn Model, data: &Observations, fit: &Fit, start: &[f64], quick
         Some(scheme) => iterate_weights(model, data, scheme, start, &SolverSettings::default(), 1e-8, 30).report,
         None => {
             if quick {
-                if let Some(done) = gauss_newton_refit(model, data, start, first) {
+                if let Some(done) = gauss_newton_refit(model, data, start, first, BOOTSTRAP_TOLERANCE) {
                     return Some(done);
                 }
             }
@@ -535,6 +540,23 @@ impl StartTerms {
     }
 }
 
+/// Where [`gauss_newton_refit`] stops for a bootstrap refit: when the step
+/// left is below this fraction of each standard error, where the sum of
+/// squares is flat to rounding.
+const BOOTSTRAP_TOLERANCE: f64 = 1e-9;
+
+/// Where it stops for a profile refit, whose sum of squares (computed
+/// afresh at the solution) is all the profile uses. At δ standard errors
+/// from the refit's optimum that sum is too high by about δ²·σ² times a
+/// factor of the order of the parameters' correlation (standard numerical
+/// analysis, no source), so the profile t by about δ²/(2τ)·(that factor):
+/// about 1e-12 here, far below the 1e-10·t the crossing is sought to.
+/// Against [`BOOTSTRAP_TOLERANCE`] it saves about two of a refit's six or
+/// seven steps, and most refits that would need more than
+/// [`GAUSS_NEWTON_STEPS`] steps to reach 1e-9 (slow linear convergence),
+/// which went to the solver, now finish here.
+const PROFILE_TOLERANCE: f64 = 1e-6;
+
 /// The most Gauss-Newton steps [`gauss_newton_refit`] takes before it
 /// leaves the refit to the solver.
 const GAUSS_NEWTON_STEPS: usize = 12;
@@ -553,8 +575,8 @@ const GAUSS_NEWTON_STEPS: usize = 12;
 /// interval ends of 728 curves agreed to 6e-12 relative. Each step forms
 /// `JᵀWJ` and `JᵀWr` by sums over the observations (nothing allocated),
 /// scales them to a unit diagonal and solves by Cholesky. It stops when
-/// every step is below 1e-9 of that parameter's standard error (where the
-/// sum of squares is flat to rounding); the point after that step is the
+/// what is left of the steps is below `tolerance` of each parameter's
+/// standard error ([`BOOTSTRAP_TOLERANCE`], [`PROFILE_TOLERANCE`]); the point after that step is the
 /// solution, and `(JᵀWJ)⁻¹` and the sum of squares of the point before it
 /// are reported (they differ from those at the solution by a relative
 /// amount of the order of that step, far below any digit shown).
@@ -569,22 +591,22 @@ const GAUSS_NEWTON_STEPS: usize = 12;
 /// shrink). So the solver still decides every refit
 /// that is not routine. Checked against the solver's refits in
 /// `tests::gauss_newton_refits_agree_with_the_solver`.
-fn gauss_newton_refit(model: &dyn Model, data: &Observations, start: &[f64], first: Option<&StartTerms>) -> Option<Refit> {
+fn gauss_newton_refit(model: &dyn Model, data: &Observations, start: &[f64], first: Option<&StartTerms>, tolerance: f64) -> Option<Refit> {
     if data.len() <= start.len() {
         return None;
     }
     // One copy per size, so that the sums' loops have fixed bounds.
     match start.len() {
-        1 => gauss_newton_steps::<1>(model, data, start, first),
-        2 => gauss_newton_steps::<2>(model, data, start, first),
-        3 => gauss_newton_steps::<3>(model, data, start, first),
-        4 => gauss_newton_steps::<4>(model, data, start, first),
+        1 => gauss_newton_steps::<1>(model, data, start, first, tolerance),
+        2 => gauss_newton_steps::<2>(model, data, start, first, tolerance),
+        3 => gauss_newton_steps::<3>(model, data, start, first, tolerance),
+        4 => gauss_newton_steps::<4>(model, data, start, first, tolerance),
         _ => None,
     }
 }
 
 /// [`gauss_newton_refit`] for `P` parameters.
-fn gauss_newton_steps<const P: usize>(model: &dyn Model, data: &Observations, start: &[f64], first: Option<&StartTerms>) -> Option<Refit> {
+fn gauss_newton_steps<const P: usize>(model: &dyn Model, data: &Observations, start: &[f64], first: Option<&StartTerms>, tolerance: f64) -> Option<Refit> {
     const P_MAX: usize = crate::fastpath::MAX_PARAMETERS;
     let p = P;
     let n = data.len();
@@ -694,12 +716,12 @@ fn gauss_newton_steps<const P: usize>(model: &dyn Model, data: &Observations, st
         // Gauss-Newton converges linearly where the residuals are not
         // zero: each step shrinks by about the ratio `rate` of the last
         // two, and what is left after this one is about
-        // size·rate/(1 − rate). Stop when that is below 1e-9 SE (or the
+        // size·rate/(1 − rate). Stop when that is below `tolerance` SE (or the
         // step itself is).
         let rate = size / previous_size;
         let left = if iteration > 0 && rate < 0.5 { size * rate / (1.0 - rate) } else { f64::INFINITY };
         previous_size = size;
-        if size <= 1e-9 || left <= 1e-9 {
+        if size <= tolerance || left <= tolerance {
             let inverse = scaled_inverse(&l, p);
             let covariance = DMatrix::from_fn(p, p, |j, k| inverse[j][k] / (scale[j] * scale[k]));
             return Some(Refit { parameters: theta[..p].to_vec(), rss, covariance: Some(covariance) });
@@ -711,7 +733,7 @@ fn gauss_newton_steps<const P: usize>(model: &dyn Model, data: &Observations, st
         // steps left, and what is left after it that times rate/(1 − rate).)
         if iteration > 0 {
             let steps_left = (GAUSS_NEWTON_STEPS - iteration - 1) as i32;
-            if !(rate < 1.0 && size * rate.powi(steps_left + 1) <= 1e-9 * (1.0 - rate)) {
+            if !(rate < 1.0 && size * rate.powi(steps_left + 1) <= tolerance * (1.0 - rate)) {
                 return None;
             }
         }
@@ -1155,7 +1177,7 @@ mod tests {
             for _ in 0..100 {
                 let y: Vec<f64> = fitted.iter().map(|f| f + residuals[draw.below(residuals.len())]).collect();
                 resampled.set_responses(&y).unwrap();
-                taken += usize::from(gauss_newton_refit(model.as_ref(), &resampled, fit.values(), terms.as_ref()).is_some());
+                taken += usize::from(gauss_newton_refit(model.as_ref(), &resampled, fit.values(), terms.as_ref(), BOOTSTRAP_TOLERANCE).is_some());
             }
             assert!(taken >= 90, "{name} (seed {seed}): the quick route took {taken} of 100 refits");
         }
