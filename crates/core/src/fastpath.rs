@@ -271,13 +271,7 @@ impl<const P: usize, const M: usize> Compressed<'_, P, M> {
 
     /// ‖r‖ by a plain sum, for the points where the triangle is not usable.
     fn residual_norm(&self) -> f64 {
-        let p = self.p.as_slice();
-        let y = self.data.y();
-        let weights = self.data.weights();
-        (0..self.data.len())
-            .map(|i| weights[i] * (y[i] - self.model.value(self.data.x(i), p)).powi(2))
-            .sum::<f64>()
-            .sqrt()
+        self.data.weighted_rss(self.model, self.p.as_slice()).sqrt()
     }
 }
 

@@ -170,9 +170,7 @@ pub fn profile_rss(model: &dyn Model, data: &Observations, index: usize, value: 
     let mut free_start = start.to_vec();
     free_start.remove(index);
     if free_start.is_empty() {
-        let rss: f64 = (0..data.len())
-            .map(|i| data.weights()[i] * (data.y()[i] - model.value(data.x(i), &[value])).powi(2))
-            .sum();
+        let rss = data.weighted_rss(model, &[value]);
         return rss.is_finite().then(|| (rss, vec![value]));
     }
     // A routine refit by Gauss-Newton steps; the solver for the rest.
@@ -180,7 +178,7 @@ pub fn profile_rss(model: &dyn Model, data: &Observations, index: usize, value: 
         // The sum of squares at the solution itself (the refit reports the
         // one before its last step, up to about 2e-5 SE away here).
         Some(r) => {
-            let rss = (0..data.len()).map(|i| data.weights()[i] * (data.y()[i] - held.value(data.x(i), &r.parameters)).powi(2)).sum::<f64>();
+            let rss = data.weighted_rss(&held, &r.parameters);
             (r.parameters, rss, rss.is_finite())
         }
         None => minimise_solution(&held, data, &free_start, &SolverSettings::default()),

@@ -135,6 +135,12 @@ impl Observations {
         Observations::new(self.predictors, self.x.clone(), self.y.clone(), Some(weights))
     }
 
+    /// The weighted sum of squares Σ wᵢ·(yᵢ − f(xᵢ; p))² of `model` at `p`,
+    /// summed in row order.
+    pub fn weighted_rss(&self, model: &(impl Model + ?Sized), p: &[f64]) -> f64 {
+        (0..self.len()).map(|i| self.weights[i] * (self.y[i] - model.value(self.x(i), p)).powi(2)).sum()
+    }
+
     /// Column `j` of the predictors, one value per observation.
     pub fn predictor_column(&self, j: usize) -> Vec<f64> {
         (0..self.len()).map(|i| self.x(i)[j]).collect()

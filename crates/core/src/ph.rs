@@ -160,7 +160,7 @@ impl PhModel {
             return None;
         }
         p[0] = y;
-        let rss: f64 = (0..data.len()).map(|i| data.weights()[i] * (data.y()[i] - self.value(data.x(i), &p)).powi(2)).sum();
+        let rss = data.weighted_rss(&self, &p);
         rss.is_finite().then_some((rss, y))
     }
 }

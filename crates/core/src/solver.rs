@@ -248,8 +248,9 @@ pub(crate) fn report_at(
     for i in 0..n {
         // `sqrt(w)·(y − f)` and `sqrt(w)·∇f`, as `Problem` forms them.
         let root_weight = data.weights()[i].sqrt();
-        residuals[i] = root_weight * (data.y()[i] - model.value(data.x(i), &parameters));
-        model.gradient(data.x(i), &parameters, gradient);
+        // One call for both (the same bits as `value` and `gradient`, by
+        // the trait's contract).
+        residuals[i] = root_weight * (data.y()[i] - model.value_and_gradient(data.x(i), &parameters, gradient));
         for j in 0..p {
             jacobian[(i, j)] = root_weight * gradient[j];
         }
