@@ -302,7 +302,7 @@ function toggleAt(canvas, event) {
   if (!lastResult || !section.fresh()) return;
   const best = page.ui.nearestPoint(canvas, positions, event);
   if (!best) return;
-  page.dispatch({ type: 'toggle point', section: 'dose', line: lastResult.points[best.row].line });
+  page.dispatch({ type: 'toggle point', section: 'dose', line: lastResult.points.at(best.row).line });
 }
 
 const section = page.derived({
@@ -315,7 +315,7 @@ const section = page.derived({
 });
 
 window.turnover.dose = {
-  lastResult: () => (section.fresh() ? lastResult : (section.flush(), lastResult)),
+  lastResult: () => page.ui.plainResult(section.fresh() ? lastResult : (section.flush(), lastResult)),
   lastError: () => lastError,
   pointPositions() {
     const canvas = $('plot-dose');

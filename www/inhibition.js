@@ -236,7 +236,7 @@ function toggleAt(kind, event) {
   const canvas = $(`plot-${kind}`);
   const best = page.ui.nearestPoint(canvas, positions[kind], event);
   if (!best) return;
-  const point = lastResult.points[best.row];
+  const point = lastResult.points.at(best.row);
   if (lastResult.layout === 'matrix') page.dispatch({ type: 'toggle cell', cell: `${point.line}:${point.column}` });
   else page.dispatch({ type: 'toggle point', section: 'inhibition', line: point.line });
 }
@@ -251,7 +251,7 @@ const section = page.derived({
 });
 
 window.turnover.inhibition = {
-  lastResult: () => (section.fresh() ? lastResult : (section.flush(), lastResult)),
+  lastResult: () => page.ui.plainResult(section.fresh() ? lastResult : (section.flush(), lastResult)),
   lastError: () => lastError,
   plots: INHIBITION_PLOTS,
   // Where the points of plot `kind` are, in CSS pixels of its canvas.
