@@ -1,6 +1,8 @@
 //! The enzyme given as protein (crates/core/src/protein.rs): [E]t from a
 //! mass concentration and a molar mass, and specific activity with its
-//! error, checked by hand-worked conversions and by the scaling argument.
+//! error, checked by hand-worked conversions and by the scaling argument;
+//! rates given as specific activities (µmol/min/mg, U/mg), with kcat from
+//! the molar mass alone.
 //! The rates are invented for the test (not measured data).
 
 use turnover_core::intervals::{BootstrapSettings, IntervalMethod};
@@ -11,7 +13,7 @@ const RATES: &str = "[S] (µM)\tv (µM/min)\n1\t0.99\n2\t1.66\n5\t2.86\n10\t3.33
 
 fn protein(concentration: f64, unit: &str, molar_mass: Option<(f64, &str)>) -> Option<ProteinRequest> {
     Some(ProteinRequest {
-        concentration,
+        concentration: Some(concentration),
         unit: unit.into(),
         molar_mass: molar_mass.map(|m| m.0),
         molar_mass_unit: molar_mass.map(|m| m.1.to_string()),
@@ -170,4 +172,105 @@ fn bad_protein_input_is_refused() {
     let bare = analyse("S\tv\n1\t0.99\n2\t1.66\n5\t2.86\n10\t3.33\n20\t3.64\n50\t3.85\n", protein(0.05, "mg/mL", None));
     assert!(bare.fit.parameters.iter().all(|p| p.name != "specific activity"));
     assert!(bare.fit.warnings.iter().any(|w| w.starts_with("Specific activity needs the unit of v")), "{:?}", bare.fit.warnings);
+}
+
+/// The molar mass alone, as with rates per mass of protein.
+fn molar_mass_only(mass: f64, unit: &str) -> Option<ProteinRequest> {
+    Some(ProteinRequest { concentration: None, unit: String::new(), molar_mass: Some(mass), molar_mass_unit: Some(unit.into()) })
+}
+
+/// The same rates as `RATES`, read as specific activities in U/mg
+/// (µmol min⁻¹ mg⁻¹).
+const SPECIFIC: &str = "[S] (µM)\tv (U/mg)\n1\t0.99\n2\t1.66\n5\t2.86\n10\t3.33\n20\t3.64\n50\t3.85\n";
+
+/// Rates given per mass of protein, worked by hand: Vmax in U/mg is
+/// µmol min⁻¹ mg⁻¹ = 10⁻⁶ mol / 60 s / 10⁻³ g = 1/60,000 mol s⁻¹ g⁻¹, so
+/// with a molar mass of 50 kDa (50,000 g/mol) kcat = Vmax · 50,000/60,000
+/// s⁻¹ (the rule kcat = specific activity × M / 60,000 for U/mg and Da,
+/// common practice, no source); kcat/Km = kcat / (Km · 10⁻⁶ M). Vmax, Km
+/// and their errors are those of the same numbers in µM/min (the fit does
+/// not see the unit). The unit is reported as read; no "specific activity"
+/// is added (Vmax is one); the note gives the factor.
+#[test]
+fn rates_per_mass_of_protein_give_kcat_from_the_molar_mass() {
+    let plain = analyse(RATES, None);
+    let a = analyse(SPECIFIC, molar_mass_only(50.0, "kDa"));
+    assert_eq!(a.units.rate.as_deref(), Some("µmol/min/mg"));
+    assert_eq!(a.kcat_from_molar_mass, Some(50_000.0));
+    assert!(a.enzyme_from_protein.is_none());
+    for name in ["Vmax", "Km"] {
+        let (p, q) = (parameter(&a, name), parameter(&plain, name));
+        assert_eq!((p.value, p.std_error), (q.value, q.std_error), "{name}");
+    }
+    let (vmax, km) = (parameter(&a, "Vmax"), parameter(&a, "Km"));
+    let kcat = parameter(&a, "kcat");
+    let factor = 50_000.0 / 60_000.0;
+    assert!(close(kcat.value, vmax.value * factor, 1e-12), "kcat {} vs {}", kcat.value, vmax.value * factor);
+    assert!(close(kcat.std_error.unwrap(), vmax.std_error.unwrap() * factor, 1e-12));
+    let specificity = parameter(&a, "kcat/Km");
+    assert!(close(specificity.value, vmax.value * factor / (km.value * 1e-6), 1e-12));
+    assert!(a.fit.parameters.iter().all(|p| p.name != "specific activity"));
+    assert!(a.notes.iter().any(|n| n.starts_with("kcat = Vmax × molar mass: one µmol/min/mg is 1.667×10⁻⁵ mol s⁻¹ g⁻¹, times 50000 g/mol")), "{:?}", a.notes);
+    assert!(a.fit.warnings.iter().all(|w| !w.contains("not used")), "{:?}", a.fit.warnings);
+
+    // The same activities written in nmol/min/mg (× 1000), in mU/mg, and
+    // reported per second: the same kcat and kcat/Km.
+    let scaled = |unit: &str, by: f64| {
+        let mut text = format!("[S] (µM)\tv ({unit})\n");
+        for line in RATES.lines().skip(1) {
+            let (s, v) = line.split_once('\t').unwrap();
+            text.push_str(&format!("{s}\t{}\n", v.parse::<f64>().unwrap() * by));
+        }
+        text
+    };
+    let per_second = analyse_rates(&RateRequest {
+        text: SPECIFIC.into(),
+        protein: molar_mass_only(50_000.0, "g/mol"),
+        rate_time: Some("s".into()),
+        ..RateRequest::default()
+    })
+    .unwrap();
+    assert_eq!(per_second.units.rate.as_deref(), Some("µmol/s/mg"));
+    for other in [analyse(&scaled("nmol/min/mg", 1000.0), molar_mass_only(50.0, "kDa")), analyse(&scaled("mU/mg", 1000.0), molar_mass_only(50.0, "kDa")), per_second] {
+        for name in ["kcat", "kcat/Km"] {
+            let (p, q) = (parameter(&other, name), parameter(&a, name));
+            assert!(close(p.value, q.value, 1e-9) && close(p.std_error.unwrap(), q.std_error.unwrap(), 1e-9), "{name}: {} vs {}", p.value, q.value);
+        }
+    }
+
+    // No molar mass: Vmax and Km in U/mg and µM, no kcat, no warning.
+    let bare = analyse(SPECIFIC, None);
+    assert_eq!(bare.units.rate.as_deref(), Some("µmol/min/mg"));
+    assert!(bare.fit.parameters.iter().all(|p| p.name != "kcat"));
+    assert!(bare.fit.warnings.is_empty(), "{:?}", bare.fit.warnings);
+}
+
+/// With rates per mass of protein, a protein concentration or an [E]t has
+/// no part: each is named in a warning, never used quietly; kcat still
+/// comes from the molar mass. With rates per volume, a molar mass alone
+/// is not used either, and a warning says so.
+#[test]
+fn what_rates_per_mass_of_protein_do_not_use_is_said() {
+    let with_protein = analyse(SPECIFIC, protein(0.05, "mg/mL", Some((50.0, "kDa"))));
+    let reference = analyse(SPECIFIC, molar_mass_only(50.0, "kDa"));
+    assert!(
+        with_protein.fit.warnings.iter().any(|w| w.starts_with("The protein concentration (50.00 mg/L) is not used: the rates are already per mass of protein (µmol/min/mg)")),
+        "{:?}",
+        with_protein.fit.warnings
+    );
+    assert_eq!(parameter(&with_protein, "kcat").value, parameter(&reference, "kcat").value);
+    assert!(with_protein.fit.parameters.iter().all(|p| p.name != "specific activity"));
+    let with_enzyme = analyse_rates(&RateRequest {
+        text: SPECIFIC.into(),
+        protein: molar_mass_only(50.0, "kDa"),
+        enzyme: Some(10.0),
+        enzyme_unit: Some("nM".into()),
+        ..RateRequest::default()
+    })
+    .unwrap();
+    assert!(with_enzyme.fit.warnings.iter().any(|w| w.starts_with("[E]t is not used: the rates are per mass of protein")), "{:?}", with_enzyme.fit.warnings);
+    assert_eq!(parameter(&with_enzyme, "kcat").value, parameter(&reference, "kcat").value);
+    let alone = analyse(RATES, molar_mass_only(50.0, "kDa"));
+    assert!(alone.fit.warnings.iter().any(|w| w.starts_with("The molar mass is not used: it needs the protein concentration beside it")), "{:?}", alone.fit.warnings);
+    assert!(alone.fit.parameters.iter().all(|p| p.name != "kcat") && alone.kcat_from_molar_mass.is_none());
 }

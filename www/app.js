@@ -152,7 +152,11 @@ function readRateRequest(doc) {
     else if (mass.value !== null && enzyme !== null) problems.push('Give [E]t or the molar mass (which gives [E]t from the protein), not both; specific activity and kcat wait until one is removed.');
     else protein = { concentration: value, unit: r.protein_unit, molar_mass: mass.value, molar_mass_unit: mass.value === null ? null : r.molar_mass_unit };
   } else if (r.molar_mass.trim()) {
-    problems.push('A molar mass needs the protein concentration beside it.');
+    // Alone it serves rates per mass of protein (kcat = Vmax × molar
+    // mass); with rates per volume the core says it is not used.
+    const mass = readTyped(r.molar_mass);
+    if (mass.problem || !(mass.value > 0)) problems.push(`Molar mass: ${mass.problem ?? `'${r.molar_mass}' is not a positive molar mass`}; kcat is not computed until it can be read.`);
+    else protein = { concentration: null, unit: r.protein_unit, molar_mass: mass.value, molar_mass_unit: r.molar_mass_unit };
   }
   const whole = (text, label) => {
     const { value, problem } = readTyped(text);
@@ -394,7 +398,7 @@ function showResult(result) {
   for (const p of fit.parameters) body.append(parameterRow(p));
   if (fit.parameters.some((p) => p.derived)) {
     const note = element('tr', { class: 'footnote' });
-    note.append(element('td', { colspan: '5', class: 'hint' }, '† computed from Vmax, Km and the inputs taken as exact ([E]t, protein); standard error by the delta method with the full covariance; interval by the method chosen (delta method when asymptotic; kcat/Km profiled by refitting with Vmax/Km as a parameter).'));
+    note.append(element('td', { colspan: '5', class: 'hint' }, '† computed from Vmax, Km and the inputs taken as exact ([E]t, protein, molar mass); standard error by the delta method with the full covariance; interval by the method chosen (delta method when asymptotic; kcat/Km profiled by refitting with Vmax/Km as a parameter).'));
     body.append(note);
   }
 
@@ -646,6 +650,7 @@ function rateMethods(result, doc) {
   const parts = [fitMethods(result.fit, `Initial rates at ${levels} substrate concentrations (${range})`, result.bootstrap)];
   const kcat = result.fit.parameters.find((p) => p.name === 'kcat');
   if (kcat && result.enzyme_from_protein) parts.push(`kcat = Vmax/[E]t with [E]t from the protein concentration (${doc.rates.protein} ${doc.rates.protein_unit}) and the molar mass (${doc.rates.molar_mass} ${doc.rates.molar_mass_unit}), taking the protein as pure, fully active enzyme; kcat/Km with its error from the full covariance.`);
+  else if (kcat && result.kcat_from_molar_mass) parts.push(`kcat = Vmax × molar mass (${doc.rates.molar_mass} ${doc.rates.molar_mass_unit}) with Vmax a specific activity (${u.rate}), taking the protein as pure, fully active enzyme with one active site per molar mass; kcat/Km with its error from the full covariance.`);
   else if (kcat) parts.push(`kcat = Vmax/[E]t with [E]t = ${doc.rates.enzyme} ${doc.rates.enzyme_unit} taken as exact; kcat/Km with its error from the full covariance.`);
   if (result.fit.parameters.some((p) => p.name === 'specific activity')) parts.push(`Specific activity = Vmax/protein with the protein concentration ${doc.rates.protein} ${doc.rates.protein_unit} taken as exact.`);
   const left = result.points.filter((p) => p.excluded).map((p) => p.line);

@@ -240,6 +240,46 @@ test('specific activity from the protein concentration, [E]t from the molar mass
   await page.close();
 });
 
+test('rates per mass of protein (U/mg): Vmax in µmol/min/mg, kcat from the molar mass alone; a molar mass that cannot be used is said', { timeout: 60_000 }, async () => {
+  const { page, errors } = await open();
+  const fitted = () => page.evaluate(() => {
+    window.turnover.analyse();
+    const r = window.turnover.lastResult();
+    return {
+      params: Object.fromEntries(r.fit.parameters.map((q) => [q.name, q])),
+      rate: r.units.rate,
+      warnings: [...document.querySelectorAll('#warnings li')].map((li) => li.textContent),
+      unitShown: document.querySelector('#parameters tr[data-param="Vmax"]').textContent,
+      method: document.querySelector('#method').textContent,
+    };
+  });
+  // The same numbers as TABLE, headed as specific activities.
+  await page.fill('#data-input', TABLE.replace('v (µM/min)', 'v (U/mg)'));
+  const bare = await fitted();
+  assert.equal(bare.rate, 'µmol/min/mg');
+  assert.match(bare.unitShown, /µmol\/min\/mg/);
+  assert.equal(bare.params.kcat, undefined);
+  // 50 kDa: kcat = Vmax × 50,000 g/mol / 60,000 (U/mg is 1/60,000 mol s⁻¹ g⁻¹; by hand).
+  await page.fill('#molar-mass', '50');
+  const withMass = await fitted();
+  assert.ok(Math.abs(withMass.params.kcat.value - bare.params.Vmax.value * 50000 / 60000) <= 1e-12 * withMass.params.kcat.value, `kcat ${withMass.params.kcat.value}`);
+  assert.ok(withMass.params['kcat/Km']);
+  assert.match(withMass.method, /kcat = Vmax × molar mass \(50 kDa\) with Vmax a specific activity \(µmol\/min\/mg\)/);
+  assert.deepEqual(await problemsText(page), '');
+  // The unit chosen in the menu instead of the header: the same.
+  await page.fill('#data-input', TABLE.replace('v (µM/min)', 'v'));
+  await page.selectOption('#rate-unit', 'µmol/min/mg');
+  const menu = await fitted();
+  assert.equal(menu.params.kcat.value, withMass.params.kcat.value);
+  // Rates per volume with the molar mass alone: not used, and said.
+  await page.selectOption('#rate-unit', 'µM/min');
+  const perVolume = await fitted();
+  assert.equal(perVolume.params.kcat, undefined);
+  assert.ok(perVolume.warnings.some((w) => /^The molar mass is not used: it needs the protein concentration beside it/.test(w)), perVolume.warnings.join(' | '));
+  assert.deepEqual(errors, []);
+  await page.close();
+});
+
 test('an export with two kinetic tables offers the choice; the second table read gives its own rates; replicates are summarised', { timeout: 90_000 }, async () => {
   const { page, errors } = await open();
   // Invented readings (not measured data): three wells read at two

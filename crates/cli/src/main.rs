@@ -109,7 +109,9 @@ struct DataOptions {
     /// Unit of [S] (M, mM, µM or uM, nM, pM); default: from the header
     #[arg(long, value_name = "UNIT")]
     substrate_unit: Option<String>,
-    /// Unit of v, a concentration per time (µM/min, nM/s, ...); default: from the header
+    /// Unit of v, a concentration per time (µM/min, nM/s, ...) or, for the
+    /// [S]–v models, a specific activity (µmol/min/mg, U/mg, ...); default:
+    /// from the header
     #[arg(long, value_name = "UNIT")]
     rate_unit: Option<String>,
     /// Report rates (v, Vmax) per second, minute or hour, converted from
@@ -198,7 +200,8 @@ struct ModelExtras {
     protein: Option<String>,
     /// The enzyme's molar mass (per active site), such as '42 kDa' or
     /// '42000 g/mol': with --protein, [E]t = protein / molar mass, for kcat
-    /// (instead of --enzyme)
+    /// (instead of --enzyme); alone, with rates per mass of protein
+    /// (µmol/min/mg, U/mg), kcat = Vmax × molar mass
     #[arg(long, value_name = "MASS")]
     molar_mass: Option<String>,
     /// Fix the upper plateau (ceiling) of the ic50 model
@@ -426,7 +429,7 @@ fn prepare(command: &'static str, data: DataOptions, extra: ModelExtras, model: 
 
 /// Reads `--protein` and `--molar-mass` (numbers by the tables' rule, each
 /// with its unit) into the core's request; refuses them for models
-/// without Vmax, a molar mass without the protein, a molar mass beside
+/// without Vmax, a molar mass beside
 /// `--enzyme`, and units that are not a mass concentration or a molar
 /// mass, with a sentence.
 fn protein_request(
@@ -443,9 +446,6 @@ fn protein_request(
     if model_input(model).is_some_and(|input| input != ModelInput::Substrate) {
         return Err(usage(command, format!("--protein and --molar-mass apply to the [S]–v models (mm, substrate-inhibition, hill), not to {model}")));
     }
-    let Some(protein) = protein else {
-        return Err(usage(command, "--molar-mass turns --protein into [E]t; give --protein too (such as '0.05 mg/mL')"));
-    };
     let quantity = |text: &str, name: &str, example: &str, check: fn(&str) -> Result<f64, String>| -> Result<(f64, String), Failure> {
         let (value, unit) = turnover_core::table::read_quantity(text)
             .map_err(|m| usage(command, format!("{name} '{text}': {m}; give it with its unit, such as '{example}'")))?;
@@ -456,7 +456,16 @@ fn protein_request(
         }
         Ok((value, unit))
     };
-    let (concentration, unit) = quantity(&protein, "--protein", "0.05 mg/mL", grams_per_litre)?;
+    // A molar mass alone serves rates per mass of protein (µmol/min/mg),
+    // known only once the table's header is read: the core refuses it
+    // otherwise, with a sentence.
+    let (concentration, unit) = match protein {
+        Some(protein) => {
+            let (value, unit) = quantity(&protein, "--protein", "0.05 mg/mL", grams_per_litre)?;
+            (Some(value), unit)
+        }
+        None => (None, String::new()),
+    };
     let mass = molar_mass.map(|m| quantity(&m, "--molar-mass", "42 kDa", grams_per_mole)).transpose()?;
     if mass.is_some() && enzyme_given {
         return Err(usage(command, "[E]t is given twice: by --enzyme and by --protein with --molar-mass; give one of them"));
@@ -953,6 +962,8 @@ fn write_rate_json(out: &mut Output, analysis: &RateAnalysis, all_points: bool) 
         bootstrap: &'a Option<turnover_core::rates::BootstrapReport>,
         #[serde(skip_serializing_if = "Option::is_none")]
         enzyme_from_protein: &'a Option<turnover_core::protein::EnzymeFromProtein>,
+        #[serde(skip_serializing_if = "Option::is_none")]
+        kcat_from_molar_mass: Option<f64>,
         error_structure: &'a Option<turnover_core::errors::ErrorStructure>,
         replicates: &'a [turnover_core::read::replicates::ReplicateSummary],
     }
@@ -987,6 +998,7 @@ fn write_rate_json(out: &mut Output, analysis: &RateAnalysis, all_points: bool) 
         direct_linear: &analysis.direct_linear,
         bootstrap: &analysis.bootstrap,
         enzyme_from_protein: &analysis.enzyme_from_protein,
+        kcat_from_molar_mass: analysis.kcat_from_molar_mass,
         error_structure: &analysis.error_structure,
         replicates: &analysis.replicates,
     };

@@ -92,7 +92,6 @@ fn protein_refusals() {
         (&["fit", &rates, "--protein", "1,000 mg/mL"], "could be 1000"),
         (&["fit", &rates, "--protein", "0 mg/mL"], "must be a positive number"),
         (&["fit", &rates, "--protein", "0.05 mg/mL", "--molar-mass", "42 kD"], "'kD' is not a molar mass unit"),
-        (&["fit", &rates, "--molar-mass", "42 kDa"], "give --protein too"),
         (&["fit", &rates, "--protein", "0.05 mg/mL", "--molar-mass", "42 kDa", "--enzyme", "10 nM"], "[E]t is given twice"),
         (&["fit", &series, "--model", "ic50", "--protein", "0.05 mg/mL"], "apply to the [S]–v models"),
         (&["fit", &batch, "--group-by", "curve", "--protein", "0.05 mg/mL"], "not available with --group-by"),
@@ -102,4 +101,25 @@ fn protein_refusals() {
         assert_eq!(code, 2, "{args:?}: {out}");
         assert!(err.contains(message), "{args:?}: {err}");
     }
+}
+
+/// Rates per mass of protein (U/mg) with `--molar-mass` alone: kcat =
+/// Vmax × 50,000/60,000 s⁻¹ for 50 kDa (by hand: 1 U/mg is 1/60,000
+/// mol s⁻¹ g⁻¹), the unit of v reported as read, and the text's note.
+#[test]
+fn rates_per_mass_of_protein_with_the_molar_mass() {
+    let rates = file("protein-specific.tsv", &RATES.replace("v (µM/min)", "v (U/mg)"));
+    let record = json(&["fit", &rates, "--json", "--molar-mass", "50 kDa"]);
+    assert_eq!(record["units"]["rate"], "µmol/min/mg");
+    assert_eq!(record["kcat_from_molar_mass"].as_f64(), Some(50_000.0));
+    let (vmax, kcat) = (number(parameter(&record, "Vmax"), "value"), number(parameter(&record, "kcat"), "value"));
+    assert!((kcat - vmax * 50_000.0 / 60_000.0).abs() <= 1e-12 * kcat, "{kcat} vs {vmax}");
+    let (code, text, _) = turnover(&["fit", &rates, "--molar-mass", "50 kDa"]);
+    assert_eq!(code, 0);
+    assert!(text.contains("note: kcat = Vmax × molar mass: one µmol/min/mg is"), "{text}");
+    // With rates per volume the molar mass alone gives nothing, and says so.
+    let per_volume = file("protein-per-volume.tsv", RATES);
+    let record = json(&["fit", &per_volume, "--json", "--molar-mass", "50 kDa"]);
+    assert!(record["parameters"].as_array().unwrap().iter().all(|p| p["name"] != "kcat"));
+    assert!(record["warnings"].as_array().unwrap().iter().any(|w| w.as_str().unwrap().starts_with("The molar mass is not used")), "{record}");
 }

@@ -19,6 +19,14 @@
 //!
 //! Both need the protein concentration in the assay mixture, the volume
 //! in which the rate is measured.
+//!
+//! Rates may also be given as specific activities already (v in
+//! µmol min⁻¹ mg⁻¹, U/mg and the like; see [`crate::units::SpecificRateUnit`]).
+//! Then Vmax is the maximal specific activity, the protein concentration
+//! has no part (a warning says so when it is given), and the molar mass M
+//! gives kcat = Vmax·M directly: Vmax in mol s⁻¹ g⁻¹ times g/mol is s⁻¹
+//! (for Vmax in U/mg and M in Da, kcat = Vmax·M/60,000 s⁻¹; common
+//! practice, no source), with the same assumptions as [E]t from protein.
 
 use serde::{Deserialize, Serialize};
 
@@ -27,7 +35,10 @@ use serde::{Deserialize, Serialize};
 #[serde(default)]
 pub struct ProteinRequest {
     /// Protein concentration in the assay, in `unit`; must be positive.
-    pub concentration: f64,
+    /// `None` only with rates given per mass of protein (a specific
+    /// activity such as µmol/min/mg), where the molar mass alone gives
+    /// kcat.
+    pub concentration: Option<f64>,
     /// Unit of `concentration`: `mg/mL`, `µg/mL` (or `ug/mL`), `ng/mL`,
     /// `g/L`, `mg/L`, `µg/L`.
     pub unit: String,

@@ -17,7 +17,7 @@ use crate::robust::{direct_linear, DirectLinearEstimate};
 use crate::solver::Termination;
 use crate::table::{parse_table, shortage_reasons, ColumnHeading, InputProblem, Table};
 use crate::protein::{grams_per_litre, grams_per_mole, specific_activity_factor, EnzymeFromProtein, ProteinRequest, SPECIFIC_ACTIVITY_UNIT};
-use crate::units::{kcat_per_second, ConcentrationUnit, RateUnit, TimeUnit};
+use crate::units::{kcat_per_second, ConcentrationUnit, PerTime, TimeUnit, VUnit};
 use crate::weighting::Weighting;
 use nalgebra::DMatrix;
 use serde::{Deserialize, Serialize};
@@ -155,6 +155,9 @@ pub struct RateAnalysis {
     /// g/L, the molar mass and [E]t computed from them (`enzyme_molar`).
     /// Specific activity is the derived parameter `specific activity`.
     pub enzyme_from_protein: Option<EnzymeFromProtein>,
+    /// With rates per mass of protein (a specific activity such as
+    /// µmol/min/mg): the molar mass in g/mol that turned Vmax into kcat.
+    pub kcat_from_molar_mass: Option<f64>,
     /// Plot data, direct plot first.
     pub plots: Vec<PlotData>,
     /// The standing caution about what fitted constants mean.
@@ -285,7 +288,7 @@ fn analyse_rates_with(request: &RateRequest, fixed_weights: Option<&[f64]>) -> R
     let heading = |i: usize| table.headings.as_ref().and_then(|h| h.get(i));
     let substrate_unit =
         choose_unit(&request.substrate_unit, heading(roles.substrate), ConcentrationUnit::parse, "[S]", &mut notes)?;
-    let rate_unit = choose_unit(&request.rate_unit, roles.rate_heading.as_ref(), RateUnit::parse, "v", &mut notes)?;
+    let rate_unit = choose_unit(&request.rate_unit, roles.rate_heading.as_ref(), VUnit::parse, "v", &mut notes)?;
     let (rate_unit, time_factor) = per_time(rate_unit, &request.rate_time, &mut notes)?;
 
     let mut points = Vec::new();
@@ -432,9 +435,37 @@ fn analyse_rates_with(request: &RateRequest, fixed_weights: Option<&[f64]>) -> R
     let mut enzyme_symbol = None;
     let mut kcat_factor = None;
     let mut specificity_factor = None;
-    let ProteinPart { report: enzyme_from_protein, factor: protein_factor, enzyme: enzyme_given } =
+    let ProteinPart { report: enzyme_from_protein, factor: protein_factor, enzyme: enzyme_given, molar_mass } =
         enzyme_as_protein(request, substrate_unit, rate_unit, &mut notes, &mut summary.warnings)?;
-    if let Some((enzyme, enzyme_unit)) = enzyme_given {
+    let mut kcat_from_molar_mass = None;
+    if let Some(VUnit::Specific(unit)) = rate_unit {
+        // Rates per mass of protein: kcat from the molar mass alone.
+        if request.enzyme.is_some() {
+            summary.warnings.push(format!(
+                "[E]t is not used: the rates are per mass of protein ({}), so kcat comes from the enzyme's molar mass; give the molar mass instead.",
+                unit.symbol()
+            ));
+        }
+        if let Some(mass) = molar_mass {
+            let to_kcat = unit.in_mol_per_second_per_gram() * mass;
+            kcat_factor = Some(to_kcat);
+            kcat_from_molar_mass = Some(mass);
+            let four = |v: f64| crate::format::format_estimate(Some(v), None, None).value;
+            notes.push(format!(
+                "kcat = Vmax × molar mass: one {} is {} mol s⁻¹ g⁻¹, times {} g/mol (this takes the protein to be the enzyme alone, every molecule active, one active site per molar mass).",
+                unit.symbol(),
+                four(unit.in_mol_per_second_per_gram()),
+                four(mass)
+            ));
+            match substrate_unit.filter(|_| hyperbolic) {
+                Some(substrate) => specificity_factor = Some(to_kcat / substrate.in_molar()),
+                None if hyperbolic => summary
+                    .warnings
+                    .push("kcat/Km needs the unit of [S]; choose it or write it in the header.".to_string()),
+                None => {}
+            }
+        }
+    } else if let Some((enzyme, enzyme_unit)) = enzyme_given {
         if !(enzyme.is_finite() && enzyme > 0.0) {
             return Err(Error::invalid_option("the enzyme concentration [E]t must be a positive number"));
         }
@@ -444,7 +475,7 @@ fn analyse_rates_with(request: &RateRequest, fixed_weights: Option<&[f64]>) -> R
         let enzyme_unit = ConcentrationUnit::parse(enzyme_unit_text).map_err(Error::invalid_option)?;
         enzyme_symbol = Some(enzyme_unit.symbol().to_string());
         match rate_unit {
-            Some(rate) => {
+            Some(VUnit::Concentration(rate)) => {
                 let to_kcat = kcat_per_second(1.0, rate, enzyme, enzyme_unit);
                 kcat_factor = Some(to_kcat);
                 match substrate_unit.filter(|_| hyperbolic) {
@@ -455,6 +486,7 @@ fn analyse_rates_with(request: &RateRequest, fixed_weights: Option<&[f64]>) -> R
                     None => {}
                 }
             }
+            Some(VUnit::Specific(_)) => unreachable!("rates per mass of protein take kcat from the molar mass above"),
             None => summary
                 .warnings
                 .push("kcat needs the unit of v (a concentration per time); choose it or write it in the header.".to_string()),
@@ -559,6 +591,7 @@ fn analyse_rates_with(request: &RateRequest, fixed_weights: Option<&[f64]>) -> R
         error_structure,
         bootstrap: bootstrap_report,
         enzyme_from_protein,
+        kcat_from_molar_mass,
         plots,
         caution: CAUTION.to_string(),
     })
@@ -694,6 +727,8 @@ struct ProteinPart {
     factor: Option<f64>,
     /// [E]t and its unit for kcat, given directly or from the protein.
     enzyme: Option<(f64, Option<String>)>,
+    /// The molar mass in g/mol, when given.
+    molar_mass: Option<f64>,
 }
 
 /// Reads the enzyme given as protein: returns what the result reports,
@@ -704,18 +739,19 @@ struct ProteinPart {
 fn enzyme_as_protein(
     request: &RateRequest,
     substrate_unit: Option<ConcentrationUnit>,
-    rate_unit: Option<RateUnit>,
+    rate_unit: Option<VUnit>,
     notes: &mut Vec<String>,
     warnings: &mut Vec<String>,
 ) -> Result<ProteinPart, Error> {
     let given = request.enzyme.map(|e| (e, request.enzyme_unit.clone()));
     let Some(protein) = &request.protein else {
-        return Ok(ProteinPart { report: None, factor: None, enzyme: given });
+        return Ok(ProteinPart { report: None, factor: None, enzyme: given, molar_mass: None });
     };
-    if !(protein.concentration.is_finite() && protein.concentration > 0.0) {
-        return Err(Error::invalid_option("the protein concentration must be a positive number"));
-    }
-    let g_per_l = protein.concentration * grams_per_litre(&protein.unit).map_err(Error::invalid_option)?;
+    let g_per_l = match protein.concentration {
+        Some(c) if c.is_finite() && c > 0.0 => Some(c * grams_per_litre(&protein.unit).map_err(Error::invalid_option)?),
+        Some(_) => return Err(Error::invalid_option("the protein concentration must be a positive number")),
+        None => None,
+    };
     let mass_unit = protein.molar_mass_unit.as_deref().map(str::trim).filter(|t| !t.is_empty());
     let molar_mass = match (protein.molar_mass, mass_unit) {
         (None, None) => None,
@@ -725,6 +761,25 @@ fn enzyme_as_protein(
         (None, Some(_)) => return Err(Error::invalid_option("a molar mass unit was given without a molar mass")),
     };
     let four = |v: f64| crate::format::format_estimate(Some(v), None, None).value;
+    if let Some(VUnit::Specific(unit)) = rate_unit {
+        // Vmax is a specific activity already: the molar mass gives kcat
+        // (in the caller), the protein concentration has no part.
+        if let Some(g) = g_per_l {
+            warnings.push(format!(
+                "The protein concentration ({} mg/L) is not used: the rates are already per mass of protein ({}), so Vmax is the maximal specific activity.",
+                four(g * 1e3),
+                unit.symbol()
+            ));
+        }
+        return Ok(ProteinPart { report: None, factor: None, enzyme: given, molar_mass });
+    }
+    let Some(g_per_l) = g_per_l else {
+        warnings.push(
+            "The molar mass is not used: it needs the protein concentration beside it (for [E]t), unless the rates are per mass of protein (such as µmol/min/mg)."
+                .to_string(),
+        );
+        return Ok(ProteinPart { report: None, factor: None, enzyme: given, molar_mass: None });
+    };
     let mut from = EnzymeFromProtein { protein_g_per_l: g_per_l, molar_mass_g_per_mol: molar_mass, enzyme_molar: None, enzyme_unit: None };
     let mut enzyme = given;
     if let Some(mass) = molar_mass {
@@ -747,21 +802,21 @@ fn enzyme_as_protein(
         enzyme = Some((value, Some(unit.symbol().to_string())));
     }
     let factor = match rate_unit {
-        Some(rate) => {
+        Some(VUnit::Concentration(rate)) => {
             notes.push(format!(
                 "Specific activity = Vmax ÷ protein ({} mg/L) in {SPECIFIC_ACTIVITY_UNIT} (U/mg); the protein concentration is taken as exact, so its standard error and interval are Vmax's scaled.",
                 four(g_per_l * 1e3)
             ));
             Some(specific_activity_factor(rate.in_molar_per_second(), g_per_l))
         }
-        None => {
+        _ => {
             warnings.push(
                 "Specific activity needs the unit of v (a concentration per time); choose it or write it in the header.".to_string(),
             );
             None
         }
     };
-    Ok(ProteinPart { report: Some(from), factor, enzyme })
+    Ok(ProteinPart { report: Some(from), factor, enzyme, molar_mass })
 }
 
 /// Appends specific activity: Vmax times `factor`, so its standard error
@@ -926,11 +981,11 @@ fn bootstrap_intervals(
 /// c/T_new. Returns the unit the rates are reported in and the factor
 /// every rate (and sd) is multiplied by, with a note when it is not 1.
 /// Shared by every analysis that fits rates (rates, inhibition).
-pub(crate) fn per_time(
-    rate_unit: Option<RateUnit>,
+pub(crate) fn per_time<U: PerTime>(
+    rate_unit: Option<U>,
     rate_time: &Option<String>,
     notes: &mut Vec<String>,
-) -> Result<(Option<RateUnit>, f64), Error> {
+) -> Result<(Option<U>, f64), Error> {
     Ok(match rate_time.as_deref().map(str::trim).filter(|t| !t.is_empty()) {
         None => (rate_unit, 1.0),
         Some(text) => {
@@ -941,15 +996,15 @@ pub(crate) fn per_time(
                     time.symbol()
                 )));
             };
-            let factor = time.in_seconds() / unit.time.in_seconds();
-            let converted = RateUnit { concentration: unit.concentration, time };
+            let factor = time.in_seconds() / unit.time().in_seconds();
+            let converted = unit.with_time(time);
             if factor != 1.0 {
                 let by = crate::units::factor_words(factor);
                 notes.push(format!(
                     "Rates are reported per {}: v in {} {by} = v in {} (the rates and any sd column were converted before the fit).",
                     time.symbol(),
-                    unit.symbol(),
-                    converted.symbol()
+                    unit.written(),
+                    converted.written()
                 ));
             }
             (Some(converted), factor)

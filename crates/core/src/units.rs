@@ -4,7 +4,9 @@
 //! Only molar concentrations are handled: kcat needs the rate and the enzyme
 //! concentration in the same amount-of-substance terms. A rate unit is a
 //! concentration per time, written `µM/min`, `uM min-1`, `µM·min⁻¹` or
-//! `µM per min`.
+//! `µM per min`. The rate analysis also reads rates given per mass of
+//! protein, specific activities such as `µmol/min/mg` or `U/mg`
+//! ([`SpecificRateUnit`]), with [`VUnit`] the unit of v either way.
 
 use serde::Serialize;
 use std::fmt;
@@ -186,6 +188,249 @@ fn rate_message(text: &str) -> String {
     )
 }
 
+/// An amount of substance, the numerator of a specific activity.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+pub enum AmountUnit {
+    /// mol
+    Mole,
+    /// 10⁻³ mol
+    Millimole,
+    /// 10⁻⁶ mol
+    Micromole,
+    /// 10⁻⁹ mol
+    Nanomole,
+    /// 10⁻¹² mol
+    Picomole,
+}
+
+impl AmountUnit {
+    /// How many mol one of this unit is.
+    pub fn in_moles(self) -> f64 {
+        match self {
+            AmountUnit::Mole => 1.0,
+            AmountUnit::Millimole => 1e-3,
+            AmountUnit::Micromole => 1e-6,
+            AmountUnit::Nanomole => 1e-9,
+            AmountUnit::Picomole => 1e-12,
+        }
+    }
+
+    /// The symbol used in output (`µmol` with the micro sign).
+    pub fn symbol(self) -> &'static str {
+        match self {
+            AmountUnit::Mole => "mol",
+            AmountUnit::Millimole => "mmol",
+            AmountUnit::Micromole => "µmol",
+            AmountUnit::Nanomole => "nmol",
+            AmountUnit::Picomole => "pmol",
+        }
+    }
+
+    fn read(normalised: &str) -> Option<Self> {
+        Some(match normalised {
+            "mol" => AmountUnit::Mole,
+            "mmol" => AmountUnit::Millimole,
+            "umol" => AmountUnit::Micromole,
+            "nmol" => AmountUnit::Nanomole,
+            "pmol" => AmountUnit::Picomole,
+            _ => return None,
+        })
+    }
+}
+
+/// A mass of protein, the last part of a specific activity.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+pub enum MassUnit {
+    /// g
+    Gram,
+    /// 10⁻³ g
+    Milligram,
+    /// 10⁻⁶ g
+    Microgram,
+}
+
+impl MassUnit {
+    /// How many grams one of this unit is.
+    pub fn in_grams(self) -> f64 {
+        match self {
+            MassUnit::Gram => 1.0,
+            MassUnit::Milligram => 1e-3,
+            MassUnit::Microgram => 1e-6,
+        }
+    }
+
+    /// The symbol used in output.
+    pub fn symbol(self) -> &'static str {
+        match self {
+            MassUnit::Gram => "g",
+            MassUnit::Milligram => "mg",
+            MassUnit::Microgram => "µg",
+        }
+    }
+
+    fn read(normalised: &str) -> Option<Self> {
+        Some(match normalised {
+            "g" => MassUnit::Gram,
+            "mg" => MassUnit::Milligram,
+            "ug" => MassUnit::Microgram,
+            _ => return None,
+        })
+    }
+}
+
+/// A specific activity: an amount of product (or substrate) per time per
+/// mass of protein, such as µmol min⁻¹ mg⁻¹. One enzyme unit (U) is
+/// 1 µmol/min, so `U/mg` is µmol/min/mg and `mU/mg` nmol/min/mg (common
+/// practice, no source).
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+pub struct SpecificRateUnit {
+    /// The amount part.
+    pub amount: AmountUnit,
+    /// The time part.
+    pub time: TimeUnit,
+    /// The protein's mass part.
+    pub mass: MassUnit,
+}
+
+impl SpecificRateUnit {
+    /// How many mol s⁻¹ g⁻¹ one of this unit is.
+    pub fn in_mol_per_second_per_gram(self) -> f64 {
+        self.amount.in_moles() / self.time.in_seconds() / self.mass.in_grams()
+    }
+
+    /// Reads `µmol/min/mg`, `umol/mg/min`, `nmol/(min·mg)`,
+    /// `µmol min-1 mg-1`, `µmol·min⁻¹·mg⁻¹`, `U/mg`, `mU/mg` and `U mg-1`.
+    pub fn parse(text: &str) -> Result<Self, String> {
+        let refused = || {
+            format!(
+                "unknown specific activity unit '{}'; expected an amount per time per mass of protein such as µmol/min/mg, nmol/min/mg or U/mg",
+                text.trim()
+            )
+        };
+        let t = text
+            .trim()
+            .replace("⁻¹", "-1")
+            .replace(['\u{00b7}', '⋅', '*', '(', ')'], " ");
+        // The numerator and the parts it is divided by, each folded.
+        let (numerator, divisors): (String, Vec<String>) = if t.contains('/') {
+            let mut parts = t.split('/');
+            let numerator = normalise(parts.next().unwrap_or(""));
+            (numerator, parts.flat_map(|p| p.split_whitespace().map(normalise).collect::<Vec<_>>()).collect())
+        } else {
+            let mut words = t.split_whitespace();
+            let numerator = normalise(words.next().unwrap_or(""));
+            let mut divisors = Vec::new();
+            for word in words {
+                divisors.push(normalise(word.strip_suffix("-1").ok_or_else(refused)?));
+            }
+            (numerator, divisors)
+        };
+        // U, the enzyme unit, is µmol/min; mU is nmol/min.
+        let (amount, unit_time) = match numerator.as_str() {
+            "u" => (AmountUnit::Micromole, Some(TimeUnit::Minute)),
+            "mu" => (AmountUnit::Nanomole, Some(TimeUnit::Minute)),
+            other => (AmountUnit::read(other).ok_or_else(refused)?, None),
+        };
+        let mut time = unit_time;
+        let mut mass = None;
+        for divisor in &divisors {
+            if let Some(m) = MassUnit::read(divisor) {
+                if mass.replace(m).is_some() {
+                    return Err(refused());
+                }
+            } else if let Ok(t) = TimeUnit::parse(divisor) {
+                if time.replace(t).is_some() {
+                    return Err(refused());
+                }
+            } else {
+                return Err(refused());
+            }
+        }
+        match (time, mass) {
+            (Some(time), Some(mass)) => Ok(SpecificRateUnit { amount, time, mass }),
+            _ => Err(refused()),
+        }
+    }
+
+    /// The unit written as `µmol/min/mg`.
+    pub fn symbol(self) -> String {
+        format!("{}/{}/{}", self.amount.symbol(), self.time.symbol(), self.mass.symbol())
+    }
+}
+
+/// The unit of v in the rate analysis: a concentration per time, or a
+/// specific activity (per mass of protein).
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+pub enum VUnit {
+    /// A concentration per time, such as µM/min.
+    Concentration(RateUnit),
+    /// An amount per time per mass of protein, such as µmol/min/mg.
+    Specific(SpecificRateUnit),
+}
+
+impl VUnit {
+    /// Reads a concentration per time, else a specific activity; the
+    /// refusal names both.
+    pub fn parse(text: &str) -> Result<Self, String> {
+        RateUnit::parse(text).map(VUnit::Concentration).or_else(|_| {
+            SpecificRateUnit::parse(text).map(VUnit::Specific).map_err(|_| {
+                format!(
+                    "unknown rate unit '{}'; expected a concentration per time such as µM/min, nM/s or mM/h, or a specific activity such as µmol/min/mg or U/mg",
+                    text.trim()
+                )
+            })
+        })
+    }
+
+    /// The unit as written in output.
+    pub fn symbol(self) -> String {
+        match self {
+            VUnit::Concentration(unit) => unit.symbol(),
+            VUnit::Specific(unit) => unit.symbol(),
+        }
+    }
+}
+
+/// A rate unit whose time part can be changed: what `rates per` converts.
+pub trait PerTime: Copy {
+    /// The time part.
+    fn time(self) -> TimeUnit;
+    /// The same unit per `time`.
+    fn with_time(self, time: TimeUnit) -> Self;
+    /// The unit as written in output.
+    fn written(self) -> String;
+}
+
+impl PerTime for RateUnit {
+    fn time(self) -> TimeUnit {
+        self.time
+    }
+    fn with_time(self, time: TimeUnit) -> Self {
+        RateUnit { time, ..self }
+    }
+    fn written(self) -> String {
+        self.symbol()
+    }
+}
+
+impl PerTime for VUnit {
+    fn time(self) -> TimeUnit {
+        match self {
+            VUnit::Concentration(unit) => unit.time,
+            VUnit::Specific(unit) => unit.time,
+        }
+    }
+    fn with_time(self, time: TimeUnit) -> Self {
+        match self {
+            VUnit::Concentration(unit) => VUnit::Concentration(RateUnit { time, ..unit }),
+            VUnit::Specific(unit) => VUnit::Specific(SpecificRateUnit { time, ..unit }),
+        }
+    }
+    fn written(self) -> String {
+        self.symbol()
+    }
+}
+
 /// Lower-cases and folds the micro sign and Greek mu to `u`.
 fn normalise(text: &str) -> String {
     text.trim()
@@ -246,6 +491,42 @@ mod tests {
         }
         assert!(RateUnit::parse("µM").is_err());
         assert!(RateUnit::parse("µmol/min/mg").is_err());
+    }
+
+    #[test]
+    fn specific_activity_units() {
+        use AmountUnit::*;
+        use MassUnit::*;
+        let unit = |amount, time, mass| Ok(SpecificRateUnit { amount, time, mass });
+        let cases = [
+            ("µmol/min/mg", unit(Micromole, TimeUnit::Minute, Milligram)),
+            ("umol/min/mg", unit(Micromole, TimeUnit::Minute, Milligram)),
+            ("μmol/mg/min", unit(Micromole, TimeUnit::Minute, Milligram)),
+            ("µmol min-1 mg-1", unit(Micromole, TimeUnit::Minute, Milligram)),
+            ("µmol·min⁻¹·mg⁻¹", unit(Micromole, TimeUnit::Minute, Milligram)),
+            ("nmol/(min·mg)", unit(Nanomole, TimeUnit::Minute, Milligram)),
+            ("nmol/(mg min)", unit(Nanomole, TimeUnit::Minute, Milligram)),
+            ("nmol/s/mg", unit(Nanomole, TimeUnit::Second, Milligram)),
+            ("mmol/h/g", unit(Millimole, TimeUnit::Hour, Gram)),
+            ("pmol/min/µg", unit(Picomole, TimeUnit::Minute, Microgram)),
+            ("U/mg", unit(Micromole, TimeUnit::Minute, Milligram)),
+            ("U mg-1", unit(Micromole, TimeUnit::Minute, Milligram)),
+            ("mU/mg", unit(Nanomole, TimeUnit::Minute, Milligram)),
+        ];
+        for (text, expected) in cases {
+            assert_eq!(SpecificRateUnit::parse(text), expected, "{text}");
+        }
+        // Not specific activities: a part missing, twice, or unknown.
+        for text in ["µmol/min", "µmol/mg", "U/min/mg", "µmol/min/mg/mg", "µmol/min/mL", "µM/min", "µmol min mg", "U", "", "kat/kg"] {
+            assert!(SpecificRateUnit::parse(text).is_err(), "{text}");
+        }
+        // 1 µmol/min/mg = 1e-6 mol / 60 s / 1e-3 g (by hand).
+        let ua = SpecificRateUnit::parse("U/mg").unwrap();
+        assert!((ua.in_mol_per_second_per_gram() - 1e-6 / 60.0 / 1e-3).abs() <= 1e-22);
+        assert_eq!(ua.symbol(), "µmol/min/mg");
+        assert_eq!(VUnit::parse("µM/min"), Ok(VUnit::Concentration(RateUnit { concentration: ConcentrationUnit::Micromolar, time: TimeUnit::Minute })));
+        assert_eq!(VUnit::parse("nmol/min/mg").map(VUnit::symbol), Ok("nmol/min/mg".to_string()));
+        assert!(VUnit::parse("ppm/min").unwrap_err().contains("or a specific activity such as µmol/min/mg or U/mg"));
     }
 
     #[test]

@@ -89,7 +89,8 @@ impl Workbench {
     /// Analyses a rate table. `request` is an object with the fields of
     /// `RateRequest` (`text`, `model`, `substrate_unit`, `rate_unit`,
     /// `enzyme`, `enzyme_unit`, `excluded_lines`, `protein`: `{concentration,
-    /// unit, molar_mass, molar_mass_unit}` or null). Throws an `Error` whose
+    /// unit, molar_mass, molar_mass_unit}` or null, the concentration null
+    /// for a molar mass alone). Throws an `Error` whose
     /// message is written for the scientist when no fit can be made; the
     /// previous analysis is then forgotten so no stale plot is drawn. The
     /// returned plots carry their kind, titles and notes only: `draw` draws
