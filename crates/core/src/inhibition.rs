@@ -26,7 +26,7 @@ use crate::read::replicates::{common_unit, problems_without_empty_replicates, re
 use crate::rates::CAUTION;
 use crate::read::columns::{is_inhibitor_name, is_rate_name, is_substrate_name, normalise_name};
 use crate::table::{parse_table, shortage_reasons, ColumnHeading, InputProblem, Table};
-use crate::units::{ConcentrationUnit, RateUnit};
+use crate::units::{ConcentrationUnit, VUnit};
 use serde::{Deserialize, Serialize};
 
 /// What to analyse.
@@ -254,7 +254,7 @@ struct Read {
     points: Vec<InhibitionPoint>,
     problems: Vec<InputProblem>,
     notes: Vec<String>,
-    units: (Option<ConcentrationUnit>, Option<ConcentrationUnit>, Option<RateUnit>),
+    units: (Option<ConcentrationUnit>, Option<ConcentrationUnit>, Option<VUnit>),
 }
 
 fn unit_from<T>(heading: Option<&ColumnHeading>, parse: fn(&str) -> Result<T, String>, what: &str, notes: &mut Vec<String>) -> Option<T> {
@@ -354,7 +354,7 @@ fn read(text: &str, excluded_lines: &[usize], excluded_cells: &[(usize, usize)])
             (
                 unit_from(headings.get(*s), ConcentrationUnit::parse, "[S]", &mut notes),
                 unit_from(headings.get(*i), ConcentrationUnit::parse, "[I]", &mut notes),
-                unit_from(unit.as_ref().map(|u| ColumnHeading { name: "v".into(), unit: Some(u.clone()) }).as_ref(), RateUnit::parse, "v", &mut notes),
+                unit_from(unit.as_ref().map(|u| ColumnHeading { name: "v".into(), unit: Some(u.clone()) }).as_ref(), VUnit::parse, "v", &mut notes),
             ),
             TableLayout::Long,
         ),
@@ -458,7 +458,7 @@ pub fn analyse_inhibition(request: &InhibitionRequest) -> Result<InhibitionAnaly
         inhibitor_unit = Some(ConcentrationUnit::parse(&u).map_err(Error::invalid_option)?);
     }
     let rate_unit = match given(&request.rate_unit) {
-        Some(u) => Some(RateUnit::parse(&u).map_err(Error::invalid_option)?),
+        Some(u) => Some(VUnit::parse(&u).map_err(Error::invalid_option)?),
         None => rate_unit,
     };
     if rate_unit.is_none() && layout == TableLayout::Matrix {
@@ -747,6 +747,21 @@ mod tests {
         assert_eq!(matrix.units.1, Some(ConcentrationUnit::parse("µM").unwrap()));
         assert!(is_inhibition_table(LONG) && is_inhibition_table(MATRIX));
         assert!(!is_inhibition_table("[S] (mM)\tv (µM/min)\n1\t2\n"));
+    }
+
+    /// Rates given per mass of protein are read with their unit, as in the
+    /// rate analysis, and converted per second like any other rate: the
+    /// same fit with Vmax ÷ 60.
+    #[test]
+    fn rates_per_mass_of_protein_keep_their_unit() {
+        let specific = LONG.replace("v (µM/min)", "v (U/mg)");
+        let per_minute = analyse_inhibition(&InhibitionRequest { text: specific.clone(), ..Default::default() }).unwrap();
+        assert_eq!(per_minute.units.rate.as_deref(), Some("µmol/min/mg"));
+        let per_second =
+            analyse_inhibition(&InhibitionRequest { text: specific, rate_time: Some("s".into()), ..Default::default() }).unwrap();
+        assert_eq!(per_second.units.rate.as_deref(), Some("µmol/s/mg"));
+        let vmax = |a: &InhibitionAnalysis| a.fits[0].parameters.iter().find(|p| p.name == "Vmax").unwrap().value;
+        assert!((vmax(&per_second) - vmax(&per_minute) / 60.0).abs() <= 1e-9 * vmax(&per_second));
     }
 
     #[test]
