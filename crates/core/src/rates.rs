@@ -201,9 +201,17 @@ fn find_roles(table: &Table, notes: &mut Vec<String>) -> Result<(Roles, Vec<Inpu
     let roles = match (substrate, rate) {
         (Some(s), Some(v)) => Roles { substrate: s, rates: vec![v], rate_heading: Some(headings[v].clone()), sd },
         _ if headings.len() == 2 => {
+            // Name only the headings whose role was not recognised.
+            let unknown: Vec<String> = [(0, substrate), (1, rate)]
+                .iter()
+                .filter(|(column, found)| *found != Some(*column))
+                .map(|(column, _)| format!("'{}'", headings[*column].name))
+                .collect();
             notes.push(format!(
-                "The header names '{}' and '{}' are not ones Turnover knows; column 1 is read as [S] and column 2 as v.",
-                headings[0].name, headings[1].name
+                "The header {} {} {} Turnover knows; column 1 is read as [S] and column 2 as v.",
+                if unknown.len() == 1 { "name" } else { "names" },
+                unknown.join(" and "),
+                if unknown.len() == 1 { "is not one" } else { "are not ones" }
             ));
             Roles { substrate: 0, rates: vec![1], rate_heading: Some(headings[1].clone()), sd: None }
         }
@@ -1018,6 +1026,23 @@ mod tests {
 
     fn request(text: &str) -> RateRequest {
         RateRequest { text: text.to_string(), ..RateRequest::default() }
+    }
+
+    /// A two-column table whose header names are not all known: the note
+    /// names only the unknown ones; `specific activity` is a rate name.
+    #[test]
+    fn the_note_on_unknown_header_names_names_only_those() {
+        let notes = |header: &str| {
+            let text = format!("{header}\n0.1\t2.1\n0.2\t3.6\n0.5\t6.1\n1\t7.9\n2\t9.2\n5\t10.3\n");
+            analyse_rates(&RateRequest { text, ..RateRequest::default() }).unwrap().notes
+        };
+        assert!(notes("conc\tsignal").contains(
+            &"The header name 'signal' is not one Turnover knows; column 1 is read as [S] and column 2 as v.".to_string()
+        ));
+        assert!(notes("dose\tsignal").contains(
+            &"The header names 'dose' and 'signal' are not ones Turnover knows; column 1 is read as [S] and column 2 as v.".to_string()
+        ));
+        assert!(notes("[S] (mM)\tSpecific activity (U/mg)").iter().all(|n| !n.contains("Turnover knows")));
     }
 
     #[test]

@@ -299,7 +299,8 @@ impl SpecificRateUnit {
     }
 
     /// Reads `µmol/min/mg`, `umol/mg/min`, `nmol/(min·mg)`,
-    /// `µmol min-1 mg-1`, `µmol·min⁻¹·mg⁻¹`, `U/mg`, `mU/mg` and `U mg-1`.
+    /// `µmol min-1 mg-1`, `µmol·min⁻¹·mg⁻¹`, `U/mg`, `mU/mg` and `U mg-1`,
+    /// each also with a last word `protein` (`nmol/min/mg protein`).
     pub fn parse(text: &str) -> Result<Self, String> {
         let refused = || {
             format!(
@@ -312,6 +313,12 @@ impl SpecificRateUnit {
             .replace("⁻¹", "-1")
             .replace(['\u{00b7}', '⋅', '*', '(', ')'], " ");
         // The numerator and the parts it is divided by, each folded.
+        // A last word `protein` (`nmol/min/mg protein`) says what the mass
+        // is of, as lab sheets often write it.
+        let t = match t.trim_end().rsplit_once(char::is_whitespace) {
+            Some((rest, last)) if last.eq_ignore_ascii_case("protein") => rest.to_string(),
+            _ => t,
+        };
         let (numerator, divisors): (String, Vec<String>) = if t.contains('/') {
             let mut parts = t.split('/');
             let numerator = normalise(parts.next().unwrap_or(""));
@@ -512,12 +519,15 @@ mod tests {
             ("U/mg", unit(Micromole, TimeUnit::Minute, Milligram)),
             ("U mg-1", unit(Micromole, TimeUnit::Minute, Milligram)),
             ("mU/mg", unit(Nanomole, TimeUnit::Minute, Milligram)),
+            ("nmol/min/mg protein", unit(Nanomole, TimeUnit::Minute, Milligram)),
+            ("µmol min-1 mg-1 protein", unit(Micromole, TimeUnit::Minute, Milligram)),
+            ("U/mg Protein", unit(Micromole, TimeUnit::Minute, Milligram)),
         ];
         for (text, expected) in cases {
             assert_eq!(SpecificRateUnit::parse(text), expected, "{text}");
         }
         // Not specific activities: a part missing, twice, or unknown.
-        for text in ["µmol/min", "µmol/mg", "U/min/mg", "µmol/min/mg/mg", "µmol/min/mL", "µM/min", "µmol min mg", "U", "", "kat/kg"] {
+        for text in ["µmol/min", "µmol/mg", "U/min/mg", "µmol/min/mg/mg", "µmol/min/mL", "µM/min", "µmol min mg", "U", "", "kat/kg", "U protein", "µmol/min protein", "protein"] {
             assert!(SpecificRateUnit::parse(text).is_err(), "{text}");
         }
         // 1 µmol/min/mg = 1e-6 mol / 60 s / 1e-3 g (by hand).

@@ -28,11 +28,20 @@ pub fn is_bare_concentration_name(name: &str) -> bool {
     matches!(normalise_name(name).as_str(), "conc" | "concentration")
 }
 
-/// `v`, `v0`, `vi`, `rate`, `velocity`, `initial rate`, `initial velocity`.
+/// `v`, `v0`, `vi`, `rate`, `velocity`, `initial rate`, `initial velocity`,
+/// `activity`, `specific activity`, `enzyme activity`.
 pub fn is_rate_name(name: &str) -> bool {
     matches!(
         normalise_name(name).as_str(),
-        "v" | "v0" | "vi" | "rate" | "velocity" | "initialrate" | "initialvelocity"
+        "v" | "v0"
+            | "vi"
+            | "rate"
+            | "velocity"
+            | "initialrate"
+            | "initialvelocity"
+            | "activity"
+            | "specificactivity"
+            | "enzymeactivity"
     )
 }
 
@@ -128,7 +137,7 @@ mod tests {
     fn vocabulary() {
         let cases: [(&str, fn(&str) -> bool, &[&str], &[&str]); 10] = [
             ("substrate", is_substrate_name, &["[S]", "S0", "Substrate", "conc"], &["I", "v"]),
-            ("rate", is_rate_name, &["v", "V0", "Initial rate", "velocity"], &["v1", "signal"]),
+            ("rate", is_rate_name, &["v", "V0", "Initial rate", "velocity", "Specific activity", "activity"], &["v1", "signal", "% activity"]),
             ("sd", is_sd_name, &["SD", "sigma", "Standard deviation"], &["sem"]),
             ("inhibitor", is_inhibitor_name, &["[I]", "Inhibitor", "inh"], &["S", "conc"]),
             ("response", is_response_name, &["response", "% activity", "v"], &["S"]),
