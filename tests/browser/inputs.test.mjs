@@ -386,12 +386,12 @@ test('a small, noisy data set: the bias-corrected Km (Box 1971, from the core) i
 
 test('a unit in the header that is not read is said in the notes, and the constants say no unit was read (not that none was given)', { timeout: 60_000 }, async () => {
   const { page, errors } = await open();
-  // Specific activity is a common way to give rates, but the rate fit reads
-  // only a concentration per time: the unit must not vanish silently.
-  await page.fill('#data-input', TABLE.replace('v (µM/min)', 'v (µmol/min/mg)'));
+  // Rates as absorbance per minute, common from a plate reader, are not a
+  // concentration per time: the unit must not vanish silently.
+  await page.fill('#data-input', TABLE.replace('v (µM/min)', 'v (mAU/min)'));
   await page.evaluate(() => window.turnover.analyse());
   const notes = await page.textContent('#notes');
-  assert.match(notes, /unit for v was not understood.*µmol\/min\/mg/);
+  assert.match(notes, /unit for v was not understood.*mAU\/min/);
   const units = await page.evaluate(() => Object.fromEntries([...document.querySelectorAll('#parameters tr[data-param]')].map((r) => [r.dataset.param, r.querySelector('td.unit').textContent])));
   assert.equal(units.Vmax, '(no unit read)');
   assert.equal(units.Km, 'µM');
