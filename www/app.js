@@ -1127,7 +1127,7 @@ function analysisWorkerMain() {
       }
       const { result, kept } = wasm_bindgen[job.run](job.request);
       // The points travel as columns, one array per field, whose buffers
-      // are transferred, not copied; see pointColumns.
+      // are transferred, not copied; see PointColumns.
       const parsed = JSON.parse(result);
       const points = parsed.points ?? [];
       parsed.points = [];

@@ -465,13 +465,6 @@ fn analyse_rates_with(request: &RateRequest, fixed_weights: Option<&[f64]>) -> R
                 four(unit.in_mol_per_second_per_gram()),
                 four(mass)
             ));
-            match substrate_unit.filter(|_| hyperbolic) {
-                Some(substrate) => specificity_factor = Some(to_kcat / substrate.in_molar()),
-                None if hyperbolic => summary
-                    .warnings
-                    .push("kcat/Km needs the unit of [S]; choose it or write it in the header.".to_string()),
-                None => {}
-            }
         }
     } else if let Some((enzyme, enzyme_unit)) = enzyme_given {
         if !(enzyme.is_finite() && enzyme > 0.0) {
@@ -483,21 +476,21 @@ fn analyse_rates_with(request: &RateRequest, fixed_weights: Option<&[f64]>) -> R
         let enzyme_unit = ConcentrationUnit::parse(enzyme_unit_text).map_err(Error::invalid_option)?;
         enzyme_symbol = Some(enzyme_unit.symbol().to_string());
         match rate_unit {
-            Some(VUnit::Concentration(rate)) => {
-                let to_kcat = kcat_per_second(1.0, rate, enzyme, enzyme_unit);
-                kcat_factor = Some(to_kcat);
-                match substrate_unit.filter(|_| hyperbolic) {
-                    Some(substrate) => specificity_factor = Some(to_kcat / substrate.in_molar()),
-                    None if hyperbolic => summary
-                        .warnings
-                        .push("kcat/Km needs the unit of [S]; choose it or write it in the header.".to_string()),
-                    None => {}
-                }
-            }
+            Some(VUnit::Concentration(rate)) => kcat_factor = Some(kcat_per_second(1.0, rate, enzyme, enzyme_unit)),
             Some(VUnit::Specific(_)) => unreachable!("rates per mass of protein take kcat from the molar mass above"),
             None => summary
                 .warnings
                 .push("kcat needs the unit of v (a concentration per time); choose it or write it in the header.".to_string()),
+        }
+    }
+    // kcat/Km from kcat, however kcat was had.
+    if let Some(to_kcat) = kcat_factor {
+        match substrate_unit.filter(|_| hyperbolic) {
+            Some(substrate) => specificity_factor = Some(to_kcat / substrate.in_molar()),
+            None if hyperbolic => {
+                summary.warnings.push("kcat/Km needs the unit of [S]; choose it or write it in the header.".to_string())
+            }
+            None => {}
         }
     }
     add_derived(&mut summary, &fit, kcat_factor, specificity_factor);
