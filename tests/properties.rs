@@ -8,7 +8,10 @@
 //!   orthogonal to every column of the Jacobian (the cosine MINPACK's gtol
 //!   test measures; Moré, Garbow & Hillstrom 1980, from memory);
 //! - the same data written in nM, µM or M give the same constants,
-//!   converted (unit invariance: a fact of the arithmetic, no source).
+//!   converted (unit invariance: a fact of the arithmetic, no source);
+//! - the reader of v's unit never panics, reads every spelling of every
+//!   specific-activity unit it documents as the same unit, and reads its
+//!   own written form back.
 //!
 //! Designs and noise come from proptest's strategies; the noise itself is
 //! drawn from the core's SplitMix64 seeded by a proptest value, so every
@@ -236,5 +239,52 @@ proptest! {
                 }
             }
         }
+    }
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig { cases: 1000, ..ProptestConfig::default() })]
+
+    /// Any text: the unit readers answer (a unit or a sentence), never panic.
+    #[test]
+    fn unit_readers_never_panic(text in "[0-9a-zA-Z/ ()·⋅*⁻¹µμ%.\\-]{0,40}") {
+        let _ = turnover_core::units::VUnit::parse(&text);
+        let _ = turnover_core::units::SpecificRateUnit::parse(&text);
+    }
+
+    /// Every amount, time and mass, in each documented spelling (slashes in
+    /// either order, a bracketed divisor, exponents -1 or ⁻¹ with spaces or
+    /// middle dots, a last word protein), reads as that unit; the written
+    /// form reads back as the same unit; the factor is the product of its
+    /// parts (by the definition of the units).
+    #[test]
+    fn specific_activity_spellings_read_alike(
+        amount in 0usize..5,
+        time in 0usize..3,
+        mass in 0usize..3,
+        form in 0usize..6,
+        protein in any::<bool>(),
+        micro in prop_oneof![Just("µ"), Just("μ"), Just("u")],
+    ) {
+        use turnover_core::units::{AmountUnit, MassUnit, SpecificRateUnit, TimeUnit, VUnit};
+        let amounts = [("mol", AmountUnit::Mole), ("mmol", AmountUnit::Millimole), ("MICROmol", AmountUnit::Micromole), ("nmol", AmountUnit::Nanomole), ("pmol", AmountUnit::Picomole)];
+        let times = [("s", TimeUnit::Second), ("min", TimeUnit::Minute), ("h", TimeUnit::Hour)];
+        let masses = [("g", MassUnit::Gram), ("mg", MassUnit::Milligram), ("MICROg", MassUnit::Microgram)];
+        let (a, t, m) = (amounts[amount].0.replace("MICRO", micro), times[time].0, masses[mass].0.replace("MICRO", micro));
+        let text = match form {
+            0 => format!("{a}/{t}/{m}"),
+            1 => format!("{a}/{m}/{t}"),
+            2 => format!("{a}/({t}·{m})"),
+            3 => format!("{a} {t}-1 {m}-1"),
+            4 => format!("{a}·{t}⁻¹·{m}⁻¹"),
+            _ => format!("{a} / {t} / {m}"),
+        };
+        let text = if protein { format!("{text} protein") } else { text };
+        let expected = SpecificRateUnit { amount: amounts[amount].1, time: times[time].1, mass: masses[mass].1 };
+        prop_assert_eq!(SpecificRateUnit::parse(&text), Ok(expected), "{}", text);
+        prop_assert_eq!(VUnit::parse(&text), Ok(VUnit::Specific(expected)), "{}", text);
+        prop_assert_eq!(SpecificRateUnit::parse(&expected.symbol()), Ok(expected));
+        let factor = expected.amount.in_moles() / expected.time.in_seconds() / expected.mass.in_grams();
+        prop_assert_eq!(expected.in_mol_per_second_per_gram(), factor);
     }
 }
