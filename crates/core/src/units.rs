@@ -203,38 +203,40 @@ pub enum AmountUnit {
     Picomole,
 }
 
+/// A unit given by one table: each unit with its size in the base unit
+/// (mol, g), its written symbol and the form `read` compares (lower case,
+/// micro as `u`).
+trait UnitTable: Copy + PartialEq + 'static {
+    const TABLE: &'static [(Self, f64, &'static str, &'static str)];
+
+    fn entry(self) -> &'static (Self, f64, &'static str, &'static str) {
+        Self::TABLE.iter().find(|e| e.0 == self).expect("every unit is in its table")
+    }
+
+    fn read(normalised: &str) -> Option<Self> {
+        Self::TABLE.iter().find(|e| e.3 == normalised).map(|e| e.0)
+    }
+}
+
+impl UnitTable for AmountUnit {
+    const TABLE: &'static [(Self, f64, &'static str, &'static str)] = &[
+        (AmountUnit::Mole, 1.0, "mol", "mol"),
+        (AmountUnit::Millimole, 1e-3, "mmol", "mmol"),
+        (AmountUnit::Micromole, 1e-6, "µmol", "umol"),
+        (AmountUnit::Nanomole, 1e-9, "nmol", "nmol"),
+        (AmountUnit::Picomole, 1e-12, "pmol", "pmol"),
+    ];
+}
+
 impl AmountUnit {
     /// How many mol one of this unit is.
     pub fn in_moles(self) -> f64 {
-        match self {
-            AmountUnit::Mole => 1.0,
-            AmountUnit::Millimole => 1e-3,
-            AmountUnit::Micromole => 1e-6,
-            AmountUnit::Nanomole => 1e-9,
-            AmountUnit::Picomole => 1e-12,
-        }
+        self.entry().1
     }
 
     /// The symbol used in output (`µmol` with the micro sign).
     pub fn symbol(self) -> &'static str {
-        match self {
-            AmountUnit::Mole => "mol",
-            AmountUnit::Millimole => "mmol",
-            AmountUnit::Micromole => "µmol",
-            AmountUnit::Nanomole => "nmol",
-            AmountUnit::Picomole => "pmol",
-        }
-    }
-
-    fn read(normalised: &str) -> Option<Self> {
-        Some(match normalised {
-            "mol" => AmountUnit::Mole,
-            "mmol" => AmountUnit::Millimole,
-            "umol" => AmountUnit::Micromole,
-            "nmol" => AmountUnit::Nanomole,
-            "pmol" => AmountUnit::Picomole,
-            _ => return None,
-        })
+        self.entry().2
     }
 }
 
@@ -249,32 +251,20 @@ pub enum MassUnit {
     Microgram,
 }
 
+impl UnitTable for MassUnit {
+    const TABLE: &'static [(Self, f64, &'static str, &'static str)] =
+        &[(MassUnit::Gram, 1.0, "g", "g"), (MassUnit::Milligram, 1e-3, "mg", "mg"), (MassUnit::Microgram, 1e-6, "µg", "ug")];
+}
+
 impl MassUnit {
     /// How many grams one of this unit is.
     pub fn in_grams(self) -> f64 {
-        match self {
-            MassUnit::Gram => 1.0,
-            MassUnit::Milligram => 1e-3,
-            MassUnit::Microgram => 1e-6,
-        }
+        self.entry().1
     }
 
     /// The symbol used in output.
     pub fn symbol(self) -> &'static str {
-        match self {
-            MassUnit::Gram => "g",
-            MassUnit::Milligram => "mg",
-            MassUnit::Microgram => "µg",
-        }
-    }
-
-    fn read(normalised: &str) -> Option<Self> {
-        Some(match normalised {
-            "g" => MassUnit::Gram,
-            "mg" => MassUnit::Milligram,
-            "ug" => MassUnit::Microgram,
-            _ => return None,
-        })
+        self.entry().2
     }
 }
 
