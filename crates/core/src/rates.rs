@@ -1004,8 +1004,8 @@ pub(crate) fn per_time<U: PerTime>(
                 notes.push(format!(
                     "Rates are reported per {}: v in {} {by} = v in {} (the rates and any sd column were converted before the fit).",
                     time.symbol(),
-                    unit.written(),
-                    converted.written()
+                    unit,
+                    converted
                 ));
             }
             (Some(converted), factor)

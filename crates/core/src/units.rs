@@ -388,14 +388,19 @@ impl VUnit {
     }
 }
 
-/// A rate unit whose time part can be changed: what `rates per` converts.
-pub trait PerTime: Copy {
+impl fmt::Display for VUnit {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(&self.symbol())
+    }
+}
+
+/// A rate unit whose time part can be changed: what `rates per` converts
+/// (written in output by its `Display`).
+pub trait PerTime: Copy + fmt::Display {
     /// The time part.
     fn time(self) -> TimeUnit;
     /// The same unit per `time`.
     fn with_time(self, time: TimeUnit) -> Self;
-    /// The unit as written in output.
-    fn written(self) -> String;
 }
 
 impl PerTime for RateUnit {
@@ -404,9 +409,6 @@ impl PerTime for RateUnit {
     }
     fn with_time(self, time: TimeUnit) -> Self {
         RateUnit { time, ..self }
-    }
-    fn written(self) -> String {
-        self.symbol()
     }
 }
 
@@ -419,12 +421,9 @@ impl PerTime for VUnit {
     }
     fn with_time(self, time: TimeUnit) -> Self {
         match self {
-            VUnit::Concentration(unit) => VUnit::Concentration(RateUnit { time, ..unit }),
+            VUnit::Concentration(unit) => VUnit::Concentration(unit.with_time(time)),
             VUnit::Specific(unit) => VUnit::Specific(SpecificRateUnit { time, ..unit }),
         }
-    }
-    fn written(self) -> String {
-        self.symbol()
     }
 }
 
